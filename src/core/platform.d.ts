@@ -1,0 +1,13 @@
+// The few platform globals the DOM-free core relies on; Node 20, browsers and workers all provide them.
+// Declared here because the core is compiled without the DOM library on purpose.
+
+declare class TextDecoder {
+  constructor(label?: string, options?: { fatal?: boolean; ignoreBOM?: boolean });
+  decode(input?: ArrayBufferView | ArrayBuffer): string;
+}
+declare class TextEncoder {
+  encode(input?: string): Uint8Array;
+}
+declare const performance: { now(): number };
+declare const console: { log(...a: unknown[]): void; warn(...a: unknown[]): void; error(...a: unknown[]): void };
+declare function setTimeout(fn: () => void, ms?: number): unknown;
