@@ -1,0 +1,234 @@
+// Augmentations of unit-sphere point clouds: each step has a strength in [0, 1] mapped to a documented
+// physical range, and a probability. A pipeline is an ordered list of steps, serialisable to JSON; view
+// pairs are two independent passes, as SimCLR (Chen et al. 2020) trains on.
+
+import type { Rng } from '../rng';
+import { assertValidCloud, makeCloud, type PointCloud } from './cloud';
+import { PointIndex } from './kdtree';
+import { axisAngle, quaternionToMatrix, transformPoints, type Mat3 } from './rotation';
+
+export const AUGMENT_KINDS = [
+  'rotate-up', 'rotate-any', 'scale', 'translate', 'jitter', 'dropout', 'occlude', 'partial-view', 'mirror',
+] as const;
+export type AugmentKind = (typeof AUGMENT_KINDS)[number];
+
+export interface AugmentStep {
+  readonly kind: AugmentKind;
+  /** 0 = no change, 1 = the strongest setting (see STRENGTH_RANGES). */
+  readonly strength: number;
+  /** Chance the step is applied to a given view. */
+  readonly probability: number;
+}
+
+export type UpAxis = 'x' | 'y' | 'z';
+
+export interface Pipeline {
+  readonly version: 1;
+  readonly upAxis: UpAxis;
+  readonly steps: readonly AugmentStep[];
+}
+
+/** What strength 1 means for each step (units are those of the unit-sphere cloud). */
+export const STRENGTH_RANGES: Record<AugmentKind, string> = {
+  'rotate-up': 'angle about the up axis uniform in [−180°·s, 180°·s]',
+  'rotate-any': 'a Haar-uniform rotation (Shoemake 1992) slerped from the identity by s: s = 1 is fully uniform',
+  scale: 'each axis multiplied by exp(u·s·ln 1.5), u ~ U(−1, 1): at s = 1 factors in [0.67, 1.5]',
+  translate: 'offset per axis uniform in [−0.2·s, 0.2·s]',
+  jitter: 'Gaussian noise σ = 0.02·s clipped at 5σ (s = 0.5 gives the common σ = 0.01, clip 0.05)',
+  dropout: 'drops a fraction 0.8·s of the points, refilled by repeating random survivors',
+  occlude: 'removes the round(0.4·s·N) nearest neighbours of a random seed point (a missing region)',
+  'partial-view': 'keeps points whose normal n satisfies n·d ≥ s − 1 for a random view direction d (s = 1: the visible half)',
+  mirror: 'reflects across a random coordinate plane through the centre, with probability scaled by s',
+};
+
+const AXIS: Record<UpAxis, [number, number, number]> = { x: [1, 0, 0], y: [0, 1, 0], z: [0, 0, 1] };
+
+export function validateStep(step: AugmentStep): void {
+  if (!(AUGMENT_KINDS as readonly string[]).includes(step.kind)) {
+    throw new RangeError(`augmentation: unknown kind "${step.kind}" (expected one of ${AUGMENT_KINDS.join(', ')})`);
+  }
+  for (const key of ['strength', 'probability'] as const) {
+    const v = step[key];
+    if (typeof v !== 'number' || !(v >= 0 && v <= 1)) throw new RangeError(`augmentation ${step.kind}: ${key} must be in [0, 1], got ${v}`);
+  }
+}
+
+export function validatePipeline(p: Pipeline): Pipeline {
+  if (!p || p.version !== 1) throw new RangeError(`augmentation pipeline: version must be 1, got ${JSON.stringify(p?.version)}`);
+  if (!(p.upAxis in AXIS)) throw new RangeError(`augmentation pipeline: upAxis must be x, y or z, got ${JSON.stringify(p.upAxis)}`);
+  if (!Array.isArray(p.steps)) throw new RangeError('augmentation pipeline: steps must be a list');
+  p.steps.forEach(validateStep);
+  return p;
+}
+
+export function pipelineToJson(p: Pipeline): string {
+  return JSON.stringify(validatePipeline(p), null, 2);
+}
+
+export function pipelineFromJson(text: string): Pipeline {
+  let parsed: unknown;
+  try {
+    parsed = JSON.parse(text);
+  } catch (err) {
+    throw new RangeError(`augmentation pipeline: not valid JSON (${(err as Error).message})`);
+  }
+  const p = parsed as Pipeline;
+  return validatePipeline({ version: p?.version, upAxis: p?.upAxis, steps: (p?.steps ?? []).map((s) => ({ kind: s.kind, strength: s.strength, probability: s.probability })) } as Pipeline);
+}
+
+const step = (kind: AugmentKind, strength: number, probability = 1): AugmentStep => ({ kind, strength, probability });
+
+/** Named starting points, in plain words. */
+export const PRESETS: Record<'gentle' | 'scan-like' | 'aggressive' | 'any-orientation', Pipeline> = {
+  gentle: { version: 1, upAxis: 'z', steps: [step('rotate-up', 1), step('scale', 0.4), step('jitter', 0.5)] },
+  'scan-like': {
+    version: 1, upAxis: 'z',
+    steps: [step('rotate-up', 1), step('scale', 0.4), step('partial-view', 0.7, 0.5), step('occlude', 0.4, 0.5), step('jitter', 0.6), step('dropout', 0.3, 0.5)],
+  },
+  aggressive: {
+    version: 1, upAxis: 'z',
+    steps: [step('rotate-any', 1), step('scale', 0.8), step('translate', 0.5), step('occlude', 0.7, 0.7), step('dropout', 0.6, 0.7), step('jitter', 1), step('mirror', 1, 0.5)],
+  },
+  'any-orientation': { version: 1, upAxis: 'z', steps: [step('rotate-any', 1), step('scale', 0.4), step('jitter', 0.5)] },
+};
+export type PresetName = keyof typeof PRESETS;
+
+/** A mutable working copy: positions and optional normals, N points. */
+interface Work {
+  p: Float32Array;
+  n: Float32Array | null;
+}
+
+function rotate(w: Work, m: Mat3): void {
+  transformPoints(m, w.p, w.p);
+  if (w.n) transformPoints(m, w.n, w.n);
+}
+
+/** Slerp from the identity towards the unit quaternion q by t (angle scales by t). */
+function partialRotation(rng: Rng, t: number): Mat3 {
+  const u1 = rng.next(), u2 = rng.next(), u3 = rng.next();
+  const a = Math.sqrt(1 - u1), b = Math.sqrt(u1);
+  let x = a * Math.sin(2 * Math.PI * u2), y = a * Math.cos(2 * Math.PI * u2), z = b * Math.sin(2 * Math.PI * u3), w = b * Math.cos(2 * Math.PI * u3);
+  if (t >= 1) return quaternionToMatrix(x, y, z, w);
+  if (w < 0) { x = -x; y = -y; z = -z; w = -w; } // the shorter arc
+  const half = Math.acos(Math.min(1, w));
+  const s = Math.sin(half);
+  if (s < 1e-12) return quaternionToMatrix(0, 0, 0, 1);
+  const k = Math.sin(t * half) / s;
+  return quaternionToMatrix(x * k, y * k, z * k, Math.cos(t * half));
+}
+
+/** Replace the removed points (keep[i] = 0) by copies of random kept ones, so the count stays N. */
+function refill(w: Work, keep: Uint8Array, rng: Rng, where: string): void {
+  const kept: number[] = [];
+  for (let i = 0; i < keep.length; i++) if (keep[i]) kept.push(i);
+  if (kept.length === 0) throw new RangeError(`${where}: every point was removed`);
+  for (let i = 0; i < keep.length; i++) {
+    if (keep[i]) continue;
+    const s = kept[rng.int(kept.length)];
+    w.p[i * 3] = w.p[s * 3]; w.p[i * 3 + 1] = w.p[s * 3 + 1]; w.p[i * 3 + 2] = w.p[s * 3 + 2];
+    if (w.n) { w.n[i * 3] = w.n[s * 3]; w.n[i * 3 + 1] = w.n[s * 3 + 1]; w.n[i * 3 + 2] = w.n[s * 3 + 2]; }
+  }
+}
+
+function randomUnitVector(rng: Rng): [number, number, number] {
+  const z = rng.uniform(-1, 1), a = rng.uniform(0, 2 * Math.PI), r = Math.sqrt(1 - z * z);
+  return [r * Math.cos(a), r * Math.sin(a), z];
+}
+
+export const JITTER_SIGMA_AT_FULL = 0.02;
+export const JITTER_CLIP_SIGMAS = 5;
+
+function applyStep(w: Work, s: AugmentStep, upAxis: UpAxis, rng: Rng): void {
+  const N = w.p.length / 3;
+  const k = s.strength;
+  switch (s.kind) {
+    case 'rotate-up':
+      rotate(w, axisAngle(AXIS[upAxis], rng.uniform(-Math.PI, Math.PI) * k));
+      return;
+    case 'rotate-any':
+      rotate(w, partialRotation(rng, k));
+      return;
+    case 'scale': {
+      const f = [0, 1, 2].map(() => Math.exp(rng.uniform(-1, 1) * k * Math.log(1.5)));
+      for (let i = 0; i < w.p.length; i++) w.p[i] *= f[i % 3];
+      if (w.n) {
+        // Normals transform by the inverse transpose of the scaling, then are renormalised.
+        for (let i = 0; i < N; i++) {
+          const x = w.n[i * 3] / f[0], y = w.n[i * 3 + 1] / f[1], z = w.n[i * 3 + 2] / f[2];
+          const len = Math.hypot(x, y, z) || 1;
+          w.n[i * 3] = x / len; w.n[i * 3 + 1] = y / len; w.n[i * 3 + 2] = z / len;
+        }
+      }
+      return;
+    }
+    case 'translate': {
+      const t = [0, 1, 2].map(() => rng.uniform(-0.2, 0.2) * k);
+      for (let i = 0; i < w.p.length; i++) w.p[i] += t[i % 3];
+      return;
+    }
+    case 'jitter': {
+      const sigma = JITTER_SIGMA_AT_FULL * k;
+      const clip = JITTER_CLIP_SIGMAS * sigma;
+      for (let i = 0; i < w.p.length; i++) w.p[i] += Math.max(-clip, Math.min(clip, sigma * rng.normal()));
+      return;
+    }
+    case 'dropout': {
+      const keep = new Uint8Array(N);
+      const ratio = 0.8 * k;
+      for (let i = 0; i < N; i++) keep[i] = rng.next() >= ratio ? 1 : 0;
+      if (!keep.includes(1)) keep[rng.int(N)] = 1;
+      refill(w, keep, rng, 'dropout');
+      return;
+    }
+    case 'occlude': {
+      const remove = Math.round(0.4 * k * N);
+      if (remove === 0) return;
+      const seed = rng.int(N);
+      const index = new PointIndex(w.p);
+      const keep = new Uint8Array(N).fill(1);
+      for (const nb of index.nearest(w.p[seed * 3], w.p[seed * 3 + 1], w.p[seed * 3 + 2], Math.min(remove, N - 1))) keep[nb.index] = 0;
+      refill(w, keep, rng, 'occlude');
+      return;
+    }
+    case 'partial-view': {
+      const d = randomUnitVector(rng);
+      const tau = k - 1;
+      const keep = new Uint8Array(N);
+      for (let i = 0; i < N; i++) {
+        // Without normals a single scan is approximated by the half-space facing the viewer.
+        const dot = w.n
+          ? w.n[i * 3] * d[0] + w.n[i * 3 + 1] * d[1] + w.n[i * 3 + 2] * d[2]
+          : w.p[i * 3] * d[0] + w.p[i * 3 + 1] * d[1] + w.p[i * 3 + 2] * d[2];
+        keep[i] = dot >= tau ? 1 : 0;
+      }
+      if (!keep.includes(1)) return; // nothing faces this way (a flat cloud seen edge-on): leave the view whole
+      refill(w, keep, rng, 'partial-view');
+      return;
+    }
+    case 'mirror': {
+      if (rng.next() >= k) return;
+      const axis = rng.int(3);
+      for (let i = axis; i < w.p.length; i += 3) w.p[i] = -w.p[i];
+      if (w.n) for (let i = axis; i < w.n.length; i += 3) w.n[i] = -w.n[i];
+      return;
+    }
+  }
+}
+
+/** One augmented view. The input is not modified. */
+export function augment(cloud: PointCloud, pipeline: Pipeline, rng: Rng): PointCloud {
+  validatePipeline(pipeline);
+  assertValidCloud(cloud, 'augment');
+  const w: Work = { p: cloud.positions.slice(), n: cloud.normals ? cloud.normals.slice() : null };
+  for (const s of pipeline.steps) {
+    if (s.probability < 1 && rng.next() >= s.probability) continue;
+    applyStep(w, s, pipeline.upAxis, rng);
+  }
+  return makeCloud(w.p, w.n);
+}
+
+/** Two independent views of one part, for contrastive training. */
+export function viewPair(cloud: PointCloud, pipeline: Pipeline, rng: Rng): [PointCloud, PointCloud] {
+  return [augment(cloud, pipeline, rng), augment(cloud, pipeline, rng)];
+}
