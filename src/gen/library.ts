@@ -50,7 +50,7 @@ const Y_UP: Mat3 = Float64Array.from([1, 0, 0, 0, 0, 1, 0, -1, 0]);
 
 function place(part: GeneratedPart, rng: Rng, scale: number, upAxis: LibraryEntry['upAxis']): Float32Array {
   const src = Float32Array.from(part.solid.positions);
-  let p = src;
+  let p: Float32Array = src;
   if (upAxis === 'y') p = transformPoints(Y_UP, src);
   if (upAxis === 'any') p = transformPoints(randomRotation(rng), src);
   const offset = [rng.uniform(-400, 400), rng.uniform(-400, 400), rng.uniform(0, 300)];

@@ -36,7 +36,7 @@ export const STRENGTH_RANGES: Record<AugmentKind, string> = {
   translate: 'offset per axis uniform in [−0.2·s, 0.2·s]',
   jitter: 'Gaussian noise σ = 0.02·s clipped at 5σ (s = 0.5 gives the common σ = 0.01, clip 0.05)',
   dropout: 'drops a fraction 0.8·s of the points, refilled by repeating random survivors',
-  occlude: 'removes the round(0.4·s·N) nearest neighbours of a random seed point (a missing region)',
+  occlude: 'removes the round(0.4·s·N) nearest neighbours (on the source surface) of a random seed point: a missing region',
   'partial-view': 'keeps points whose normal n satisfies n·d ≥ s − 1 for a random view direction d (s = 1: the visible half)',
   mirror: 'reflects across a random coordinate plane through the centre, with probability scaled by s',
 };
@@ -93,10 +93,24 @@ export const PRESETS: Record<'gentle' | 'scan-like' | 'aggressive' | 'any-orient
 };
 export type PresetName = keyof typeof PRESETS;
 
-/** A mutable working copy: positions and optional normals, N points. */
+/** A mutable working copy: positions, optional normals, and which source point each one copies. */
 interface Work {
   p: Float32Array;
   n: Float32Array | null;
+  origin: Uint32Array;
+  source: PointCloud;
+}
+
+// One kd-tree per source cloud, built on first use: neighbourhoods on the source surface do not change
+// under rotation, translation or refill, so every view of a part shares the tree.
+const sourceIndex = new WeakMap<Float32Array, PointIndex>();
+function indexOf(cloud: PointCloud): PointIndex {
+  let index = sourceIndex.get(cloud.positions);
+  if (!index) {
+    index = new PointIndex(cloud.positions);
+    sourceIndex.set(cloud.positions, index);
+  }
+  return index;
 }
 
 function rotate(w: Work, m: Mat3): void {
@@ -127,6 +141,7 @@ function refill(w: Work, keep: Uint8Array, rng: Rng, where: string): void {
     if (keep[i]) continue;
     const s = kept[rng.int(kept.length)];
     w.p[i * 3] = w.p[s * 3]; w.p[i * 3 + 1] = w.p[s * 3 + 1]; w.p[i * 3 + 2] = w.p[s * 3 + 2];
+    w.origin[i] = w.origin[s];
     if (w.n) { w.n[i * 3] = w.n[s * 3]; w.n[i * 3 + 1] = w.n[s * 3 + 1]; w.n[i * 3 + 2] = w.n[s * 3 + 2]; }
   }
 }
@@ -184,10 +199,14 @@ function applyStep(w: Work, s: AugmentStep, upAxis: UpAxis, rng: Rng): void {
     case 'occlude': {
       const remove = Math.round(0.4 * k * N);
       if (remove === 0) return;
-      const seed = rng.int(N);
-      const index = new PointIndex(w.p);
-      const keep = new Uint8Array(N).fill(1);
-      for (const nb of index.nearest(w.p[seed * 3], w.p[seed * 3 + 1], w.p[seed * 3 + 2], Math.min(remove, N - 1))) keep[nb.index] = 0;
+      // The region is found on the source surface around the source point of a random view point.
+      const src = w.source;
+      const seed = w.origin[rng.int(N)];
+      const gone = new Uint8Array(src.count);
+      const sp = src.positions;
+      for (const nb of indexOf(src).nearest(sp[seed * 3], sp[seed * 3 + 1], sp[seed * 3 + 2], Math.min(remove, src.count - 1))) gone[nb.index] = 1;
+      const keep = new Uint8Array(N);
+      for (let i = 0; i < N; i++) keep[i] = gone[w.origin[i]] ? 0 : 1;
       refill(w, keep, rng, 'occlude');
       return;
     }
@@ -220,7 +239,9 @@ function applyStep(w: Work, s: AugmentStep, upAxis: UpAxis, rng: Rng): void {
 export function augment(cloud: PointCloud, pipeline: Pipeline, rng: Rng): PointCloud {
   validatePipeline(pipeline);
   assertValidCloud(cloud, 'augment');
-  const w: Work = { p: cloud.positions.slice(), n: cloud.normals ? cloud.normals.slice() : null };
+  const origin = new Uint32Array(cloud.count);
+  for (let i = 0; i < origin.length; i++) origin[i] = i;
+  const w: Work = { p: cloud.positions.slice(), n: cloud.normals ? cloud.normals.slice() : null, origin, source: cloud };
   for (const s of pipeline.steps) {
     if (s.probability < 1 && rng.next() >= s.probability) continue;
     applyStep(w, s, pipeline.upAxis, rng);

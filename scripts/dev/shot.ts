@@ -1,0 +1,15 @@
+import { launch } from '../../test/browser/chromium';
+const ctx = await launch();
+const page = await ctx.newPage();
+const errors: string[] = [];
+page.on('console', (m) => { if (m.type() === 'error' || m.type() === 'warning') errors.push(m.text()); });
+page.on('pageerror', (e) => errors.push(String(e)));
+await page.goto(process.argv[2] ?? 'http://localhost:5173/');
+await page.waitForTimeout(Number(process.argv[3] ?? 8000));
+await page.screenshot({ path: '/tmp/shot-library.png' });
+const tab = page.getByRole('tab', { name: 'Augmentations' });
+await tab.click();
+await page.waitForTimeout(1500);
+await page.screenshot({ path: '/tmp/shot-augment.png' });
+console.log('errors:', errors.slice(0, 10));
+await ctx.close();

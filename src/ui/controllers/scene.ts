@@ -1,0 +1,73 @@
+// three.js helpers shared by the viewers and the thumbnail renderer: geometry from library data,
+// a colour ramp for points, and disposal.
+
+import {
+  AmbientLight, BufferAttribute, BufferGeometry, Color, DirectionalLight, Mesh, MeshStandardMaterial,
+  Points, PointsMaterial, Scene, type Object3D,
+} from 'three';
+
+export const PALETTE = {
+  paper: 0xf4f1ea,
+  ink: 0x1d2b33,
+  rust: 0xc2571a,
+  teal: 0x2f6f73,
+  steel: 0x8a9ba5,
+};
+
+/** Height ramp for points (teal → sand → rust), so depth and shape read without lighting. */
+export function rampColours(points: Float32Array, axis = 2): Float32Array {
+  const n = points.length / 3;
+  let lo = Infinity, hi = -Infinity;
+  for (let i = 0; i < n; i++) { const v = points[i * 3 + axis]; if (v < lo) lo = v; if (v > hi) hi = v; }
+  const a = new Color(PALETTE.teal), b = new Color(0xd9b26f), c = new Color(PALETTE.rust);
+  const out = new Float32Array(n * 3);
+  const tmp = new Color();
+  for (let i = 0; i < n; i++) {
+    const t = hi > lo ? (points[i * 3 + axis] - lo) / (hi - lo) : 0.5;
+    if (t < 0.5) tmp.copy(a).lerp(b, t * 2); else tmp.copy(b).lerp(c, (t - 0.5) * 2);
+    out[i * 3] = tmp.r; out[i * 3 + 1] = tmp.g; out[i * 3 + 2] = tmp.b;
+  }
+  return out;
+}
+
+export function pointsObject(points: Float32Array, size = 0.025, colour?: number): Points {
+  const g = new BufferGeometry();
+  g.setAttribute('position', new BufferAttribute(points, 3));
+  if (colour === undefined) g.setAttribute('color', new BufferAttribute(rampColours(points), 3));
+  const m = new PointsMaterial({ size, vertexColors: colour === undefined, color: colour ?? 0xffffff, sizeAttenuation: true });
+  return new Points(g, m);
+}
+
+/** The mesh in unit-sphere coordinates (same frame as the sampled cloud). */
+export function meshObject(positions: Float32Array, indices: Uint32Array, centre: readonly number[], radius: number, colour: number = PALETTE.steel): Mesh {
+  const p = new Float32Array(positions.length);
+  for (let i = 0; i < positions.length; i++) p[i] = (positions[i] - centre[i % 3]) / radius;
+  const g = new BufferGeometry();
+  g.setAttribute('position', new BufferAttribute(p, 3));
+  g.setIndex(new BufferAttribute(indices, 1));
+  g.computeVertexNormals();
+  return new Mesh(g, new MeshStandardMaterial({ color: colour, metalness: 0.3, roughness: 0.55, flatShading: true }));
+}
+
+export function litScene(): Scene {
+  const scene = new Scene();
+  scene.background = new Color(PALETTE.paper);
+  scene.add(new AmbientLight(0xffffff, 1.2));
+  const key = new DirectionalLight(0xffffff, 2.2);
+  key.position.set(2, 3, 4);
+  scene.add(key);
+  const fill = new DirectionalLight(0xffffff, 0.8);
+  fill.position.set(-3, -1, -2);
+  scene.add(fill);
+  return scene;
+}
+
+export function disposeObject(obj: Object3D): void {
+  obj.traverse((o) => {
+    const withGeometry = o as Mesh;
+    withGeometry.geometry?.dispose();
+    const mat = withGeometry.material;
+    if (Array.isArray(mat)) mat.forEach((m) => m.dispose());
+    else mat?.dispose();
+  });
+}

@@ -1,0 +1,2 @@
+// Workbench entry point.
+import './components/app';

@@ -1,0 +1,63 @@
+// End-to-end: the built workbench in headless Chromium (Debian's), driven by playwright-core.
+// Screenshots of each panel go to test-artifacts/ (ignored by git).
+
+import { mkdirSync } from 'node:fs';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { BrowserContext, Page } from 'playwright-core';
+import { chromiumAvailable, launch } from './chromium';
+import { startPreview } from './server';
+
+const ARTIFACTS = 'test-artifacts';
+const available = chromiumAvailable();
+if (!available) console.warn('browser tests skipped: no Chromium at /usr/bin/chromium (apt-get install -y chromium)');
+
+describe.skipIf(!available)('workbench in a real browser', () => {
+  let server: Awaited<ReturnType<typeof startPreview>>;
+  let context: BrowserContext;
+  let page: Page;
+  const errors: string[] = [];
+
+  beforeAll(async () => {
+    mkdirSync(ARTIFACTS, { recursive: true });
+    server = await startPreview();
+    context = await launch();
+    page = await context.newPage();
+    page.on('pageerror', (e) => errors.push(`pageerror: ${e.message}`));
+    page.on('console', (m) => { if (m.type() === 'error') errors.push(`console: ${m.text()}`); });
+    await page.goto(server.url);
+  }, 60_000);
+
+  afterAll(async () => {
+    await context?.close();
+    await server?.close();
+  });
+
+  it('first start shows the demo library, and lists each broken file with its reason', async () => {
+    const summary = page.getByTestId('library-summary');
+    await expect.poll(async () => summary.textContent(), { timeout: 60_000 }).toMatch(/112 parts in 14 folders/);
+    const failures = page.getByTestId('failures');
+    await expect.poll(async () => (await failures.textContent()) ?? '', { timeout: 10_000 }).toContain('upload-cut-short.stl');
+    const text = (await failures.textContent()) ?? '';
+    expect(text).toMatch(/empty-export\.stl: the file is empty/);
+    expect(text).toMatch(/bad-coordinates\.obj: vertex 2 has a non-finite coordinate/);
+    expect(text).toMatch(/quote-saved-as-stl\.stl: not an STL file/);
+    expect(text).toMatch(/upload-cut-short\.stl: binary STL header declares \d+ triangles/);
+    expect(text).toMatch(/missing-vertices\.off: face 1 refers to vertex 9/);
+    await expect.poll(async () => page.locator('sk-library-panel').locator('img').count(), { timeout: 60_000 }).toBeGreaterThan(100);
+    await page.screenshot({ path: `${ARTIFACTS}/library.png` });
+  }, 120_000);
+
+  it('the augmentation preview shows the original and two views with the distance moved', async () => {
+    await page.getByRole('tab', { name: 'Augmentations' }).click();
+    const numbers = page.getByTestId('augment-distances');
+    await expect.poll(async () => (await numbers.textContent()) ?? '', { timeout: 10_000 }).toMatch(/view A: Chamfer \d/);
+    const before = await numbers.textContent();
+    await page.getByRole('button', { name: 'Roll new views' }).click();
+    await expect.poll(async () => numbers.textContent()).not.toBe(before);
+    await page.screenshot({ path: `${ARTIFACTS}/augment.png` });
+  }, 60_000);
+
+  it('shows no page errors or console errors', () => {
+    expect(errors).toEqual([]);
+  });
+});

@@ -1,0 +1,21 @@
+import { defineConfig } from 'vite';
+
+// Cross-origin isolation (COOP/COEP) lets the training worker use SharedArrayBuffer and wasm threads
+// where the browser allows; it is set on both the dev server and the preview server.
+const isolation = {
+  'Cross-Origin-Opener-Policy': 'same-origin',
+  'Cross-Origin-Embedder-Policy': 'require-corp',
+};
+
+export default defineConfig({
+  root: '.',
+  base: './',
+  server: { port: 5173, strictPort: false, headers: isolation },
+  preview: { port: 4173, strictPort: false, headers: isolation },
+  worker: { format: 'es' },
+  build: {
+    outDir: 'dist',
+    target: 'es2022',
+    chunkSizeWarningLimit: 4000,
+  },
+});
