@@ -197,10 +197,11 @@ function applyStep(w: Work, s: AugmentStep, upAxis: UpAxis, rng: Rng): void {
       return;
     }
     case 'occlude': {
-      const remove = Math.round(0.4 * k * N);
-      if (remove === 0) return;
-      // The region is found on the source surface around the source point of a random view point.
+      // The region is found on the source surface around the source point of a random view point,
+      // and covers the same fraction 0.4·s of the source as of the view.
       const src = w.source;
+      const remove = Math.round(0.4 * k * src.count);
+      if (remove === 0) return;
       const seed = w.origin[rng.int(N)];
       const gone = new Uint8Array(src.count);
       const sp = src.positions;
@@ -237,11 +238,29 @@ function applyStep(w: Work, s: AugmentStep, upAxis: UpAxis, rng: Rng): void {
 
 /** One augmented view. The input is not modified. */
 export function augment(cloud: PointCloud, pipeline: Pipeline, rng: Rng): PointCloud {
+  const all = new Uint32Array(cloud.count);
+  for (let i = 0; i < all.length; i++) all[i] = i;
+  return augmentSubset(cloud, all, pipeline, rng);
+}
+
+/**
+ * One augmented view of some points of a larger pool (the training path: draw N of the pool's points,
+ * then augment only those). Occlusion still finds its region on the whole pool, whose kd-tree is cached.
+ */
+export function augmentSubset(pool: PointCloud, indices: Uint32Array, pipeline: Pipeline, rng: Rng): PointCloud {
   validatePipeline(pipeline);
-  assertValidCloud(cloud, 'augment');
-  const origin = new Uint32Array(cloud.count);
-  for (let i = 0; i < origin.length; i++) origin[i] = i;
-  const w: Work = { p: cloud.positions.slice(), n: cloud.normals ? cloud.normals.slice() : null, origin, source: cloud };
+  assertValidCloud(pool, 'augment');
+  const n = indices.length;
+  if (n === 0) throw new RangeError('augment: no points selected');
+  const p = new Float32Array(n * 3);
+  const nn = pool.normals ? new Float32Array(n * 3) : null;
+  for (let i = 0; i < n; i++) {
+    const s = indices[i] * 3;
+    if (!(indices[i] < pool.count)) throw new RangeError(`augment: point index ${indices[i]} outside a pool of ${pool.count}`);
+    p[i * 3] = pool.positions[s]; p[i * 3 + 1] = pool.positions[s + 1]; p[i * 3 + 2] = pool.positions[s + 2];
+    if (nn) { nn[i * 3] = pool.normals![s]; nn[i * 3 + 1] = pool.normals![s + 1]; nn[i * 3 + 2] = pool.normals![s + 2]; }
+  }
+  const w: Work = { p, n: nn, origin: indices.slice(), source: pool };
   for (const s of pipeline.steps) {
     if (s.probability < 1 && rng.next() >= s.probability) continue;
     applyStep(w, s, pipeline.upAxis, rng);

@@ -1,0 +1,53 @@
+// Batched inference: embeddings for many parts, and the view tensors training and inference share.
+
+import * as tf from '@tensorflow/tfjs';
+import type { Rng } from '../rng';
+import { inputChannels, type Encoder, type InputFeatures } from './encoder';
+
+/** A part as the model sees it: a pool of unit-sphere points (stride 3) with normals. */
+export interface ModelPart {
+  readonly points: Float32Array;
+  readonly normals: Float32Array;
+}
+
+/**
+ * Write n points of a pool into the batch buffer at slot `slot`: a random subset without repetition
+ * (partial Fisher–Yates with the given rng), or every point in order when rng is null.
+ */
+export function fillSlot(out: Float32Array, slot: number, n: number, features: InputFeatures, points: Float32Array, normals: Float32Array, rng: Rng | null, scratch?: Uint32Array): void {
+  const F = inputChannels(features);
+  const count = points.length / 3;
+  const order = scratch && scratch.length >= count ? scratch : new Uint32Array(count);
+  for (let i = 0; i < count; i++) order[i] = i;
+  for (let i = 0; i < n; i++) {
+    let src: number;
+    if (rng && count >= n) {
+      const j = i + rng.int(count - i);
+      const t = order[i]; order[i] = order[j]; order[j] = t;
+      src = order[i];
+    } else src = count >= n ? i : (rng ? rng.int(count) : i % count);
+    const o = (slot * n + i) * F;
+    out[o] = points[src * 3]; out[o + 1] = points[src * 3 + 1]; out[o + 2] = points[src * 3 + 2];
+    if (F === 6) { out[o + 3] = normals[src * 3]; out[o + 4] = normals[src * 3 + 1]; out[o + 5] = normals[src * 3 + 2]; }
+  }
+}
+
+/** Unit-length embeddings (count × D, row-major) of parts, n points each, in batches. */
+export function embedParts(encoder: Encoder, parts: readonly ModelPart[], n: number, batch = 32): Float32Array {
+  const F = inputChannels(encoder.config.inputFeatures);
+  let D = 0;
+  const chunks: Float32Array[] = [];
+  for (let start = 0; start < parts.length; start += batch) {
+    const group = parts.slice(start, start + batch);
+    const buf = new Float32Array(group.length * n * F);
+    group.forEach((p, i) => fillSlot(buf, i, n, encoder.config.inputFeatures, p.points, p.normals, null));
+    const out = tf.tidy(() => encoder.embed(tf.tensor3d(buf, [group.length, n, F])));
+    D = out.shape[1];
+    chunks.push(out.dataSync() as Float32Array);
+    out.dispose();
+  }
+  const all = new Float32Array(parts.length * D);
+  let o = 0;
+  for (const c of chunks) { all.set(c, o); o += c.length; }
+  return all;
+}

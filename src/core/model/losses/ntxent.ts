@@ -1,0 +1,22 @@
+// NT-Xent, the normalised temperature-scaled cross-entropy of SimCLR (Chen, Kornblith, Norouzi & Hinton 2020,
+// "A Simple Framework for Contrastive Learning of Visual Representations", eq. 1):
+//   for the 2B views of B parts, s_ij = cos(z_i, z_j), and for each view i with positive p(i) (its twin):
+//   ℓ_i = −log( exp(s_i,p(i)/τ) / Σ_{k≠i} exp(s_ik/τ) ),   L = (1/2B) Σ_i ℓ_i.
+// Computed as log-sum-exp over the masked logits minus the positive logit (numerically stable).
+
+import * as tf from '@tensorflow/tfjs';
+import { assertPairs, MASKED_LOGIT, selfMask, similarityMatrix } from './common';
+
+export function ntXentLoss(za: tf.Tensor2D, zb: tf.Tensor2D, temperature: number): tf.Scalar {
+  if (!(temperature > 0)) throw new RangeError(`ntXentLoss: temperature must be > 0, got ${temperature}`);
+  const B = assertPairs(za, zb, 'ntXentLoss');
+  return tf.tidy(() => {
+    const logits = tf.div(similarityMatrix(za, zb), temperature); // (2B, 2B)
+    const masked = tf.add(logits, tf.mul(selfMask(2 * B), MASKED_LOGIT)); // self-similarity removed
+    const lse = tf.logSumExp(masked, 1); // (2B)
+    // Positive of view i is i + B (mod 2B): pick it with a one-hot mask.
+    const pos = tf.concat([tf.range(B, 2 * B, 1, 'int32'), tf.range(0, B, 1, 'int32')]);
+    const positive = tf.sum(tf.mul(logits, tf.oneHot(pos, 2 * B)), 1); // (2B)
+    return tf.mean(tf.sub(lse, positive)) as tf.Scalar;
+  });
+}

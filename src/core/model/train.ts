@@ -1,0 +1,322 @@
+// Contrastive training on CPU: view pairs from the augmentation pipeline, one fused forward/backward per
+// step, Adam with a cosine schedule and warm-up, progress events, pause/resume/cancel, held-out checks for
+// early stopping, and checkpoints. The same code runs in Node, vitest and a Web Worker.
+
+import * as tf from '@tensorflow/tfjs';
+import { augment, augmentSubset, validatePipeline, type Pipeline } from '../points/augment';
+import { makeCloud } from '../points/cloud';
+import { createRng, hashString, type Rng } from '../rng';
+import { Adam, cosineWithWarmup, type AdamState } from './adam';
+import { embedParts, fillSlot, type ModelPart } from './embed';
+import { Encoder, inputChannels, validateEncoderConfig, type EncoderConfig } from './encoder';
+import { computeLoss, LOSS_NAMES, type LossSettings } from './losses';
+
+export interface TrainConfig {
+  readonly encoder: EncoderConfig;
+  readonly loss: LossSettings;
+  readonly pipeline: Pipeline;
+  /** Points per view. */
+  readonly points: number;
+  /** Parts (= view pairs) per step. */
+  readonly batchSize: number;
+  readonly epochs: number;
+  readonly learningRate: number;
+  /** Fraction of all steps spent warming the learning rate up linearly. */
+  readonly warmupFraction: number;
+  readonly seed: number;
+  /** Fraction of parts kept out of training to check retrieval on (0: none). */
+  readonly heldOutFraction: number;
+  /** Steps between held-out checks (0: only at the end). */
+  readonly evalEvery: number;
+  /** Stop after this many checks without improvement (0: never stop early). */
+  readonly patience: number;
+}
+
+export interface TrainProgress {
+  readonly step: number; // steps done
+  readonly totalSteps: number;
+  readonly epoch: number; // 0-based epoch of the last step
+  readonly loss: number;
+  readonly learningRate: number;
+  /** Parts (view pairs) per second over the recent steps. */
+  readonly samplesPerSec: number;
+  readonly etaSec: number;
+  readonly msPerStep: number;
+}
+
+export interface HeldOutCheck {
+  readonly step: number;
+  /** Held-out instance recognition: an augmented view's nearest clean held-out part is its own part. */
+  readonly instanceTop1: number;
+}
+
+export type TrainStatus = 'idle' | 'running' | 'paused' | 'done' | 'stopped-early' | 'cancelled' | 'failed';
+
+export interface TrainEvents {
+  onProgress?(p: TrainProgress): void;
+  onCheck?(c: HeldOutCheck): void;
+  /** Called between steps so a host can process messages; resolve to continue. */
+  yieldEvery?: number;
+}
+
+export interface TrainResult {
+  readonly status: TrainStatus;
+  readonly steps: number;
+  readonly finalLoss: number;
+  readonly history: readonly { step: number; loss: number; lr: number }[];
+  readonly checks: readonly HeldOutCheck[];
+  readonly message?: string;
+}
+
+export function validateTrainConfig(c: TrainConfig, partCount: number): void {
+  validateEncoderConfig(c.encoder);
+  validatePipeline(c.pipeline);
+  if (!LOSS_NAMES.includes(c.loss.name)) throw new RangeError(`training: unknown loss "${c.loss.name}"`);
+  const whole = (v: number, lo: number, name: string) => {
+    if (!Number.isInteger(v) || v < lo) throw new RangeError(`training: ${name} must be a whole number ≥ ${lo}, got ${v}`);
+  };
+  whole(c.points, 16, 'points');
+  whole(c.batchSize, 2, 'batch size (parts per step; NT-Xent needs a negative)');
+  whole(c.epochs, 1, 'epochs');
+  if (!(c.learningRate > 0 && c.learningRate < 1)) throw new RangeError(`training: learning rate must be in (0, 1), got ${c.learningRate}`);
+  if (!(c.loss.temperature > 0)) throw new RangeError(`training: temperature must be > 0, got ${c.loss.temperature}`);
+  if (!(c.heldOutFraction >= 0 && c.heldOutFraction < 0.9)) throw new RangeError(`training: held-out fraction must be in [0, 0.9), got ${c.heldOutFraction}`);
+  const trainCount = partCount - Math.round(partCount * c.heldOutFraction);
+  if (trainCount < 2) throw new RangeError(`training needs at least 2 parts to train on, got ${trainCount}`);
+}
+
+/** Steps per epoch: whole batches of the training parts (a short last batch is dropped, never a batch of 1). */
+export function stepsPerEpoch(trainCount: number, batchSize: number): number {
+  return Math.max(1, Math.floor(trainCount / Math.min(batchSize, trainCount)));
+}
+
+/** n indices into a pool of `count`: distinct when the pool is large enough (partial Fisher–Yates). */
+export function drawIndices(count: number, n: number, rng: Rng, scratch: Uint32Array = new Uint32Array(count)): Uint32Array {
+  const out = new Uint32Array(n);
+  if (count < n) { for (let i = 0; i < n; i++) out[i] = i < count ? i : rng.int(count); return out; }
+  for (let i = 0; i < count; i++) scratch[i] = i;
+  for (let i = 0; i < n; i++) {
+    const j = i + rng.int(count - i);
+    const t = scratch[i]; scratch[i] = scratch[j]; scratch[j] = t;
+    out[i] = scratch[i];
+  }
+  return out;
+}
+
+/** Random permutation of 0..n−1 (Fisher–Yates). */
+function permutation(n: number, rng: Rng): number[] {
+  const p = Array.from({ length: n }, (_, i) => i);
+  for (let i = n - 1; i > 0; i--) { const j = rng.int(i + 1); const t = p[i]; p[i] = p[j]; p[j] = t; }
+  return p;
+}
+
+export interface TrainerOptions {
+  readonly labels?: readonly number[] | null;
+  /** Start from these weights (a checkpoint or a pre-trained encoder). */
+  readonly initialWeights?: readonly Float32Array[];
+  readonly resume?: { readonly step: number; readonly adam: AdamState; readonly history: TrainResult['history']; readonly checks: readonly HeldOutCheck[] };
+}
+
+export class Trainer {
+  readonly encoder: Encoder;
+  readonly config: TrainConfig;
+  readonly trainIdx: number[];
+  readonly heldIdx: number[];
+  readonly totalSteps: number;
+  readonly stepsPerEpoch: number;
+  private readonly adam: Adam;
+  private readonly parts: readonly ModelPart[];
+  private readonly labels: readonly number[] | null;
+  private readonly viewBuffer: Float32Array;
+  private readonly scratch: Uint32Array;
+  private readonly poolClouds: ReturnType<typeof makeCloud>[];
+  step = 0;
+  status: TrainStatus = 'idle';
+  history: { step: number; loss: number; lr: number }[] = [];
+  checks: HeldOutCheck[] = [];
+  private resumeGate: (() => void) | null = null;
+  private cancelRequested = false;
+  private pauseRequested = false;
+
+  constructor(parts: readonly ModelPart[], config: TrainConfig, options: TrainerOptions = {}) {
+    validateTrainConfig(config, parts.length);
+    if (config.loss.name === 'supervised-contrastive' && !options.labels) throw new RangeError('supervised-contrastive loss needs labels (folders or labels.csv)');
+    this.config = config;
+    this.parts = parts;
+    this.labels = options.labels ?? null;
+    const order = permutation(parts.length, createRng(hashString('split', config.seed)));
+    const held = Math.round(parts.length * config.heldOutFraction);
+    this.heldIdx = order.slice(0, held).sort((a, b) => a - b);
+    this.trainIdx = order.slice(held).sort((a, b) => a - b);
+    this.stepsPerEpoch = stepsPerEpoch(this.trainIdx.length, config.batchSize);
+    this.totalSteps = this.stepsPerEpoch * config.epochs;
+    this.encoder = new Encoder(config.encoder, createRng(hashString('init', config.seed)));
+    if (options.initialWeights) setWeights(this.encoder, options.initialWeights);
+    this.adam = new Adam(this.encoder.variables);
+    const B = Math.min(config.batchSize, this.trainIdx.length);
+    this.viewBuffer = new Float32Array(2 * B * config.points * inputChannels(config.encoder.inputFeatures));
+    this.scratch = new Uint32Array(Math.max(...parts.map((p) => p.points.length / 3)));
+    this.poolClouds = parts.map((p) => makeCloud(p.points, p.normals));
+    if (options.resume) {
+      this.adam.restore(options.resume.adam);
+      this.step = options.resume.step;
+      this.history = [...options.resume.history];
+      this.checks = [...options.resume.checks];
+    }
+  }
+
+  /** The parts and seeded views of step k: the same k always gives the same batch (resumable). */
+  private batchFor(k: number): { parts: number[]; x: Float32Array } {
+    const epoch = Math.floor(k / this.stepsPerEpoch);
+    const within = k % this.stepsPerEpoch;
+    const B = Math.min(this.config.batchSize, this.trainIdx.length);
+    const perm = permutation(this.trainIdx.length, createRng(hashString(`epoch:${epoch}`, this.config.seed)));
+    const chosen = perm.slice(within * B, within * B + B).map((i) => this.trainIdx[i]);
+    const rng = createRng(hashString(`step:${k}`, this.config.seed));
+    const { points: n, encoder } = this.config;
+    chosen.forEach((partIndex, slot) => {
+      const part = this.parts[partIndex];
+      const cloud = this.poolClouds[partIndex];
+      for (let view = 0; view < 2; view++) {
+        // Each view draws its own n points from the part's pool (a fresh resampling), then is augmented.
+        const v = augmentSubset(cloud, drawIndices(cloud.count, n, rng, this.scratch), this.config.pipeline, rng);
+        fillSlot(this.viewBuffer, view * B + slot, n, encoder.inputFeatures, v.positions, v.normals ?? part.normals, null);
+      }
+    });
+    return { parts: chosen, x: this.viewBuffer };
+  }
+
+  /** One optimisation step; returns the loss. */
+  trainStep(): number {
+    const k = this.step;
+    const { parts, x } = this.batchFor(k);
+    const B = parts.length;
+    const F = inputChannels(this.config.encoder.inputFeatures);
+    const lr = cosineWithWarmup(k, this.totalSteps, this.config.learningRate, Math.round(this.totalSteps * this.config.warmupFraction));
+    const labels = this.labels ? parts.map((i) => this.labels![i]) : null;
+    const vars = this.encoder.variables;
+    const lossValue = tf.tidy(() => {
+      const input = tf.tensor3d(x, [2 * B, this.config.points, F]);
+      const { value, grads } = tf.variableGrads(() => {
+        const z = this.encoder.project(this.encoder.pooled(input)); // (2B, P)
+        const za = tf.slice(z, [0, 0], [B, -1]) as tf.Tensor2D;
+        const zb = tf.slice(z, [B, 0], [B, -1]) as tf.Tensor2D;
+        return computeLoss(this.config.loss, za, zb, labels);
+      }, vars);
+      const loss = value.dataSync()[0];
+      if (Number.isFinite(loss)) this.adam.apply(vars.map((v) => grads[v.name]), lr);
+      return loss;
+    });
+    if (!Number.isFinite(lossValue)) throw new RangeError(`training diverged at step ${k + 1}: the loss is ${lossValue} (try a lower learning rate)`);
+    this.step = k + 1;
+    this.history.push({ step: this.step, loss: lossValue, lr });
+    return lossValue;
+  }
+
+  /** Held-out instance recognition: views of held-out parts against their clean embeddings. */
+  heldOutCheck(): HeldOutCheck | null {
+    if (this.heldIdx.length < 2) return null;
+    const held = this.heldIdx.map((i) => this.parts[i]);
+    const clean = embedParts(this.encoder, held, this.config.points);
+    const rng = createRng(hashString('check', this.config.seed));
+    const views = held.map((p) => {
+      const v = augment(makeCloud(p.points, p.normals), this.config.pipeline, rng);
+      return { points: v.positions, normals: v.normals ?? p.normals };
+    });
+    const viewEmb = embedParts(this.encoder, views, this.config.points);
+    const D = clean.length / held.length;
+    let hits = 0;
+    for (let i = 0; i < held.length; i++) {
+      let best = -Infinity, bestJ = -1;
+      for (let j = 0; j < held.length; j++) {
+        let s = 0;
+        for (let d = 0; d < D; d++) s += viewEmb[i * D + d] * clean[j * D + d];
+        if (s > best) { best = s; bestJ = j; }
+      }
+      if (bestJ === i) hits++;
+    }
+    return { step: this.step, instanceTop1: hits / held.length };
+  }
+
+  pause(): void { this.pauseRequested = true; }
+  resume(): void { this.pauseRequested = false; this.resumeGate?.(); }
+  cancel(): void { this.cancelRequested = true; this.resumeGate?.(); }
+
+  /** Run to the end (or an early stop, a cancel, or a failure), reporting progress after every step. */
+  async run(events: TrainEvents = {}): Promise<TrainResult> {
+    this.status = 'running';
+    const yieldEvery = events.yieldEvery ?? 1;
+    const recent: number[] = [];
+    let best = -Infinity, sinceBest = 0, bestWeights: Float32Array[] | null = null;
+    try {
+      while (this.step < this.totalSteps) {
+        if (this.cancelRequested) { this.status = 'cancelled'; break; }
+        if (this.pauseRequested) {
+          this.status = 'paused';
+          await new Promise<void>((resolve) => (this.resumeGate = resolve));
+          this.resumeGate = null;
+          if (this.cancelRequested) { this.status = 'cancelled'; break; }
+          this.status = 'running';
+        }
+        const t0 = performance.now();
+        const loss = this.trainStep();
+        const ms = performance.now() - t0;
+        recent.push(ms);
+        if (recent.length > 10) recent.shift();
+        const avg = recent.reduce((s, v) => s + v, 0) / recent.length;
+        const B = Math.min(this.config.batchSize, this.trainIdx.length);
+        events.onProgress?.({
+          step: this.step, totalSteps: this.totalSteps, epoch: Math.floor((this.step - 1) / this.stepsPerEpoch), loss,
+          learningRate: this.history[this.history.length - 1].lr, samplesPerSec: (B * 1000) / avg,
+          etaSec: ((this.totalSteps - this.step) * avg) / 1000, msPerStep: avg,
+        });
+        const due = this.config.evalEvery > 0 ? this.step % this.config.evalEvery === 0 : false;
+        if ((due || this.step === this.totalSteps) && this.heldIdx.length >= 2) {
+          const check = this.heldOutCheck()!;
+          this.checks.push(check);
+          events.onCheck?.(check);
+          if (check.instanceTop1 > best) { best = check.instanceTop1; sinceBest = 0; if (this.config.patience > 0) bestWeights = getWeights(this.encoder); }
+          else if (this.config.patience > 0 && ++sinceBest >= this.config.patience) {
+            if (bestWeights) setWeights(this.encoder, bestWeights);
+            this.status = 'stopped-early';
+            break;
+          }
+        }
+        if (this.step % yieldEvery === 0) await new Promise<void>((r) => setTimeout(() => r(), 0));
+      }
+      if (this.status === 'running') this.status = 'done';
+    } catch (err) {
+      this.status = 'failed';
+      return this.result((err as Error).message);
+    }
+    return this.result();
+  }
+
+  private result(message?: string): TrainResult {
+    const last = this.history[this.history.length - 1];
+    return { status: this.status, steps: this.step, finalLoss: last ? last.loss : NaN, history: this.history, checks: this.checks, ...(message ? { message } : {}) };
+  }
+
+  adamState(): AdamState {
+    return this.adam.state();
+  }
+
+  dispose(): void {
+    this.encoder.dispose();
+    this.adam.dispose();
+  }
+}
+
+export function getWeights(encoder: Encoder): Float32Array[] {
+  return encoder.variables.map((v) => v.dataSync().slice() as Float32Array);
+}
+
+export function setWeights(encoder: Encoder, weights: readonly Float32Array[]): void {
+  const vars = encoder.variables;
+  if (weights.length !== vars.length) throw new RangeError(`weights: ${weights.length} arrays for ${vars.length} variables (a different encoder configuration?)`);
+  vars.forEach((v, i) => {
+    const size = v.shape.reduce((a, b) => a * b, 1);
+    if (weights[i].length !== size) throw new RangeError(`weights: ${encoder.weightNames[i]} has ${weights[i].length} values, expected ${size} (shape ${v.shape})`);
+    tf.tidy(() => v.assign(tf.tensor(weights[i], v.shape)));
+  });
+}

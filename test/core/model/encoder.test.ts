@@ -1,0 +1,102 @@
+import * as tf from '@tensorflow/tfjs';
+import { beforeAll, describe, expect, it } from 'vitest';
+import { Encoder, type EncoderConfig } from '../../../src/core/model/encoder';
+import { axisAngle, transformPoints } from '../../../src/core/points/rotation';
+import { createRng } from '../../../src/core/rng';
+import { expectClose } from '../../helpers';
+import { expectNoLeak, useBackend } from '../../tf-helpers';
+
+beforeAll(async () => { await useBackend('wasm'); });
+
+const tiny: EncoderConfig = { inputFeatures: 'xyz', widths: [8, 16, 12], pooling: 'max', projection: [10, 6] };
+
+function cloudBatch(B: number, N: number, seed: number, F = 3): Float32Array {
+  const rng = createRng(seed);
+  return Float32Array.from({ length: B * N * F }, () => rng.uniform(-1, 1));
+}
+
+/** The same network written with plain tfjs ops, differentiated by tfjs autodiff: the reference. */
+function naivePooled(enc: Encoder, x: tf.Tensor3D): tf.Tensor2D {
+  const [B, N, F] = x.shape;
+  let h: tf.Tensor2D = tf.reshape(x, [B * N, F]);
+  for (const l of enc.layers) h = tf.relu(tf.add(tf.matMul(h, l.w), l.b));
+  const h3 = tf.reshape(h, [B, N, -1]);
+  return enc.config.pooling === 'max' ? (tf.max(h3, 1) as tf.Tensor2D) : tf.concat([tf.max(h3, 1) as tf.Tensor2D, tf.mean(h3, 1) as tf.Tensor2D], 1);
+}
+
+describe('fused per-point MLP + pooling: hand-written gradients equal tfjs autodiff of the plain formulation', () => {
+  it.each(['max', 'max+mean'] as const)('pooling %s', async (pooling) => {
+    const enc = new Encoder({ ...tiny, pooling }, createRng(1));
+    await expectNoLeak(() => {
+      const x = tf.tensor3d(cloudBatch(3, 20, 2), [3, 20, 3]);
+      const target = tf.randomNormal([3, pooling === 'max' ? 12 : 24], 0, 1, 'float32', 3);
+      const objective = (f: () => tf.Tensor2D) => () => tf.sum(tf.mul(f(), target)) as tf.Scalar;
+      const pointVars = enc.layers.flatMap((l) => [l.w, l.b]);
+      const fast = tf.variableGrads(objective(() => enc.pooled(x)), pointVars);
+      const slow = tf.variableGrads(objective(() => naivePooled(enc, x)), pointVars);
+      expectClose(fast.value.dataSync(), slow.value.dataSync(), { rtol: 1e-5, atol: 1e-5 });
+      for (const v of pointVars) expectClose(fast.grads[v.name].dataSync(), slow.grads[v.name].dataSync(), { rtol: 1e-4, atol: 1e-5 });
+      tf.dispose([x, target, fast.value, slow.value, ...Object.values(fast.grads), ...Object.values(slow.grads)]);
+    });
+    enc.dispose();
+  });
+  it('matches central finite differences on a tiny model (first-layer weights)', () => {
+    const enc = new Encoder(tiny, createRng(4));
+    const x = tf.tensor3d(cloudBatch(2, 10, 5), [2, 10, 3]);
+    const target = tf.randomNormal([2, 12], 0, 1, 'float32', 6);
+    const f = () => tf.sum(tf.mul(enc.pooled(x), target)) as tf.Scalar;
+    const { grads, value } = tf.variableGrads(f, [enc.layers[0].w]);
+    const analytic = grads[enc.layers[0].w.name].dataSync();
+    const w0 = enc.layers[0].w.dataSync().slice();
+    const h = 1e-3;
+    const numeric = Array.from({ length: 6 }, (_, i) => {
+      const at = (d: number) => { const w = w0.slice(); w[i] += d; enc.layers[0].w.assign(tf.tensor2d(w, [3, 8])); return tf.tidy(() => f().dataSync()[0]); };
+      const g = (at(h) - at(-h)) / (2 * h);
+      enc.layers[0].w.assign(tf.tensor2d(w0, [3, 8]));
+      return g;
+    });
+    // Max pooling is piecewise linear: a step this small rarely changes a winning point, so agreement is close.
+    expectClose(Array.from(analytic.slice(0, 6)), numeric, { atol: 2e-3, rtol: 2e-2 });
+    tf.dispose([x, target, value, ...Object.values(grads)]);
+    enc.dispose();
+  });
+});
+
+describe('symmetries of the architecture', () => {
+  it('shuffling the points gives the same embedding (within 1e-5)', () => {
+    const enc = new Encoder({ ...tiny, pooling: 'max+mean' }, createRng(7));
+    const pts = cloudBatch(1, 64, 8);
+    const rng = createRng(9);
+    const order = Array.from({ length: 64 }, (_, i) => i);
+    for (let i = 63; i > 0; i--) { const j = rng.int(i + 1); [order[i], order[j]] = [order[j], order[i]]; }
+    const shuffled = new Float32Array(pts.length);
+    order.forEach((src, dst) => shuffled.set(pts.subarray(src * 3, src * 3 + 3), dst * 3));
+    const e1 = tf.tidy(() => enc.embed(tf.tensor3d(pts, [1, 64, 3])).dataSync());
+    const e2 = tf.tidy(() => enc.embed(tf.tensor3d(shuffled, [1, 64, 3])).dataSync());
+    expectClose(e2, e1, { atol: 1e-5 });
+    enc.dispose();
+  });
+  it('rotating the input changes the embedding (not rotation-invariant by accident)', () => {
+    const enc = new Encoder(tiny, createRng(10));
+    const pts = cloudBatch(1, 64, 11);
+    const turned = transformPoints(axisAngle([0, 0, 1], 1.1), pts);
+    const e1 = tf.tidy(() => enc.embed(tf.tensor3d(pts, [1, 64, 3])).dataSync());
+    const e2 = tf.tidy(() => enc.embed(tf.tensor3d(turned, [1, 64, 3])).dataSync());
+    const cos = e1.reduce((s, v, i) => s + v * e2[i], 0);
+    expect(cos).toBeLessThan(0.999);
+    enc.dispose();
+  });
+  it('embeddings are unit length; wrong channel counts are refused', () => {
+    const enc = new Encoder(tiny, createRng(12));
+    const e = tf.tidy(() => enc.embed(tf.tensor3d(cloudBatch(2, 16, 13), [2, 16, 3])).dataSync());
+    expectClose(Math.hypot(...e.slice(0, 12)), 1, { atol: 1e-5 });
+    expect(() => enc.pooled(tf.zeros([1, 4, 6]) as tf.Tensor3D)).toThrow(/6 channels per point, expected 3/);
+    expect(() => new Encoder({ ...tiny, widths: [] }, createRng(1))).toThrow(/widths/);
+    enc.dispose();
+  });
+  it('the same seed builds the same weights', () => {
+    const a = new Encoder(tiny, createRng(5)), b = new Encoder(tiny, createRng(5));
+    expect(Array.from(a.layers[1].w.dataSync())).toEqual(Array.from(b.layers[1].w.dataSync()));
+    a.dispose(); b.dispose();
+  });
+});

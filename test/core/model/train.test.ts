@@ -1,0 +1,163 @@
+import * as tf from '@tensorflow/tfjs';
+import { readFileSync, readdirSync, statSync } from 'node:fs';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { beforeAll, describe, expect, it } from 'vitest';
+import { loadPart } from '../../../src/core/library';
+import { Adam, cosineWithWarmup } from '../../../src/core/model/adam';
+import { encoderFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../../../src/core/model/checkpoint';
+import { DEFAULT_TRAIN } from '../../../src/core/model/defaults';
+import type { ModelPart } from '../../../src/core/model/embed';
+import { getWeights, Trainer, type TrainConfig } from '../../../src/core/model/train';
+import { PRESETS } from '../../../src/core/points/augment';
+import { expectClose } from '../../helpers';
+import { useBackend } from '../../tf-helpers';
+
+let demo: ModelPart[] = [];
+beforeAll(async () => {
+  await useBackend('wasm');
+  const root = fileURLToPath(new URL('../../../demo-shapes/', import.meta.url));
+  const files: string[] = [];
+  const walk = (d: string) => readdirSync(d).forEach((n) => { const p = join(d, n); if (statSync(p).isDirectory()) walk(p); else files.push(p); });
+  walk(root);
+  demo = files.filter((f) => !f.includes('/broken/') && /\.(stl|obj|ply|off)$/.test(f)).sort().map((f) => {
+    const b = readFileSync(f);
+    const part = loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.length), f.slice(root.length), { points: 512, seed: 0 });
+    return { points: part.points, normals: part.normals };
+  });
+});
+
+const small: TrainConfig = {
+  ...DEFAULT_TRAIN,
+  encoder: { inputFeatures: 'xyz', widths: [32, 64, 128], pooling: 'max', projection: [128, 64] },
+  pipeline: PRESETS.gentle,
+  points: 128,
+  batchSize: 16,
+  epochs: 2,
+  seed: 3,
+};
+
+describe('Adam (Kingma & Ba 2015) against tf.train.adam', () => {
+  it('gives the same parameters after five steps on a quadratic', () => {
+    const target = tf.tensor1d([1, -2, 3]);
+    const a = tf.variable(tf.tensor1d([0.5, 0.5, 0.5]));
+    const b = tf.variable(tf.tensor1d([0.5, 0.5, 0.5]));
+    const ours = new Adam([a]);
+    const theirs = tf.train.adam(0.05, 0.9, 0.999, 1e-8);
+    for (let i = 0; i < 5; i++) {
+      const { grads } = tf.variableGrads(() => tf.sum(tf.square(tf.sub(a, target))) as tf.Scalar, [a]);
+      ours.apply([grads[a.name]], 0.05);
+      theirs.minimize(() => tf.sum(tf.square(tf.sub(b, target))) as tf.Scalar, false, [b]);
+    }
+    // float32 rounding differs in the order of operations (tfjs keeps β^t as running products): 1e-5.
+    expectClose(a.dataSync(), b.dataSync(), { atol: 1e-5 });
+  });
+});
+
+describe('cosine schedule with warm-up (Loshchilov & Hutter 2017 form)', () => {
+  it('ramps linearly, peaks, and decays to the floor along ½(1 + cos)', () => {
+    // 10 warm-up steps of 110: step 4 → 0.5·peak; step 10 → peak; step 60 (half way) → ½; step 110 → 0.
+    expectClose(cosineWithWarmup(4, 110, 1, 10), 0.5, { atol: 1e-12 });
+    expectClose(cosineWithWarmup(10, 110, 1, 10), 1, { atol: 1e-12 });
+    expectClose(cosineWithWarmup(60, 110, 1, 10), 0.5, { atol: 1e-12 });
+    expectClose(cosineWithWarmup(110, 110, 1, 10), 0, { atol: 1e-12 });
+  });
+});
+
+describe('training on the demo library', () => {
+  it('keeps the tensor count flat across steps', () => {
+    const t = new Trainer(demo, small);
+    t.trainStep();
+    const after1 = tf.memory().numTensors;
+    for (let i = 0; i < 4; i++) t.trainStep();
+    expect(tf.memory().numTensors).toBe(after1);
+    t.dispose();
+  });
+  it('a seeded run is bit-for-bit repeatable on the same backend', () => {
+    const run = () => { const t = new Trainer(demo, small); for (let i = 0; i < 3; i++) t.trainStep(); const w = getWeights(t.encoder); t.dispose(); return w; };
+    const a = run(), b = run();
+    a.forEach((w, i) => expect(Buffer.from(w.buffer).equals(Buffer.from(b[i].buffer))).toBe(true));
+  });
+  it('the loss falls within a few hundred steps', async () => {
+    const t = new Trainer(demo, { ...small, epochs: 25 }); // 7 steps an epoch → 175 steps
+    const result = await t.run({ yieldEvery: 50 });
+    const h = result.history.map((s) => s.loss);
+    const mean = (xs: number[]) => xs.reduce((s, v) => s + v, 0) / xs.length;
+    expect(result.status).toBe('done');
+    expect(mean(h.slice(-20))).toBeLessThan(mean(h.slice(0, 20)) * 0.8);
+    t.dispose();
+  }, 120_000);
+  it('pauses, resumes and cancels between steps, reporting progress', async () => {
+    const t = new Trainer(demo, { ...small, epochs: 5 });
+    const seen: number[] = [];
+    let pausedAt = -1;
+    const done = t.run({
+      onProgress: (p) => {
+        seen.push(p.step);
+        expect(p.totalSteps).toBe(35);
+        expect(p.samplesPerSec).toBeGreaterThan(0);
+        if (p.step === 2) t.pause();
+        if (p.step === 4) t.cancel();
+      },
+    });
+    await new Promise((r) => setTimeout(r, 300));
+    if (t.status === 'paused') { pausedAt = t.step; t.resume(); }
+    const result = await done;
+    expect(pausedAt).toBe(2);
+    expect(result.status).toBe('cancelled');
+    expect(result.steps).toBe(4);
+    expect(seen).toEqual([1, 2, 3, 4]);
+    t.dispose();
+  });
+  it('a checkpoint restores the run exactly: 2 + 2 steps equal 4 steps', () => {
+    const straight = new Trainer(demo, small);
+    for (let i = 0; i < 4; i++) straight.trainStep();
+    const first = new Trainer(demo, small);
+    first.trainStep(); first.trainStep();
+    const ckpt: Checkpoint = {
+      manifest: { format: 'shapekin-encoder', version: 1, config: small, sampling: { points: 512, seed: 0 }, step: first.step, totalSteps: first.totalSteps, status: 'paused', backend: tf.getBackend(), history: first.history, checks: [] },
+      weights: getWeights(first.encoder),
+      adam: first.adamState(),
+    };
+    const restored = fromArtifacts(toArtifacts(ckpt));
+    const second = new Trainer(demo, restored.manifest.config, { initialWeights: restored.weights, resume: { step: restored.manifest.step, adam: restored.adam!, history: restored.manifest.history, checks: [] } });
+    second.trainStep(); second.trainStep();
+    const a = getWeights(straight.encoder), b = getWeights(second.encoder);
+    a.forEach((w, i) => expect(Buffer.from(b[i].buffer).equals(Buffer.from(w.buffer)), `weight ${i}`).toBe(true));
+    const enc = encoderFromCheckpoint(restored);
+    expect(enc.variables.length).toBe(10);
+    [straight, first, second].forEach((t) => t.dispose());
+    enc.dispose();
+  });
+});
+
+describe('bad input and failures end cleanly', () => {
+  it('too few parts, a batch of one, an unknown loss, supervised loss without labels', () => {
+    expect(() => new Trainer(demo.slice(0, 1), small)).toThrow(/at least 2 parts/);
+    expect(() => new Trainer(demo, { ...small, batchSize: 1 })).toThrow(/batch size/);
+    expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'hinge' as 'nt-xent' } })).toThrow(/unknown loss "hinge"/);
+    expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'supervised-contrastive' } })).toThrow(/needs labels/);
+  });
+  it('a NaN loss stops the run with status failed and a message, not a hang', async () => {
+    const t = new Trainer(demo, small);
+    const nan = getWeights(t.encoder).map((w) => new Float32Array(w.length).fill(NaN));
+    t.dispose();
+    const bad = new Trainer(demo, small, { initialWeights: nan });
+    const result = await bad.run();
+    expect(result.status).toBe('failed');
+    expect(result.message).toMatch(/diverged at step 1: the loss is NaN/);
+    bad.dispose();
+  });
+  it('a checkpoint from an incompatible configuration is refused with a reason', () => {
+    const t = new Trainer(demo, small);
+    const ckpt: Checkpoint = {
+      manifest: { format: 'shapekin-encoder', version: 1, config: small, sampling: { points: 512, seed: 0 }, step: 0, totalSteps: 1, status: 'idle', backend: 'wasm', history: [], checks: [] },
+      weights: getWeights(t.encoder), adam: null,
+    };
+    const art = toArtifacts(ckpt);
+    const wider = { ...art, modelTopology: { shapekin: { ...ckpt.manifest, config: { ...small, encoder: { ...small.encoder, widths: [32, 64, 256] } } } } };
+    expect(() => fromArtifacts(wider as typeof art)).toThrow(/wrong size|shorter/);
+    expect(() => fromArtifacts({ ...art, format: 'layers-model' })).toThrow(/not a Shapekin model/);
+    t.dispose();
+  });
+});

@@ -1,0 +1,17 @@
+// tfjs test helpers: backend set-up once per file, and a leak guard for every tensor test.
+
+import * as tf from '@tensorflow/tfjs';
+import { expect } from 'vitest';
+import { initBackend, type BackendName } from '../src/core/model/backend';
+
+export async function useBackend(prefer: BackendName = 'wasm'): Promise<BackendName> {
+  return initBackend({ prefer });
+}
+
+/** Runs fn and fails if it leaves tensors behind. */
+export async function expectNoLeak<T>(fn: () => T | Promise<T>): Promise<T> {
+  const before = tf.memory().numTensors;
+  const out = await fn();
+  expect(tf.memory().numTensors, 'tensors leaked').toBe(before);
+  return out;
+}
