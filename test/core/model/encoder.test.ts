@@ -19,7 +19,7 @@ function cloudBatch(B: number, N: number, seed: number, F = 3): Float32Array {
 function naivePooled(enc: Encoder, x: tf.Tensor3D): tf.Tensor2D {
   const [B, N, F] = x.shape;
   let h: tf.Tensor2D = tf.reshape(x, [B * N, F]);
-  for (const l of enc.layers) h = tf.relu(tf.add(tf.matMul(h, l.w), l.b));
+  for (const l of enc.layers) h = tf.relu(tf.add(tf.matMul(h, l.w), l.b)) as tf.Tensor2D;
   const h3 = tf.reshape(h, [B, N, -1]);
   return enc.config.pooling === 'max' ? (tf.max(h3, 1) as tf.Tensor2D) : tf.concat([tf.max(h3, 1) as tf.Tensor2D, tf.mean(h3, 1) as tf.Tensor2D], 1);
 }
