@@ -82,7 +82,8 @@ describe('symmetries of the architecture', () => {
     const turned = transformPoints(axisAngle([0, 0, 1], 1.1), pts);
     const e1 = tf.tidy(() => enc.embed(tf.tensor3d(pts, [1, 64, 3])).dataSync());
     const e2 = tf.tidy(() => enc.embed(tf.tensor3d(turned, [1, 64, 3])).dataSync());
-    const cos = e1.reduce((s, v, i) => s + v * e2[i], 0);
+    let cos = 0;
+    for (let i = 0; i < e1.length; i++) cos += e1[i] * e2[i];
     expect(cos).toBeLessThan(0.999);
     enc.dispose();
   });
