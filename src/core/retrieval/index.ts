@@ -1,0 +1,83 @@
+// The embedding index: unit-length vectors in one contiguous Float32Array, exact cosine top-k, and filters
+// on real size and on folder.
+
+import { topK, type Hit } from './topk';
+
+export interface IndexEntry {
+  readonly name: string;
+  readonly label: string;
+  /** Bounding-box diagonal in file units (the "real size"). */
+  readonly diagonal: number;
+}
+
+export interface QueryFilter {
+  /** Keep parts whose diagonal is within [d/r, d·r] of the query's diagonal d (r ≥ 1). */
+  readonly sizeRatio?: number;
+  readonly queryDiagonal?: number;
+  /** Keep only these folders. */
+  readonly labels?: readonly string[];
+  /** Leave out this entry (the query itself). */
+  readonly exclude?: number;
+}
+
+export class EmbeddingIndex {
+  readonly dim: number;
+  readonly vectors: Float32Array;
+  readonly entries: readonly IndexEntry[];
+
+  constructor(vectors: Float32Array, dim: number, entries: readonly IndexEntry[]) {
+    if (vectors.length !== dim * entries.length) throw new RangeError(`EmbeddingIndex: ${vectors.length} values for ${entries.length} × ${dim}`);
+    this.dim = dim;
+    this.entries = entries;
+    this.vectors = normaliseRows(vectors, dim);
+  }
+
+  get count(): number {
+    return this.entries.length;
+  }
+
+  vector(i: number): Float32Array {
+    return this.vectors.subarray(i * this.dim, (i + 1) * this.dim);
+  }
+
+  /** Cosine similarity of the query to every entry (rows are unit length, so a dot product). */
+  scores(query: ArrayLike<number>, out: Float32Array = new Float32Array(this.count)): Float32Array {
+    const q = normaliseRows(Float32Array.from(query), this.dim);
+    const v = this.vectors, D = this.dim;
+    for (let i = 0; i < this.count; i++) {
+      let s = 0;
+      const o = i * D;
+      for (let d = 0; d < D; d++) s += v[o + d] * q[d];
+      out[i] = s;
+    }
+    return out;
+  }
+
+  query(query: ArrayLike<number>, k: number, filter: QueryFilter = {}): Hit[] {
+    if (query.length !== this.dim) throw new RangeError(`query has ${query.length} values, the index ${this.dim}`);
+    const scores = this.scores(query);
+    const labels = filter.labels ? new Set(filter.labels) : null;
+    const r = filter.sizeRatio;
+    if (r !== undefined && !(r >= 1)) throw new RangeError(`size ratio must be ≥ 1, got ${r}`);
+    const d0 = filter.queryDiagonal;
+    const keep = (i: number) => {
+      if (i === filter.exclude) return false;
+      const e = this.entries[i];
+      if (labels && !labels.has(e.label)) return false;
+      if (r !== undefined && d0 !== undefined && d0 > 0 && (e.diagonal > d0 * r || e.diagonal < d0 / r)) return false;
+      return true;
+    };
+    return topK(scores, Math.min(k, this.count), keep);
+  }
+}
+
+export function normaliseRows(v: Float32Array, dim: number): Float32Array {
+  const out = new Float32Array(v.length);
+  for (let o = 0; o < v.length; o += dim) {
+    let s = 0;
+    for (let d = 0; d < dim; d++) s += v[o + d] * v[o + d];
+    const inv = s > 0 ? 1 / Math.sqrt(s) : 0;
+    for (let d = 0; d < dim; d++) out[o + d] = v[o + d] * inv;
+  }
+  return out;
+}
