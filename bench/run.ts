@@ -1,8 +1,14 @@
 // `npm run bench`: prints throughput figures. Not a test: no thresholds, nothing fails.
+// `npm run bench -- points retrieval` runs only those sections.
 
 import { benchPoints } from './points';
+import { benchRetrieval } from './retrieval';
 
-const sections: Record<string, () => void | Promise<void>> = { points: benchPoints };
+const sections: Record<string, () => void | Promise<void>> = {
+  points: benchPoints,
+  retrieval: benchRetrieval,
+  model: async () => (await import('./model')).benchModel(),
+};
 const wanted = process.argv.slice(2);
 console.log(`Shapekin benchmarks — node ${process.version}, ${new Date().toISOString()}`);
 for (const [name, fn] of Object.entries(sections)) {

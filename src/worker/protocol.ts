@@ -3,6 +3,8 @@
 
 import type { LibraryPart, SamplingSettings } from '../core/library';
 import type { ImportFailure } from '../core/mesh/import';
+import type { RunManifest } from '../core/model/checkpoint';
+import type { TrainConfig, TrainProgress, HeldOutCheck, TrainResult } from '../core/model/train';
 
 export interface FileInput {
   readonly name: string;
@@ -27,3 +29,41 @@ export type LibraryReply =
 export function partTransfers(part: LibraryPart): ArrayBuffer[] {
   return [part.points.buffer, part.normals.buffer, part.meshPositions.buffer, part.meshIndices.buffer] as ArrayBuffer[];
 }
+
+// ---- training worker ----
+
+
+export interface PartArrays {
+  readonly points: Float32Array;
+  readonly normals: Float32Array;
+}
+
+/** A checkpoint as it crosses the boundary: the manifest as JSON and the weights as one transferable buffer. */
+export interface CheckpointMessage {
+  readonly manifest: RunManifest;
+  readonly weightSpecs: { name: string; shape: number[]; dtype: 'float32' }[];
+  readonly weightData: ArrayBuffer;
+  readonly adamStep: number;
+}
+
+export type TrainRequest =
+  | { readonly type: 'start'; readonly id: number; readonly parts: readonly PartArrays[]; readonly labels: readonly number[] | null; readonly config: TrainConfig; readonly sampling: { points: number; seed: number }; readonly resume?: CheckpointMessage }
+  | { readonly type: 'pause'; readonly id: number }
+  | { readonly type: 'resume'; readonly id: number }
+  | { readonly type: 'cancel'; readonly id: number }
+  | { readonly type: 'embed'; readonly id: number; readonly parts: readonly PartArrays[]; readonly checkpoint: CheckpointMessage | null; readonly config: TrainConfig }
+  /** The checkpoint kept in IndexedDB (tfjs's browser handler), if any. */
+  | { readonly type: 'load-saved'; readonly id: number }
+  /** Keep this checkpoint (e.g. a model trained by the command line) as the current one. */
+  | { readonly type: 'save'; readonly id: number; readonly checkpoint: CheckpointMessage };
+
+export type TrainReply =
+  | { readonly type: 'backend'; readonly id: number; readonly backend: string }
+  | { readonly type: 'progress'; readonly id: number; readonly progress: TrainProgress }
+  | { readonly type: 'check'; readonly id: number; readonly check: HeldOutCheck }
+  | { readonly type: 'status'; readonly id: number; readonly status: 'running' | 'paused' }
+  | { readonly type: 'checkpoint'; readonly id: number; readonly checkpoint: CheckpointMessage }
+  | { readonly type: 'done'; readonly id: number; readonly result: Omit<TrainResult, 'history'> & { history: TrainResult['history'] } }
+  | { readonly type: 'embeddings'; readonly id: number; readonly vectors: Float32Array; readonly dim: number; readonly learned: boolean }
+  | { readonly type: 'saved'; readonly id: number; readonly checkpoint: CheckpointMessage | null }
+  | { readonly type: 'error'; readonly id: number; readonly message: string };

@@ -267,7 +267,13 @@ export function finishMesh(file: string, format: MeshFormat, raw: RawGeometry, f
   const { closed, oriented } = orientClosed(indices, positions.length / 3);
   const finalIdx = oriented ?? indices;
   const mesh: Mesh = { positions, indices: finalIdx };
-  const volume = closed ? Math.abs(signedVolume(positions, finalIdx)) : null;
+  let volume: number | null = null;
+  if (closed) {
+    // A closed surface wound inward has negative signed volume: flip it so face normals point outward.
+    const signed = signedVolume(positions, finalIdx);
+    if (signed < 0) for (let t = 0; t < finalIdx.length; t += 3) { const tmp = finalIdx[t + 1]; finalIdx[t + 1] = finalIdx[t + 2]; finalIdx[t + 2] = tmp; }
+    volume = Math.abs(signed);
+  }
   const { min, max } = boundingBox(positions);
   return { name: file, mesh, info: makeInfo(format, mesh, dropped, surfaceArea(mesh), min, max, closed, volume, fileBytes) };
 }

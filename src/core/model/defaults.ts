@@ -7,7 +7,8 @@ import type { TrainConfig } from './train';
 export const DEFAULT_TRAIN: TrainConfig = {
   encoder: DEFAULT_ENCODER,
   loss: { name: 'nt-xent', temperature: 0.1, margin: 0.2 },
-  pipeline: PRESETS['any-orientation'],
+  pipeline: PRESETS['principal-pose'],
+  pose: 'principal-axes',
   points: 512,
   batchSize: 32,
   epochs: 80,

@@ -3,6 +3,9 @@
 import * as tf from '@tensorflow/tfjs';
 import type { Rng } from '../rng';
 import { inputChannels, type Encoder, type InputFeatures } from './encoder';
+import { alignToPrincipalAxes, SIGN_FLIPS } from '../points/pca';
+import { makeCloud } from '../points/cloud';
+import { transformPoints } from '../points/rotation';
 
 /** A part as the model sees it: a pool of unit-sphere points (stride 3) with normals. */
 export interface ModelPart {
@@ -30,6 +33,41 @@ export function fillSlot(out: Float32Array, slot: number, n: number, features: I
     out[o] = points[src * 3]; out[o + 1] = points[src * 3 + 1]; out[o + 2] = points[src * 3 + 2];
     if (F === 6) { out[o + 3] = normals[src * 3]; out[o + 4] = normals[src * 3 + 1]; out[o + 5] = normals[src * 3 + 2]; }
   }
+}
+
+/** How parts are posed before the encoder sees them. */
+export type Pose = 'as-is' | 'principal-axes';
+
+/** Parts in the pose the model expects: unchanged, or rotated into their principal frame. */
+export function posed(parts: readonly ModelPart[], pose: Pose): ModelPart[] {
+  if (pose === 'as-is') return [...parts];
+  return parts.map((p) => {
+    const c = alignToPrincipalAxes(makeCloud(p.points, p.normals));
+    return { points: c.positions, normals: c.normals ?? p.normals };
+  });
+}
+
+/**
+ * Retrieval embeddings: with a principal-axes pose, the average of the embeddings of the four proper sign
+ * choices of the frame (then renormalised), so the frame's sign ambiguity cannot change the result.
+ */
+export function embedForRetrieval(encoder: Encoder, parts: readonly ModelPart[], n: number, pose: Pose): Float32Array {
+  const ready = posed(parts, pose);
+  if (pose === 'as-is') return embedParts(encoder, ready, n);
+  let sum: Float32Array | null = null;
+  for (const flip of SIGN_FLIPS) {
+    const turned = ready.map((p) => ({ points: transformPoints(flip, p.points), normals: transformPoints(flip, p.normals) }));
+    const e = embedParts(encoder, turned, n);
+    if (!sum) sum = e; else for (let i = 0; i < e.length; i++) sum[i] += e[i];
+  }
+  const D = sum!.length / Math.max(1, parts.length);
+  for (let o = 0; o < sum!.length; o += D) {
+    let s = 0;
+    for (let d = 0; d < D; d++) s += sum![o + d] ** 2;
+    const inv = 1 / Math.sqrt(s || 1);
+    for (let d = 0; d < D; d++) sum![o + d] *= inv;
+  }
+  return sum!;
 }
 
 /** Unit-length embeddings (count × D, row-major) of parts, n points each, in batches. */

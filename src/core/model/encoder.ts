@@ -23,7 +23,8 @@ export interface EncoderConfig {
   readonly projection: readonly number[];
 }
 
-export const DEFAULT_ENCODER: EncoderConfig = { inputFeatures: 'xyz', widths: [64, 128, 256], pooling: 'max', projection: [256, 128] };
+/** The reference architecture of the speed target (64-128-256, projection 256-128), on points and normals. */
+export const DEFAULT_ENCODER: EncoderConfig = { inputFeatures: 'xyz+normal', widths: [64, 128, 256], pooling: 'max', projection: [256, 128] };
 
 export function inputChannels(f: InputFeatures): number {
   return f === 'xyz' ? 3 : 6;

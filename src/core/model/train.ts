@@ -7,7 +7,7 @@ import { augment, augmentSubset, validatePipeline, type Pipeline } from '../poin
 import { makeCloud } from '../points/cloud';
 import { createRng, hashString, type Rng } from '../rng';
 import { Adam, cosineWithWarmup, type AdamState } from './adam';
-import { embedParts, fillSlot, type ModelPart } from './embed';
+import { embedParts, fillSlot, posed, type ModelPart, type Pose } from './embed';
 import { Encoder, inputChannels, validateEncoderConfig, type EncoderConfig } from './encoder';
 import { computeLoss, LOSS_NAMES, type LossSettings } from './losses';
 
@@ -15,6 +15,8 @@ export interface TrainConfig {
   readonly encoder: EncoderConfig;
   readonly loss: LossSettings;
   readonly pipeline: Pipeline;
+  /** Pose parts before encoding: as they are, or in their principal-axes frame. */
+  readonly pose: Pose;
   /** Points per view. */
   readonly points: number;
   /** Parts (= view pairs) per step. */
@@ -141,8 +143,9 @@ export class Trainer {
   constructor(parts: readonly ModelPart[], config: TrainConfig, options: TrainerOptions = {}) {
     validateTrainConfig(config, parts.length);
     if (config.loss.name === 'supervised-contrastive' && !options.labels) throw new RangeError('supervised-contrastive loss needs labels (folders or labels.csv)');
+    if (config.pose !== 'as-is' && config.pose !== 'principal-axes') throw new RangeError(`training: pose must be as-is or principal-axes, got ${config.pose}`);
     this.config = config;
-    this.parts = parts;
+    this.parts = posed(parts, config.pose);
     this.labels = options.labels ?? null;
     const order = permutation(parts.length, createRng(hashString('split', config.seed)));
     const held = Math.round(parts.length * config.heldOutFraction);
@@ -156,7 +159,7 @@ export class Trainer {
     const B = Math.min(config.batchSize, this.trainIdx.length);
     this.viewBuffer = new Float32Array(2 * B * config.points * inputChannels(config.encoder.inputFeatures));
     this.scratch = new Uint32Array(Math.max(...parts.map((p) => p.points.length / 3)));
-    this.poolClouds = parts.map((p) => makeCloud(p.points, p.normals));
+    this.poolClouds = this.parts.map((p) => makeCloud(p.points, p.normals));
     if (options.resume) {
       this.adam.restore(options.resume.adam);
       this.step = options.resume.step;

@@ -6,9 +6,10 @@ import type { Rng } from '../rng';
 import { assertValidCloud, makeCloud, type PointCloud } from './cloud';
 import { PointIndex } from './kdtree';
 import { axisAngle, quaternionToMatrix, transformPoints, type Mat3 } from './rotation';
+import { SIGN_FLIPS } from './pca';
 
 export const AUGMENT_KINDS = [
-  'rotate-up', 'rotate-any', 'scale', 'translate', 'jitter', 'dropout', 'occlude', 'partial-view', 'mirror',
+  'rotate-up', 'rotate-any', 'flip-axes', 'scale', 'translate', 'jitter', 'dropout', 'occlude', 'partial-view', 'mirror',
 ] as const;
 export type AugmentKind = (typeof AUGMENT_KINDS)[number];
 
@@ -39,6 +40,7 @@ export const STRENGTH_RANGES: Record<AugmentKind, string> = {
   occlude: 'removes the round(0.4·s·N) nearest neighbours (on the source surface) of a random seed point: a missing region',
   'partial-view': 'keeps points whose normal n satisfies n·d ≥ s − 1 for a random view direction d (s = 1: the visible half)',
   mirror: 'reflects across a random coordinate plane through the centre, with probability scaled by s',
+  'flip-axes': 'turns by 180° about a random coordinate axis (the sign ambiguity of a principal-axes pose), with probability scaled by s',
 };
 
 const AXIS: Record<UpAxis, [number, number, number]> = { x: [1, 0, 0], y: [0, 1, 0], z: [0, 0, 1] };
@@ -79,7 +81,7 @@ export function pipelineFromJson(text: string): Pipeline {
 const step = (kind: AugmentKind, strength: number, probability = 1): AugmentStep => ({ kind, strength, probability });
 
 /** Named starting points, in plain words. */
-export const PRESETS: Record<'gentle' | 'scan-like' | 'aggressive' | 'any-orientation', Pipeline> = {
+export const PRESETS: Record<'gentle' | 'scan-like' | 'aggressive' | 'any-orientation' | 'principal-pose', Pipeline> = {
   gentle: { version: 1, upAxis: 'z', steps: [step('rotate-up', 1), step('scale', 0.4), step('jitter', 0.5)] },
   'scan-like': {
     version: 1, upAxis: 'z',
@@ -90,6 +92,11 @@ export const PRESETS: Record<'gentle' | 'scan-like' | 'aggressive' | 'any-orient
     steps: [step('rotate-any', 1), step('scale', 0.8), step('translate', 0.5), step('occlude', 0.7, 0.7), step('dropout', 0.6, 0.7), step('jitter', 1), step('mirror', 1, 0.5)],
   },
   'any-orientation': { version: 1, upAxis: 'z', steps: [step('rotate-any', 1), step('scale', 0.4), step('jitter', 0.5)] },
+  /** For parts put in their principal-axes pose first: the pose's sign ambiguity, small pose errors, scan damage. */
+  'principal-pose': {
+    version: 1, upAxis: 'z',
+    steps: [step('flip-axes', 1), step('rotate-any', 0.1), step('scale', 0.4), step('occlude', 0.4, 0.5), step('dropout', 0.4, 0.5), step('jitter', 0.5)],
+  },
 };
 export type PresetName = keyof typeof PRESETS;
 
@@ -224,6 +231,11 @@ function applyStep(w: Work, s: AugmentStep, upAxis: UpAxis, rng: Rng): void {
       }
       if (!keep.includes(1)) return; // nothing faces this way (a flat cloud seen edge-on): leave the view whole
       refill(w, keep, rng, 'partial-view');
+      return;
+    }
+    case 'flip-axes': {
+      if (rng.next() >= k) return;
+      rotate(w, SIGN_FLIPS[1 + rng.int(3)]);
       return;
     }
     case 'mirror': {

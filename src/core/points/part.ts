@@ -41,6 +41,7 @@ export function samplePart(part: ImportedMesh, points: number, seed: number): Sa
     const d = (v[i] - centre[0]) ** 2 + (v[i + 1] - centre[1]) ** 2 + (v[i + 2] - centre[2]) ** 2;
     if (d > r) r = d;
   }
+  if (mesh.indices && !info.closed && raw.normals) orientAwayFromCentre(raw.positions, raw.normals, centre);
   const norm = normaliseToUnitSphere(raw, centre, Math.sqrt(r));
   const [ex, ey, ez] = info.extents;
   return {
@@ -51,4 +52,15 @@ export function samplePart(part: ImportedMesh, points: number, seed: number): Sa
     extents: info.extents,
     diagonal: Math.sqrt(ex * ex + ey * ey + ez * ez),
   };
+}
+
+/**
+ * Open meshes have no inside, so their face normals point either way: turn each to face away from the
+ * centroid (common practice for unoriented normals). Closed meshes keep their true outward normals.
+ */
+export function orientAwayFromCentre(points: Float32Array, normals: Float32Array, centre: readonly [number, number, number]): void {
+  for (let i = 0; i < points.length; i += 3) {
+    const d = (points[i] - centre[0]) * normals[i] + (points[i + 1] - centre[1]) * normals[i + 1] + (points[i + 2] - centre[2]) * normals[i + 2];
+    if (d < 0) { normals[i] = -normals[i]; normals[i + 1] = -normals[i + 1]; normals[i + 2] = -normals[i + 2]; }
+  }
 }

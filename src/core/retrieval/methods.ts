@@ -2,7 +2,7 @@
 // (random weights), and the D2 shape distribution. Every method yields vectors plus a similarity.
 
 import type { Encoder } from '../model/encoder';
-import { embedParts, type ModelPart } from '../model/embed';
+import { embedForRetrieval, type ModelPart, type Pose } from '../model/embed';
 import { createRng, hashString } from '../rng';
 import { cosineSimilarity } from './metrics';
 import { d2Histogram, l1 } from './d2';
@@ -17,8 +17,8 @@ export interface Descriptors {
   readonly similarity: (i: number, j: number) => number;
 }
 
-export function encoderDescriptors(method: 'learned' | 'untrained', encoder: Encoder, parts: readonly ModelPart[], points: number): Descriptors {
-  const vectors = embedParts(encoder, parts, points);
+export function encoderDescriptors(method: 'learned' | 'untrained', encoder: Encoder, parts: readonly ModelPart[], points: number, pose: Pose): Descriptors {
+  const vectors = embedForRetrieval(encoder, parts, points, pose);
   const dim = vectors.length / Math.max(1, parts.length);
   return { method, vectors, dim, similarity: cosineSimilarity(vectors, dim) };
 }

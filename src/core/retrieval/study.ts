@@ -3,7 +3,7 @@
 // how similar the view stays to the original, and how far the points moved (Chamfer).
 
 import type { Encoder } from '../model/encoder';
-import { embedParts, type ModelPart } from '../model/embed';
+import { embedForRetrieval, type ModelPart, type Pose } from '../model/embed';
 import { AUGMENT_KINDS, augment, type AugmentKind, type UpAxis } from '../points/augment';
 import { makeCloud } from '../points/cloud';
 import { chamferDistance } from '../points/distance';
@@ -31,6 +31,7 @@ export interface StudyInput {
   readonly parts: readonly ModelPart[];
   readonly labels: readonly string[];
   readonly points: number;
+  readonly pose: Pose;
   readonly encoders: Partial<Record<'learned' | 'untrained', Encoder>>;
   readonly kinds?: readonly AugmentKind[];
   readonly strengths?: readonly number[];
@@ -60,7 +61,7 @@ export function runStudy(input: StudyInput): StudyRow[] {
   const cosine = (a: Float32Array, ao: number, b: Float32Array, bo: number, dim: number) => { let s = 0; for (let d = 0; d < dim; d++) s += a[ao + d] * b[bo + d]; return s; };
   for (const name of ['learned', 'untrained'] as const) {
     const enc = input.encoders[name];
-    if (enc) methods.push([name, (ps) => { const v = embedParts(enc, ps, points); return { vectors: v, dim: v.length / ps.length }; }, cosine]);
+    if (enc) methods.push([name, (ps) => { const v = embedForRetrieval(enc, ps, points, input.pose); return { vectors: v, dim: v.length / ps.length }; }, cosine]);
   }
   methods.push(['d2', (ps) => {
     const dim = 64;

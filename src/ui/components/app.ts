@@ -1,34 +1,46 @@
-// <sk-app>: the workbench shell. Owns the library state, hands it to the panels, and reacts to their events.
+// <sk-app>: the workbench shell. Owns the state (library, model, embeddings, training status), hands it to
+// the panels and reacts to their events; workers do the heavy work.
 
 import { LitElement, css, html } from 'lit';
 import { DEFAULT_SAMPLING, type LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
-import { PRESETS, type Pipeline } from '../../core/points/augment';
+import { DEFAULT_TRAIN, POOL_POINTS } from '../../core/model/defaults';
+import type { HeldOutCheck, TrainConfig, TrainProgress } from '../../core/model/train';
+import type { Pipeline } from '../../core/points/augment';
+import { EmbeddingIndex } from '../../core/retrieval/index';
+import type { Hit } from '../../core/retrieval/topk';
 import { LibraryClient } from '../controllers/library-client';
+import { loadLibrary as loadStoredLibrary, saveLibrary } from '../controllers/store';
 import { thumbnail } from '../controllers/thumbnails';
+import { TrainClient } from '../controllers/train-client';
 import { fetchDemoLibrary } from '../demo-library';
 import { namedFromDrop, namedFromInput, readFiles, type NamedFile } from '../files';
-import type { ImportStatus } from '../status';
-import type { FileInput } from '../../worker/protocol';
+import type { ImportStatus, TrainStatusView } from '../status';
+import type { CheckpointMessage, FileInput } from '../../worker/protocol';
+import type { SearchFilters } from './search-panel';
 import './library-panel';
 import './augment-panel';
+import './train-panel';
+import './search-panel';
 
-type Panel = 'library' | 'augment';
+type Panel = 'library' | 'augment' | 'train' | 'search';
 
 const PANELS: readonly { id: Panel; label: string }[] = [
   { id: 'library', label: 'Parts library' },
   { id: 'augment', label: 'Augmentations' },
+  { id: 'train', label: 'Training' },
+  { id: 'search', label: 'Look-alikes' },
 ];
+
+const SAMPLING = { ...DEFAULT_SAMPLING, points: POOL_POINTS };
 
 export class SkApp extends LitElement {
   static override properties = {
-    panel: { state: true },
-    parts: { state: true },
-    failures: { state: true },
-    status: { state: true },
-    thumbs: { state: true },
-    selected: { state: true },
-    pipeline: { state: true },
+    panel: { state: true }, parts: { state: true }, failures: { state: true }, status: { state: true }, thumbs: { state: true },
+    selected: { state: true }, pipeline: { state: true }, config: { state: true }, trainStatus: { state: true },
+    progress: { state: true }, history: { state: true }, checks: { state: true }, backend: { state: true },
+    model: { state: true }, index: { state: true }, hits: { state: true }, query: { state: true }, filters: { state: true },
+    embedding: { state: true }, notice: { state: true },
   };
 
   declare panel: Panel;
@@ -38,10 +50,25 @@ export class SkApp extends LitElement {
   declare thumbs: Map<string, string>;
   declare selected: string;
   declare pipeline: Pipeline;
+  declare config: TrainConfig;
+  declare trainStatus: TrainStatusView;
+  declare progress: TrainProgress | null;
+  declare history: { step: number; loss: number }[];
+  declare checks: HeldOutCheck[];
+  declare backend: string;
+  declare model: CheckpointMessage | null;
+  declare index: EmbeddingIndex | null;
+  declare hits: Hit[];
+  declare query: LibraryPart | null;
+  declare filters: SearchFilters;
+  declare embedding: boolean;
+  declare notice: string;
 
   private readonly library = new LibraryClient();
+  private readonly trainer = new TrainClient();
   private thumbQueue: LibraryPart[] = [];
   private thumbTimer = 0;
+  private embedVersion = 0;
 
   constructor() {
     super();
@@ -51,7 +78,32 @@ export class SkApp extends LitElement {
     this.status = { kind: 'idle' };
     this.thumbs = new Map();
     this.selected = '';
-    this.pipeline = PRESETS['scan-like'];
+    this.config = DEFAULT_TRAIN;
+    this.pipeline = DEFAULT_TRAIN.pipeline;
+    this.trainStatus = { kind: 'idle' };
+    this.progress = null;
+    this.history = [];
+    this.checks = [];
+    this.backend = '';
+    this.model = null;
+    this.index = null;
+    this.hits = [];
+    this.query = null;
+    this.filters = { k: 10, sizeRatio: null, family: '' };
+    this.embedding = false;
+    this.notice = '';
+    this.trainer.on((msg) => {
+      if (msg.id !== this.trainer.runId) return;
+      if (msg.type === 'backend') { this.backend = msg.backend; this.trainStatus = { kind: 'running' }; }
+      else if (msg.type === 'progress') { this.progress = msg.progress; this.history = [...this.history, { step: msg.progress.step, loss: msg.progress.loss }]; }
+      else if (msg.type === 'check') this.checks = [...this.checks, msg.check];
+      else if (msg.type === 'status') this.trainStatus = { kind: msg.status };
+      else if (msg.type === 'checkpoint') { this.model = msg.checkpoint; }
+      else if (msg.type === 'done') {
+        this.trainStatus = msg.result.status === 'failed' ? { kind: 'failed', message: msg.result.message ?? 'training failed' } : { kind: 'done', result: msg.result.status };
+        void this.refreshEmbeddings();
+      } else if (msg.type === 'error') this.trainStatus = { kind: 'failed', message: msg.message };
+    });
   }
 
   static override styles = css`
@@ -60,23 +112,54 @@ export class SkApp extends LitElement {
     h1 { margin: 0; font-size: 20px; letter-spacing: 0.02em; }
     h1 span { color: #c2571a; }
     .tagline { color: #5a6870; }
+    .model { margin-left: auto; font-size: 12px; color: #3d4b52; display: flex; gap: 8px; align-items: center; }
+    .model label, .model button { font: inherit; border: 1px solid #1d2b33; background: #fff; border-radius: 4px; padding: 2px 8px; cursor: pointer; }
+    .model input { position: absolute; opacity: 0; width: 1px; height: 1px; }
     nav { display: flex; gap: 4px; padding: 8px 18px 0; border-bottom: 2px solid #1d2b33; }
     nav button { font: inherit; border: 1px solid #1d2b33; border-bottom: none; background: #e9e3d6; padding: 6px 14px; border-radius: 6px 6px 0 0; cursor: pointer; }
     nav button[aria-selected=true] { background: #1d2b33; color: #f4f1ea; }
-    nav button:focus-visible { outline: 3px solid #c2571a; outline-offset: 1px; }
+    :focus-visible { outline: 3px solid #c2571a; outline-offset: 1px; }
     main { padding: 14px 18px 40px; }
-    .caution { margin: 10px 18px 0; padding: 6px 12px; background: #fff6df; border-left: 4px solid #d9a21b; font-size: 13px; }
+    .notice { margin: 8px 18px 0; padding: 6px 12px; background: #e3eeee; border-left: 4px solid #2f6f73; font-size: 13px; }
   `;
 
   override connectedCallback(): void {
     super.connectedCallback();
-    void this.loadDemo();
+    void this.startUp();
   }
 
   override disconnectedCallback(): void {
     super.disconnectedCallback();
     this.library.dispose();
+    this.trainer.dispose();
     clearTimeout(this.thumbTimer);
+  }
+
+  /** Restore the saved library and model, or load the demo library on first start. */
+  private async startUp(): Promise<void> {
+    const stored = await loadStoredLibrary();
+    if (stored && stored.parts.length > 0) {
+      this.parts = stored.parts;
+      this.failures = stored.failures;
+      this.selected = stored.parts[0].name;
+      this.status = { kind: 'ready', ms: 0 };
+      stored.parts.forEach((p) => this.queueThumbnail(p));
+    } else {
+      await this.loadDemo();
+    }
+    try {
+      const saved = await this.trainer.loadSaved();
+      if (saved) {
+        this.model = saved;
+        this.config = saved.manifest.config;
+        this.history = saved.manifest.history.map((h) => ({ step: h.step, loss: h.loss }));
+        this.checks = [...saved.manifest.checks];
+        this.notice = `Restored the saved model (${saved.manifest.status}, step ${saved.manifest.step} of ${saved.manifest.totalSteps}).`;
+      }
+    } catch (err) {
+      this.notice = `The saved model could not be read: ${(err as Error).message}`;
+    }
+    void this.refreshEmbeddings();
   }
 
   private async loadDemo(): Promise<void> {
@@ -85,7 +168,7 @@ export class SkApp extends LitElement {
     this.thumbs = new Map();
     this.status = { kind: 'importing', done: 0, total: 1, file: 'fetching the demo library' };
     try {
-      await this.importInputs(await fetchDemoLibrary(), []);
+      await this.importInputs(await fetchDemoLibrary(), [], 'demo');
     } catch (err) {
       this.status = { kind: 'failed', message: `The demo library could not be loaded: ${(err as Error).message}` };
     }
@@ -93,29 +176,29 @@ export class SkApp extends LitElement {
 
   private async addNamed(named: NamedFile[]): Promise<void> {
     const { inputs, skipped } = await readFiles(named);
-    await this.importInputs(inputs, skipped.map((file) => ({ file, code: 'unsupported-type', reason: 'not a mesh or point file Shapekin reads (STL, OBJ, PLY, OFF, XYZ/CSV)' })));
+    await this.importInputs(inputs, skipped.map((file) => ({ file, code: 'unsupported-type', reason: 'not a mesh or point file Shapekin reads (STL, OBJ, PLY, OFF, XYZ/CSV)' })), 'user');
   }
 
-  private async importInputs(inputs: FileInput[], extraFailures: ImportFailure[]): Promise<void> {
-    // A re-imported name replaces the old part.
+  private async importInputs(inputs: FileInput[], extraFailures: ImportFailure[], source: 'demo' | 'user'): Promise<void> {
     const incoming = new Set(inputs.map((f) => f.name));
     this.parts = this.parts.filter((p) => !incoming.has(p.name));
     this.failures = [...this.failures.filter((f) => !incoming.has(f.file)), ...extraFailures];
     if (inputs.length === 0) { this.status = { kind: 'ready', ms: 0 }; return; }
     this.status = { kind: 'importing', done: 0, total: inputs.length, file: inputs[0].name };
     try {
-      const ms = await this.library.importFiles(inputs, DEFAULT_SAMPLING, {
+      const ms = await this.library.importFiles(inputs, SAMPLING, {
         onPart: (part) => { this.parts = [...this.parts, part]; this.queueThumbnail(part); if (!this.selected) this.selected = part.name; },
         onFailure: (failure) => { this.failures = [...this.failures, failure]; },
         onProgress: (done, total, file) => { this.status = { kind: 'importing', done, total, file }; },
       });
       this.status = { kind: 'ready', ms };
+      await saveLibrary({ parts: this.parts, failures: this.failures, source });
+      void this.refreshEmbeddings();
     } catch (err) {
       if ((err as Error).message !== 'superseded') this.status = { kind: 'failed', message: (err as Error).message };
     }
   }
 
-  /** Thumbnails one per frame, so the page never holds the main thread for long. */
   private queueThumbnail(part: LibraryPart): void {
     this.thumbQueue.push(part);
     if (this.thumbTimer) return;
@@ -128,24 +211,163 @@ export class SkApp extends LitElement {
     this.thumbTimer = window.setTimeout(step, 0);
   }
 
+  private labelIds(): number[] {
+    const names = [...new Set(this.parts.map((p) => p.label))].sort();
+    return this.parts.map((p) => names.indexOf(p.label));
+  }
+
+  private startTraining(config: TrainConfig, resume?: CheckpointMessage): void {
+    this.config = config;
+    this.trainStatus = { kind: 'starting' };
+    this.progress = null;
+    if (!resume) { this.history = []; this.checks = []; }
+    const labels = config.loss.name === 'supervised-contrastive' ? this.labelIds() : null;
+    this.trainer.start(this.parts.map((p) => ({ points: p.points, normals: p.normals })), labels, config, SAMPLING, resume);
+  }
+
+  /** Embeddings of the whole library with the current model (or the untrained encoder before any training). */
+  private async refreshEmbeddings(): Promise<void> {
+    if (this.parts.length === 0) return;
+    const version = ++this.embedVersion;
+    this.embedding = true;
+    try {
+      const parts = this.parts;
+      const { vectors, dim } = await this.trainer.embed(parts.map((p) => ({ points: p.points, normals: p.normals })), this.model, this.config);
+      if (version !== this.embedVersion) return;
+      this.index = new EmbeddingIndex(vectors, dim, parts.map((p) => ({ name: p.name, label: p.label, diagonal: p.diagonal })));
+      if (!this.query && parts.length) this.query = parts.find((p) => p.name === this.selected) ?? parts[0];
+      this.runSearch();
+    } catch (err) {
+      this.notice = `Embedding failed: ${(err as Error).message}`;
+    } finally {
+      if (version === this.embedVersion) this.embedding = false;
+    }
+  }
+
+  private async runSearchFor(part: LibraryPart): Promise<void> {
+    this.query = part;
+    const inLibrary = this.parts.findIndex((p) => p.name === part.name);
+    if (inLibrary < 0 && this.index) {
+      const { vectors } = await this.trainer.embed([{ points: part.points, normals: part.normals }], this.model, this.config);
+      this.search(vectors, -1);
+    } else this.runSearch();
+  }
+
+  private runSearch(): void {
+    if (!this.index || !this.query) return;
+    const i = this.parts.findIndex((p) => p.name === this.query!.name);
+    if (i >= 0) this.search(this.index.vector(i), i);
+  }
+
+  private lastQueryVector: ArrayLike<number> | null = null;
+  private lastExclude = -1;
+  private search(vector: ArrayLike<number>, exclude: number): void {
+    if (!this.index || !this.query) return;
+    this.lastQueryVector = Array.from(vector);
+    this.lastExclude = exclude;
+    const f = this.filters;
+    this.hits = this.index.query(vector, f.k, {
+      exclude,
+      ...(f.sizeRatio ? { sizeRatio: f.sizeRatio, queryDiagonal: this.query.diagonal } : {}),
+      ...(f.family ? { labels: [f.family] } : {}),
+    });
+  }
+
+  private async queryFile(file: File): Promise<void> {
+    const buffer = await file.arrayBuffer();
+    let found: LibraryPart | null = null;
+    await this.library.importFiles([{ name: file.name, buffer }], SAMPLING, {
+      onPart: (p) => { found = p; },
+      onFailure: (f) => { this.notice = `${f.file}: ${f.reason}`; },
+      onProgress: () => {},
+    });
+    if (found) { this.queueThumbnail(found); await this.runSearchFor(found); }
+  }
+
+  private async importModel(files: File[]): Promise<void> {
+    try {
+      const jsonFile = files.find((f) => f.name.endsWith('.json'));
+      const binFile = files.find((f) => f.name.endsWith('.bin'));
+      if (!jsonFile || !binFile) throw new Error('choose both model.json and weights.bin from a run folder');
+      const json = JSON.parse(await jsonFile.text());
+      const manifest = json?.modelTopology?.shapekin;
+      if (json?.format !== 'shapekin-encoder' || !manifest) throw new Error(`${jsonFile.name} is not a Shapekin model`);
+      const ckpt: CheckpointMessage = {
+        manifest, weightSpecs: json.weightsManifest.flatMap((g: { weights: unknown[] }) => g.weights),
+        weightData: await binFile.arrayBuffer(), adamStep: Number(json.userDefinedMetadata?.adamStep ?? 0),
+      };
+      await this.trainer.save(ckpt);
+      this.model = ckpt;
+      this.config = manifest.config;
+      this.history = manifest.history.map((h: { step: number; loss: number }) => ({ step: h.step, loss: h.loss }));
+      this.notice = `Imported a model trained elsewhere (${manifest.step} steps, backend ${manifest.backend}).`;
+      void this.refreshEmbeddings();
+    } catch (err) {
+      this.notice = `Model not imported: ${(err as Error).message}`;
+    }
+  }
+
+  private exportModel(): void {
+    const m = this.model;
+    if (!m) return;
+    const json = { format: 'shapekin-encoder', generatedBy: 'Shapekin', convertedBy: null, modelTopology: { shapekin: m.manifest }, userDefinedMetadata: { adamStep: m.adamStep }, weightsManifest: [{ paths: ['weights.bin'], weights: m.weightSpecs }] };
+    download(new Blob([JSON.stringify(json)], { type: 'application/json' }), 'model.json');
+    download(new Blob([m.weightData.slice(0)]), 'weights.bin');
+  }
+
   protected override render() {
     const part = this.parts.find((p) => p.name === this.selected) ?? null;
+    const families = [...new Set(this.parts.map((p) => p.label))].sort();
+    const m = this.model?.manifest;
     return html`
-      <header><h1>Shape<span>kin</span></h1><div class="tagline">find parts that look like a given part — everything stays on this machine</div></header>
+      <header><h1>Shape<span>kin</span></h1><div class="tagline">find parts that look like a given part — everything stays on this machine</div>
+        <div class="model" data-testid="model-status">${m ? `model: ${m.step} of ${m.totalSteps} steps (${m.status})` : 'model: none trained yet (searching with the untrained encoder)'}
+          <label>Import model…<input type="file" multiple accept=".json,.bin" @change=${(e: Event) => { const t = e.target as HTMLInputElement; if (t.files) void this.importModel(Array.from(t.files)); t.value = ''; }} /></label>
+          <button ?disabled=${!m} @click=${() => this.exportModel()}>Export model</button>
+        </div>
+      </header>
       <nav role="tablist">
         ${PANELS.map((p) => html`<button role="tab" aria-selected=${this.panel === p.id} @click=${() => (this.panel = p.id)}>${p.label}</button>`)}
       </nav>
-      <div class="caution" role="note">Geometric similarity is not interchangeability: before substituting a part, a qualified person must check material, tolerances, loads and standards, following local codes and your organisation's engineering sign-off.</div>
-      <main>
-        ${this.panel === 'library'
-          ? html`<sk-library-panel .parts=${this.parts} .failures=${this.failures} .status=${this.status} .thumbnails=${this.thumbs} .selected=${this.selected}
-              @select-part=${(e: CustomEvent<string>) => (this.selected = e.detail)}
-              @add-files=${(e: CustomEvent<File[]>) => void this.addNamed(namedFromInput(e.detail))}
-              @drop-items=${async (e: CustomEvent<DataTransfer>) => void this.addNamed(await namedFromDrop(e.detail))}
-              @reload-demo=${() => void this.loadDemo()}
-              @clear-library=${() => { this.parts = []; this.failures = []; this.thumbs = new Map(); this.selected = ''; this.status = { kind: 'idle' }; }}></sk-library-panel>`
-          : html`<sk-augment-panel .subject=${part} .pipeline=${this.pipeline} @pipeline-change=${(e: CustomEvent<Pipeline>) => (this.pipeline = e.detail)}></sk-augment-panel>`}
-      </main>`;
+      ${this.notice ? html`<div class="notice" role="status">${this.notice}</div>` : null}
+      <main>${this.renderPanel(part, families)}</main>`;
+  }
+
+  private renderPanel(part: LibraryPart | null, families: string[]) {
+    switch (this.panel) {
+      case 'library':
+        return html`<sk-library-panel .parts=${this.parts} .failures=${this.failures} .status=${this.status} .thumbnails=${this.thumbs} .selected=${this.selected}
+          @select-part=${(e: CustomEvent<string>) => { this.selected = e.detail; const p = this.parts.find((x) => x.name === e.detail); if (p) void this.runSearchFor(p); }}
+          @add-files=${(e: CustomEvent<File[]>) => void this.addNamed(namedFromInput(e.detail))}
+          @drop-items=${async (e: CustomEvent<DataTransfer>) => void this.addNamed(await namedFromDrop(e.detail))}
+          @reload-demo=${() => void this.loadDemo()}
+          @clear-library=${() => { this.parts = []; this.failures = []; this.thumbs = new Map(); this.selected = ''; this.index = null; this.hits = []; this.query = null; this.status = { kind: 'idle' }; void saveLibrary({ parts: [], failures: [], source: 'user' }); }}></sk-library-panel>`;
+      case 'augment':
+        return html`<sk-augment-panel .subject=${part} .pipeline=${this.pipeline} @pipeline-change=${(e: CustomEvent<Pipeline>) => { this.pipeline = e.detail; this.config = { ...this.config, pipeline: e.detail }; }}></sk-augment-panel>`;
+      case 'train':
+        return html`<sk-train-panel .config=${this.config} .status=${this.trainStatus} .progress=${this.progress} .history=${this.history} .checks=${this.checks}
+          .backend=${this.backend} .partCount=${this.parts.length} .hasLabels=${new Set(this.parts.map((p) => p.label)).size > 1}
+          .savedStep=${this.model?.manifest.step ?? 0} .savedTotal=${this.model?.manifest.totalSteps ?? 0}
+          @config-change=${(e: CustomEvent<TrainConfig>) => { this.config = e.detail; this.pipeline = e.detail.pipeline; }}
+          @train-start=${(e: CustomEvent<TrainConfig>) => this.startTraining(e.detail)}
+          @train-continue=${() => this.model && this.startTraining(this.model.manifest.config, this.model)}
+          @train-pause=${() => this.trainer.pause()} @train-resume=${() => this.trainer.resume()} @train-stop=${() => this.trainer.cancel()}></sk-train-panel>`;
+      case 'search':
+        return html`<sk-search-panel .parts=${this.parts} .query=${this.query} .hits=${this.hits} .thumbnails=${this.thumbs} .filters=${this.filters} .families=${families} .busy=${this.embedding}
+          .source=${this.model ? `learned encoder, step ${this.model.manifest.step}` : 'untrained encoder (train one on the Training tab)'}
+          @search-query=${(e: CustomEvent<string>) => { const p = this.parts.find((x) => x.name === e.detail); if (p) void this.runSearchFor(p); }}
+          @search-file=${(e: CustomEvent<File>) => void this.queryFile(e.detail)}
+          @search-filters=${(e: CustomEvent<SearchFilters>) => { this.filters = e.detail; if (this.lastQueryVector) this.search(this.lastQueryVector, this.lastExclude); }}></sk-search-panel>`;
+    }
   }
 }
+
+function download(blob: Blob, name: string): void {
+  const a = document.createElement('a');
+  a.href = URL.createObjectURL(blob);
+  a.download = name;
+  a.click();
+  setTimeout(() => URL.revokeObjectURL(a.href), 1000);
+}
+
 customElements.define('sk-app', SkApp);

@@ -1,0 +1,33 @@
+// Train with the defaults plus JSON overrides, then evaluate against the baselines; prints one JSON line.
+//   npx tsx scripts/experiment.ts <library-dir> '{"epochs": 60, "encoder": {"inputFeatures": "xyz+normal"}}' [--embed-points N]
+// Used for the ablation tables in docs/: every row there names the command that produced it.
+
+import { initBackend } from '../src/core/model/backend';
+import { DEFAULT_TRAIN, POOL_POINTS } from '../src/core/model/defaults';
+import { Trainer, type TrainConfig } from '../src/core/model/train';
+import { PRESETS } from '../src/core/points/augment';
+import { evaluateMethods } from '../src/core/retrieval/evaluate';
+import { loadLibrary } from '../src/cli/library-dir';
+
+const [lib, overridesText = '{}'] = process.argv.slice(2).filter((a) => !a.startsWith('--'));
+const embedPointsArg = process.argv.indexOf('--embed-points');
+const overrides = JSON.parse(overridesText) as Partial<TrainConfig> & { preset?: keyof typeof PRESETS };
+const config: TrainConfig = {
+  ...DEFAULT_TRAIN,
+  ...overrides,
+  encoder: { ...DEFAULT_TRAIN.encoder, ...(overrides.encoder ?? {}) },
+  loss: { ...DEFAULT_TRAIN.loss, ...(overrides.loss ?? {}) },
+  pipeline: overrides.preset ? PRESETS[overrides.preset] : overrides.pipeline ?? DEFAULT_TRAIN.pipeline,
+};
+const backend = await initBackend();
+const library = loadLibrary(lib, { quiet: true, points: POOL_POINTS });
+const parts = library.parts.map((p) => ({ points: p.points, normals: p.normals }));
+const t0 = Date.now();
+const trainer = new Trainer(parts, config);
+const result = await trainer.run({ yieldEvery: 1000 });
+const seconds = (Date.now() - t0) / 1000;
+const points = embedPointsArg > 0 ? Number(process.argv[embedPointsArg + 1]) : config.points;
+const report = evaluateMethods({ parts, labels: library.labels, points, pose: config.pose, learned: trainer.encoder, untrainedConfig: config.encoder, seed: config.seed });
+trainer.dispose();
+const round = (m: Record<string, number>) => Object.fromEntries(Object.entries(m).map(([k, v]) => [k, Math.round(v * 1000) / 1000]));
+console.log(JSON.stringify({ overrides, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!) }));

@@ -1,0 +1,79 @@
+// Reads a parts library from disk: every supported file below a folder, labels from labels.csv when it
+// names them, else from the sub-folder. Bad files are reported and skipped.
+
+import { readFileSync, readdirSync, statSync, existsSync } from 'node:fs';
+import { join, relative, sep } from 'node:path';
+import { failureOf, labelFromPath, loadPart, type LibraryPart } from '../core/library';
+import type { ImportFailure } from '../core/mesh/import';
+import { isSupportedFile } from '../core/mesh/import';
+import { POOL_POINTS } from '../core/model/defaults';
+import { Progress } from './progress';
+import { CliError } from './errors';
+
+export interface LoadedLibrary {
+  readonly root: string;
+  readonly parts: LibraryPart[];
+  readonly labels: string[];
+  readonly failures: ImportFailure[];
+}
+
+export function listFiles(root: string): string[] {
+  if (!existsSync(root)) throw new CliError(`library folder not found: ${root}`);
+  if (!statSync(root).isDirectory()) throw new CliError(`not a folder: ${root}`);
+  const out: string[] = [];
+  const walk = (dir: string) => {
+    for (const name of readdirSync(dir).sort()) {
+      if (name.startsWith('.')) continue;
+      const p = join(dir, name);
+      if (statSync(p).isDirectory()) walk(p);
+      else if (isSupportedFile(name) && !(dir === root && name === 'labels.csv')) out.push(p);
+    }
+  };
+  walk(root);
+  return out;
+}
+
+/** labels.csv with a header naming a `file` column and a `family` or `label` column. */
+export function readLabelsCsv(root: string): Map<string, string> | null {
+  const path = join(root, 'labels.csv');
+  if (!existsSync(path)) return null;
+  const rows = readFileSync(path, 'utf8').split(/\r?\n/).filter((l) => l.trim());
+  const head = rows[0].split(',').map((h) => h.trim().toLowerCase());
+  const fi = head.indexOf('file');
+  const li = head.indexOf('family') >= 0 ? head.indexOf('family') : head.indexOf('label');
+  if (fi < 0 || li < 0) return null;
+  const map = new Map<string, string>();
+  for (const row of rows.slice(1)) {
+    const cols = row.split(',');
+    if (cols[fi] && cols[li]) map.set(cols[fi].trim().split('\\').join('/'), cols[li].trim());
+  }
+  return map;
+}
+
+export function loadLibrary(root: string, options: { quiet?: boolean; seed?: number; points?: number } = {}): LoadedLibrary {
+  const files = listFiles(root);
+  if (files.length === 0) throw new CliError(`no mesh or point files (STL, OBJ, PLY, OFF, XYZ) under ${root}`);
+  const csv = readLabelsCsv(root);
+  const progress = new Progress('reading', files.length, options.quiet);
+  const parts: LibraryPart[] = [];
+  const failures: ImportFailure[] = [];
+  files.forEach((path, i) => {
+    const name = relative(root, path).split(sep).join('/');
+    try {
+      const bytes = readFileSync(path);
+      const buffer = bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer;
+      parts.push(loadPart(buffer, name, { points: options.points ?? POOL_POINTS, seed: options.seed ?? 0 }));
+    } catch (err) {
+      failures.push(failureOf(name, err));
+    }
+    progress.update(i + 1, name);
+  });
+  progress.done();
+  const labels = parts.map((p) => csv?.get(p.name) ?? labelFromPath(p.name));
+  return { root, parts, labels, failures };
+}
+
+export function reportFailures(failures: readonly ImportFailure[], json: boolean): void {
+  if (json) return;
+  for (const f of failures) process.stderr.write(`skipped ${f.file}: ${f.reason}\n`);
+}

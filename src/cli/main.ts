@@ -1,0 +1,283 @@
+// The `shapekin` command line: a thin shell over the core for batch work on a parts library.
+
+import { writeFileSync } from 'node:fs';
+import { extname } from 'node:path';
+import { parseArgs } from 'node:util';
+import { initBackend } from '../core/model/backend';
+import { encoderFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
+import { DEFAULT_TRAIN, POOL_POINTS } from '../core/model/defaults';
+import { embedForRetrieval, type ModelPart } from '../core/model/embed';
+import type { Encoder } from '../core/model/encoder';
+import { LOSS_NAMES, type LossName } from '../core/model/losses';
+import { getWeights, Trainer, type TrainConfig } from '../core/model/train';
+import { pipelineFromJson, PRESETS, type Pipeline } from '../core/points/augment';
+import { duplicateGroups } from '../core/retrieval/duplicates';
+import { evaluateMethods, untrainedEncoder } from '../core/retrieval/evaluate';
+import { EmbeddingIndex } from '../core/retrieval/index';
+import { cosineSimilarity } from '../core/retrieval/metrics';
+import { writeNpyFloat32 } from '../core/retrieval/npy';
+import { runStudy } from '../core/retrieval/study';
+import { loadPart, type LibraryPart } from '../core/library';
+import { readFileSync, existsSync } from 'node:fs';
+import { CliError } from './errors';
+import { loadLibrary, reportFailures } from './library-dir';
+import { duration, Progress } from './progress';
+import { loadRun, saveRun } from './run-dir';
+
+const CAUTION = 'Caution: geometric similarity is not interchangeability. Before substituting a part, a qualified person must check material, tolerances, loads and standards, following local codes and your engineering sign-off.';
+
+const USAGE = `shapekin — find parts that look like a given part
+
+usage:
+  shapekin train <library-dir> --out <run-dir> [--epochs N] [--seed S] [--points N] [--augment <preset|file.json>]
+                 [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--resume]
+  shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy>
+  shapekin query <mesh-file> --model <run-dir> --library <library-dir> [-k 10] [--size-ratio R] [--json]
+  shapekin eval <library-dir> [--model <run-dir>] [--json]
+  shapekin study <library-dir> --model <run-dir> [--json]
+  shapekin duplicates <library-dir> --model <run-dir> [--threshold 0.97] [--json]
+
+presets for --augment: ${Object.keys(PRESETS).join(', ')}
+`;
+
+const OPTIONS = {
+  out: { type: 'string' }, model: { type: 'string' }, library: { type: 'string' },
+  epochs: { type: 'string' }, seed: { type: 'string' }, points: { type: 'string' }, augment: { type: 'string' },
+  batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' },
+  k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, threshold: { type: 'string' },
+  json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
+  backend: { type: 'string' },
+} as const;
+
+type Values = { [K in keyof typeof OPTIONS]?: (typeof OPTIONS)[K]['type'] extends 'boolean' ? boolean : string };
+
+function num(values: Values, key: keyof Values, fallback: number, integer = true): number {
+  const raw = values[key];
+  if (raw === undefined) return fallback;
+  const v = Number(raw);
+  if (!Number.isFinite(v) || (integer && !Number.isInteger(v))) throw new CliError(`--${key} must be ${integer ? 'a whole number' : 'a number'}, got "${raw}"`, 2);
+  return v;
+}
+
+function need(values: Values, key: 'out' | 'model' | 'library', command: string): string {
+  const v = values[key];
+  if (!v) throw new CliError(`${command} needs --${key} <${key === 'out' ? 'path' : 'dir'}>`, 2);
+  return v as string;
+}
+
+function pipelineFrom(arg: string | undefined): Pipeline {
+  if (!arg) return DEFAULT_TRAIN.pipeline;
+  if (arg in PRESETS) return PRESETS[arg as keyof typeof PRESETS];
+  if (!existsSync(arg)) throw new CliError(`--augment: "${arg}" is neither a preset (${Object.keys(PRESETS).join(', ')}) nor a file`, 2);
+  try {
+    return pipelineFromJson(readFileSync(arg, 'utf8'));
+  } catch (err) {
+    throw new CliError(`--augment ${arg}: ${(err as Error).message}`, 2);
+  }
+}
+
+const asModelParts = (parts: readonly LibraryPart[]): ModelPart[] => parts.map((p) => ({ points: p.points, normals: p.normals }));
+
+async function train(lib: string, values: Values): Promise<void> {
+  const out = need(values, 'out', 'train');
+  const loss = (values.loss ?? DEFAULT_TRAIN.loss.name) as LossName;
+  if (!LOSS_NAMES.includes(loss)) throw new CliError(`--loss must be one of ${LOSS_NAMES.join(', ')}, got "${loss}"`, 2);
+  const config: TrainConfig = {
+    ...DEFAULT_TRAIN,
+    epochs: num(values, 'epochs', DEFAULT_TRAIN.epochs),
+    seed: num(values, 'seed', DEFAULT_TRAIN.seed),
+    points: num(values, 'points', DEFAULT_TRAIN.points),
+    batchSize: num(values, 'batch', DEFAULT_TRAIN.batchSize),
+    learningRate: num(values, 'lr', DEFAULT_TRAIN.learningRate, false),
+    loss: { ...DEFAULT_TRAIN.loss, name: loss, temperature: num(values, 'temperature', DEFAULT_TRAIN.loss.temperature, false) },
+    pipeline: pipelineFrom(values.augment),
+  };
+  const backend = await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
+  const library = loadLibrary(lib, { quiet: values.quiet || values.json, points: POOL_POINTS });
+  reportFailures(library.failures, Boolean(values.json));
+  const labelNames = [...new Set(library.labels)].sort();
+  const labelIds = library.labels.map((l) => labelNames.indexOf(l));
+  let resume: Checkpoint | null = null;
+  if (values.resume && existsSync(`${out}/model.json`)) resume = loadRun(out);
+  const trainer = new Trainer(asModelParts(library.parts), resume ? resume.manifest.config : config, {
+    labels: loss === 'supervised-contrastive' ? labelIds : null,
+    ...(resume ? { initialWeights: resume.weights, resume: { step: resume.manifest.step, adam: resume.adam!, history: resume.manifest.history, checks: resume.manifest.checks } } : {}),
+  });
+  const cfg = trainer.config;
+  if (!values.json) process.stderr.write(`training on ${library.parts.length} parts, ${trainer.totalSteps} steps (${cfg.epochs} epochs × ${trainer.stepsPerEpoch}), backend ${backend}\n`);
+  const progress = new Progress('training', trainer.totalSteps, values.quiet || values.json);
+  const checkpoint = (status: Checkpoint['manifest']['status']) => saveRun(out, {
+    manifest: { format: 'shapekin-encoder', version: 1, config: cfg, sampling: { points: POOL_POINTS, seed: 0 }, step: trainer.step, totalSteps: trainer.totalSteps, status, backend, history: trainer.history, checks: trainer.checks, labelNames },
+    weights: getWeights(trainer.encoder),
+    adam: trainer.adamState(),
+  });
+  let lastSave = Date.now();
+  const t0 = Date.now();
+  const stop = () => trainer.cancel();
+  process.once('SIGINT', stop);
+  const result = await trainer.run({
+    yieldEvery: 1,
+    onProgress: (p) => {
+      progress.update(p.step, `loss ${p.loss.toFixed(3)} · ${p.samplesPerSec.toFixed(0)} parts/s · ${duration(p.etaSec)} left`);
+      if (Date.now() - lastSave > 60_000) { checkpoint('running'); lastSave = Date.now(); }
+    },
+  });
+  process.off('SIGINT', stop);
+  progress.done();
+  checkpoint(result.status);
+  trainer.dispose();
+  const summary = { status: result.status, steps: result.steps, final_loss: result.finalLoss, seconds: (Date.now() - t0) / 1000, backend, out, ...(result.message ? { message: result.message } : {}) };
+  if (values.json) console.log(JSON.stringify(summary));
+  else console.log(`${result.status}: ${result.steps} steps in ${duration(summary.seconds)}, final loss ${result.finalLoss.toFixed(4)} → ${out}${result.message ? ` (${result.message})` : ''}`);
+  if (result.status === 'failed') throw new CliError(result.message ?? 'training failed');
+}
+
+async function withModel<T>(values: Values, command: string, fn: (enc: Encoder, ckpt: Checkpoint) => Promise<T> | T): Promise<T> {
+  const ckpt = loadRun(need(values, 'model', command));
+  await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
+  const enc = encoderFromCheckpoint(ckpt);
+  try { return await fn(enc, ckpt); } finally { enc.dispose(); }
+}
+
+async function embed(lib: string, values: Values): Promise<void> {
+  const out = need(values, 'out', 'embed');
+  const ext = extname(out).toLowerCase();
+  if (!['.csv', '.json', '.npy'].includes(ext)) throw new CliError(`--out must end in .csv, .json or .npy, got "${out}"`, 2);
+  await withModel(values, 'embed', (enc, ckpt) => {
+    const library = loadLibrary(lib, { quiet: values.quiet, points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
+    reportFailures(library.failures, false);
+    const vectors = embedForRetrieval(enc, asModelParts(library.parts), ckpt.manifest.config.points, ckpt.manifest.config.pose);
+    const D = vectors.length / library.parts.length;
+    if (ext === '.npy') writeFileSync(out, writeNpyFloat32(vectors, library.parts.length, D));
+    else if (ext === '.json') writeFileSync(out, JSON.stringify({ dim: D, parts: library.parts.map((p, i) => ({ file: p.name, label: library.labels[i], extents: p.info.extents, diagonal: p.diagonal, embedding: Array.from(vectors.subarray(i * D, (i + 1) * D)) })) }));
+    else {
+      const head = ['file', 'label', 'extent_x', 'extent_y', 'extent_z', ...Array.from({ length: D }, (_, d) => `e${d}`)].join(',');
+      const rows = library.parts.map((p, i) => [csvField(p.name), csvField(library.labels[i]), ...p.info.extents.map((v) => v.toPrecision(6)), ...Array.from(vectors.subarray(i * D, (i + 1) * D), (v) => v.toPrecision(6))].join(','));
+      writeFileSync(out, [head, ...rows].join('\n') + '\n');
+    }
+    console.error(`${library.parts.length} embeddings of ${D} values → ${out}`);
+  });
+}
+
+function csvField(s: string): string {
+  return /[",\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
+}
+
+async function query(file: string, values: Values): Promise<void> {
+  const lib = need(values, 'library', 'query');
+  const k = num(values, 'k', 10);
+  if (!existsSync(file)) throw new CliError(`query file not found: ${file}`, 2);
+  await withModel(values, 'query', (enc, ckpt) => {
+    const bytes = readFileSync(file);
+    let q: LibraryPart;
+    try {
+      q = loadPart(bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer, file, ckpt.manifest.sampling);
+    } catch (err) {
+      throw new CliError((err as Error).message);
+    }
+    const library = loadLibrary(lib, { quiet: values.quiet || values.json, points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
+    reportFailures(library.failures, Boolean(values.json));
+    const points = ckpt.manifest.config.points;
+    const vectors = embedForRetrieval(enc, asModelParts(library.parts), points, ckpt.manifest.config.pose);
+    const D = vectors.length / library.parts.length;
+    const index = new EmbeddingIndex(vectors, D, library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal })));
+    const qv = embedForRetrieval(enc, [{ points: q.points, normals: q.normals }], points, ckpt.manifest.config.pose);
+    const ratio = values['size-ratio'] !== undefined ? num(values, 'size-ratio', 2, false) : undefined;
+    const hits = index.query(qv, k, ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal } : {});
+    const rows = hits.map((h, r) => {
+      const p = library.parts[h.index];
+      return { rank: r + 1, score: h.score, file: p.name, label: library.labels[h.index], extents: p.info.extents, size_ratio: p.diagonal / q.diagonal };
+    });
+    if (values.json) { console.log(JSON.stringify({ query: file, query_extents: q.info.extents, results: rows, caution: CAUTION })); return; }
+    const fmt = (e: readonly number[]) => e.map((v) => v.toPrecision(4)).join(' × ');
+    console.log(`query ${file}  (${fmt(q.info.extents)} file units)`);
+    console.log('rank  score   size×   folder            file');
+    for (const r of rows) console.log(`${String(r.rank).padStart(4)}  ${r.score.toFixed(3)}  ${r.size_ratio.toFixed(2).padStart(5)}   ${r.label.padEnd(17)} ${r.file}  (${fmt(r.extents)})`);
+    console.log(`\n${CAUTION}`);
+  });
+}
+
+async function evaluate(lib: string, values: Values): Promise<void> {
+  await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
+  const ckpt = values.model ? loadRun(values.model) : null;
+  const sampling = ckpt?.manifest.sampling ?? { points: POOL_POINTS, seed: 0 };
+  const library = loadLibrary(lib, { quiet: values.quiet || values.json, ...sampling });
+  reportFailures(library.failures, Boolean(values.json));
+  const learned = ckpt ? encoderFromCheckpoint(ckpt) : undefined;
+  const config = ckpt?.manifest.config ?? DEFAULT_TRAIN;
+  const report = evaluateMethods({ parts: asModelParts(library.parts), labels: library.labels, points: config.points, pose: config.pose, ...(learned ? { learned } : {}), untrainedConfig: config.encoder, seed: config.seed });
+  learned?.dispose();
+  if (values.json) { console.log(JSON.stringify(report)); return; }
+  console.log(`${report.parts} parts, ${report.labels} labels (leave-one-out)`);
+  console.log('method      NN     1st tier  2nd tier  DCG    mAP    P@5');
+  for (const [m, r] of Object.entries(report.methods)) {
+    console.log(`${m.padEnd(10)}  ${r.nn.toFixed(3)}  ${r.first_tier.toFixed(3)}     ${r.second_tier.toFixed(3)}     ${r.dcg.toFixed(3)}  ${r.map.toFixed(3)}  ${r.p_at_5.toFixed(3)}`);
+  }
+}
+
+async function study(lib: string, values: Values): Promise<void> {
+  await withModel(values, 'study', (enc, ckpt) => {
+    const library = loadLibrary(lib, { quiet: values.quiet || values.json, ...ckpt.manifest.sampling });
+    reportFailures(library.failures, Boolean(values.json));
+    const untrained = untrainedEncoder(ckpt.manifest.config.encoder, ckpt.manifest.config.seed);
+    const progress = new Progress('study', 1, values.quiet || values.json);
+    const rows = runStudy({
+      parts: asModelParts(library.parts), labels: library.labels, points: ckpt.manifest.config.points, pose: ckpt.manifest.config.pose,
+      encoders: { learned: enc, untrained }, upAxis: ckpt.manifest.config.pipeline.upAxis, seed: ckpt.manifest.config.seed,
+      onProgress: (done, total, what) => { (progress as unknown as { total: number }).total = total; progress.update(done, what); },
+    });
+    progress.done();
+    untrained.dispose();
+    if (values.json) { console.log(JSON.stringify({ parts: library.parts.length, rows })); return; }
+    console.log('augmentation   strength  method     instance  label   similarity  chamfer');
+    for (const r of rows) console.log(`${r.augmentation.padEnd(14)} ${r.strength.toFixed(2).padStart(8)}  ${r.method.padEnd(9)}  ${r.instance_top1.toFixed(3).padStart(8)}  ${r.label_top1.toFixed(3)}   ${r.mean_similarity.toFixed(3).padStart(10)}  ${r.mean_chamfer.toFixed(4)}`);
+  });
+}
+
+async function duplicates(lib: string, values: Values): Promise<void> {
+  const threshold = num(values, 'threshold', 0.97, false);
+  await withModel(values, 'duplicates', (enc, ckpt) => {
+    const library = loadLibrary(lib, { quiet: values.quiet || values.json, ...ckpt.manifest.sampling });
+    reportFailures(library.failures, Boolean(values.json));
+    const vectors = embedForRetrieval(enc, asModelParts(library.parts), ckpt.manifest.config.points, ckpt.manifest.config.pose);
+    const D = vectors.length / library.parts.length;
+    const groups = duplicateGroups(library.parts.length, cosineSimilarity(vectors, D), threshold);
+    const described = groups.map((g) => ({
+      parts: g.members.map((i) => ({ file: library.parts[i].name, label: library.labels[i], extents: library.parts[i].info.extents, diagonal: library.parts[i].diagonal })),
+      closest: Math.max(...g.pairs.map((p) => p.similarity)),
+    }));
+    if (values.json) { console.log(JSON.stringify({ threshold, groups: described, caution: CAUTION })); return; }
+    console.log(`${groups.length} groups of look-alike parts at similarity ≥ ${threshold}`);
+    described.forEach((g, n) => {
+      console.log(`\ngroup ${n + 1} (closest pair ${g.closest.toFixed(3)})`);
+      for (const p of g.parts) console.log(`  ${p.file.padEnd(40)} ${p.label.padEnd(16)} ${p.extents.map((v) => v.toPrecision(4)).join(' × ')}`);
+    });
+    console.log(`\n${CAUTION}`);
+  });
+}
+
+export async function main(argv: string[]): Promise<number> {
+  let parsed;
+  try {
+    parsed = parseArgs({ args: argv, options: OPTIONS, allowPositionals: true, strict: true });
+  } catch (err) {
+    process.stderr.write(`shapekin: ${(err as Error).message}\n\n${USAGE}`);
+    return 2;
+  }
+  const values = parsed.values as Values;
+  const [command, target, ...extra] = parsed.positionals;
+  if (values.help || !command) { process.stdout.write(USAGE); return command || values.help ? 0 : 2; }
+  const commands: Record<string, (t: string, v: Values) => Promise<void>> = { train, embed, query, eval: evaluate, study, duplicates };
+  const run = commands[command];
+  try {
+    if (!run) throw new CliError(`unknown command "${command}" (one of ${Object.keys(commands).join(', ')})`, 2);
+    if (!target) throw new CliError(`${command} needs a ${command === 'query' ? 'mesh file' : 'library folder'}`, 2);
+    if (extra.length) throw new CliError(`unexpected argument "${extra[0]}"`, 2);
+    await run(target, values);
+    return 0;
+  } catch (err) {
+    if (err instanceof CliError) { process.stderr.write(`shapekin: ${err.message}\n`); return err.exitCode; }
+    process.stderr.write(`shapekin: ${(err as Error).stack ?? err}\n`);
+    return 1;
+  }
+}

@@ -1,0 +1,140 @@
+// <sk-search-panel>: pick a library part (or drop a new file) and see the most similar parts with their
+// scores and real sizes; choosing a result shows it beside the query in linked 3-D views.
+// Sends 'search-query' (part name), 'search-file' (File), 'search-filters' upward.
+
+import { LitElement, css, html } from 'lit';
+import type { Object3D } from 'three';
+import type { LibraryPart } from '../../core/library';
+import type { Hit } from '../../core/retrieval/topk';
+import { meshObject, pointsObject, PALETTE } from '../controllers/scene';
+import { CameraLink } from '../controllers/viewer';
+import './viewer';
+
+export interface SearchFilters {
+  readonly k: number;
+  readonly sizeRatio: number | null;
+  readonly family: string;
+}
+
+export class SkSearchPanel extends LitElement {
+  static override properties = {
+    parts: { attribute: false }, query: { attribute: false }, hits: { attribute: false }, thumbnails: { attribute: false },
+    filters: { attribute: false }, families: { attribute: false }, source: { type: String }, chosen: { state: true }, busy: { type: Boolean },
+  };
+  declare parts: readonly LibraryPart[];
+  declare query: LibraryPart | null;
+  declare hits: readonly Hit[];
+  declare thumbnails: ReadonlyMap<string, string>;
+  declare filters: SearchFilters;
+  declare families: readonly string[];
+  declare source: string;
+  declare chosen: number;
+  declare busy: boolean;
+  private readonly link = new CameraLink();
+  private objects: { query: Object3D | null; result: Object3D | null } = { query: null, result: null };
+
+  constructor() {
+    super();
+    this.parts = [];
+    this.query = null;
+    this.hits = [];
+    this.thumbnails = new Map();
+    this.filters = { k: 10, sizeRatio: null, family: '' };
+    this.families = [];
+    this.source = '';
+    this.chosen = 0;
+    this.busy = false;
+  }
+
+  static override styles = css`
+    :host { display: block; }
+    .bar { display: flex; gap: 12px; align-items: center; flex-wrap: wrap; margin-bottom: 10px; }
+    select, input { font: inherit; padding: 4px 6px; border: 1px solid #b7ab96; border-radius: 4px; }
+    label.button { font: inherit; padding: 5px 12px; border: 1px solid #1d2b33; background: #fff; border-radius: 4px; cursor: pointer; }
+    input[type=file] { position: absolute; opacity: 0; width: 1px; height: 1px; }
+    :focus-visible { outline: 3px solid #c2571a; outline-offset: 1px; }
+    .main { display: grid; grid-template-columns: 360px 1fr; gap: 14px; }
+    ol { list-style: none; margin: 0; padding: 0; max-height: 560px; overflow: auto; }
+    li button { display: grid; grid-template-columns: 28px 88px 1fr; gap: 8px; align-items: center; width: 100%; text-align: left; font: inherit; color: inherit; background: #fff; border: 1px solid #d8d1c3; border-radius: 6px; padding: 4px; margin-bottom: 6px; cursor: pointer; }
+    li button[aria-pressed=true] { border-color: #c2571a; box-shadow: 0 0 0 2px #c2571a; }
+    img { width: 88px; border-radius: 4px; }
+    .rank { font-weight: 700; text-align: center; }
+    .score { font-weight: 600; }
+    .bar-score { height: 5px; background: #2f6f73; border-radius: 3px; margin-top: 2px; }
+    .small { font-size: 12px; color: #5a6870; }
+    .views { display: grid; grid-template-columns: 1fr 1fr; gap: 8px; }
+    sk-viewer { height: 360px; }
+    .caution { background: #fff6df; border-left: 4px solid #d9a21b; padding: 6px 10px; font-size: 13px; margin-bottom: 10px; }
+    .empty { color: #6b5d4d; padding: 20px; }
+  `;
+
+  private emit(name: string, detail?: unknown): void {
+    this.dispatchEvent(new CustomEvent(name, { detail, bubbles: true, composed: true }));
+  }
+
+  protected override willUpdate(changed: Map<string, unknown>): void {
+    if (changed.has('hits') || changed.has('query')) this.chosen = 0;
+    if (changed.has('hits') || changed.has('query') || changed.has('chosen')) {
+      const q = this.query;
+      this.objects.query = q ? objectFor(q, PALETTE.teal) : null;
+      const hit = this.hits[this.chosen];
+      this.objects.result = hit ? objectFor(this.parts[hit.index], PALETTE.rust) : null;
+    }
+  }
+
+  protected override render() {
+    const q = this.query;
+    const f = this.filters;
+    return html`
+      <div class="caution" role="note">Similar shape is not the same part: material, tolerances, loads and standards must be checked by a qualified person, following local codes and your engineering sign-off, before any substitution.</div>
+      <div class="bar">
+        <label>Find parts like
+          <select aria-label="Query part" @change=${(e: Event) => this.emit('search-query', (e.target as HTMLSelectElement).value)}>
+            ${q && !this.parts.some((p) => p.name === q.name) ? html`<option selected>${q.name} (dropped file)</option>` : null}
+            ${this.parts.map((p) => html`<option value=${p.name} ?selected=${q?.name === p.name}>${p.name}</option>`)}
+          </select></label>
+        <label class="button">…or a new file<input type="file" accept=".stl,.obj,.ply,.off,.xyz,.csv" @change=${(e: Event) => { const file = (e.target as HTMLInputElement).files?.[0]; if (file) this.emit('search-file', file); }} /></label>
+        <label>results <input type="number" min="1" max="100" .value=${String(f.k)} aria-label="number of results" @change=${(e: Event) => this.emit('search-filters', { ...f, k: Number((e.target as HTMLInputElement).value) })} style="width:60px" /></label>
+        <label>size within
+          <select aria-label="Size filter" @change=${(e: Event) => { const v = (e.target as HTMLSelectElement).value; this.emit('search-filters', { ...f, sizeRatio: v ? Number(v) : null }); }}>
+            ${[['', 'any size'], ['1.25', '±25%'], ['1.5', '×1.5'], ['2', '×2'], ['5', '×5']].map(([v, t]) => html`<option value=${v} ?selected=${String(f.sizeRatio ?? '') === v}>${t}</option>`)}
+          </select></label>
+        <label>folder
+          <select aria-label="Folder filter" @change=${(e: Event) => this.emit('search-filters', { ...f, family: (e.target as HTMLSelectElement).value })}>
+            <option value="">all folders</option>
+            ${this.families.map((fam) => html`<option value=${fam} ?selected=${f.family === fam}>${fam}</option>`)}
+          </select></label>
+        <span class="small">${this.busy ? 'embedding…' : this.source}</span>
+      </div>
+      ${q ? html`<div class="main">
+        <ol data-testid="search-results" aria-label="most similar parts">
+          ${this.hits.map((h, i) => {
+            const p = this.parts[h.index];
+            const ratio = q.diagonal > 0 ? p.diagonal / q.diagonal : 1;
+            return html`<li><button aria-pressed=${i === this.chosen} @click=${() => (this.chosen = i)}>
+              <span class="rank">${i + 1}</span>
+              ${this.thumbnails.get(p.name) ? html`<img src=${this.thumbnails.get(p.name)} alt="" />` : html`<span></span>`}
+              <span><span class="score">${h.score.toFixed(3)}</span> <span class="small">${p.label}</span>
+                <div class="bar-score" style="width:${Math.max(2, Math.round(Math.max(0, h.score) * 100))}%"></div>
+                <div class="small">${p.name.split('/').pop()}</div>
+                <div class="small">${p.info.extents.map((v) => v.toPrecision(3)).join(' × ')} · size ×${ratio.toFixed(2)}</div></span>
+            </button></li>`;
+          })}
+          ${this.hits.length === 0 ? html`<li class="empty">No part passes the filters.</li>` : null}
+        </ol>
+        <div>
+          <div class="views">
+            <sk-viewer .object=${this.objects.query} .link=${this.link} caption="query: ${q.name}"></sk-viewer>
+            <sk-viewer .object=${this.objects.result} .link=${this.link} caption=${this.hits[this.chosen] ? `#${this.chosen + 1}: ${this.parts[this.hits[this.chosen].index].name}` : ''}></sk-viewer>
+          </div>
+          <div class="small">Both views are scaled to the unit sphere and linked: drag either to turn both. Real sizes are listed beside each result.</div>
+        </div>
+      </div>` : html`<div class="empty">Choose a part or a file to search with.</div>`}`;
+  }
+}
+
+function objectFor(p: LibraryPart, colour: number): Object3D {
+  return p.meshIndices.length > 0 ? meshObject(p.meshPositions, p.meshIndices, p.centre, p.radius, colour) : pointsObject(p.points, 0.03);
+}
+
+customElements.define('sk-search-panel', SkSearchPanel);

@@ -1,0 +1,137 @@
+// <sk-train-panel>: training settings, start / pause / resume / stop, progress with ETA and speed, and the
+// live loss curve. Renders what it is given; sends 'train-start' (config), 'train-pause', 'train-resume',
+// 'train-stop' and 'train-continue' (resume a saved run) upward.
+
+import { LitElement, css, html } from 'lit';
+import { LOSS_NAMES, type LossName } from '../../core/model/losses';
+import type { TrainConfig, TrainProgress, HeldOutCheck } from '../../core/model/train';
+import { PRESETS } from '../../core/points/augment';
+import type { TrainStatusView } from '../status';
+import './loss-chart';
+
+export class SkTrainPanel extends LitElement {
+  static override properties = {
+    config: { attribute: false }, status: { attribute: false }, progress: { attribute: false },
+    history: { attribute: false }, checks: { attribute: false }, backend: { type: String },
+    savedStep: { type: Number }, savedTotal: { type: Number }, partCount: { type: Number }, hasLabels: { type: Boolean },
+  };
+  declare config: TrainConfig;
+  declare status: TrainStatusView;
+  declare progress: TrainProgress | null;
+  declare history: readonly { step: number; loss: number }[];
+  declare checks: readonly HeldOutCheck[];
+  declare backend: string;
+  declare savedStep: number;
+  declare savedTotal: number;
+  declare partCount: number;
+  declare hasLabels: boolean;
+
+  constructor() {
+    super();
+    this.status = { kind: 'idle' };
+    this.progress = null;
+    this.history = [];
+    this.checks = [];
+    this.backend = '';
+    this.savedStep = 0;
+    this.savedTotal = 0;
+    this.partCount = 0;
+    this.hasLabels = false;
+  }
+
+  static override styles = css`
+    :host { display: block; }
+    .grid { display: grid; grid-template-columns: 340px 1fr; gap: 16px; }
+    form { background: #fff; border: 1px solid #d8d1c3; border-radius: 6px; padding: 10px 12px; display: grid; grid-template-columns: auto 1fr; gap: 6px 10px; align-items: center; }
+    label { font-size: 13px; }
+    input, select { font: inherit; padding: 3px 6px; border: 1px solid #b7ab96; border-radius: 4px; width: 100%; box-sizing: border-box; }
+    .buttons { display: flex; gap: 8px; margin: 10px 0; flex-wrap: wrap; }
+    button { font: inherit; padding: 6px 14px; border: 1px solid #1d2b33; background: #fff; border-radius: 4px; cursor: pointer; }
+    button.primary { background: #1d2b33; color: #f4f1ea; }
+    button:disabled { opacity: 0.45; cursor: default; }
+    button:focus-visible, input:focus-visible, select:focus-visible { outline: 3px solid #c2571a; outline-offset: 1px; }
+    progress { width: 100%; height: 12px; }
+    .stats { font-size: 13px; margin: 6px 0 10px; color: #3d4b52; }
+    .note { font-size: 12px; color: #6b5d4d; grid-column: 1 / -1; }
+    .error { color: #8c1d17; background: #fbeceb; padding: 6px 10px; border-radius: 4px; }
+  `;
+
+  private emit(name: string, detail?: unknown): void {
+    this.dispatchEvent(new CustomEvent(name, { detail, bubbles: true, composed: true }));
+  }
+
+  private set<K extends keyof TrainConfig>(key: K, value: TrainConfig[K]): void {
+    this.emit('config-change', { ...this.config, [key]: value });
+  }
+
+  private num(e: Event): number {
+    return Number((e.target as HTMLInputElement).value);
+  }
+
+  protected override render() {
+    const c = this.config;
+    const s = this.status;
+    const busy = s.kind === 'running' || s.kind === 'paused' || s.kind === 'starting';
+    const p = this.progress;
+    const stepsPerEpoch = Math.max(1, Math.floor(this.partCount / Math.max(2, Math.min(c.batchSize, this.partCount))));
+    return html`<div class="grid">
+      <div>
+        <form @submit=${(e: Event) => e.preventDefault()} aria-label="training settings">
+          <label for="pts">points per view</label><input id="pts" type="number" min="64" max="4096" step="64" .value=${String(c.points)} ?disabled=${busy} @change=${(e: Event) => this.set('points', this.num(e))} />
+          <label for="batch">parts per batch</label><input id="batch" type="number" min="2" max="256" .value=${String(c.batchSize)} ?disabled=${busy} @change=${(e: Event) => this.set('batchSize', this.num(e))} />
+          <label for="epochs">epochs</label><input id="epochs" type="number" min="1" max="10000" .value=${String(c.epochs)} ?disabled=${busy} @change=${(e: Event) => this.set('epochs', this.num(e))} />
+          <label for="loss">loss</label><select id="loss" ?disabled=${busy} @change=${(e: Event) => this.set('loss', { ...c.loss, name: (e.target as HTMLSelectElement).value as LossName })}>
+            ${LOSS_NAMES.map((n) => html`<option value=${n} ?selected=${c.loss.name === n} ?disabled=${n === 'supervised-contrastive' && !this.hasLabels}>${n}</option>`)}
+          </select>
+          <label for="temp">temperature</label><input id="temp" type="number" min="0.01" max="2" step="0.01" .value=${String(c.loss.temperature)} ?disabled=${busy} @change=${(e: Event) => this.set('loss', { ...c.loss, temperature: this.num(e) })} />
+          <label for="lr">learning rate</label><input id="lr" type="number" min="0.00001" max="0.1" step="0.0001" .value=${String(c.learningRate)} ?disabled=${busy} @change=${(e: Event) => this.set('learningRate', this.num(e))} />
+          <label for="aug">augmentations</label><select id="aug" ?disabled=${busy} @change=${(e: Event) => this.set('pipeline', PRESETS[(e.target as HTMLSelectElement).value as keyof typeof PRESETS])}>
+            ${Object.entries(PRESETS).map(([n, pipe]) => html`<option value=${n} ?selected=${JSON.stringify(pipe) === JSON.stringify(c.pipeline)}>${n}</option>`)}
+            ${Object.values(PRESETS).some((pipe) => JSON.stringify(pipe) === JSON.stringify(c.pipeline)) ? null : html`<option selected>as composed on the Augmentations tab</option>`}
+          </select>
+          <label for="pose">pose</label><select id="pose" ?disabled=${busy} @change=${(e: Event) => this.set('pose', (e.target as HTMLSelectElement).value as TrainConfig['pose'])}>
+            <option value="principal-axes" ?selected=${c.pose === 'principal-axes'}>principal axes</option>
+            <option value="as-is" ?selected=${c.pose === 'as-is'}>as in the file</option>
+          </select>
+          <label for="seed">seed</label><input id="seed" type="number" min="0" step="1" .value=${String(c.seed)} ?disabled=${busy} @change=${(e: Event) => this.set('seed', this.num(e))} />
+          <label for="held">held out</label><input id="held" type="number" min="0" max="0.5" step="0.05" .value=${String(c.heldOutFraction)} ?disabled=${busy} @change=${(e: Event) => this.set('heldOutFraction', this.num(e))} />
+          <div class="note">${this.partCount} parts → ${stepsPerEpoch} steps an epoch, ${stepsPerEpoch * c.epochs} steps. Labels are never needed, except by the supervised-contrastive loss.</div>
+        </form>
+        <div class="buttons">
+          <button class="primary" ?disabled=${busy || this.partCount < 2} @click=${() => this.emit('train-start', c)}>Start training</button>
+          <button ?disabled=${s.kind !== 'running'} @click=${() => this.emit('train-pause')}>Pause</button>
+          <button ?disabled=${s.kind !== 'paused'} @click=${() => this.emit('train-resume')}>Resume</button>
+          <button ?disabled=${!busy} @click=${() => this.emit('train-stop')}>Stop</button>
+          ${this.savedStep > 0 && this.savedStep < this.savedTotal && !busy ? html`<button @click=${() => this.emit('train-continue')}>Continue the saved run (step ${this.savedStep} of ${this.savedTotal})</button>` : null}
+        </div>
+      </div>
+      <div>
+        <progress max=${p?.totalSteps ?? 1} value=${p?.step ?? 0} aria-label="training progress"></progress>
+        <div class="stats" data-testid="train-stats">
+          ${statusLine(s)}${p ? html` · step ${p.step} of ${p.totalSteps} · loss ${p.loss.toFixed(4)} · ${p.samplesPerSec.toFixed(1)} parts/s · ${p.msPerStep.toFixed(0)} ms a step · ${formatEta(p.etaSec)} left · lr ${p.learningRate.toExponential(1)}` : ''}
+          ${this.backend ? html` · backend ${this.backend}` : ''}
+        </div>
+        ${s.kind === 'failed' ? html`<div class="error" role="alert">${s.message}</div>` : null}
+        <sk-loss-chart .history=${this.history} .checks=${this.checks} .totalSteps=${p?.totalSteps ?? this.savedTotal}></sk-loss-chart>
+      </div>
+    </div>`;
+  }
+}
+
+function statusLine(s: TrainStatusView): string {
+  switch (s.kind) {
+    case 'idle': return 'not started';
+    case 'starting': return 'starting the worker…';
+    case 'running': return 'training';
+    case 'paused': return 'paused';
+    case 'done': return `finished (${s.result})`;
+    case 'failed': return 'stopped with an error';
+  }
+}
+
+function formatEta(sec: number): string {
+  const m = Math.floor(sec / 60), r = Math.round(sec % 60);
+  return m ? `${m} min ${r} s` : `${r} s`;
+}
+
+customElements.define('sk-train-panel', SkTrainPanel);

@@ -1,0 +1,76 @@
+// The page's side of the training worker: start/pause/resume/stop, embeddings, the saved model.
+// Replies for a superseded request id are dropped.
+
+import type { TrainConfig } from '../../core/model/train';
+import type { CheckpointMessage, PartArrays, TrainReply, TrainRequest } from '../../worker/protocol';
+
+type Listener = (msg: TrainReply) => void;
+
+export class TrainClient {
+  private worker: Worker | null = null;
+  private nextId = 1;
+  private readonly listeners = new Set<Listener>();
+  runId = 0;
+
+  private get w(): Worker {
+    if (!this.worker) {
+      this.worker = new Worker(new URL('../../worker/train.worker.ts', import.meta.url), { type: 'module' });
+      this.worker.onmessage = (e: MessageEvent<TrainReply>) => this.listeners.forEach((l) => l(e.data));
+      this.worker.onerror = (e) => this.listeners.forEach((l) => l({ type: 'error', id: this.runId, message: `training worker failed: ${e.message}` }));
+    }
+    return this.worker;
+  }
+
+  on(listener: Listener): () => void {
+    this.listeners.add(listener);
+    return () => this.listeners.delete(listener);
+  }
+
+  private send(msg: TrainRequest, transfer: Transferable[] = []): void {
+    this.w.postMessage(msg, transfer);
+  }
+
+  /** Copies the clouds (the page keeps its own) and starts a run; returns its id. */
+  start(parts: readonly PartArrays[], labels: readonly number[] | null, config: TrainConfig, sampling: { points: number; seed: number }, resume?: CheckpointMessage): number {
+    const id = this.nextId++;
+    this.runId = id;
+    const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+    this.send({ type: 'start', id, parts: copies, labels, config, sampling, ...(resume ? { resume: { ...resume, weightData: resume.weightData.slice(0) } } : {}) }, copies.flatMap((c) => [c.points.buffer, c.normals.buffer]));
+    return id;
+  }
+
+  pause(): void { this.send({ type: 'pause', id: this.runId }); }
+  resume(): void { this.send({ type: 'resume', id: this.runId }); }
+  cancel(): void { this.send({ type: 'cancel', id: this.runId }); }
+
+  private request<T extends TrainReply['type']>(msg: TrainRequest, expect: T): Promise<Extract<TrainReply, { type: T }>> {
+    return new Promise((resolve, reject) => {
+      const off = this.on((reply) => {
+        if (reply.id !== msg.id) return;
+        if (reply.type === 'error') { off(); reject(new Error(reply.message)); }
+        else if (reply.type === expect) { off(); resolve(reply as Extract<TrainReply, { type: T }>); }
+      });
+      this.send(msg);
+    });
+  }
+
+  async embed(parts: readonly PartArrays[], checkpoint: CheckpointMessage | null, config: TrainConfig): Promise<{ vectors: Float32Array; dim: number }> {
+    const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+    const id = this.nextId++;
+    const reply = await this.request({ type: 'embed', id, parts: copies, checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null, config }, 'embeddings');
+    return { vectors: reply.vectors, dim: reply.dim };
+  }
+
+  async loadSaved(): Promise<CheckpointMessage | null> {
+    return (await this.request({ type: 'load-saved', id: this.nextId++ }, 'saved')).checkpoint;
+  }
+
+  async save(checkpoint: CheckpointMessage): Promise<void> {
+    await this.request({ type: 'save', id: this.nextId++, checkpoint: { ...checkpoint, weightData: checkpoint.weightData.slice(0) } }, 'saved');
+  }
+
+  dispose(): void {
+    this.worker?.terminate();
+    this.worker = null;
+  }
+}

@@ -1,0 +1,131 @@
+// The training worker owns every tensor: it trains, checkpoints and embeds; the page only receives
+// progress, checkpoints (weights as a transferred buffer) and embeddings.
+
+import * as tf from '@tensorflow/tfjs';
+import wasmPlain from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm.wasm?url';
+import wasmSimd from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm-simd.wasm?url';
+import wasmThreaded from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm-threaded-simd.wasm?url';
+import { initBackend } from '../core/model/backend';
+import { encoderFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../core/model/checkpoint';
+import { embedForRetrieval } from '../core/model/embed';
+import { getWeights, Trainer } from '../core/model/train';
+import { untrainedEncoder } from '../core/retrieval/evaluate';
+import type { CheckpointMessage, TrainReply, TrainRequest } from './protocol';
+
+/** Where the current model lives in the browser: tfjs's own IndexedDB handler. */
+const SAVED = 'indexeddb://shapekin-current-model';
+
+async function keep(c: CheckpointMessage): Promise<void> {
+  const [handler] = tf.io.getSaveHandlers(SAVED);
+  await handler.save!({
+    format: 'shapekin-encoder', modelTopology: { shapekin: c.manifest } as unknown as tf.io.ModelArtifacts['modelTopology'],
+    weightSpecs: c.weightSpecs, weightData: c.weightData.slice(0), userDefinedMetadata: { adamStep: c.adamStep },
+  });
+}
+
+async function loadKept(): Promise<CheckpointMessage | null> {
+  const list = await tf.io.listModels().catch(() => ({} as Record<string, unknown>));
+  if (!(SAVED in list)) return null;
+  const [handler] = tf.io.getLoadHandlers(SAVED);
+  const art = await handler.load!();
+  const c = fromArtifacts(art, 'saved model');
+  return toMessage(c);
+}
+
+const post = (msg: TrainReply, transfer: ArrayBuffer[] = []) => (self as unknown as Worker).postMessage(msg, transfer);
+
+let backend: Promise<string> | null = null;
+function ready(): Promise<string> {
+  backend ??= initBackend({
+    prefer: 'wasm',
+    wasmPaths: { 'tfjs-backend-wasm.wasm': wasmPlain, 'tfjs-backend-wasm-simd.wasm': wasmSimd, 'tfjs-backend-wasm-threaded-simd.wasm': wasmThreaded },
+  });
+  return backend;
+}
+
+let trainer: Trainer | null = null;
+let trainerId = 0;
+
+function toMessage(ckpt: Checkpoint): CheckpointMessage {
+  const art = toArtifacts(ckpt);
+  return { manifest: ckpt.manifest, weightSpecs: art.weightSpecs as CheckpointMessage['weightSpecs'], weightData: art.weightData as ArrayBuffer, adamStep: ckpt.adam?.step ?? 0 };
+}
+
+export function fromMessage(m: CheckpointMessage): Checkpoint {
+  return fromArtifacts({ format: 'shapekin-encoder', modelTopology: { shapekin: m.manifest } as unknown as tf.io.ModelArtifacts['modelTopology'], weightSpecs: m.weightSpecs, weightData: m.weightData, userDefinedMetadata: { adamStep: m.adamStep } }, 'saved model');
+}
+
+function snapshot(t: Trainer, sampling: { points: number; seed: number }, status: Checkpoint['manifest']['status'], name: string): CheckpointMessage {
+  return toMessage({
+    manifest: { format: 'shapekin-encoder', version: 1, config: t.config, sampling, step: t.step, totalSteps: t.totalSteps, status, backend: name, history: t.history, checks: t.checks },
+    weights: getWeights(t.encoder),
+    adam: t.adamState(),
+  });
+}
+
+self.onmessage = async (event: MessageEvent<TrainRequest>) => {
+  const req = event.data;
+  try {
+    const name = await ready();
+    switch (req.type) {
+      case 'start': {
+        if (trainer) throw new Error('a training run is already in progress');
+        post({ type: 'backend', id: req.id, backend: name });
+        const resume = req.resume ? fromMessage(req.resume) : null;
+        trainer = new Trainer(req.parts, resume ? resume.manifest.config : req.config, {
+          labels: req.labels,
+          ...(resume ? { initialWeights: resume.weights, resume: { step: resume.manifest.step, adam: resume.adam!, history: resume.manifest.history, checks: resume.manifest.checks } } : {}),
+        });
+        trainerId = req.id;
+        const t = trainer;
+        let lastSave = performance.now();
+        const result = await t.run({
+          onProgress: (progress) => {
+            post({ type: 'progress', id: req.id, progress });
+            if (performance.now() - lastSave > 20_000) {
+              const c = snapshot(t, req.sampling, 'running', name);
+              void keep(c).then(() => post({ type: 'checkpoint', id: req.id, checkpoint: c }, [c.weightData]));
+              lastSave = performance.now();
+            }
+          },
+          onCheck: (check) => post({ type: 'check', id: req.id, check }),
+        });
+        const c = snapshot(t, req.sampling, result.status, name);
+        await keep(c);
+        post({ type: 'checkpoint', id: req.id, checkpoint: c }, [c.weightData]);
+        post({ type: 'done', id: req.id, result });
+        t.dispose();
+        trainer = null;
+        return;
+      }
+      case 'pause': if (trainer && req.id === trainerId) { trainer.pause(); post({ type: 'status', id: req.id, status: 'paused' }); } return;
+      case 'resume': if (trainer && req.id === trainerId) { trainer.resume(); post({ type: 'status', id: req.id, status: 'running' }); } return;
+      case 'cancel': if (trainer && req.id === trainerId) trainer.cancel(); return;
+      case 'load-saved': {
+        const c = await loadKept();
+        post({ type: 'saved', id: req.id, checkpoint: c }, c ? [c.weightData] : []);
+        return;
+      }
+      case 'save': {
+        fromMessage(req.checkpoint); // validates before it replaces anything
+        await keep(req.checkpoint);
+        post({ type: 'saved', id: req.id, checkpoint: req.checkpoint });
+        return;
+      }
+      case 'embed': {
+        const enc = req.checkpoint ? encoderFromCheckpoint(fromMessage(req.checkpoint)) : untrainedEncoder(req.config.encoder, req.config.seed);
+        const cfg = req.checkpoint ? fromMessage(req.checkpoint).manifest.config : req.config;
+        try {
+          const vectors = embedForRetrieval(enc, req.parts, cfg.points, cfg.pose);
+          post({ type: 'embeddings', id: req.id, vectors, dim: vectors.length / Math.max(1, req.parts.length), learned: Boolean(req.checkpoint) }, [vectors.buffer as ArrayBuffer]);
+        } finally {
+          enc.dispose();
+        }
+        return;
+      }
+    }
+  } catch (err) {
+    if (req.type === 'start') { trainer?.dispose(); trainer = null; }
+    post({ type: 'error', id: req.id, message: (err as Error).message });
+  }
+};

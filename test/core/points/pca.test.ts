@@ -1,0 +1,72 @@
+import { beforeAll, describe, expect, it } from 'vitest';
+import { Encoder, DEFAULT_ENCODER } from '../../../src/core/model/encoder';
+import { embedForRetrieval } from '../../../src/core/model/embed';
+import { makeCloud } from '../../../src/core/points/cloud';
+import { alignToPrincipalAxes, principalFrame, symmetricEigen3 } from '../../../src/core/points/pca';
+import { axisAngle, randomRotation, transformPoints } from '../../../src/core/points/rotation';
+import { createRng } from '../../../src/core/rng';
+import { expectClose } from '../../helpers';
+import { useBackend } from '../../tf-helpers';
+
+beforeAll(async () => { await useBackend('wasm'); });
+
+/** Points spread unevenly along three axes (a skewed box), so the principal axes are well defined. */
+function skewedCloud(n: number, seed: number): Float32Array {
+  const rng = createRng(seed);
+  const p = new Float32Array(n * 3);
+  for (let i = 0; i < n; i++) {
+    const u = rng.next();
+    p.set([3 * u * u - 1, rng.uniform(-0.6, 0.6) * (0.5 + u), rng.uniform(-0.2, 0.2)], i * 3);
+  }
+  let cx = 0, cy = 0, cz = 0;
+  for (let i = 0; i < n; i++) { cx += p[i * 3]; cy += p[i * 3 + 1]; cz += p[i * 3 + 2]; }
+  for (let i = 0; i < n; i++) { p[i * 3] -= cx / n; p[i * 3 + 1] -= cy / n; p[i * 3 + 2] -= cz / n; }
+  return p;
+}
+
+describe('symmetric 3×3 eigen-decomposition (Jacobi)', () => {
+  it('recovers the eigenvalues and eigenvectors of R·diag(5, 2, 0.5)·Rᵀ built from a known rotation', () => {
+    const r = axisAngle([0.6, 0.8, 0], 0.7);
+    const lam = [5, 2, 0.5];
+    const m = new Float64Array(9);
+    for (let i = 0; i < 3; i++) for (let j = 0; j < 3; j++) for (let k = 0; k < 3; k++) m[i * 3 + j] += r[i * 3 + k] * lam[k] * r[j * 3 + k];
+    const { values, vectors } = symmetricEigen3(m);
+    expectClose(values, lam, { atol: 1e-10 });
+    for (let k = 0; k < 3; k++) {
+      // Row k of `vectors` is ± column k of R.
+      const dot = vectors[k * 3] * r[k] + vectors[k * 3 + 1] * r[3 + k] + vectors[k * 3 + 2] * r[6 + k];
+      expectClose(Math.abs(dot), 1, { atol: 1e-10 });
+    }
+  });
+});
+
+describe('principal-axes pose', () => {
+  it('is a proper rotation, and a rotated copy lands in the same pose', () => {
+    const p = skewedCloud(3000, 1);
+    const m = principalFrame(p);
+    const det = m[0] * (m[4] * m[8] - m[5] * m[7]) - m[1] * (m[3] * m[8] - m[5] * m[6]) + m[2] * (m[3] * m[7] - m[4] * m[6]);
+    expectClose(det, 1, { atol: 1e-9 });
+    const a = alignToPrincipalAxes(makeCloud(p)).positions;
+    const rng = createRng(2);
+    for (let t = 0; t < 5; t++) {
+      const b = alignToPrincipalAxes(makeCloud(transformPoints(randomRotation(rng), p))).positions;
+      expectClose(b, a, { atol: 1e-4 });
+    }
+  });
+  it('makes retrieval embeddings independent of the input orientation', () => {
+    const enc = new Encoder(DEFAULT_ENCODER, createRng(3));
+    const p = skewedCloud(512, 4);
+    const part = { points: p, normals: new Float32Array(p.length) };
+    const turned = transformPoints(randomRotation(createRng(5)), p);
+    const e1 = embedForRetrieval(enc, [part], 512, 'principal-axes');
+    const e2 = embedForRetrieval(enc, [{ points: turned, normals: part.normals }], 512, 'principal-axes');
+    expectClose(e2, e1, { atol: 1e-3 });
+    // Without the pose the same rotation moves the embedding.
+    const f1 = embedForRetrieval(enc, [part], 512, 'as-is');
+    const f2 = embedForRetrieval(enc, [{ points: turned, normals: part.normals }], 512, 'as-is');
+    let cos = 0;
+    for (let i = 0; i < f1.length; i++) cos += f1[i] * f2[i];
+    expect(cos).toBeLessThan(0.999);
+    enc.dispose();
+  });
+});
