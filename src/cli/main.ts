@@ -10,7 +10,7 @@ import { embedForRetrieval, type ModelPart } from '../core/model/embed';
 import type { Encoder } from '../core/model/encoder';
 import { LOSS_NAMES, type LossName } from '../core/model/losses';
 import { getWeights, Trainer, type TrainConfig } from '../core/model/train';
-import { pipelineFromJson, PRESETS, type Pipeline } from '../core/points/augment';
+import { AUGMENT_KINDS, pipelineFromJson, PRESETS, type AugmentKind, type Pipeline } from '../core/points/augment';
 import { duplicateGroups } from '../core/retrieval/duplicates';
 import { evaluateMethods, untrainedEncoder } from '../core/retrieval/evaluate';
 import { EmbeddingIndex } from '../core/retrieval/index';
@@ -34,7 +34,7 @@ usage:
   shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy>
   shapekin query <mesh-file> --model <run-dir> --library <library-dir> [-k 10] [--size-ratio R] [--json]
   shapekin eval <library-dir> [--model <run-dir>] [--json]
-  shapekin study <library-dir> --model <run-dir> [--json]
+  shapekin study <library-dir> --model <run-dir> [--augmentations a,b,…] [--strengths 0,0.5,1] [--json]
   shapekin duplicates <library-dir> --model <run-dir> [--threshold 0.97] [--json]
 
 presets for --augment: ${Object.keys(PRESETS).join(', ')}
@@ -46,7 +46,7 @@ const OPTIONS = {
   batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' },
   k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, threshold: { type: 'string' },
   json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
-  backend: { type: 'string' },
+  backend: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
 } as const;
 
 type Values = { [K in keyof typeof OPTIONS]?: (typeof OPTIONS)[K]['type'] extends 'boolean' ? boolean : string };
@@ -219,11 +219,15 @@ async function study(lib: string, values: Values): Promise<void> {
   await withModel(values, 'study', (enc, ckpt) => {
     const library = loadLibrary(lib, { quiet: values.quiet || values.json, ...ckpt.manifest.sampling });
     reportFailures(library.failures, Boolean(values.json));
+    const kinds = values.augmentations ? values.augmentations.split(',').map((k) => k.trim()) : undefined;
+    for (const k of kinds ?? []) if (!(AUGMENT_KINDS as readonly string[]).includes(k)) throw new CliError(`--augmentations: unknown "${k}" (one of ${AUGMENT_KINDS.join(', ')})`, 2);
+    const strengths = values.strengths ? values.strengths.split(',').map(Number) : undefined;
+    if (strengths?.some((s) => !(s >= 0 && s <= 1))) throw new CliError(`--strengths must be numbers in [0, 1], got "${values.strengths}"`, 2);
     const untrained = untrainedEncoder(ckpt.manifest.config.encoder, ckpt.manifest.config.seed);
     const progress = new Progress('study', 1, values.quiet || values.json);
     const rows = runStudy({
       parts: asModelParts(library.parts), labels: library.labels, points: ckpt.manifest.config.points, pose: ckpt.manifest.config.pose,
-      encoders: { learned: enc, untrained }, upAxis: ckpt.manifest.config.pipeline.upAxis, seed: ckpt.manifest.config.seed,
+      encoders: { learned: enc, untrained }, ...(kinds ? { kinds: kinds as AugmentKind[] } : {}), ...(strengths ? { strengths } : {}), upAxis: ckpt.manifest.config.pipeline.upAxis, seed: ckpt.manifest.config.seed,
       onProgress: (done, total, what) => { (progress as unknown as { total: number }).total = total; progress.update(done, what); },
     });
     progress.done();

@@ -57,6 +57,44 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.screenshot({ path: `${ARTIFACTS}/augment.png` });
   }, 60_000);
 
+  it('trains a few steps in the worker with progress and a falling loss, and the page never blocks for 200 ms', async () => {
+    await page.evaluate(() => {
+      const w = window as unknown as { longTasks: number[] };
+      w.longTasks = [];
+      new PerformanceObserver((list) => { for (const e of list.getEntries()) w.longTasks.push(e.duration); }).observe({ type: 'longtask', buffered: false });
+    });
+    await page.getByRole('tab', { name: 'Training' }).click();
+    await page.getByLabel('epochs').fill('3');
+    await page.getByLabel('epochs').dispatchEvent('change');
+    await page.getByRole('button', { name: 'Start training' }).click();
+    const stats = page.getByTestId('train-stats');
+    await expect.poll(async () => (await stats.textContent()) ?? '', { timeout: 120_000 }).toMatch(/step [2-9] of 9 · loss \d/);
+    expect((await stats.textContent()) ?? '').toMatch(/parts\/s .* left/);
+    await page.screenshot({ path: `${ARTIFACTS}/training.png` });
+    await expect.poll(async () => (await stats.textContent()) ?? '', { timeout: 120_000 }).toMatch(/finished \(done\)/);
+    const losses = await page.evaluate(() => (document.querySelector('sk-app') as unknown as { history: { loss: number }[] }).history.map((h) => h.loss));
+    expect(losses.length).toBe(9);
+    expect((losses[7] + losses[8]) / 2).toBeLessThan((losses[0] + losses[1]) / 2);
+    const longTasks = await page.evaluate(() => (window as unknown as { longTasks: number[] }).longTasks);
+    expect(Math.max(0, ...longTasks)).toBeLessThan(200);
+  }, 240_000);
+
+  it('a search returns ranked results with scores', async () => {
+    await page.getByRole('tab', { name: 'Look-alikes' }).click();
+    const results = page.getByTestId('search-results').locator('li button');
+    await expect.poll(async () => results.count(), { timeout: 60_000 }).toBe(10);
+    const scores = (await page.getByTestId('search-results').locator('.score').allTextContents()).map(Number);
+    for (let i = 1; i < scores.length; i++) expect(scores[i]).toBeLessThanOrEqual(scores[i - 1]);
+    expect(await page.getByText(/qualified person/).count()).toBeGreaterThan(0);
+    await page.screenshot({ path: `${ARTIFACTS}/search.png` });
+  }, 120_000);
+
+  it('a reload keeps the library and the trained model', async () => {
+    await page.reload();
+    await expect.poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 60_000 }).toMatch(/112 parts in 14 folders/);
+    await expect.poll(async () => page.getByTestId('model-status').textContent(), { timeout: 60_000 }).toMatch(/model: 9 of 9 steps \(done\)/);
+  }, 120_000);
+
   it('shows no page errors or console errors', () => {
     expect(errors).toEqual([]);
   });

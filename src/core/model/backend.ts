@@ -17,6 +17,10 @@ export async function initBackend(options: BackendOptions = {}): Promise<Backend
   if (options.wasmPaths) setWasmPaths(options.wasmPaths);
   if (prefer === 'wasm') {
     try {
+      // Single-threaded wasm on purpose: the threaded build needs cross-origin isolation, crashed once
+      // minified by the production build, and gave no speed-up on two cores. The second core goes to
+      // the page and the data work instead.
+      tf.env().set('WASM_HAS_MULTITHREAD_SUPPORT', false);
       if (await tf.setBackend('wasm')) {
         await tf.ready();
         return 'wasm';

@@ -1,0 +1,125 @@
+// The command line end to end on the demo library: a tiny training run, then every command on its output.
+
+import { existsSync, mkdtempSync, readFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
+import { main } from '../../src/cli/main';
+
+const DEMO = 'demo-shapes';
+let run = '';
+let out: string[] = [];
+let err: string[] = [];
+
+function capture() {
+  out = []; err = [];
+  vi.spyOn(console, 'log').mockImplementation((...a: unknown[]) => { out.push(a.join(' ')); });
+  vi.spyOn(console, 'error').mockImplementation((...a: unknown[]) => { err.push(a.join(' ')); });
+  vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => { err.push(String(s)); return true; });
+}
+afterEach(() => vi.restoreAllMocks());
+
+beforeAll(async () => {
+  run = mkdtempSync(join(tmpdir(), 'shapekin-run-'));
+  capture();
+  const code = await main(['train', DEMO, '--out', run, '--epochs', '2', '--points', '128', '--json']);
+  vi.restoreAllMocks();
+  if (code !== 0) throw new Error(`train failed: ${err.join('')}`);
+}, 120_000);
+
+describe('shapekin train', () => {
+  it('writes a model in tfjs format and reports the run as JSON', () => {
+    expect(existsSync(join(run, 'model.json'))).toBe(true);
+    expect(existsSync(join(run, 'weights.bin'))).toBe(true);
+    const model = JSON.parse(readFileSync(join(run, 'model.json'), 'utf8'));
+    expect(model.format).toBe('shapekin-encoder');
+    expect(model.weightsManifest[0].paths).toEqual(['weights.bin']);
+    expect(model.modelTopology.shapekin.step).toBe(6); // 112 parts, batch 32 → 3 steps an epoch, 2 epochs
+  });
+});
+
+describe('shapekin eval --json', () => {
+  it('prints one object with parts, labels and every method in [0, 1]', async () => {
+    capture();
+    expect(await main(['eval', DEMO, '--model', run, '--json'])).toBe(0);
+    const r = JSON.parse(out.join('\n'));
+    expect(r.parts).toBe(112);
+    expect(r.labels).toBe(14);
+    expect(Object.keys(r.methods).sort()).toEqual(['d2', 'learned', 'untrained']);
+    for (const m of Object.values(r.methods) as Record<string, number>[]) {
+      expect(Object.keys(m).sort()).toEqual(['dcg', 'first_tier', 'map', 'nn', 'p_at_5', 'second_tier']);
+      for (const v of Object.values(m)) { expect(v).toBeGreaterThanOrEqual(0); expect(v).toBeLessThanOrEqual(1); }
+    }
+    expect(err.join('')).toBe(''); // --json keeps stderr free of per-file lines
+  }, 120_000);
+  it('without --model leaves learned out', async () => {
+    capture();
+    expect(await main(['eval', DEMO, '--json'])).toBe(0);
+    expect(Object.keys(JSON.parse(out.join('\n')).methods).sort()).toEqual(['d2', 'untrained']);
+  }, 120_000);
+});
+
+describe('shapekin embed, query, duplicates, study', () => {
+  it('embed writes .npy (NumPy v1.0), .csv and .json', async () => {
+    capture();
+    const npy = join(run, 'e.npy'), csv = join(run, 'e.csv'), json = join(run, 'e.json');
+    for (const f of [npy, csv, json]) expect(await main(['embed', DEMO, '--model', run, '--out', f])).toBe(0);
+    const b = readFileSync(npy);
+    expect(b.subarray(1, 6).toString()).toBe('NUMPY');
+    expect(b.subarray(10, 10 + b.readUInt16LE(8)).toString()).toContain("'shape': (112, 256)");
+    const rows = readFileSync(csv, 'utf8').trim().split('\n');
+    expect(rows[0].split(',').slice(0, 6)).toEqual(['file', 'label', 'extent_x', 'extent_y', 'extent_z', 'e0']);
+    expect(rows.length).toBe(113);
+    expect(JSON.parse(readFileSync(json, 'utf8')).parts[0].embedding.length).toBe(256);
+  }, 120_000);
+  it('query ranks library parts for a mesh file, best first, with the caution', async () => {
+    capture();
+    const file = join(DEMO, 'washer', 'BC01-100A.stl');
+    expect(await main(['query', file, '--model', run, '--library', DEMO, '-k', '5', '--json'])).toBe(0);
+    const r = JSON.parse(out.join('\n'));
+    expect(r.results.length).toBe(5);
+    // Sampled afresh under another name, the file need not be its own first match, but its family leads.
+    expect(r.results[0].label).toBe('washer');
+    expect(r.results.map((x: { file: string }) => x.file)).toContain('washer/BC01-100A.stl');
+    for (let i = 1; i < 5; i++) expect(r.results[i].score).toBeLessThanOrEqual(r.results[i - 1].score);
+    expect(r.caution).toMatch(/qualified person/);
+  }, 120_000);
+  it('duplicates groups look-alikes above a threshold', async () => {
+    capture();
+    expect(await main(['duplicates', DEMO, '--model', run, '--threshold', '0.999', '--json'])).toBe(0);
+    const r = JSON.parse(out.join('\n'));
+    expect(r.threshold).toBe(0.999);
+    for (const g of r.groups) expect(g.parts.length).toBeGreaterThanOrEqual(2);
+  }, 120_000);
+  it('study reports rows per augmentation, strength and method', async () => {
+    capture();
+    expect(await main(['study', DEMO, '--model', run, '--augmentations', 'jitter', '--strengths', '0,1', '--json'])).toBe(0);
+    const r = JSON.parse(out.join('\n'));
+    expect(r.rows.length).toBe(2 * 3);
+    const clean = r.rows.find((x: { strength: number; method: string }) => x.strength === 0 && x.method === 'learned');
+    expect(clean.instance_top1).toBe(1); // an unchanged part finds itself
+    expect(clean.mean_chamfer).toBe(0);
+  }, 120_000);
+});
+
+describe('bad arguments and unreadable files: one clear line and a non-zero exit', () => {
+  it.each([
+    [['frobnicate', DEMO], 2, /unknown command "frobnicate"/],
+    [['train', DEMO], 2, /train needs --out/],
+    [['eval', 'no/such/folder'], 1, /library folder not found: no\/such\/folder/],
+    [['embed', DEMO, '--model', 'no/such/run', '--out', 'x.npy'], 1, /no model in no\/such\/run/],
+    [['embed', DEMO, '--model', 'x', '--out', 'x.txt'], 2, /--out must end in .csv, .json or .npy/],
+    [['train', DEMO, '--out', 'x', '--epochs', 'ten'], 2, /--epochs must be a whole number/],
+    [['query', 'missing.stl', '--model', 'x', '--library', DEMO], 2, /query file not found/],
+    [['eval', DEMO, '--bogus'], 2, /Unknown option '--bogus'/],
+  ] as const)('%j', async (args, code, message) => {
+    capture();
+    expect(await main([...args])).toBe(code);
+    expect(err.join('')).toMatch(message);
+  });
+  it('a bad file inside a library is reported and skipped', async () => {
+    capture();
+    expect(await main(['eval', DEMO])).toBe(0);
+    expect(err.join('')).toMatch(/skipped broken\/empty-export\.stl: the file is empty/);
+  }, 120_000);
+});
