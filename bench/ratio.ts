@@ -1,10 +1,13 @@
-// `npm run bench:ratio`: the same reference training step in tfjs-wasm (Node) and in PyTorch (Debian's
-// python3-torch, OpenBLAS, 2 threads), measured in one run, and the time ratio tfjs / PyTorch.
+// `npm run bench:ratio`: the same reference training step (B = 32 pairs, N = 512, 64-128-256, head 256-128,
+// NT-Xent, Adam) in tfjs-wasm in Node, in tfjs-wasm in a browser training worker (Debian's Chromium, headless),
+// and in PyTorch (Debian's python3-torch, OpenBLAS, 2 threads), measured in one run; prints the time ratios.
 
 import { execFileSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { initBackend } from '../src/core/model/backend';
-import { REFERENCE, timeStep } from './model';
+import { REFERENCE_ENCODER, timeStep } from '../src/core/model/speed';
+import { chromiumAvailable, launch } from '../test/browser/chromium';
+import { startPreview } from '../test/browser/server';
 import { fmt, report } from './timing';
 
 const python = '/usr/bin/python3';
@@ -18,10 +21,28 @@ if (existsSync(python)) {
   }
 }
 await initBackend({ prefer: 'wasm' });
-const tfjs = timeStep(REFERENCE, 32, 512, 9);
-const rows: [string, string][] = [['tfjs-wasm (Node, 1 thread): reference step', `${fmt(tfjs, 0)} ms`]];
+const node = timeStep(REFERENCE_ENCODER, 32, 512, 9);
+
+let browser: { msPerStep: number; backend: string } | null = null;
+if (chromiumAvailable()) {
+  if (!existsSync('dist/index.html')) execFileSync('npx', ['vite', 'build'], { stdio: 'ignore' });
+  const server = await startPreview();
+  const ctx = await launch();
+  try {
+    const page = await ctx.newPage();
+    await page.goto(server.url);
+    browser = await page.evaluate(() => (window as unknown as { shapekinBenchStep: (r: number) => Promise<{ msPerStep: number; backend: string }> }).shapekinBenchStep(9));
+  } finally {
+    await ctx.close();
+    await server.close();
+  }
+} else console.warn('browser worker not measured: no Chromium at /usr/bin/chromium');
+
+const rows: [string, string][] = [['tfjs-wasm in Node (1 thread)', `${fmt(node, 0)} ms a step`]];
+if (browser) rows.push([`tfjs-${browser.backend} in a Chromium worker (1 thread)`, `${fmt(browser.msPerStep, 0)} ms a step`]);
 if (torch) {
-  rows.push([`PyTorch ${torch.torch} + OpenBLAS, ${torch.threads} threads`, `${fmt(torch.ms_per_step, 0)} ms (min ${fmt(torch.min_ms, 0)})`]);
-  rows.push(['time ratio tfjs-wasm / PyTorch', fmt(tfjs / torch.ms_per_step, 2)]);
+  rows.push([`PyTorch ${torch.torch} + OpenBLAS, ${torch.threads} threads`, `${fmt(torch.ms_per_step, 0)} ms a step (min ${fmt(torch.min_ms, 0)})`]);
+  rows.push(['ratio Node tfjs / PyTorch', fmt(node / torch.ms_per_step, 2)]);
+  if (browser) rows.push(['ratio browser worker / PyTorch', fmt(browser.msPerStep / torch.ms_per_step, 2)]);
 }
-report('reference step: tfjs against PyTorch', rows);
+report('reference training step: tfjs against PyTorch, one run', rows);

@@ -9,7 +9,9 @@ import { initBackend } from '../core/model/backend';
 import { encoderFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../core/model/checkpoint';
 import { embedForRetrieval } from '../core/model/embed';
 import { getWeights, Trainer } from '../core/model/train';
-import { untrainedEncoder } from '../core/retrieval/evaluate';
+import { REFERENCE_ENCODER, timeStep } from '../core/model/speed';
+import { evaluateMethods, untrainedEncoder } from '../core/retrieval/evaluate';
+import { runStudy } from '../core/retrieval/study';
 import type { CheckpointMessage, TrainReply, TrainRequest } from './protocol';
 
 /** Where the current model lives in the browser: tfjs's own IndexedDB handler. */
@@ -101,6 +103,41 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
       case 'pause': if (trainer && req.id === trainerId) { trainer.pause(); post({ type: 'status', id: req.id, status: 'paused' }); } return;
       case 'resume': if (trainer && req.id === trainerId) { trainer.resume(); post({ type: 'status', id: req.id, status: 'running' }); } return;
       case 'cancel': if (trainer && req.id === trainerId) trainer.cancel(); return;
+      case 'bench': {
+        post({ type: 'bench', id: req.id, msPerStep: timeStep(REFERENCE_ENCODER, 32, 512, req.repeats), backend: name });
+        return;
+      }
+      case 'evaluate': {
+        const ckpt = req.checkpoint ? fromMessage(req.checkpoint) : null;
+        const cfg = ckpt ? ckpt.manifest.config : req.config;
+        const learned = ckpt ? encoderFromCheckpoint(ckpt) : undefined;
+        try {
+          const report = evaluateMethods({ parts: req.parts, labels: req.labels, points: cfg.points, pose: cfg.pose, ...(learned ? { learned } : {}), untrainedConfig: cfg.encoder, seed: cfg.seed });
+          post({ type: 'evaluation', id: req.id, report });
+        } finally {
+          learned?.dispose();
+        }
+        return;
+      }
+      case 'study': {
+        const ckpt = req.checkpoint ? fromMessage(req.checkpoint) : null;
+        const cfg = ckpt ? ckpt.manifest.config : req.config;
+        const learned = ckpt ? encoderFromCheckpoint(ckpt) : undefined;
+        const untrained = untrainedEncoder(cfg.encoder, cfg.seed);
+        try {
+          const rows = runStudy({
+            parts: req.parts, labels: req.labels, points: cfg.points, pose: cfg.pose, upAxis: cfg.pipeline.upAxis, seed: cfg.seed,
+            encoders: { ...(learned ? { learned } : {}), untrained },
+            ...(req.kinds ? { kinds: req.kinds } : {}), ...(req.strengths ? { strengths: req.strengths } : {}),
+            onProgress: (done, total, what) => post({ type: 'study-progress', id: req.id, done, total, what }),
+          });
+          post({ type: 'study', id: req.id, rows });
+        } finally {
+          learned?.dispose();
+          untrained.dispose();
+        }
+        return;
+      }
       case 'load-saved': {
         const c = await loadKept();
         post({ type: 'saved', id: req.id, checkpoint: c }, c ? [c.weightData] : []);

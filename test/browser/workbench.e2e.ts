@@ -89,6 +89,18 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.screenshot({ path: `${ARTIFACTS}/search.png` });
   }, 120_000);
 
+  it('the map shows every part, and the quality panel measures the model against the baselines', async () => {
+    await page.getByRole('tab', { name: 'Map' }).click();
+    await expect.poll(async () => page.locator('sk-map-panel').locator('circle').count(), { timeout: 30_000 }).toBe(112);
+    await page.screenshot({ path: `${ARTIFACTS}/map.png` });
+    await page.getByRole('tab', { name: 'Quality' }).click();
+    await page.getByRole('button', { name: 'Measure retrieval quality' }).click();
+    const table = page.getByTestId('metrics-table');
+    await expect.poll(async () => (await table.count()) ? table.locator('tr').count() : 0, { timeout: 120_000 }).toBe(4);
+    expect(await table.textContent()).toMatch(/learned.*untrained.*d2/s);
+    await page.screenshot({ path: `${ARTIFACTS}/quality.png` });
+  }, 180_000);
+
   it('a reload keeps the library and the trained model', async () => {
     await page.reload();
     await expect.poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 60_000 }).toMatch(/112 parts in 14 folders/);

@@ -22,14 +22,21 @@ import './library-panel';
 import './augment-panel';
 import './train-panel';
 import './search-panel';
+import './map-panel';
+import './study-panel';
+import type { EvaluationReport } from '../../core/retrieval/evaluate';
+import type { StudyRow } from '../../core/retrieval/study';
+import { writeNpyFloat32 } from '../../core/retrieval/npy';
 
-type Panel = 'library' | 'augment' | 'train' | 'search';
+type Panel = 'library' | 'augment' | 'train' | 'search' | 'map' | 'study';
 
 const PANELS: readonly { id: Panel; label: string }[] = [
   { id: 'library', label: 'Parts library' },
   { id: 'augment', label: 'Augmentations' },
   { id: 'train', label: 'Training' },
   { id: 'search', label: 'Look-alikes' },
+  { id: 'map', label: 'Map' },
+  { id: 'study', label: 'Quality' },
 ];
 
 const SAMPLING = { ...DEFAULT_SAMPLING, points: POOL_POINTS };
@@ -40,8 +47,12 @@ export class SkApp extends LitElement {
     selected: { state: true }, pipeline: { state: true }, config: { state: true }, trainStatus: { state: true },
     progress: { state: true }, history: { state: true }, checks: { state: true }, backend: { state: true },
     model: { state: true }, index: { state: true }, hits: { state: true }, query: { state: true }, filters: { state: true },
-    embedding: { state: true }, notice: { state: true },
+    embedding: { state: true }, notice: { state: true }, report: { state: true }, studyRows: { state: true }, studyProgress: { state: true }, measuring: { state: true },
   };
+  declare report: EvaluationReport | null;
+  declare studyRows: StudyRow[];
+  declare studyProgress: { done: number; total: number; what: string } | null;
+  declare measuring: boolean;
 
   declare panel: Panel;
   declare parts: LibraryPart[];
@@ -92,6 +103,10 @@ export class SkApp extends LitElement {
     this.filters = { k: 10, sizeRatio: null, family: '' };
     this.embedding = false;
     this.notice = '';
+    this.report = null;
+    this.studyRows = [];
+    this.studyProgress = null;
+    this.measuring = false;
     this.trainer.on((msg) => {
       if (msg.id !== this.trainer.runId) return;
       if (msg.type === 'backend') { this.backend = msg.backend; this.trainStatus = { kind: 'running' }; }
@@ -113,7 +128,7 @@ export class SkApp extends LitElement {
     h1 span { color: #c2571a; }
     .tagline { color: #5a6870; }
     .model { margin-left: auto; font-size: 12px; color: #3d4b52; display: flex; gap: 8px; align-items: center; }
-    .model label, .model button { font: inherit; border: 1px solid #1d2b33; background: #fff; border-radius: 4px; padding: 2px 8px; cursor: pointer; }
+    .model label, .model button, .model select { font: inherit; border: 1px solid #1d2b33; background: #fff; border-radius: 4px; padding: 2px 8px; cursor: pointer; }
     .model input { position: absolute; opacity: 0; width: 1px; height: 1px; }
     nav { display: flex; gap: 4px; padding: 8px 18px 0; border-bottom: 2px solid #1d2b33; }
     nav button { font: inherit; border: 1px solid #1d2b33; border-bottom: none; background: #e9e3d6; padding: 6px 14px; border-radius: 6px 6px 0 0; cursor: pointer; }
@@ -315,6 +330,53 @@ export class SkApp extends LitElement {
     download(new Blob([m.weightData.slice(0)]), 'weights.bin');
   }
 
+  private async measureQuality(): Promise<void> {
+    this.measuring = true;
+    try {
+      this.report = await this.trainer.evaluate(this.parts.map((p) => ({ points: p.points, normals: p.normals })), this.parts.map((p) => p.label), this.model, this.config);
+    } catch (err) {
+      this.notice = `Quality not measured: ${(err as Error).message}`;
+    } finally {
+      this.measuring = false;
+    }
+  }
+
+  private async runStudy(): Promise<void> {
+    this.measuring = true;
+    this.studyProgress = { done: 0, total: 1, what: 'starting' };
+    try {
+      this.studyRows = await this.trainer.study(this.parts.map((p) => ({ points: p.points, normals: p.normals })), this.parts.map((p) => p.label), this.model, this.config,
+        (done, total, what) => { this.studyProgress = { done, total, what }; });
+    } catch (err) {
+      this.notice = `Study not run: ${(err as Error).message}`;
+    } finally {
+      this.measuring = false;
+      this.studyProgress = null;
+    }
+  }
+
+  private exportStudy(): void {
+    const keys = ['augmentation', 'strength', 'method', 'instance_top1', 'label_top1', 'mean_similarity', 'mean_chamfer'] as const;
+    const lines = [keys.join(','), ...this.studyRows.map((r) => keys.map((k) => String(r[k])).join(','))];
+    download(new Blob([lines.join('\n') + '\n'], { type: 'text/csv' }), 'augmentation-study.csv');
+  }
+
+  /** Embeddings in the same three formats as `shapekin embed`. */
+  private exportEmbeddings(kind: 'csv' | 'json' | 'npy'): void {
+    const idx = this.index;
+    if (!idx) return;
+    const D = idx.dim;
+    if (kind === 'npy') { download(new Blob([writeNpyFloat32(idx.vectors, idx.count, D) as Uint8Array<ArrayBuffer>]), "embeddings.npy"); return; }
+    if (kind === 'json') {
+      download(new Blob([JSON.stringify({ dim: D, parts: this.parts.map((p, i) => ({ file: p.name, label: p.label, extents: p.info.extents, diagonal: p.diagonal, embedding: Array.from(idx.vector(i)) })) })], { type: 'application/json' }), 'embeddings.json');
+      return;
+    }
+    const q = (s: string) => (/[",\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s);
+    const head = ['file', 'label', 'extent_x', 'extent_y', 'extent_z', ...Array.from({ length: D }, (_, d) => `e${d}`)].join(',');
+    const rows = this.parts.map((p, i) => [q(p.name), q(p.label), ...p.info.extents.map((v) => v.toPrecision(6)), ...Array.from(idx.vector(i), (v) => v.toPrecision(6))].join(','));
+    download(new Blob([[head, ...rows].join('\n') + '\n'], { type: 'text/csv' }), 'embeddings.csv');
+  }
+
   protected override render() {
     const part = this.parts.find((p) => p.name === this.selected) ?? null;
     const families = [...new Set(this.parts.map((p) => p.label))].sort();
@@ -324,6 +386,9 @@ export class SkApp extends LitElement {
         <div class="model" data-testid="model-status">${m ? `model: ${m.step} of ${m.totalSteps} steps (${m.status})` : 'model: none trained yet (searching with the untrained encoder)'}
           <label>Import model…<input type="file" multiple accept=".json,.bin" @change=${(e: Event) => { const t = e.target as HTMLInputElement; if (t.files) void this.importModel(Array.from(t.files)); t.value = ''; }} /></label>
           <button ?disabled=${!m} @click=${() => this.exportModel()}>Export model</button>
+          <select aria-label="Export embeddings" ?disabled=${!this.index} @change=${(e: Event) => { const t = e.target as HTMLSelectElement; if (t.value) this.exportEmbeddings(t.value as 'csv' | 'json' | 'npy'); t.value = ''; }}>
+            <option value="">Export embeddings…</option><option value="csv">as CSV</option><option value="json">as JSON</option><option value="npy">as .npy</option>
+          </select>
         </div>
       </header>
       <nav role="tablist">
@@ -358,6 +423,12 @@ export class SkApp extends LitElement {
           @search-query=${(e: CustomEvent<string>) => { const p = this.parts.find((x) => x.name === e.detail); if (p) void this.runSearchFor(p); }}
           @search-file=${(e: CustomEvent<File>) => void this.queryFile(e.detail)}
           @search-filters=${(e: CustomEvent<SearchFilters>) => { this.filters = e.detail; if (this.lastQueryVector) this.search(this.lastQueryVector, this.lastExclude); }}></sk-search-panel>`;
+      case 'study':
+        return html`<sk-study-panel .report=${this.report} .rows=${this.studyRows} .progress=${this.studyProgress} .busy=${this.measuring || this.trainStatus.kind === 'running'} .hasModel=${Boolean(this.model)}
+          @run-evaluation=${() => void this.measureQuality()} @run-study=${() => void this.runStudy()} @export-study=${() => this.exportStudy()}></sk-study-panel>`;
+      case 'map':
+        return html`<sk-map-panel .parts=${this.parts} .index=${this.index} .thumbnails=${this.thumbs}
+          @search-query=${(e: CustomEvent<string>) => { const p = this.parts.find((x) => x.name === e.detail); if (p) { this.panel = 'search'; void this.runSearchFor(p); } }}></sk-map-panel>`;
     }
   }
 }

@@ -2,6 +2,8 @@
 // Replies for a superseded request id are dropped.
 
 import type { TrainConfig } from '../../core/model/train';
+import type { EvaluationReport } from '../../core/retrieval/evaluate';
+import type { StudyRow } from '../../core/retrieval/study';
 import type { CheckpointMessage, PartArrays, TrainReply, TrainRequest } from '../../worker/protocol';
 
 type Listener = (msg: TrainReply) => void;
@@ -67,6 +69,29 @@ export class TrainClient {
 
   async save(checkpoint: CheckpointMessage): Promise<void> {
     await this.request({ type: 'save', id: this.nextId++, checkpoint: { ...checkpoint, weightData: checkpoint.weightData.slice(0) } }, 'saved');
+  }
+
+  async evaluate(parts: readonly PartArrays[], labels: readonly string[], checkpoint: CheckpointMessage | null, config: TrainConfig): Promise<EvaluationReport> {
+    const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+    const r = await this.request({ type: 'evaluate', id: this.nextId++, parts: copies, labels, checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null, config }, 'evaluation');
+    return r.report;
+  }
+
+  async study(parts: readonly PartArrays[], labels: readonly string[], checkpoint: CheckpointMessage | null, config: TrainConfig, onProgress: (done: number, total: number, what: string) => void): Promise<StudyRow[]> {
+    const id = this.nextId++;
+    const off = this.on((m) => { if (m.id === id && m.type === 'study-progress') onProgress(m.done, m.total, m.what); });
+    try {
+      const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+      return (await this.request({ type: 'study', id, parts: copies, labels, checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null, config }, 'study')).rows;
+    } finally {
+      off();
+    }
+  }
+
+  /** Median ms of the reference step timed inside the worker. */
+  async benchStep(repeats = 7): Promise<{ msPerStep: number; backend: string }> {
+    const r = await this.request({ type: 'bench', id: this.nextId++, repeats }, 'bench');
+    return { msPerStep: r.msPerStep, backend: r.backend };
   }
 
   dispose(): void {

@@ -126,3 +126,30 @@ describe('near-duplicate groups (union-find)', () => {
     expect(groups[0].pairs.length).toBe(2);
   });
 });
+
+import { pca2d } from '../../../src/core/retrieval/projection';
+
+describe('2-D map by principal components', () => {
+  it('recovers the two directions of largest variance of points spread along known axes', () => {
+    // Points along e0 (spread 10) and e1 (spread 3) plus small noise in 4 other dims: the map's first
+    // coordinate must carry the e0 spread and the second the e1 spread (up to sign).
+    const rng = createRng(9);
+    const n = 300, dim = 6;
+    const v = new Float32Array(n * dim);
+    const a: number[] = [], b: number[] = [];
+    for (let i = 0; i < n; i++) {
+      a.push(rng.normal() * 10); b.push(rng.normal() * 3);
+      v[i * dim] = a[i]; v[i * dim + 1] = b[i];
+      for (let d = 2; d < dim; d++) v[i * dim + d] = rng.normal() * 0.1;
+    }
+    const m = pca2d(v, dim);
+    const corr = (x: number[], y: number[]) => {
+      const mx = x.reduce((s, t) => s + t, 0) / x.length, my = y.reduce((s, t) => s + t, 0) / y.length;
+      let sxy = 0, sxx = 0, syy = 0;
+      x.forEach((t, i) => { sxy += (t - mx) * (y[i] - my); sxx += (t - mx) ** 2; syy += (y[i] - my) ** 2; });
+      return sxy / Math.sqrt(sxx * syy);
+    };
+    expect(Math.abs(corr(Array.from({ length: n }, (_, i) => m[i * 2]), a))).toBeGreaterThan(0.999);
+    expect(Math.abs(corr(Array.from({ length: n }, (_, i) => m[i * 2 + 1]), b))).toBeGreaterThan(0.99);
+  });
+});
