@@ -30,7 +30,7 @@ if (chromiumAvailable()) {
   const ctx = await launch();
   try {
     const page = await ctx.newPage();
-    await page.goto(server.url);
+    await page.goto(`${server.url}?bench`);
     browser = await page.evaluate(() => (window as unknown as { shapekinBenchStep: (r: number) => Promise<{ msPerStep: number; backend: string }> }).shapekinBenchStep(9));
   } finally {
     await ctx.close();

@@ -133,35 +133,81 @@ function backward(dy: tf.Tensor2D, saved: tf.Tensor[], params: tf.Tensor2D[], B:
   // Gather/scatter/tile kernels for the same sums cost ~170 ms a reference step on tfjs-wasm; these loops ~10 ms.
   const dW = new Float32Array(K * C);
   const db = new Float32Array(C);
+  if (pooling === 'max') {
+    // Only winning points get any gradient, and in a per-point MLP a point's gradient never leaves its own row:
+    // every layer below runs on those rows alone (typically a third of B·N), gathered once in plain loops.
+    const slot = new Int32Array(B * N).fill(-1);
+    const rows: number[] = [];
+    for (let i = 0; i < B * C; i++) {
+      if (!(winValue[i] > 0) || gMax[i] === 0) continue;
+      const row = Math.floor(i / C) * N + win[i];
+      if (slot[row] < 0) { slot[row] = rows.length; rows.push(row); }
+    }
+    const R = rows.length;
+    const dPrevR = new Float32Array(R * K);
+    for (let b = 0; b < B; b++) {
+      for (let c = 0; c < C; c++) {
+        const i = b * C + c;
+        if (!(winValue[i] > 0)) continue;
+        const g = gMax[i];
+        if (g === 0) continue;
+        const row = b * N + win[i];
+        db[c] += g;
+        const pr = row * K, pc = slot[row] * K;
+        for (let k = 0; k < K; k++) {
+          dW[k * C + c] += prevData[pr + k] * g;
+          dPrevR[pc + k] += g * wData[k * C + c];
+        }
+      }
+    }
+    grads[1 + 2 * (L - 1)] = tf.tensor2d(dW, [K, C]);
+    grads[2 + 2 * (L - 1)] = tf.tensor1d(db);
+    const gatherRows = (data: Float32Array | Int32Array | Uint8Array, width: number): tf.Tensor2D => {
+      const out = new Float32Array(Math.max(1, R) * width);
+      for (let j = 0; j < R; j++) out.set(data.subarray(rows[j] * width, rows[j] * width + width), j * width);
+      return tf.tensor2d(out, [Math.max(1, R), width]);
+    };
+    let dPrev = tf.tensor2d(R > 0 ? dPrevR : new Float32Array(K), [Math.max(1, R), K]);
+    let above = gatherRows(prevData, K); // acts[L−1] on the gradient rows
+    for (let l = L - 2; l >= 0; l--) {
+      const width = acts[l].shape[1] as number;
+      const below = gatherRows(acts[l].dataSync(), width);
+      const dZ = tf.mul(dPrev, tf.step(above)) as tf.Tensor2D; // dZ = dH ⊙ relu'(Z)
+      grads[1 + 2 * l] = tf.matMul(tf.transpose(below), dZ); // (width, |R|) x (|R|, C_l)
+      grads[2 + 2 * l] = columnSums(dZ);
+      dPrev = tf.matMul(dZ, tf.transpose(params[2 * l]));
+      above = below;
+    }
+    // Input gradient (unused in training, kept for gradient checks): scatter the rows back.
+    const F = acts[0].shape[1] as number;
+    const dx = new Float32Array(B * N * F);
+    const dxR = dPrev.dataSync();
+    for (let j = 0; j < R; j++) dx.set(dxR.subarray(j * F, j * F + F), rows[j] * F);
+    grads[0] = tf.tensor2d(dx, [B * N, F]);
+    return grads;
+  }
+  // With a mean term every point gets gradient: the last layer's dZ is dense (sparse max part + dy_mean/N).
   const dPrevData = new Float32Array(B * N * K);
   for (let b = 0; b < B; b++) {
     for (let c = 0; c < C; c++) {
-      const row = b * N + win[b * C + c];
-      if (!(winValue[b * C + c] > 0)) continue;
-      const g = gMax[b * C + c];
+      const i = b * C + c;
+      if (!(winValue[i] > 0)) continue;
+      const g = gMax[i];
       if (g === 0) continue;
       db[c] += g;
-      const pr = row * K;
+      const pr = (b * N + win[i]) * K;
       for (let k = 0; k < K; k++) {
         dW[k * C + c] += prevData[pr + k] * g;
         dPrevData[pr + k] += g * wData[k * C + c];
       }
     }
   }
-  let dPrev: tf.Tensor2D;
-  if (pooling === 'max') {
-    grads[1 + 2 * (L - 1)] = tf.tensor2d(dW, [K, C]);
-    grads[2 + 2 * (L - 1)] = tf.tensor1d(db);
-    dPrev = tf.tensor2d(dPrevData, [B * N, K]);
-  } else {
-    // With a mean term every point gets gradient: dZ = sparse max part + dy_mean/N on every active point.
-    const gMean = tf.slice(dy, [0, C], [B, C]);
-    const dense = tf.reshape(tf.tile(tf.reshape(tf.div(gMean, N), [B, 1, C]), [1, N, 1]), [B * N, C]);
-    const dZ = tf.mul(dense, tf.step(last)) as tf.Tensor2D;
-    grads[1 + 2 * (L - 1)] = tf.add(tf.matMul(tf.transpose(prev), dZ), tf.tensor2d(dW, [K, C]));
-    grads[2 + 2 * (L - 1)] = tf.add(columnSums(dZ), tf.tensor1d(db));
-    dPrev = tf.add(tf.matMul(dZ, tf.transpose(wLast)), tf.tensor2d(dPrevData, [B * N, K])) as tf.Tensor2D;
-  }
+  const gMean = tf.slice(dy, [0, C], [B, C]);
+  const dense = tf.reshape(tf.tile(tf.reshape(tf.div(gMean, N), [B, 1, C]), [1, N, 1]), [B * N, C]);
+  const dZLast = tf.mul(dense, tf.step(last)) as tf.Tensor2D;
+  grads[1 + 2 * (L - 1)] = tf.add(tf.matMul(tf.transpose(prev), dZLast), tf.tensor2d(dW, [K, C]));
+  grads[2 + 2 * (L - 1)] = tf.add(columnSums(dZLast), tf.tensor1d(db));
+  let dPrev = tf.add(tf.matMul(dZLast, tf.transpose(wLast)), tf.tensor2d(dPrevData, [B * N, K])) as tf.Tensor2D;
   // Dense layers below: dZ = dH ⊙ relu'(Z); dW = Hᵀ·dZ; db = Σ dZ; dH_below = dZ·Wᵀ.
   for (let l = L - 2; l >= 0; l--) {
     const dZ = tf.mul(dPrev, tf.step(acts[l + 1])) as tf.Tensor2D;

@@ -140,6 +140,8 @@ export class SkApp extends LitElement {
 
   override connectedCallback(): void {
     super.connectedCallback();
+    // `?bench` (used by npm run bench:ratio) leaves the cores to the benchmark: no library, no workers.
+    if (new URLSearchParams(location.search).has('bench')) { this.notice = 'Benchmark page: the library is not loaded.'; return; }
     void this.startUp();
   }
 

@@ -153,3 +153,24 @@ describe('2-D map by principal components', () => {
     expect(Math.abs(corr(Array.from({ length: n }, (_, i) => m[i * 2 + 1]), b))).toBeGreaterThan(0.99);
   });
 });
+
+import { TensorIndex } from '../../../src/core/retrieval/tensor-index';
+import { initBackend } from '../../../src/core/model/backend';
+
+describe('tensor-backed index', () => {
+  it('returns the same top-k as the plain index (the matMul scan agrees with the JS scan)', async () => {
+    await initBackend({ prefer: 'wasm' });
+    const rng = createRng(12);
+    const n = 500, dim = 32;
+    const v = Float32Array.from({ length: n * dim }, () => rng.normal());
+    const entries = Array.from({ length: n }, (_, i) => ({ name: String(i), label: 'abc'[i % 3], diagonal: 1 + (i % 7) }));
+    const plain = new EmbeddingIndex(v, dim, entries), fast = new TensorIndex(v, dim, entries);
+    for (let t = 0; t < 5; t++) {
+      const q = Float32Array.from({ length: dim }, () => rng.normal());
+      const a = plain.query(q, 10, { labels: ['a', 'b'] }), b = fast.query(q, 10, { labels: ['a', 'b'] });
+      expect(b.map((h) => h.index)).toEqual(a.map((h) => h.index));
+      expectClose(b.map((h) => h.score), a.map((h) => h.score), { atol: 1e-5 });
+    }
+    fast.dispose();
+  });
+});
