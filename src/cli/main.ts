@@ -13,7 +13,7 @@ import { getWeights, Trainer, type TrainConfig } from '../core/model/train';
 import { AUGMENT_KINDS, pipelineFromJson, PRESETS, type AugmentKind, type Pipeline } from '../core/points/augment';
 import { duplicateGroups } from '../core/retrieval/duplicates';
 import { evaluateMethods, untrainedEncoder } from '../core/retrieval/evaluate';
-import { EmbeddingIndex } from '../core/retrieval/index';
+import { TensorIndex } from '../core/retrieval/tensor-index';
 import { cosineSimilarity } from '../core/retrieval/metrics';
 import { writeNpyFloat32 } from '../core/retrieval/npy';
 import { runStudy } from '../core/retrieval/study';
@@ -98,7 +98,7 @@ async function train(lib: string, values: Values): Promise<void> {
   const labelNames = [...new Set(library.labels)].sort();
   const labelIds = library.labels.map((l) => labelNames.indexOf(l));
   let resume: Checkpoint | null = null;
-  if (values.resume && existsSync(`${out}/model.json`)) resume = loadRun(out);
+  if (values.resume && existsSync(`${out}/model.json`)) resume = await loadRun(out);
   const trainer = new Trainer(asModelParts(library.parts), resume ? resume.manifest.config : config, {
     labels: loss === 'supervised-contrastive' ? labelIds : null,
     ...(resume ? { initialWeights: resume.weights, resume: { step: resume.manifest.step, adam: resume.adam!, history: resume.manifest.history, checks: resume.manifest.checks } } : {}),
@@ -119,12 +119,12 @@ async function train(lib: string, values: Values): Promise<void> {
     yieldEvery: 1,
     onProgress: (p) => {
       progress.update(p.step, `loss ${p.loss.toFixed(3)} · ${p.samplesPerSec.toFixed(0)} parts/s · ${duration(p.etaSec)} left`);
-      if (Date.now() - lastSave > 60_000) { checkpoint('running'); lastSave = Date.now(); }
+      if (Date.now() - lastSave > 60_000) { void checkpoint('running'); lastSave = Date.now(); }
     },
   });
   process.off('SIGINT', stop);
   progress.done();
-  checkpoint(result.status);
+  await checkpoint(result.status);
   trainer.dispose();
   const summary = { status: result.status, steps: result.steps, final_loss: result.finalLoss, seconds: (Date.now() - t0) / 1000, backend, out, ...(result.message ? { message: result.message } : {}) };
   if (values.json) console.log(JSON.stringify(summary));
@@ -133,7 +133,7 @@ async function train(lib: string, values: Values): Promise<void> {
 }
 
 async function withModel<T>(values: Values, command: string, fn: (enc: Encoder, ckpt: Checkpoint) => Promise<T> | T): Promise<T> {
-  const ckpt = loadRun(need(values, 'model', command));
+  const ckpt = await loadRun(need(values, 'model', command));
   await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
   const enc = encoderFromCheckpoint(ckpt);
   try { return await fn(enc, ckpt); } finally { enc.dispose(); }
@@ -180,10 +180,11 @@ async function query(file: string, values: Values): Promise<void> {
     const points = ckpt.manifest.config.points;
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), points, ckpt.manifest.config.pose);
     const D = vectors.length / library.parts.length;
-    const index = new EmbeddingIndex(vectors, D, library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal })));
+    const index = new TensorIndex(vectors, D, library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal })));
     const qv = embedForRetrieval(enc, [{ points: q.points, normals: q.normals }], points, ckpt.manifest.config.pose);
     const ratio = values['size-ratio'] !== undefined ? num(values, 'size-ratio', 2, false) : undefined;
     const hits = index.query(qv, k, ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal } : {});
+    index.dispose();
     const rows = hits.map((h, r) => {
       const p = library.parts[h.index];
       return { rank: r + 1, score: h.score, file: p.name, label: library.labels[h.index], extents: p.info.extents, size_ratio: p.diagonal / q.diagonal };
@@ -199,7 +200,7 @@ async function query(file: string, values: Values): Promise<void> {
 
 async function evaluate(lib: string, values: Values): Promise<void> {
   await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
-  const ckpt = values.model ? loadRun(values.model) : null;
+  const ckpt = values.model ? await loadRun(values.model) : null;
   const sampling = ckpt?.manifest.sampling ?? { points: POOL_POINTS, seed: 0 };
   const library = loadLibrary(lib, { quiet: values.quiet || values.json, ...sampling });
   reportFailures(library.failures, Boolean(values.json));

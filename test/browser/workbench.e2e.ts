@@ -87,6 +87,10 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     for (let i = 1; i < scores.length; i++) expect(scores[i]).toBeLessThanOrEqual(scores[i - 1]);
     expect(await page.getByText(/qualified person/).count()).toBeGreaterThan(0);
     await page.screenshot({ path: `${ARTIFACTS}/search.png` });
+    // A new file, not in the library, as the query.
+    await page.locator('sk-search-panel input[type=file]').setInputFiles('demo-shapes/spur-gear/BC06-311C.obj');
+    await expect.poll(async () => page.locator('sk-search-panel select[aria-label="Query part"]').inputValue(), { timeout: 30_000 }).toMatch(/BC06-311C\.obj \(dropped file\)/);
+    await expect.poll(async () => results.count(), { timeout: 30_000 }).toBe(10);
   }, 120_000);
 
   it('the map shows every part, and the quality panel measures the model against the baselines', async () => {

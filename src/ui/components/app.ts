@@ -10,7 +10,7 @@ import type { Pipeline } from '../../core/points/augment';
 import { EmbeddingIndex } from '../../core/retrieval/index';
 import type { Hit } from '../../core/retrieval/topk';
 import { LibraryClient } from '../controllers/library-client';
-import { loadLibrary as loadStoredLibrary, saveLibrary } from '../controllers/store';
+import { loadEmbeddings, loadLibrary as loadStoredLibrary, saveEmbeddings, saveLibrary } from '../controllers/store';
 import { thumbnail } from '../controllers/thumbnails';
 import { TrainClient } from '../controllers/train-client';
 import { fetchDemoLibrary } from '../demo-library';
@@ -242,14 +242,28 @@ export class SkApp extends LitElement {
     this.trainer.start(this.parts.map((p) => ({ points: p.points, normals: p.normals })), labels, config, SAMPLING, resume);
   }
 
-  /** Embeddings of the whole library with the current model (or the untrained encoder before any training). */
+  private modelKey(): string {
+    const m = this.model?.manifest;
+    return m ? `run ${m.step}/${m.totalSteps} ${m.status} loss ${m.history[m.history.length - 1]?.loss ?? ''}` : `untrained ${JSON.stringify(this.config.encoder)} ${this.config.seed}`;
+  }
+
+  /** Embeddings of the whole library with the current model (or the untrained encoder before any training);
+   *  kept in IndexedDB, and reused after a reload when model and parts are unchanged. */
   private async refreshEmbeddings(): Promise<void> {
     if (this.parts.length === 0) return;
     const version = ++this.embedVersion;
     this.embedding = true;
     try {
       const parts = this.parts;
-      const { vectors, dim } = await this.trainer.embed(parts.map((p) => ({ points: p.points, normals: p.normals })), this.model, this.config);
+      const key = this.modelKey();
+      const stored = await loadEmbeddings();
+      let vectors: Float32Array, dim: number;
+      if (stored && stored.model === key && stored.names.length === parts.length && stored.names.every((n, i) => n === parts[i].name)) {
+        ({ vectors, dim } = stored);
+      } else {
+        ({ vectors, dim } = await this.trainer.embed(parts.map((p) => ({ points: p.points, normals: p.normals })), this.model, this.config));
+        if (version === this.embedVersion) await saveEmbeddings({ model: key, names: parts.map((p) => p.name), vectors, dim });
+      }
       if (version !== this.embedVersion) return;
       this.index = new EmbeddingIndex(vectors, dim, parts.map((p) => ({ name: p.name, label: p.label, diagonal: p.diagonal })));
       if (!this.query && parts.length) this.query = parts.find((p) => p.name === this.selected) ?? parts[0];

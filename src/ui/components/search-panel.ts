@@ -66,6 +66,8 @@ export class SkSearchPanel extends LitElement {
     sk-viewer { height: 360px; }
     .caution { background: #fff6df; border-left: 4px solid #d9a21b; padding: 6px 10px; font-size: 13px; margin-bottom: 10px; }
     .empty { color: #6b5d4d; padding: 20px; }
+    .drop { border: 2px dashed #b7ab96; border-radius: 6px; padding: 4px 10px; color: #6b5d4d; }
+    .drop.over { border-color: #c2571a; background: #fbeee4; }
   `;
 
   private emit(name: string, detail?: unknown): void {
@@ -94,6 +96,9 @@ export class SkSearchPanel extends LitElement {
             ${this.parts.map((p) => html`<option value=${p.name} ?selected=${q?.name === p.name}>${p.name}</option>`)}
           </select></label>
         <label class="button">…or a new file<input type="file" accept=".stl,.obj,.ply,.off,.xyz,.csv" @change=${(e: Event) => { const file = (e.target as HTMLInputElement).files?.[0]; if (file) this.emit('search-file', file); }} /></label>
+        <span class="drop" @dragover=${(e: DragEvent) => { e.preventDefault(); (e.currentTarget as HTMLElement).classList.add('over'); }}
+          @dragleave=${(e: DragEvent) => (e.currentTarget as HTMLElement).classList.remove('over')}
+          @drop=${(e: DragEvent) => { e.preventDefault(); (e.currentTarget as HTMLElement).classList.remove('over'); const file = e.dataTransfer?.files?.[0]; if (file) this.emit('search-file', file); }}>or drop one here</span>
         <label>results <input type="number" min="1" max="100" .value=${String(f.k)} aria-label="number of results" @change=${(e: Event) => this.emit('search-filters', { ...f, k: Number((e.target as HTMLInputElement).value) })} style="width:60px" /></label>
         <label>size within
           <select aria-label="Size filter" @change=${(e: Event) => { const v = (e.target as HTMLSelectElement).value; this.emit('search-filters', { ...f, sizeRatio: v ? Number(v) : null }); }}>

@@ -43,3 +43,23 @@ export async function loadLibrary(): Promise<StoredLibrary | null> {
     return null;
   }
 }
+
+export interface StoredEmbeddings {
+  /** Which model made them: "untrained", or step/total of the saved run. */
+  readonly model: string;
+  readonly names: string[];
+  readonly vectors: Float32Array;
+  readonly dim: number;
+}
+
+export async function saveEmbeddings(e: StoredEmbeddings): Promise<void> {
+  await tx('readwrite', (s) => s.put(e, 'embeddings'));
+}
+
+export async function loadEmbeddings(): Promise<StoredEmbeddings | null> {
+  try {
+    return ((await tx('readonly', (s) => s.get('embeddings'))) as StoredEmbeddings | undefined) ?? null;
+  } catch {
+    return null;
+  }
+}
