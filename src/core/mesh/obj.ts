@@ -41,7 +41,10 @@ export function parseObj(text: string, file: string, fileBytes: number): Importe
   if (counts.vertices === 0) throw new MeshImportError(file, 'unrecognised', 'not an OBJ file: no "v x y z" vertex lines');
   let group;
   try {
-    group = new OBJLoader().parse(text);
+    // Polyline records ("l …") carry no surface, and OBJLoader turns a whole object containing one into
+    // line segments, losing its faces (seen in real exports): drop them before parsing.
+    const surfaces = /^l[ \t]/m.test(text) ? text.replace(/^l[ \t][^\n]*$/gm, '') : text;
+    group = new OBJLoader().parse(surfaces);
   } catch (err) {
     throw new MeshImportError(file, 'parse-failed', `OBJ could not be parsed (${(err as Error).message})`);
   }

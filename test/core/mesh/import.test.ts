@@ -244,6 +244,12 @@ describe('a real mesh from the npm registry (the Stanford bunny, package "bunny"
 });
 
 describe('OBJ: n-gons, negative indices and groups', () => {
+  it('faces survive polyline records in the same object (OBJLoader alone would keep only lines)', () => {
+    const text = ['o part', 'v 0 0 0', 'v 1 0 0', 'v 0 1 0', 'v 0 0 1', 'f 1 3 2', 'f 1 2 4', 'l 1 2', 'f 1 4 3', 'f 2 3 4'].join('\n');
+    const part = importMesh(textBuffer(text), 'with-lines.obj');
+    expect(part.info.triangleCount).toBe(4);
+    expectClose(part.info.volume!, 1 / 6, { atol: 1e-9 });
+  });
   it('a cube written as quads with relative indices', () => {
     const text = [
       'o cube', 'v -1 -1 -1', 'v 1 -1 -1', 'v 1 1 -1', 'v -1 1 -1', 'v -1 -1 1', 'v 1 -1 1', 'v 1 1 1', 'v -1 1 1',

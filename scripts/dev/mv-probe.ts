@@ -1,0 +1,12 @@
+import * as tf from '@tensorflow/tfjs';
+import { initBackend } from '../../src/core/model/backend';
+await initBackend({ prefer: 'wasm' });
+const n = 100000, d = 256;
+const V = tf.randomNormal([n, d]) as tf.Tensor2D;
+const VT = tf.transpose(V) as tf.Tensor2D;
+const q = tf.randomNormal([d, 1]) as tf.Tensor2D;
+const qr = tf.reshape(q, [1, d]) as tf.Tensor2D;
+const t = (name: string, f: () => tf.Tensor) => { for (let i = 0; i < 3; i++) tf.tidy(() => f().dataSync()); const ms: number[] = []; for (let i = 0; i < 15; i++) { const t0 = performance.now(); tf.tidy(() => f().dataSync()); ms.push(performance.now() - t0); } ms.sort((a, b) => a - b); console.log(name, ms[7].toFixed(2), 'ms'); };
+t('V·q', () => tf.matMul(V, q));
+t('qᵀ·Vᵀ', () => tf.matMul(qr, VT));
+t('sum(V*q)', () => tf.sum(tf.mul(V, qr), 1));
