@@ -127,7 +127,8 @@ export class SkApp extends LitElement {
     h1 { margin: 0; font-size: 20px; letter-spacing: 0.02em; }
     h1 span { color: #c2571a; }
     .tagline { color: #5a6870; }
-    .model { margin-left: auto; font-size: 12px; color: #3d4b52; display: flex; gap: 8px; align-items: center; }
+    .model { margin-left: auto; font-size: 12px; color: #3d4b52; display: flex; gap: 8px; align-items: center; white-space: nowrap; }
+    .tagline { white-space: nowrap; overflow: hidden; text-overflow: ellipsis; min-width: 0; }
     .model label, .model button, .model select { font: inherit; border: 1px solid #1d2b33; background: #fff; border-radius: 4px; padding: 2px 8px; cursor: pointer; }
     .model input { position: absolute; opacity: 0; width: 1px; height: 1px; }
     nav { display: flex; gap: 4px; padding: 8px 18px 0; border-bottom: 2px solid #1d2b33; }
@@ -361,8 +362,9 @@ export class SkApp extends LitElement {
     this.measuring = true;
     this.studyProgress = { done: 0, total: 1, what: 'starting' };
     try {
+      // Three strengths keep the browser study to a few minutes; `shapekin study` runs five.
       this.studyRows = await this.trainer.study(this.parts.map((p) => ({ points: p.points, normals: p.normals })), this.parts.map((p) => p.label), this.model, this.config,
-        (done, total, what) => { this.studyProgress = { done, total, what }; });
+        (done, total, what) => { this.studyProgress = { done, total, what }; }, [0, 0.5, 1]);
     } catch (err) {
       this.notice = `Study not run: ${(err as Error).message}`;
     } finally {
@@ -399,7 +401,7 @@ export class SkApp extends LitElement {
     const m = this.model?.manifest;
     return html`
       <header><h1>Shape<span>kin</span></h1><div class="tagline">find parts that look like a given part — everything stays on this machine</div>
-        <div class="model" data-testid="model-status">${m ? `model: ${m.step} of ${m.totalSteps} steps (${m.status})` : 'model: none trained yet (searching with the untrained encoder)'}
+        <div class="model" data-testid="model-status">${m ? `model: ${m.step} of ${m.totalSteps} steps (${m.status})` : 'no model yet: searching with the untrained encoder'}
           <label>Import model…<input type="file" multiple accept=".json,.bin" @change=${(e: Event) => { const t = e.target as HTMLInputElement; if (t.files) void this.importModel(Array.from(t.files)); t.value = ''; }} /></label>
           <button ?disabled=${!m} @click=${() => this.exportModel()}>Export model</button>
           <select aria-label="Export embeddings" ?disabled=${!this.index} @change=${(e: Event) => { const t = e.target as HTMLSelectElement; if (t.value) this.exportEmbeddings(t.value as 'csv' | 'json' | 'npy'); t.value = ''; }}>

@@ -77,12 +77,12 @@ export class TrainClient {
     return r.report;
   }
 
-  async study(parts: readonly PartArrays[], labels: readonly string[], checkpoint: CheckpointMessage | null, config: TrainConfig, onProgress: (done: number, total: number, what: string) => void): Promise<StudyRow[]> {
+  async study(parts: readonly PartArrays[], labels: readonly string[], checkpoint: CheckpointMessage | null, config: TrainConfig, onProgress: (done: number, total: number, what: string) => void, strengths?: readonly number[]): Promise<StudyRow[]> {
     const id = this.nextId++;
     const off = this.on((m) => { if (m.id === id && m.type === 'study-progress') onProgress(m.done, m.total, m.what); });
     try {
       const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
-      return (await this.request({ type: 'study', id, parts: copies, labels, checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null, config }, 'study')).rows;
+      return (await this.request({ type: 'study', id, parts: copies, labels, checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null, config, ...(strengths ? { strengths } : {}) }, 'study')).rows;
     } finally {
       off();
     }
