@@ -107,6 +107,43 @@ function maxOverPoints(h: tf.Tensor2D, B: number, N: number, C: number): { maxed
   return { maxed: tf.tensor2d(best, [B, C]), argmax: tf.tensor2d(arg, [B, C], 'int32') };
 }
 
+interface Winners {
+  readonly B: number; readonly N: number; readonly C: number; readonly K: number;
+  readonly win: ArrayLike<number>; // (B, C) winning point of each channel
+  readonly winValue: ArrayLike<number>; // (B, C) its value after the ReLU
+  readonly gMax: ArrayLike<number>; // (B, C) upstream gradient of the max-pooled features
+  readonly prevData: ArrayLike<number>; // (B·N, K) input of the last layer
+  readonly wData: ArrayLike<number>; // (K, C) last-layer weights
+  readonly dW: Float32Array; readonly db: Float32Array; readonly dPrev: Float32Array;
+  /** Row of dPrev that receives point `row` of the flattened batch. */
+  readonly slotOf: (row: number) => number;
+}
+
+/**
+ * The sparse part of the last layer's backward, in plain loops: only the B·C winners carry gradient, so
+ *   dW[k, c] += prev[row, k]·g,   db[c] += g,   dPrev[slot(row), k] += g·W[k, c],   row = b·N + argmax[b, c],
+ * with g = dy[b, c]·relu'(winner) (0 when the whole channel is zero after the ReLU). Gather/scatter/tile
+ * kernels for the same sums cost ~170 ms a reference step on tfjs-wasm; these loops ~10 ms.
+ */
+function accumulateWinners(w: Winners): void {
+  const { B, N, C, K, win, winValue, gMax, prevData, wData, dW, db, dPrev, slotOf } = w;
+  for (let b = 0; b < B; b++) {
+    for (let c = 0; c < C; c++) {
+      const i = b * C + c;
+      if (!(winValue[i] > 0)) continue;
+      const g = gMax[i];
+      if (g === 0) continue;
+      const row = b * N + win[i];
+      db[c] += g;
+      const pr = row * K, pc = slotOf(row) * K;
+      for (let k = 0; k < K; k++) {
+        dW[k * C + c] += prevData[pr + k] * g;
+        dPrev[pc + k] += g * wData[k * C + c];
+      }
+    }
+  }
+}
+
 /** Column sums of (M, C) as a (1, M) x (M, C) matMul: faster than a Sum over axis 0 on tfjs-wasm. */
 function columnSums(x: tf.Tensor2D): tf.Tensor1D {
   return tf.reshape(tf.matMul(tf.ones([1, x.shape[0]]), x), [x.shape[1]]);
@@ -127,10 +164,6 @@ function backward(dy: tf.Tensor2D, saved: tf.Tensor[], params: tf.Tensor2D[], B:
   const K = prev.shape[1] as number;
   const wLast = params[2 * (L - 1)];
   const wData = wLast.dataSync(); // (K, C)
-  // Sparse part, in plain loops: only B·C (point, channel) winners carry gradient, so
-  //   dW[k, c] += prev[row, k]·g,   db[c] += g,   dPrev[row, k] += g·W[k, c],   row = b·N + argmax[b, c],
-  // with g = dy[b, c]·relu'(winner) (0 when the whole channel is zero after the ReLU).
-  // Gather/scatter/tile kernels for the same sums cost ~170 ms a reference step on tfjs-wasm; these loops ~10 ms.
   const dW = new Float32Array(K * C);
   const db = new Float32Array(C);
   if (pooling === 'max') {
@@ -145,21 +178,7 @@ function backward(dy: tf.Tensor2D, saved: tf.Tensor[], params: tf.Tensor2D[], B:
     }
     const R = rows.length;
     const dPrevR = new Float32Array(R * K);
-    for (let b = 0; b < B; b++) {
-      for (let c = 0; c < C; c++) {
-        const i = b * C + c;
-        if (!(winValue[i] > 0)) continue;
-        const g = gMax[i];
-        if (g === 0) continue;
-        const row = b * N + win[i];
-        db[c] += g;
-        const pr = row * K, pc = slot[row] * K;
-        for (let k = 0; k < K; k++) {
-          dW[k * C + c] += prevData[pr + k] * g;
-          dPrevR[pc + k] += g * wData[k * C + c];
-        }
-      }
-    }
+    accumulateWinners({ B, N, C, K, win, winValue, gMax, prevData, wData, dW, db, dPrev: dPrevR, slotOf: (row) => slot[row] });
     grads[1 + 2 * (L - 1)] = tf.tensor2d(dW, [K, C]);
     grads[2 + 2 * (L - 1)] = tf.tensor1d(db);
     const gatherRows = (data: Float32Array | Int32Array | Uint8Array, width: number): tf.Tensor2D => {
@@ -188,20 +207,7 @@ function backward(dy: tf.Tensor2D, saved: tf.Tensor[], params: tf.Tensor2D[], B:
   }
   // With a mean term every point gets gradient: the last layer's dZ is dense (sparse max part + dy_mean/N).
   const dPrevData = new Float32Array(B * N * K);
-  for (let b = 0; b < B; b++) {
-    for (let c = 0; c < C; c++) {
-      const i = b * C + c;
-      if (!(winValue[i] > 0)) continue;
-      const g = gMax[i];
-      if (g === 0) continue;
-      db[c] += g;
-      const pr = (b * N + win[i]) * K;
-      for (let k = 0; k < K; k++) {
-        dW[k * C + c] += prevData[pr + k] * g;
-        dPrevData[pr + k] += g * wData[k * C + c];
-      }
-    }
-  }
+  accumulateWinners({ B, N, C, K, win, winValue, gMax, prevData, wData, dW, db, dPrev: dPrevData, slotOf: (row) => row });
   const gMean = tf.slice(dy, [0, C], [B, C]);
   const dense = tf.reshape(tf.tile(tf.reshape(tf.div(gMean, N), [B, 1, C]), [1, N, 1]), [B * N, C]);
   const dZLast = tf.mul(dense, tf.step(last)) as tf.Tensor2D;
