@@ -43,41 +43,48 @@ export class EmbeddingIndex {
   /** Cosine similarity of the query to every entry (rows are unit length, so a dot product). */
   scores(query: ArrayLike<number>, out: Float32Array = new Float32Array(this.count)): Float32Array {
     const q = normaliseRows(Float32Array.from(query), this.dim);
-    const v = this.vectors, D = this.dim;
-    const D4 = D - (D % 4);
-    for (let i = 0, o = 0; i < this.count; i++, o += D) {
-      // Four independent accumulators let the JIT overlap the multiply-adds (~3× a single running sum).
-      let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
-      let d = 0;
-      for (; d < D4; d += 4) {
-        s0 += v[o + d] * q[d];
-        s1 += v[o + d + 1] * q[d + 1];
-        s2 += v[o + d + 2] * q[d + 2];
-        s3 += v[o + d + 3] * q[d + 3];
-      }
-      for (; d < D; d++) s0 += v[o + d] * q[d];
-      out[i] = s0 + s1 + s2 + s3;
-    }
+    for (let i = 0; i < this.count; i++) out[i] = dot4(this.vectors, i * this.dim, q, this.dim);
     return out;
   }
 
-  query(query: ArrayLike<number>, k: number, filter: QueryFilter = {}): Hit[] {
-    if (query.length !== this.dim) throw new RangeError(`query has ${query.length} values, the index ${this.dim}`);
-    const scores = this.scores(query);
+  /** The candidate test for a filter, or undefined when nothing is filtered. */
+  protected filterOf(filter: QueryFilter): ((i: number) => boolean) | undefined {
     const labels = filter.labels ? new Set(filter.labels) : null;
     const r = filter.sizeRatio;
     if (r !== undefined && !(r >= 1)) throw new RangeError(`size ratio must be ≥ 1, got ${r}`);
     const d0 = filter.queryDiagonal;
-    const filtered = labels !== null || filter.exclude !== undefined || (r !== undefined && d0 !== undefined);
-    const keep = (i: number) => {
+    const bySize = r !== undefined && d0 !== undefined && d0 > 0;
+    if (!labels && filter.exclude === undefined && !bySize) return undefined;
+    return (i: number) => {
       if (i === filter.exclude) return false;
       const e = this.entries[i];
       if (labels && !labels.has(e.label)) return false;
-      if (r !== undefined && d0 !== undefined && d0 > 0 && (e.diagonal > d0 * r || e.diagonal < d0 / r)) return false;
+      if (bySize && (e.diagonal > d0! * r! || e.diagonal < d0! / r!)) return false;
       return true;
     };
-    return topK(scores, Math.min(k, this.count), filtered ? keep : undefined);
   }
+
+  query(query: ArrayLike<number>, k: number, filter: QueryFilter = {}): Hit[] {
+    if (query.length !== this.dim) throw new RangeError(`query has ${query.length} values, the index ${this.dim}`);
+    return topK(this.scores(query), Math.min(k, this.count), this.filterOf(filter));
+  }
+}
+
+/**
+ * v[o .. o+D) · q with four independent accumulators (they let the JIT overlap the multiply-adds, ~3× a
+ * single running sum); every index scores with this one function so ties break the same way.
+ */
+export function dot4(v: ArrayLike<number>, o: number, q: ArrayLike<number>, D: number): number {
+  const D4 = D - (D % 4);
+  let s0 = 0, s1 = 0, s2 = 0, s3 = 0, d = 0;
+  for (; d < D4; d += 4) {
+    s0 += v[o + d] * q[d];
+    s1 += v[o + d + 1] * q[d + 1];
+    s2 += v[o + d + 2] * q[d + 2];
+    s3 += v[o + d + 3] * q[d + 3];
+  }
+  for (; d < D; d++) s0 += v[o + d] * q[d];
+  return s0 + s1 + s2 + s3;
 }
 
 export function normaliseRows(v: Float32Array, dim: number): Float32Array {

@@ -174,3 +174,4 @@ describe('tensor-backed index', () => {
     fast.dispose();
   });
 });
+
