@@ -426,7 +426,7 @@ export class SkApp extends LitElement {
           @reload-demo=${() => void this.loadDemo()}
           @clear-library=${() => { this.parts = []; this.failures = []; this.thumbs = new Map(); this.selected = ''; this.index = null; this.hits = []; this.query = null; this.status = { kind: 'idle' }; void saveLibrary({ parts: [], failures: [], source: 'user' }); }}></sk-library-panel>`;
       case 'augment':
-        return html`<sk-augment-panel .subject=${part} .pipeline=${this.pipeline} @pipeline-change=${(e: CustomEvent<Pipeline>) => { this.pipeline = e.detail; this.config = { ...this.config, pipeline: e.detail }; }}></sk-augment-panel>`;
+        return html`<sk-augment-panel .subject=${part} .pipeline=${this.pipeline} .pose=${this.config.pose} @pipeline-change=${(e: CustomEvent<Pipeline>) => { this.pipeline = e.detail; this.config = { ...this.config, pipeline: e.detail }; }}></sk-augment-panel>`;
       case 'train':
         return html`<sk-train-panel .config=${this.config} .status=${this.trainStatus} .progress=${this.progress} .history=${this.history} .checks=${this.checks}
           .backend=${this.backend} .partCount=${this.parts.length} .hasLabels=${new Set(this.parts.map((p) => p.label)).size > 1}

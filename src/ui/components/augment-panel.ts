@@ -8,6 +8,8 @@ import { AUGMENT_KINDS, PRESETS, STRENGTH_RANGES, viewPair, type AugmentKind, ty
 import { makeCloud } from '../../core/points/cloud';
 import { cloudDistances } from '../../core/points/distance';
 import { createRng } from '../../core/rng';
+import { alignToPrincipalAxes } from '../../core/points/pca';
+import type { Pose } from '../../core/model/embed';
 import { pointsObject } from '../controllers/scene';
 import { CameraLink } from '../controllers/viewer';
 import './viewer';
@@ -16,11 +18,13 @@ export class SkAugmentPanel extends LitElement {
   static override properties = {
     subject: { attribute: false },
     pipeline: { attribute: false },
+    pose: { type: String },
     roll: { state: true },
   };
 
   declare subject: LibraryPart | null;
   declare pipeline: Pipeline;
+  declare pose: Pose;
   declare roll: number;
   private readonly link = new CameraLink();
   private views: { original: Object3D; a: Object3D; b: Object3D; chamfer: [number, number]; hausdorff: [number, number] } | null = null;
@@ -29,12 +33,15 @@ export class SkAugmentPanel extends LitElement {
     super();
     this.subject = null;
     this.pipeline = PRESETS['scan-like'];
+    this.pose = 'as-is';
     this.roll = 1;
   }
 
   static override styles = css`
     :host { display: block; }
-    .row { display: grid; grid-template-columns: 320px 1fr; gap: 14px; }
+    .row { display: grid; grid-template-columns: 320px 1fr; gap: 14px; align-items: start; }
+    .steps { max-height: 660px; overflow: auto; padding-right: 4px; }
+    .top { display: flex; gap: 12px; align-items: center; margin-bottom: 8px; }
     .views { display: grid; grid-template-columns: repeat(3, 1fr); gap: 8px; }
     sk-viewer { height: 300px; }
     fieldset { border: 1px solid #d8d1c3; border-radius: 6px; margin: 0 0 8px; padding: 6px 10px; background: #fff; }
@@ -59,8 +66,10 @@ export class SkAugmentPanel extends LitElement {
   }
 
   protected override willUpdate(changed: Map<string, unknown>): void {
-    if (!this.subject || !(changed.has('subject') || changed.has('pipeline') || changed.has('roll'))) return;
-    const cloud = makeCloud(this.subject.points, this.subject.normals);
+    if (!this.subject || !(changed.has('subject') || changed.has('pipeline') || changed.has('roll') || changed.has('pose'))) return;
+    // Training sees parts in the model's pose, so the preview starts from the same pose.
+    const raw = makeCloud(this.subject.points, this.subject.normals);
+    const cloud = this.pose === 'principal-axes' ? alignToPrincipalAxes(raw) : raw;
     const [a, b] = viewPair(cloud, this.pipeline, createRng(this.roll));
     const da = cloudDistances(cloud, a), db = cloudDistances(cloud, b);
     this.views = {
@@ -75,7 +84,7 @@ export class SkAugmentPanel extends LitElement {
   protected override render() {
     const p = this.pipeline;
     return html`<div class="row">
-      <div>
+      <div class="steps">
         <fieldset>
           <legend>Start from</legend>
           <select aria-label="Preset" @change=${(e: Event) => this.emit(PRESETS[(e.target as HTMLSelectElement).value as keyof typeof PRESETS])}>
@@ -106,12 +115,12 @@ export class SkAugmentPanel extends LitElement {
           <option value="">add a step…</option>
           ${AUGMENT_KINDS.map((k) => html`<option value=${k}>${k}</option>`)}
         </select>
-        <button @click=${() => (this.roll += 1)}>Roll new views</button>
       </div>
       <div>
+        <div class="top"><button @click=${() => (this.roll += 1)}>Roll new views</button><span>each roll draws two fresh views of the same part</span></div>
         ${this.subject && this.views ? html`
           <div class="views">
-            <sk-viewer .object=${this.views.original} .link=${this.link} caption="original: ${this.subject.name}"></sk-viewer>
+            <sk-viewer .object=${this.views.original} .link=${this.link} caption="original${this.pose === 'principal-axes' ? ' (principal-axes pose)' : ''}: ${this.subject.name}"></sk-viewer>
             <sk-viewer .object=${this.views.a} .link=${this.link} caption="view A"></sk-viewer>
             <sk-viewer .object=${this.views.b} .link=${this.link} caption="view B"></sk-viewer>
           </div>
