@@ -5,7 +5,7 @@ import { ntXentLoss } from '../../src/core/model/losses';
 import { createRng } from '../../src/core/rng';
 await initBackend({ prefer: 'wasm' });
 const B = 32, N = 512;
-const enc = new Encoder(DEFAULT_ENCODER, createRng(1));
+const enc = new Encoder({ ...DEFAULT_ENCODER, inputFeatures: 'xyz' }, createRng(1));
 const rng = createRng(2);
 const x = tf.tensor3d(Float32Array.from({ length: 2 * B * N * 3 }, () => rng.uniform(-1, 1)), [2 * B, N, 3]);
 const time = (name: string, f: () => void, reps = 5) => { f(); f(); const t0 = performance.now(); for (let i = 0; i < reps; i++) f(); console.log(name.padEnd(36), ((performance.now() - t0) / reps).toFixed(1), 'ms'); };
