@@ -36,6 +36,13 @@ describe('shapekin train', () => {
     expect(model.weightsManifest[0].paths).toEqual(['weights.bin']);
     expect(model.modelTopology.shapekin.step).toBe(6); // 112 parts, batch 32 → 3 steps an epoch, 2 epochs
   });
+  it('--resume picks the saved run up where it stopped (here: already complete, so no new steps)', async () => {
+    capture();
+    expect(await main(['train', DEMO, '--out', run, '--resume', '--json'])).toBe(0);
+    const r = JSON.parse(out.join('\n'));
+    expect(r.status).toBe('done');
+    expect(r.steps).toBe(6);
+  }, 120_000);
 });
 
 describe('shapekin eval --json', () => {
