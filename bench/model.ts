@@ -8,15 +8,13 @@ import { REFERENCE_ENCODER, stepFlops, timeStep } from '../src/core/model/speed'
 import { createRng } from '../src/core/rng';
 import { fmt, report } from './timing';
 
-export { timeStep };
-export const REFERENCE = REFERENCE_ENCODER;
 
 export async function benchModel(): Promise<void> {
   const only = process.env.BENCH_BACKENDS?.split(',') as BackendName[] | undefined;
   for (const backend of only ?? (['wasm', 'cpu'] as BackendName[])) {
     const got = await initBackend({ prefer: backend });
     const rows: [string, string][] = [];
-    for (const [name, cfg] of [['reference (xyz, 64-128-256, head 256-128)', REFERENCE], ['default (xyz+normal, same widths)', DEFAULT_ENCODER]] as const) {
+    for (const [name, cfg] of [['reference (xyz, 64-128-256, head 256-128)', REFERENCE_ENCODER], ['default (xyz+normal, same widths)', DEFAULT_ENCODER]] as const) {
       const ms = timeStep(cfg, 32, 512, got === 'cpu' ? 1 : 7);
       const { step } = stepFlops(cfg, 32, 512);
       rows.push([`${name}: one step, B = 32 pairs, N = 512`, `${fmt(ms, 0)} ms · ${fmt((32 * 1000) / ms, 1)} pairs/s · ${fmt(step / 1e9 / (ms / 1000), 1)} GFLOP/s nominal (${fmt(step / 1e9, 2)} GFLOP)`]);

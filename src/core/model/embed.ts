@@ -1,7 +1,6 @@
 // Batched inference: embeddings for many parts, and the view tensors training and inference share.
 
 import * as tf from '@tensorflow/tfjs';
-import type { Rng } from '../rng';
 import { inputChannels, type Encoder, type InputFeatures } from './encoder';
 import { alignToPrincipalAxes, SIGN_FLIPS } from '../points/pca';
 import { makeCloud } from '../points/cloud';
@@ -14,21 +13,14 @@ export interface ModelPart {
 }
 
 /**
- * Write n points of a pool into the batch buffer at slot `slot`: a random subset without repetition
- * (partial Fisher–Yates with the given rng), or every point in order when rng is null.
+ * Write the first n points of a cloud (repeated in order when it has fewer) into slot `slot` of a batch
+ * buffer (B, n, F). Pools are random surface samples, so their first n points are a random subset already.
  */
-export function fillSlot(out: Float32Array, slot: number, n: number, features: InputFeatures, points: Float32Array, normals: Float32Array, rng: Rng | null, scratch?: Uint32Array): void {
+export function fillSlot(out: Float32Array, slot: number, n: number, features: InputFeatures, points: Float32Array, normals: Float32Array): void {
   const F = inputChannels(features);
   const count = points.length / 3;
-  const order = scratch && scratch.length >= count ? scratch : new Uint32Array(count);
-  for (let i = 0; i < count; i++) order[i] = i;
   for (let i = 0; i < n; i++) {
-    let src: number;
-    if (rng && count >= n) {
-      const j = i + rng.int(count - i);
-      const t = order[i]; order[i] = order[j]; order[j] = t;
-      src = order[i];
-    } else src = count >= n ? i : (rng ? rng.int(count) : i % count);
+    const src = i % count;
     const o = (slot * n + i) * F;
     out[o] = points[src * 3]; out[o + 1] = points[src * 3 + 1]; out[o + 2] = points[src * 3 + 2];
     if (F === 6) { out[o + 3] = normals[src * 3]; out[o + 4] = normals[src * 3 + 1]; out[o + 5] = normals[src * 3 + 2]; }
@@ -78,7 +70,7 @@ export function embedParts(encoder: Encoder, parts: readonly ModelPart[], n: num
   for (let start = 0; start < parts.length; start += batch) {
     const group = parts.slice(start, start + batch);
     const buf = new Float32Array(group.length * n * F);
-    group.forEach((p, i) => fillSlot(buf, i, n, encoder.config.inputFeatures, p.points, p.normals, null));
+    group.forEach((p, i) => fillSlot(buf, i, n, encoder.config.inputFeatures, p.points, p.normals));
     const out = tf.tidy(() => encoder.embed(tf.tensor3d(buf, [group.length, n, F])));
     D = out.shape[1];
     chunks.push(out.dataSync() as Float32Array);

@@ -5,6 +5,7 @@
 import * as tf from '@tensorflow/tfjs';
 import { augment, augmentSubset, validatePipeline, type Pipeline } from '../points/augment';
 import { makeCloud } from '../points/cloud';
+import { drawIndices } from '../points/sample';
 import { createRng, hashString, type Rng } from '../rng';
 import { Adam, cosineWithWarmup, type AdamState } from './adam';
 import { embedParts, fillSlot, posed, type ModelPart, type Pose } from './embed';
@@ -92,19 +93,6 @@ export function stepsPerEpoch(trainCount: number, batchSize: number): number {
   return Math.max(1, Math.floor(trainCount / Math.min(batchSize, trainCount)));
 }
 
-/** n indices into a pool of `count`: distinct when the pool is large enough (partial Fisher–Yates). */
-export function drawIndices(count: number, n: number, rng: Rng, scratch: Uint32Array = new Uint32Array(count)): Uint32Array {
-  const out = new Uint32Array(n);
-  if (count < n) { for (let i = 0; i < n; i++) out[i] = i < count ? i : rng.int(count); return out; }
-  for (let i = 0; i < count; i++) scratch[i] = i;
-  for (let i = 0; i < n; i++) {
-    const j = i + rng.int(count - i);
-    const t = scratch[i]; scratch[i] = scratch[j]; scratch[j] = t;
-    out[i] = scratch[i];
-  }
-  return out;
-}
-
 /** Random permutation of 0..n−1 (Fisher–Yates). */
 function permutation(n: number, rng: Rng): number[] {
   const p = Array.from({ length: n }, (_, i) => i);
@@ -183,7 +171,7 @@ export class Trainer {
       for (let view = 0; view < 2; view++) {
         // Each view draws its own n points from the part's pool (a fresh resampling), then is augmented.
         const v = augmentSubset(cloud, drawIndices(cloud.count, n, rng, this.scratch), this.config.pipeline, rng);
-        fillSlot(this.viewBuffer, view * B + slot, n, encoder.inputFeatures, v.positions, v.normals ?? part.normals, null);
+        fillSlot(this.viewBuffer, view * B + slot, n, encoder.inputFeatures, v.positions, v.normals ?? part.normals);
       }
     });
     return { parts: chosen, x: this.viewBuffer };

@@ -82,20 +82,20 @@ export function sampleSurface(mesh: Mesh, n: number, rng: Rng, options: SurfaceS
  */
 export function resamplePoints(cloud: PointCloud, n: number, rng: Rng): PointCloud {
   if (cloud.count === 0) throw new RangeError('resamplePoints: the point cloud is empty');
-  const order = new Uint32Array(Math.max(n, cloud.count));
-  if (cloud.count >= n) {
-    const perm = new Uint32Array(cloud.count);
-    for (let i = 0; i < perm.length; i++) perm[i] = i;
-    for (let i = 0; i < n; i++) {
-      const j = i + rng.int(cloud.count - i);
-      const tmp = perm[i]; perm[i] = perm[j]; perm[j] = tmp;
-      order[i] = perm[i];
-    }
-  } else {
-    for (let i = 0; i < cloud.count; i++) order[i] = i;
-    for (let i = cloud.count; i < n; i++) order[i] = rng.int(cloud.count);
+  return gather(cloud, drawIndices(cloud.count, n, rng));
+}
+
+/** n indices into a pool of `count`: distinct when the pool is large enough (partial Fisher–Yates). */
+export function drawIndices(count: number, n: number, rng: Rng, scratch: Uint32Array = new Uint32Array(count)): Uint32Array {
+  const out = new Uint32Array(n);
+  if (count < n) { for (let i = 0; i < n; i++) out[i] = i < count ? i : rng.int(count); return out; }
+  for (let i = 0; i < count; i++) scratch[i] = i;
+  for (let i = 0; i < n; i++) {
+    const j = i + rng.int(count - i);
+    const t = scratch[i]; scratch[i] = scratch[j]; scratch[j] = t;
+    out[i] = scratch[i];
   }
-  return gather(cloud, order.subarray(0, n));
+  return out;
 }
 
 export function gather(cloud: PointCloud, order: ArrayLike<number>): PointCloud {

@@ -32,17 +32,21 @@ export interface StoredLibrary {
   readonly source: 'demo' | 'user';
 }
 
-export async function saveLibrary(lib: StoredLibrary): Promise<void> {
-  await tx('readwrite', (s) => s.put(lib, 'current'));
+async function put(key: string, value: unknown): Promise<void> {
+  await tx('readwrite', (s) => s.put(value, key));
 }
 
-export async function loadLibrary(): Promise<StoredLibrary | null> {
+/** The stored value, or null when absent or when IndexedDB cannot be read. */
+async function get<T>(key: string): Promise<T | null> {
   try {
-    return ((await tx('readonly', (s) => s.get('current'))) as StoredLibrary | undefined) ?? null;
+    return ((await tx('readonly', (s) => s.get(key))) as T | undefined) ?? null;
   } catch {
     return null;
   }
 }
+
+export const saveLibrary = (lib: StoredLibrary): Promise<void> => put('current', lib);
+export const loadLibrary = (): Promise<StoredLibrary | null> => get<StoredLibrary>('current');
 
 export interface StoredEmbeddings {
   /** Which model made them: "untrained", or step/total of the saved run. */
@@ -52,14 +56,5 @@ export interface StoredEmbeddings {
   readonly dim: number;
 }
 
-export async function saveEmbeddings(e: StoredEmbeddings): Promise<void> {
-  await tx('readwrite', (s) => s.put(e, 'embeddings'));
-}
-
-export async function loadEmbeddings(): Promise<StoredEmbeddings | null> {
-  try {
-    return ((await tx('readonly', (s) => s.get('embeddings'))) as StoredEmbeddings | undefined) ?? null;
-  } catch {
-    return null;
-  }
-}
+export const saveEmbeddings = (e: StoredEmbeddings): Promise<void> => put('embeddings', e);
+export const loadEmbeddings = (): Promise<StoredEmbeddings | null> => get<StoredEmbeddings>('embeddings');
