@@ -1,5 +1,6 @@
 // Train with the defaults plus JSON overrides, then evaluate against the baselines; prints one JSON line.
-//   npx tsx scripts/experiment.ts <library-dir> '{"epochs": 60, "encoder": {"inputFeatures": "xyz+normal"}}' [--embed-points N]
+//   npx tsx scripts/experiment.ts <library-dir> '{"epochs": 60, "encoder": {"inputFeatures": "xyz+normal"}}' [--embed-points N] [--init <run-dir>]
+// --init starts training from a saved encoder (e.g. the pre-trained one) and also reports it before fine-tuning.
 // Used for the ablation tables in docs/: every row there names the command that produced it.
 
 import { initBackend } from '../src/core/model/backend';
@@ -8,6 +9,10 @@ import { Trainer, type TrainConfig } from '../src/core/model/train';
 import { PRESETS } from '../src/core/points/augment';
 import { evaluateMethods } from '../src/core/retrieval/evaluate';
 import { loadLibrary } from '../src/cli/library-dir';
+import { loadRun } from '../src/cli/run-dir';
+import { encoderFromCheckpoint } from '../src/core/model/checkpoint';
+import { evaluateRetrieval } from '../src/core/retrieval/metrics';
+import { encoderDescriptors } from '../src/core/retrieval/methods';
 
 const [lib, overridesText = '{}'] = process.argv.slice(2).filter((a) => !a.startsWith('--'));
 const embedPointsArg = process.argv.indexOf('--embed-points');
@@ -22,12 +27,22 @@ const config: TrainConfig = {
 const backend = await initBackend();
 const library = loadLibrary(lib, { quiet: true, points: POOL_POINTS });
 const parts = library.parts.map((p) => ({ points: p.points, normals: p.normals }));
+const initArg = process.argv.indexOf('--init');
+const init = initArg > 0 ? await loadRun(process.argv[initArg + 1]) : null;
+let start: Record<string, number> | null = null;
+if (init) {
+  const enc = encoderFromCheckpoint(init);
+  const m = evaluateRetrieval(library.labels, encoderDescriptors('learned', enc, parts, config.points, config.pose).similarity);
+  start = { nn: m.nn, first_tier: m.first_tier, map: m.map };
+  console.error('before fine-tuning', JSON.stringify(start));
+  enc.dispose();
+}
 const t0 = Date.now();
-const trainer = new Trainer(parts, config);
+const trainer = new Trainer(parts, config, init ? { initialWeights: init.weights } : {});
 const result = await trainer.run({ yieldEvery: 1000 });
 const seconds = (Date.now() - t0) / 1000;
 const points = embedPointsArg > 0 ? Number(process.argv[embedPointsArg + 1]) : config.points;
 const report = evaluateMethods({ parts, labels: library.labels, points, pose: config.pose, learned: trainer.encoder, untrainedConfig: config.encoder, seed: config.seed });
 trainer.dispose();
 const round = (m: Record<string, number>) => Object.fromEntries(Object.entries(m).map(([k, v]) => [k, Math.round(v * 1000) / 1000]));
-console.log(JSON.stringify({ overrides, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!) }));
+console.log(JSON.stringify({ overrides, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}), learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!) }));

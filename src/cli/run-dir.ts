@@ -5,7 +5,7 @@
 import { existsSync, mkdirSync, readFileSync, renameSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type * as tf from '@tensorflow/tfjs';
-import { fromArtifacts, toArtifacts, type Checkpoint } from '../core/model/checkpoint';
+import { artifactsFromModelJson, fromArtifacts, toArtifacts, type Checkpoint, type ModelJson } from '../core/model/checkpoint';
 import { CliError } from './errors';
 
 const MODEL = 'model.json';
@@ -31,28 +31,19 @@ export function fileSystemHandler(dir: string): Required<Pick<tf.io.IOHandler, '
     async load(): Promise<tf.io.ModelArtifacts> {
       const modelPath = join(dir, MODEL);
       if (!existsSync(modelPath)) throw new CliError(`no model in ${dir} (expected ${MODEL} and ${WEIGHTS}; train one with "shapekin train")`);
-      let json: { format?: string; modelTopology?: unknown; userDefinedMetadata?: unknown; weightsManifest?: { paths: string[]; weights: tf.io.WeightsManifestEntry[] }[] };
+      let json: ModelJson;
       try {
         json = JSON.parse(readFileSync(modelPath, 'utf8'));
       } catch (err) {
         throw new CliError(`${modelPath}: not valid JSON (${(err as Error).message})`);
       }
-      const groups = json.weightsManifest ?? [];
-      const buffers = groups.flatMap((g) => g.paths.map((p) => {
+      const buffers = (json.weightsManifest ?? []).flatMap((g) => g.paths.map((p) => {
         const path = join(dir, p);
         if (!existsSync(path)) throw new CliError(`${modelPath} names ${p}, which is missing`);
-        return readFileSync(path);
+        const b = readFileSync(path);
+        return b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer;
       }));
-      const data = new Uint8Array(buffers.reduce((s, b) => s + b.byteLength, 0));
-      let o = 0;
-      for (const b of buffers) { data.set(b, o); o += b.byteLength; }
-      return {
-        format: json.format,
-        modelTopology: json.modelTopology as tf.io.ModelArtifacts['modelTopology'],
-        userDefinedMetadata: json.userDefinedMetadata as tf.io.ModelArtifacts['userDefinedMetadata'],
-        weightSpecs: groups.flatMap((g) => g.weights),
-        weightData: data.buffer,
-      };
+      return artifactsFromModelJson(json, buffers);
     },
   };
 }

@@ -5,7 +5,7 @@
 import type * as tf from '@tensorflow/tfjs';
 import { createRng } from '../rng';
 import type { AdamState } from './adam';
-import { Encoder, validateEncoderConfig } from './encoder';
+import { Encoder, inputChannels, validateEncoderConfig } from './encoder';
 import { setWeights, type HeldOutCheck, type TrainConfig, type TrainStatus } from './train';
 import type { SamplingSettings } from '../library';
 
@@ -25,6 +25,8 @@ export interface RunManifest {
   readonly history: readonly { step: number; loss: number; lr: number }[];
   readonly checks: readonly HeldOutCheck[];
   readonly labelNames?: readonly string[];
+  /** Set on the shipped pre-trained encoder: what it was trained on (see scripts/pretrain.ts). */
+  readonly pretraining?: { readonly corpus: string; readonly parts: number; readonly corpusSeed: number; readonly seconds: number };
 }
 
 export interface Checkpoint {
@@ -38,7 +40,7 @@ function shapesFor(config: TrainConfig): { names: string[]; shapes: number[][] }
   // Build a throwaway encoder description without tensors: widths give every shape.
   const names: string[] = [];
   const shapes: number[][] = [];
-  let c = config.encoder.inputFeatures === 'xyz' ? 3 : 6;
+  let c = inputChannels(config.encoder.inputFeatures);
   config.encoder.widths.forEach((w, i) => { names.push(`point${i}/w`, `point${i}/b`); shapes.push([c, w], [w]); c = w; });
   c = config.encoder.widths[config.encoder.widths.length - 1] * (config.encoder.pooling === 'max+mean' ? 2 : 1);
   config.encoder.projection.forEach((w, i) => { names.push(`head${i}/w`, `head${i}/b`); shapes.push([c, w], [w]); c = w; });
@@ -104,6 +106,28 @@ export function fromArtifacts(artifacts: tf.io.ModelArtifacts, where = 'checkpoi
   const step = Number((artifacts.userDefinedMetadata as { adamStep?: number } | undefined)?.adamStep ?? 0);
   const adam = hasAdam ? { step, m: names.map((n) => byName.get(`adam/m/${n}`)!), v: names.map((n) => byName.get(`adam/v/${n}`)!) } : null;
   return { manifest, weights, adam };
+}
+
+/** The JSON of a run folder's model.json (tfjs's model format). */
+export interface ModelJson {
+  readonly format?: string;
+  readonly generatedBy?: string;
+  readonly convertedBy?: string | null;
+  readonly modelTopology?: unknown;
+  readonly userDefinedMetadata?: unknown;
+  readonly weightsManifest?: readonly { readonly paths: readonly string[]; readonly weights: readonly tf.io.WeightsManifestEntry[] }[];
+}
+
+/** Artifacts from a parsed model.json and the bytes of the weight files it names, in order. */
+export function artifactsFromModelJson(json: ModelJson, weightFiles: readonly ArrayBuffer[]): tf.io.ModelArtifacts {
+  const groups = json.weightsManifest ?? [];
+  return {
+    format: json.format,
+    modelTopology: json.modelTopology as tf.io.ModelArtifacts['modelTopology'],
+    userDefinedMetadata: json.userDefinedMetadata as tf.io.ModelArtifacts['userDefinedMetadata'],
+    weightSpecs: groups.flatMap((g) => g.weights),
+    weightData: concat([...weightFiles]),
+  };
 }
 
 function concat(parts: ArrayBuffer[]): ArrayBuffer {

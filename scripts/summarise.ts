@@ -1,0 +1,35 @@
+// Turn experiment JSON lines (scripts/experiment.ts output, one run per line) into markdown table rows:
+// runs with the same overrides apart from the seed are grouped, and each metric is given as mean ± standard
+// deviation over the seeds (sample standard deviation, n − 1).
+//   npx tsx scripts/summarise.ts runs-*.jsonl
+import { readFileSync } from 'node:fs';
+
+interface Run {
+  overrides: Record<string, unknown> & { seed?: number };
+  seconds: number;
+  init?: string;
+  learned: Record<string, number>;
+  untrained: Record<string, number>;
+  d2: Record<string, number>;
+  beforeFineTune?: Record<string, number>;
+}
+
+const runs: Run[] = process.argv.slice(2).flatMap((f) => readFileSync(f, 'utf8').split('\n').filter((l) => l.startsWith('{')).map((l) => JSON.parse(l) as Run));
+const groups = new Map<string, Run[]>();
+for (const r of runs) {
+  const { seed: _seed, ...rest } = r.overrides;
+  const key = JSON.stringify(rest) + (r.init ? ` init ${r.init}` : '');
+  groups.set(key, [...(groups.get(key) ?? []), r]);
+}
+const stat = (xs: number[]) => {
+  const m = xs.reduce((a, b) => a + b, 0) / xs.length;
+  const sd = xs.length > 1 ? Math.sqrt(xs.reduce((a, b) => a + (b - m) ** 2, 0) / (xs.length - 1)) : 0;
+  return `${m.toFixed(3)} ± ${sd.toFixed(3)}`;
+};
+const cell = (rs: Run[], method: 'learned' | 'untrained' | 'd2') => ['nn', 'first_tier', 'map'].map((k) => stat(rs.map((r) => r[method][k]))).join(' / ');
+console.log('| overrides | seeds | learned NN / 1st tier / mAP | untrained | D2 | seconds |');
+console.log('| --- | --- | --- | --- | --- | --- |');
+for (const [key, rs] of groups) {
+  const seeds = rs.map((r) => r.overrides.seed ?? 0).join(',');
+  console.log(`| \`${key}\` | ${seeds} | ${cell(rs, 'learned')} | ${cell(rs, 'untrained')} | ${cell(rs, 'd2')} | ${Math.round(rs.reduce((a, r) => a + r.seconds, 0) / rs.length)} |`);
+}
