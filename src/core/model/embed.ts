@@ -24,8 +24,15 @@ export function fillSlot(out: Float32Array, slot: number, n: number, features: I
     const o = (slot * n + i) * F;
     out[o] = points[src * 3]; out[o + 1] = points[src * 3 + 1]; out[o + 2] = points[src * 3 + 2];
     if (F === 6) { out[o + 3] = normals[src * 3]; out[o + 4] = normals[src * 3 + 1]; out[o + 5] = normals[src * 3 + 2]; }
+    else if (F === 9) {
+      const nx = normals[src * 3], ny = normals[src * 3 + 1], nz = normals[src * 3 + 2];
+      out[o + 3] = nx * nx; out[o + 4] = ny * ny; out[o + 5] = nz * nz;
+      out[o + 6] = SQRT2 * nx * ny; out[o + 7] = SQRT2 * ny * nz; out[o + 8] = SQRT2 * nz * nx;
+    }
   }
 }
+
+const SQRT2 = Math.SQRT2;
 
 /** How parts are posed before the encoder sees them. */
 export type Pose = 'as-is' | 'principal-axes';

@@ -12,7 +12,13 @@ import * as tf from '@tensorflow/tfjs';
 import type { Rng } from '../rng';
 
 export type Pooling = 'max' | 'max+mean';
-export type InputFeatures = 'xyz' | 'xyz+normal';
+/**
+ * Per-point inputs: position only; position and normal; or position and the normal's line without its sign —
+ * the six distinct entries of n nᵀ (off-diagonals × √2, so the six values have unit length), which an open
+ * mesh's unreliable winding cannot flip.
+ */
+export type InputFeatures = 'xyz' | 'xyz+normal' | 'xyz+unsigned-normal';
+export const INPUT_FEATURES: readonly InputFeatures[] = ['xyz', 'xyz+normal', 'xyz+unsigned-normal'];
 
 export interface EncoderConfig {
   readonly inputFeatures: InputFeatures;
@@ -27,7 +33,7 @@ export interface EncoderConfig {
 export const DEFAULT_ENCODER: EncoderConfig = { inputFeatures: 'xyz+normal', widths: [64, 128, 256], pooling: 'max', projection: [256, 128] };
 
 export function inputChannels(f: InputFeatures): number {
-  return f === 'xyz' ? 3 : 6;
+  return f === 'xyz' ? 3 : f === 'xyz+normal' ? 6 : 9;
 }
 
 export function embeddingSize(c: EncoderConfig): number {
@@ -35,7 +41,7 @@ export function embeddingSize(c: EncoderConfig): number {
 }
 
 export function validateEncoderConfig(c: EncoderConfig): void {
-  if (!['xyz', 'xyz+normal'].includes(c.inputFeatures)) throw new RangeError(`encoder: inputFeatures must be xyz or xyz+normal, got ${c.inputFeatures}`);
+  if (!INPUT_FEATURES.includes(c.inputFeatures)) throw new RangeError(`encoder: inputFeatures must be one of ${INPUT_FEATURES.join(', ')}, got ${c.inputFeatures}`);
   if (!['max', 'max+mean'].includes(c.pooling)) throw new RangeError(`encoder: pooling must be max or max+mean, got ${c.pooling}`);
   for (const [name, list] of [['widths', c.widths], ['projection', c.projection]] as const) {
     if (!Array.isArray(list) || list.length === 0 || list.some((w) => !Number.isInteger(w) || w < 1 || w > 4096)) {

@@ -1,6 +1,7 @@
 import * as tf from '@tensorflow/tfjs';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { Encoder, type EncoderConfig } from '../../../src/core/model/encoder';
+import { embedParts, fillSlot } from '../../../src/core/model/embed';
 import { axisAngle, transformPoints } from '../../../src/core/points/rotation';
 import { createRng } from '../../../src/core/rng';
 import { expectClose } from '../../helpers';
@@ -99,5 +100,33 @@ describe('symmetries of the architecture', () => {
     const a = new Encoder(tiny, createRng(5)), b = new Encoder(tiny, createRng(5));
     expect(Array.from(a.layers[1].w.dataSync())).toEqual(Array.from(b.layers[1].w.dataSync()));
     a.dispose(); b.dispose();
+  });
+});
+
+describe('unsigned-normal inputs', () => {
+  it('write the six entries of n nᵀ (off-diagonals × √2), the same for n and −n, with unit length', () => {
+    // Reference: for a unit vector, ‖n nᵀ‖_F = ‖n‖² = 1, and the Frobenius norm of a symmetric 3×3 matrix is
+    // the length of (a11, a22, a33, √2·a12, √2·a23, √2·a31) (the usual symmetric-matrix vectorisation).
+    const n = [0.36, -0.48, 0.8]; // unit: 0.1296 + 0.2304 + 0.64 = 1
+    const points = Float32Array.from([0.1, 0.2, 0.3]);
+    const a = new Float32Array(9), b = new Float32Array(9);
+    fillSlot(a, 0, 1, 'xyz+unsigned-normal', points, Float32Array.from(n));
+    fillSlot(b, 0, 1, 'xyz+unsigned-normal', points, Float32Array.from(n.map((v) => -v)));
+    expect([...a]).toEqual([...b]);
+    expectClose([...a.slice(0, 3)], [0.1, 0.2, 0.3], { atol: 1e-7 });
+    expectClose([...a.slice(3)], [0.1296, 0.2304, 0.64, Math.SQRT2 * 0.36 * -0.48, Math.SQRT2 * -0.48 * 0.8, Math.SQRT2 * 0.8 * 0.36], { atol: 1e-6 });
+    expect(Math.hypot(...a.slice(3))).toBeCloseTo(1, 6);
+  });
+
+  it('an encoder on them takes nine channels and gives the same embedding when every normal is flipped', () => {
+    const enc = new Encoder({ ...tiny, inputFeatures: 'xyz+unsigned-normal' }, createRng(5));
+    const rng = createRng(6);
+    const points = Float32Array.from({ length: 64 * 3 }, () => rng.uniform(-1, 1));
+    const normals = Float32Array.from({ length: 64 * 3 }, () => rng.uniform(-1, 1));
+    const flipped = normals.map((v) => -v);
+    const [e1, e2] = [normals, flipped].map((nrm) => embedParts(enc, [{ points, normals: nrm }], 64));
+    expectClose([...e1], [...e2], { atol: 1e-6 });
+    expect(() => enc.embed(tf.zeros([1, 8, 6]) as tf.Tensor3D)).toThrow(/9/);
+    enc.dispose();
   });
 });
