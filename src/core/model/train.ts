@@ -11,7 +11,6 @@ import { Adam, cosineWithWarmup, type AdamState } from './adam';
 import { embedParts, fillSlot, posed, type ModelPart, type Pose } from './embed';
 import { Encoder, inputChannels, validateEncoderConfig, type EncoderConfig } from './encoder';
 import { computeLoss, LOSS_NAMES, type LossSettings } from './losses';
-import { kmeans } from 'ml-kmeans';
 
 export interface TrainConfig {
   readonly encoder: EncoderConfig;
@@ -34,12 +33,6 @@ export interface TrainConfig {
   readonly evalEvery: number;
   /** Stop after this many checks without improvement (0: never stop early). */
   readonly patience: number;
-  /**
-   * Self-labelling: at the start of every epoch the library is embedded with the current encoder and split by
-   * k-means into this many groups, whose ids act as labels for the supervised contrastive loss (the DeepCluster
-   * scheme, Caron et al. 2018). 0 or absent: off.
-   */
-  readonly clusters?: number;
 }
 
 export interface TrainProgress {
@@ -131,8 +124,6 @@ export class Trainer {
   status: TrainStatus = 'idle';
   history: { step: number; loss: number; lr: number }[] = [];
   checks: HeldOutCheck[] = [];
-  private pseudo: Int32Array | null = null;
-  private pseudoEpoch = -1;
   private resumeGate: (() => void) | null = null;
   private cancelRequested = false;
   private pauseRequested = false;
@@ -193,8 +184,7 @@ export class Trainer {
     const B = parts.length;
     const F = inputChannels(this.config.encoder.inputFeatures);
     const lr = cosineWithWarmup(k, this.totalSteps, this.config.learningRate, Math.round(this.totalSteps * this.config.warmupFraction));
-    if ((this.config.clusters ?? 0) > 0) this.refreshPseudoLabels(Math.floor(k / this.stepsPerEpoch));
-    const labels = this.pseudo ? parts.map((i) => this.pseudo![i]) : this.labels ? parts.map((i) => this.labels![i]) : null;
+    const labels = this.labels ? parts.map((i) => this.labels![i]) : null;
     const vars = this.encoder.variables;
     const lossValue = tf.tidy(() => {
       const input = tf.tensor3d(x, [2 * B, this.config.points, F]);
@@ -202,7 +192,7 @@ export class Trainer {
         const z = this.encoder.project(this.encoder.pooled(input)); // (2B, P)
         const za = tf.slice(z, [0, 0], [B, -1]) as tf.Tensor2D;
         const zb = tf.slice(z, [B, 0], [B, -1]) as tf.Tensor2D;
-        return computeLoss(this.pseudo ? { ...this.config.loss, name: 'supervised-contrastive' } : this.config.loss, za, zb, labels);
+        return computeLoss(this.config.loss, za, zb, labels);
       }, vars);
       const loss = value.dataSync()[0];
       if (Number.isFinite(loss)) this.adam.apply(vars.map((v) => grads[v.name]), lr);
@@ -212,21 +202,6 @@ export class Trainer {
     this.step = k + 1;
     this.history.push({ step: this.step, loss: lossValue, lr });
     return lossValue;
-  }
-
-  /** k-means groups of the training parts under the current encoder, once per epoch. */
-  private refreshPseudoLabels(epoch: number): void {
-    if (epoch === this.pseudoEpoch) return;
-    const train = this.trainIdx.map((i) => this.parts[i]);
-    const emb = embedParts(this.encoder, train, this.config.points);
-    const D = emb.length / train.length;
-    const rows = train.map((_, i) => Array.from(emb.subarray(i * D, (i + 1) * D)));
-    const k = Math.min(this.config.clusters!, train.length);
-    const { clusters } = kmeans(rows, k, { seed: hashString(`clusters:${epoch}`, this.config.seed), initialization: 'kmeans++' });
-    const pseudo = new Int32Array(this.parts.length).fill(-1);
-    this.trainIdx.forEach((p, i) => { pseudo[p] = clusters[i]; });
-    this.pseudo = pseudo;
-    this.pseudoEpoch = epoch;
   }
 
   /** Held-out instance recognition: views of held-out parts against their clean embeddings. */
