@@ -4,7 +4,7 @@
 // Used for the ablation tables in docs/: every row there names the command that produced it.
 
 import { initBackend } from '../src/core/model/backend';
-import { DEFAULT_TRAIN, POOL_POINTS } from '../src/core/model/defaults';
+import { POOL_POINTS, defaultTrainFor } from '../src/core/model/defaults';
 import { Trainer, type TrainConfig } from '../src/core/model/train';
 import { PRESETS } from '../src/core/points/augment';
 import { evaluateMethods } from '../src/core/retrieval/evaluate';
@@ -17,6 +17,10 @@ import { encoderDescriptors } from '../src/core/retrieval/methods';
 const [lib, overridesText = '{}'] = process.argv.slice(2).filter((a) => !a.startsWith('--'));
 const embedPointsArg = process.argv.indexOf('--embed-points');
 const overrides = JSON.parse(overridesText) as Partial<TrainConfig> & { preset?: keyof typeof PRESETS };
+const backend = await initBackend();
+const library = loadLibrary(lib, { quiet: true, points: POOL_POINTS });
+// The library's own defaults (inputs follow its share of closed meshes), then the overrides.
+const DEFAULT_TRAIN = defaultTrainFor(library.parts.map((p) => p.info.closed));
 const config: TrainConfig = {
   ...DEFAULT_TRAIN,
   ...overrides,
@@ -24,8 +28,6 @@ const config: TrainConfig = {
   loss: { ...DEFAULT_TRAIN.loss, ...(overrides.loss ?? {}) },
   pipeline: overrides.preset ? PRESETS[overrides.preset] : overrides.pipeline ?? DEFAULT_TRAIN.pipeline,
 };
-const backend = await initBackend();
-const library = loadLibrary(lib, { quiet: true, points: POOL_POINTS });
 const parts = library.parts.map((p) => ({ points: p.points, normals: p.normals }));
 const initArg = process.argv.indexOf('--init');
 const init = initArg > 0 ? await loadRun(process.argv[initArg + 1]) : null;
@@ -45,4 +47,4 @@ const points = embedPointsArg > 0 ? Number(process.argv[embedPointsArg + 1]) : c
 const report = evaluateMethods({ parts, labels: library.labels, points, pose: config.pose, learned: trainer.encoder, untrainedConfig: config.encoder, seed: config.seed });
 trainer.dispose();
 const round = (m: Record<string, number>) => Object.fromEntries(Object.entries(m).map(([k, v]) => [k, Math.round(v * 1000) / 1000]));
-console.log(JSON.stringify({ overrides, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}), learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!) }));
+console.log(JSON.stringify({ overrides, inputs: config.encoder.inputFeatures, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}), learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!) }));

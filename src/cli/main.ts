@@ -5,9 +5,9 @@ import { extname } from 'node:path';
 import { parseArgs } from 'node:util';
 import { initBackend } from '../core/model/backend';
 import { encoderFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
-import { DEFAULT_TRAIN, POOL_POINTS } from '../core/model/defaults';
+import { DEFAULT_TRAIN, POOL_POINTS, defaultTrainFor, inputsReason } from '../core/model/defaults';
 import { embedForRetrieval, type ModelPart } from '../core/model/embed';
-import type { Encoder } from '../core/model/encoder';
+import { INPUT_FEATURES, type Encoder, type InputFeatures } from '../core/model/encoder';
 import { LOSS_NAMES, type LossName } from '../core/model/losses';
 import { getWeights, Trainer, type TrainConfig } from '../core/model/train';
 import { AUGMENT_KINDS, pipelineFromJson, PRESETS, type AugmentKind, type Pipeline } from '../core/points/augment';
@@ -31,6 +31,7 @@ const USAGE = `shapekin — find parts that look like a given part
 usage:
   shapekin train <library-dir> --out <run-dir> [--epochs N] [--seed S] [--points N] [--augment <preset|file.json>]
                  [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--resume]
+                 [--inputs ${INPUT_FEATURES.join('|')}]   (default: normals only if most meshes are closed)
   shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy>
   shapekin query <mesh-file> --model <run-dir> --library <library-dir> [-k 10] [--size-ratio R] [--json]
   shapekin eval <library-dir> [--model <run-dir>] [--json]
@@ -46,7 +47,7 @@ const OPTIONS = {
   batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' },
   k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, threshold: { type: 'string' },
   json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
-  backend: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
+  backend: { type: 'string' }, inputs: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
 } as const;
 
 type Values = { [K in keyof typeof OPTIONS]?: (typeof OPTIONS)[K]['type'] extends 'boolean' ? boolean : string };
@@ -82,8 +83,16 @@ async function train(lib: string, values: Values): Promise<void> {
   const out = need(values, 'out', 'train');
   const loss = (values.loss ?? DEFAULT_TRAIN.loss.name) as LossName;
   if (!LOSS_NAMES.includes(loss)) throw new CliError(`--loss must be one of ${LOSS_NAMES.join(', ')}, got "${loss}"`, 2);
+  const backend = await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
+  const library = loadLibrary(lib, { quiet: values.quiet || values.json, points: POOL_POINTS });
+  reportFailures(library.failures, Boolean(values.json));
+  const closed = library.parts.map((p) => p.info.closed);
+  const base = defaultTrainFor(closed);
+  const inputs = (values.inputs ?? base.encoder.inputFeatures) as InputFeatures;
+  if (!INPUT_FEATURES.includes(inputs)) throw new CliError(`--inputs must be one of ${INPUT_FEATURES.join(', ')}, got "${inputs}"`, 2);
   const config: TrainConfig = {
-    ...DEFAULT_TRAIN,
+    ...base,
+    encoder: { ...base.encoder, inputFeatures: inputs },
     epochs: num(values, 'epochs', DEFAULT_TRAIN.epochs),
     seed: num(values, 'seed', DEFAULT_TRAIN.seed),
     points: num(values, 'points', DEFAULT_TRAIN.points),
@@ -92,9 +101,6 @@ async function train(lib: string, values: Values): Promise<void> {
     loss: { ...DEFAULT_TRAIN.loss, name: loss, temperature: num(values, 'temperature', DEFAULT_TRAIN.loss.temperature, false) },
     pipeline: pipelineFrom(values.augment),
   };
-  const backend = await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
-  const library = loadLibrary(lib, { quiet: values.quiet || values.json, points: POOL_POINTS });
-  reportFailures(library.failures, Boolean(values.json));
   const labelNames = [...new Set(library.labels)].sort();
   const labelIds = library.labels.map((l) => labelNames.indexOf(l));
   let resume: Checkpoint | null = null;
@@ -104,7 +110,10 @@ async function train(lib: string, values: Values): Promise<void> {
     ...(resume ? { initialWeights: resume.weights, resume: { step: resume.manifest.step, adam: resume.adam!, history: resume.manifest.history, checks: resume.manifest.checks } } : {}),
   });
   const cfg = trainer.config;
-  if (!values.json) process.stderr.write(`training on ${library.parts.length} parts, ${trainer.totalSteps} steps (${cfg.epochs} epochs × ${trainer.stepsPerEpoch}), backend ${backend}\n`);
+  if (!values.json) {
+    process.stderr.write(`training on ${library.parts.length} parts, ${trainer.totalSteps} steps (${cfg.epochs} epochs × ${trainer.stepsPerEpoch}), backend ${backend}\n`);
+    process.stderr.write(`inputs: ${values.inputs || resume ? cfg.encoder.inputFeatures.replaceAll('+', ' + ').replace('xyz', 'x y z') + (resume ? ' (from the saved run)' : ' (--inputs)') : inputsReason(closed)}\n`);
+  }
   const progress = new Progress('training', trainer.totalSteps, values.quiet || values.json);
   const checkpoint = (status: Checkpoint['manifest']['status']) => saveRun(out, {
     manifest: { format: 'shapekin-encoder', version: 1, config: cfg, sampling: { points: POOL_POINTS, seed: 0 }, step: trainer.step, totalSteps: trainer.totalSteps, status, backend, history: trainer.history, checks: trainer.checks, labelNames },
@@ -205,7 +214,7 @@ async function evaluate(lib: string, values: Values): Promise<void> {
   const library = loadLibrary(lib, { quiet: values.quiet || values.json, ...sampling });
   reportFailures(library.failures, Boolean(values.json));
   const learned = ckpt ? encoderFromCheckpoint(ckpt) : undefined;
-  const config = ckpt?.manifest.config ?? DEFAULT_TRAIN;
+  const config = ckpt?.manifest.config ?? defaultTrainFor(library.parts.map((p) => p.info.closed));
   const report = evaluateMethods({ parts: asModelParts(library.parts), labels: library.labels, points: config.points, pose: config.pose, ...(learned ? { learned } : {}), untrainedConfig: config.encoder, seed: config.seed });
   learned?.dispose();
   if (values.json) { console.log(JSON.stringify(report)); return; }

@@ -1,6 +1,8 @@
 // The command line end to end on the demo library: a tiny training run, then every command on its output.
 
-import { existsSync, mkdtempSync, readFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { CylinderGeometry, PlaneGeometry } from 'three';
+import { writeObj } from '../../src/core/mesh/write';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
@@ -28,6 +30,21 @@ beforeAll(async () => {
 }, 120_000);
 
 describe('shapekin train', () => {
+  it('picks the inputs from the library: normals for closed meshes, x y z only when most are open; --inputs overrides', async () => {
+    // The demo run above: every demo mesh is closed.
+    expect(JSON.parse(readFileSync(join(run, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.inputFeatures).toBe('xyz+normal');
+    const lib = mkdtempSync(join(tmpdir(), 'shapekin-open-'));
+    const open = [new PlaneGeometry(2, 1, 4, 2), new CylinderGeometry(1, 1, 2, 16, 1, true), new CylinderGeometry(0.5, 1, 1, 12, 1, true)];
+    open.forEach((g, i) => writeFileSync(join(lib, `open${i}.obj`), writeObj({ positions: g.getAttribute('position').array, indices: g.index!.array }, 'open surface')));
+    const openRun = join(lib, 'run');
+    capture();
+    expect(await main(['train', lib, '--out', openRun, '--epochs', '1', '--points', '64', '--batch', '3'])).toBe(0);
+    expect(err.join('')).toMatch(/inputs: x y z only: 0 of 3 meshes are closed/);
+    expect(JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.inputFeatures).toBe('xyz');
+    expect(await main(['train', lib, '--out', openRun, '--epochs', '1', '--points', '64', '--batch', '3', '--inputs', 'xyz+unsigned-normal', '--json'])).toBe(0);
+    expect(JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.inputFeatures).toBe('xyz+unsigned-normal');
+    expect(await main(['train', lib, '--out', openRun, '--inputs', 'colour'])).toBe(2);
+  });
   it('writes a model in tfjs format and reports the run as JSON', () => {
     expect(existsSync(join(run, 'model.json'))).toBe(true);
     expect(existsSync(join(run, 'weights.bin'))).toBe(true);

@@ -26,7 +26,7 @@ export interface RunManifest {
   readonly checks: readonly HeldOutCheck[];
   readonly labelNames?: readonly string[];
   /** Set on the shipped pre-trained encoder: what it was trained on (see scripts/pretrain.ts). */
-  readonly pretraining?: { readonly corpus: string; readonly parts: number; readonly corpusSeed: number; readonly seconds: number };
+  readonly pretraining?: { readonly corpus: string; readonly parts: number; readonly loss: string; readonly classes: number; readonly corpusSeed: number; readonly seconds: number };
 }
 
 export interface Checkpoint {

@@ -6,6 +6,13 @@ import { LitElement, css, html } from 'lit';
 import { LOSS_NAMES, type LossName } from '../../core/model/losses';
 import type { TrainConfig, TrainProgress, HeldOutCheck } from '../../core/model/train';
 import { PRESETS } from '../../core/points/augment';
+import { INPUT_FEATURES, type InputFeatures } from '../../core/model/encoder';
+
+const INPUT_LABELS: Record<InputFeatures, string> = {
+  xyz: 'x y z',
+  'xyz+normal': 'x y z + normal',
+  'xyz+unsigned-normal': 'x y z + normal line (sign ignored)',
+};
 import type { TrainStatusView } from '../status';
 import './loss-chart';
 
@@ -14,6 +21,7 @@ export class SkTrainPanel extends LitElement {
     config: { attribute: false }, status: { attribute: false }, progress: { attribute: false },
     history: { attribute: false }, checks: { attribute: false }, backend: { type: String },
     savedStep: { type: Number }, savedTotal: { type: Number }, partCount: { type: Number }, hasLabels: { type: Boolean },
+    inputsNote: { type: String },
   };
   declare config: TrainConfig;
   declare status: TrainStatusView;
@@ -25,6 +33,8 @@ export class SkTrainPanel extends LitElement {
   declare savedTotal: number;
   declare partCount: number;
   declare hasLabels: boolean;
+  /** Why the library's default inputs are what they are. */
+  declare inputsNote: string;
 
   constructor() {
     super();
@@ -37,6 +47,7 @@ export class SkTrainPanel extends LitElement {
     this.savedTotal = 0;
     this.partCount = 0;
     this.hasLabels = false;
+    this.inputsNote = '';
   }
 
   static override styles = css`
@@ -89,13 +100,16 @@ export class SkTrainPanel extends LitElement {
             ${Object.entries(PRESETS).map(([n, pipe]) => html`<option value=${n} ?selected=${JSON.stringify(pipe) === JSON.stringify(c.pipeline)}>${n}</option>`)}
             ${Object.values(PRESETS).some((pipe) => JSON.stringify(pipe) === JSON.stringify(c.pipeline)) ? null : html`<option selected>as composed on the Augmentations tab</option>`}
           </select>
+          <label for="inputs">per-point inputs</label><select id="inputs" title=${this.inputsNote} ?disabled=${busy} @change=${(e: Event) => this.set('encoder', { ...c.encoder, inputFeatures: (e.target as HTMLSelectElement).value as InputFeatures })}>
+            ${INPUT_FEATURES.map((f) => html`<option value=${f} ?selected=${c.encoder.inputFeatures === f}>${INPUT_LABELS[f]}</option>`)}
+          </select>
           <label for="pose">pose</label><select id="pose" ?disabled=${busy} @change=${(e: Event) => this.set('pose', (e.target as HTMLSelectElement).value as TrainConfig['pose'])}>
             <option value="principal-axes" ?selected=${c.pose === 'principal-axes'}>principal axes</option>
             <option value="as-is" ?selected=${c.pose === 'as-is'}>as in the file</option>
           </select>
           <label for="seed">seed</label><input id="seed" type="number" min="0" step="1" .value=${String(c.seed)} ?disabled=${busy} @change=${(e: Event) => this.set('seed', this.num(e))} />
           <label for="held">held out</label><input id="held" type="number" min="0" max="0.5" step="0.05" .value=${String(c.heldOutFraction)} ?disabled=${busy} @change=${(e: Event) => this.set('heldOutFraction', this.num(e))} />
-          <div class="note">${this.partCount} parts → ${stepsPerEpoch} steps an epoch, ${stepsPerEpoch * c.epochs} steps. Labels are never needed, except by the supervised-contrastive loss.</div>
+          <div class="note">${this.partCount} parts → ${stepsPerEpoch} steps an epoch, ${stepsPerEpoch * c.epochs} steps. Labels are never needed, except by the supervised-contrastive loss.${this.inputsNote ? html`<br />Default inputs for this library: ${this.inputsNote}.` : null}</div>
         </form>
         <div class="buttons">
           <button class="primary" ?disabled=${busy || this.partCount < 2} @click=${() => this.emit('train-start', c)}>Start training</button>
