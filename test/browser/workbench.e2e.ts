@@ -64,6 +64,9 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       new PerformanceObserver((list) => { for (const e of list.getEntries()) w.longTasks.push(e.duration); }).observe({ type: 'longtask', buffered: false });
     });
     await page.getByRole('tab', { name: 'Training' }).click();
+    // The demo's meshes are all closed, so the library's default inputs keep the normals, and say why.
+    expect(await page.getByLabel('per-point inputs').inputValue()).toBe('xyz+normal');
+    await page.getByText(/Default inputs for this library: x y z \+ normal: 112 of 112 meshes are closed/).waitFor({ timeout: 10_000 });
     await page.getByLabel('epochs').fill('3');
     await page.getByLabel('epochs').dispatchEvent('change');
     await page.getByRole('button', { name: 'Start training' }).click();
