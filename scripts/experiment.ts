@@ -40,7 +40,10 @@ if (init) {
   enc.dispose();
 }
 const t0 = Date.now();
-const trainer = new Trainer(parts, config, init ? { initialWeights: init.weights } : {});
+// Labels from folders only for the supervised contrastive loss (its figures are then not label-free).
+const names = [...new Set(library.labels)].sort();
+const labels = config.loss.name === 'supervised-contrastive' ? library.labels.map((l) => names.indexOf(l)) : null;
+const trainer = new Trainer(parts, config, { labels, ...(init ? { initialWeights: init.weights } : {}) });
 const result = await trainer.run({ yieldEvery: 1000 });
 const seconds = (Date.now() - t0) / 1000;
 const points = embedPointsArg > 0 ? Number(process.argv[embedPointsArg + 1]) : config.points;

@@ -32,6 +32,7 @@ usage:
   shapekin train <library-dir> --out <run-dir> [--epochs N] [--seed S] [--points N] [--augment <preset|file.json>]
                  [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--resume]
                  [--inputs ${INPUT_FEATURES.join('|')}]   (default: normals only if most meshes are closed)
+                 [--pose principal-axes|as-is]   (as-is: keep the files' own frame, for libraries modelled in one; augmentations default to file-pose)
   shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy>
   shapekin query <mesh-file> --model <run-dir> --library <library-dir> [-k 10] [--size-ratio R] [--json]
   shapekin eval <library-dir> [--model <run-dir>] [--json]
@@ -47,7 +48,7 @@ const OPTIONS = {
   batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' },
   k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, threshold: { type: 'string' },
   json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
-  backend: { type: 'string' }, inputs: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
+  backend: { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
 } as const;
 
 type Values = { [K in keyof typeof OPTIONS]?: (typeof OPTIONS)[K]['type'] extends 'boolean' ? boolean : string };
@@ -90,8 +91,11 @@ async function train(lib: string, values: Values): Promise<void> {
   const base = defaultTrainFor(closed);
   const inputs = (values.inputs ?? base.encoder.inputFeatures) as InputFeatures;
   if (!INPUT_FEATURES.includes(inputs)) throw new CliError(`--inputs must be one of ${INPUT_FEATURES.join(', ')}, got "${inputs}"`, 2);
+  const pose = (values.pose ?? base.pose) as TrainConfig['pose'];
+  if (pose !== 'principal-axes' && pose !== 'as-is') throw new CliError(`--pose must be principal-axes or as-is, got "${pose}"`, 2);
   const config: TrainConfig = {
     ...base,
+    pose,
     encoder: { ...base.encoder, inputFeatures: inputs },
     epochs: num(values, 'epochs', DEFAULT_TRAIN.epochs),
     seed: num(values, 'seed', DEFAULT_TRAIN.seed),
@@ -99,7 +103,8 @@ async function train(lib: string, values: Values): Promise<void> {
     batchSize: num(values, 'batch', DEFAULT_TRAIN.batchSize),
     learningRate: num(values, 'lr', DEFAULT_TRAIN.learningRate, false),
     loss: { ...DEFAULT_TRAIN.loss, name: loss, temperature: num(values, 'temperature', DEFAULT_TRAIN.loss.temperature, false) },
-    pipeline: pipelineFrom(values.augment),
+    // Without --augment, a kept file pose gets the preset that does not turn the parts.
+    pipeline: values.augment || pose === 'principal-axes' ? pipelineFrom(values.augment) : PRESETS['file-pose'],
   };
   const labelNames = [...new Set(library.labels)].sort();
   const labelIds = library.labels.map((l) => labelNames.indexOf(l));

@@ -44,6 +44,10 @@ describe('shapekin train', () => {
     expect(await main(['train', lib, '--out', openRun, '--epochs', '1', '--points', '64', '--batch', '3', '--inputs', 'xyz+unsigned-normal', '--json'])).toBe(0);
     expect(JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.inputFeatures).toBe('xyz+unsigned-normal');
     expect(await main(['train', lib, '--out', openRun, '--inputs', 'colour'])).toBe(2);
+    expect(await main(['train', lib, '--out', openRun, '--epochs', '1', '--points', '64', '--batch', '3', '--pose', 'as-is', '--json'])).toBe(0);
+    const kept = JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config;
+    expect(kept.pose).toBe('as-is');
+    expect(kept.pipeline.steps.map((s: { kind: string }) => s.kind)).toEqual(['scale', 'occlude', 'jitter']); // no turning
   });
   it('writes a model in tfjs format and reports the run as JSON', () => {
     expect(existsSync(join(run, 'model.json'))).toBe(true);
@@ -134,6 +138,7 @@ describe('bad arguments and unreadable files: one clear line and a non-zero exit
     [['embed', DEMO, '--model', 'no/such/run', '--out', 'x.npy'], 1, /no model in no\/such\/run/],
     [['embed', DEMO, '--model', 'x', '--out', 'x.txt'], 2, /--out must end in .csv, .json or .npy/],
     [['train', DEMO, '--out', 'x', '--epochs', 'ten'], 2, /--epochs must be a whole number/],
+    [['train', DEMO, '--out', 'x', '--pose', 'upright'], 2, /--pose must be principal-axes or as-is/],
     [['query', 'missing.stl', '--model', 'x', '--library', DEMO], 2, /query file not found/],
     [['eval', DEMO, '--bogus'], 2, /Unknown option '--bogus'/],
   ] as const)('%j', async (args, code, message) => {

@@ -81,7 +81,7 @@ export function pipelineFromJson(text: string): Pipeline {
 const step = (kind: AugmentKind, strength: number, probability = 1): AugmentStep => ({ kind, strength, probability });
 
 /** Named starting points, in plain words. */
-export const PRESETS: Record<'gentle' | 'scan-like' | 'aggressive' | 'any-orientation' | 'principal-pose', Pipeline> = {
+export const PRESETS: Record<'gentle' | 'scan-like' | 'aggressive' | 'any-orientation' | 'principal-pose' | 'file-pose', Pipeline> = {
   gentle: { version: 1, upAxis: 'z', steps: [step('rotate-up', 1), step('scale', 0.4), step('jitter', 0.5)] },
   'scan-like': {
     version: 1, upAxis: 'z',
@@ -97,6 +97,8 @@ export const PRESETS: Record<'gentle' | 'scan-like' | 'aggressive' | 'any-orient
     version: 1, upAxis: 'z',
     steps: [step('flip-axes', 1), step('rotate-any', 0.1), step('scale', 0.4), step('occlude', 0.4, 0.5), step('dropout', 0.4, 0.5), step('jitter', 0.5)],
   },
+  /** For parts kept in their files' own frame (a library modelled in one frame): no turning at all. */
+  'file-pose': { version: 1, upAxis: 'z', steps: [step('scale', 0.4), step('occlude', 0.4, 0.5), step('jitter', 0.5)] },
 };
 export type PresetName = keyof typeof PRESETS;
 
