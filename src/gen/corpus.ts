@@ -1,5 +1,6 @@
-// A large procedural corpus for pre-training the encoder: thousands of varied solids, so the shipped encoder
-// has seen many kinds of geometry before a user's library arrives. Five generic assembly kinds (stacks of
+// A large procedural corpus for pre-training experiments (scripts/pretrain.ts, docs/results.md): thousands of
+// varied solids, to learn geometry before a user's library arrives. (No pre-trained encoder ships: this corpus
+// did not transfer to the real furniture set.) Five generic assembly kinds (stacks of
 // round and square sections, slabs on posts, frames with bars, clusters of boxes, bent tubes) plus the demo
 // part families at random parameters. Every solid is Z-up in its own frame and outward-wound; pieces may
 // overlap (the corpus is only ever sampled as point clouds, never written as manifold files).
@@ -25,8 +26,7 @@ class Assembly {
   private readonly indices: number[] = [];
 
   add(geometry: BufferGeometry, matrix: Matrix4): this {
-    const g = geometry.index ? geometry : geometry.setIndex([...Array(geometry.getAttribute('position').count).keys()]);
-    g.applyMatrix4(matrix);
+    const g = geometry.applyMatrix4(matrix); // three's solid geometries are all indexed
     const base = this.positions.length / 3;
     const pos = g.getAttribute('position');
     for (let i = 0; i < pos.count; i++) this.positions.push(pos.getX(i), pos.getY(i), pos.getZ(i));
@@ -41,7 +41,7 @@ class Assembly {
   }
 }
 
-/** Geometries are built along three's +y; the corpus is Z-up, so every piece is turned +y → +z. */
+/** three's cylinders and lathes are built along +y; the corpus is Z-up, so `upright` turns them to +z. */
 const Y_TO_Z = new Matrix4().makeRotationX(Math.PI / 2);
 const at = (x: number, y: number, z: number, extra?: Matrix4): Matrix4 => {
   const m = new Matrix4().makeTranslation(x, y, z);

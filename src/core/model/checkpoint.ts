@@ -25,7 +25,7 @@ export interface RunManifest {
   readonly history: readonly { step: number; loss: number; lr: number }[];
   readonly checks: readonly HeldOutCheck[];
   readonly labelNames?: readonly string[];
-  /** Set on the shipped pre-trained encoder: what it was trained on (see scripts/pretrain.ts). */
+  /** Set on an encoder pre-trained by scripts/pretrain.ts: what it was trained on. */
   readonly pretraining?: { readonly corpus: string; readonly parts: number; readonly loss: string; readonly classes: number; readonly corpusSeed: number; readonly seconds: number };
 }
 
