@@ -27,10 +27,15 @@ export interface EncoderConfig {
   readonly pooling: Pooling;
   /** Projection head widths (ReLU between), e.g. [256, 128]. */
   readonly projection: readonly number[];
+  /**
+   * What retrieval compares: the projection head's output (what the contrastive loss shapes) or the pooled
+   * features under it. Absent (models saved before the choice existed): pooled. Measured in docs/results.md.
+   */
+  readonly retrieval?: 'projection' | 'pooled';
 }
 
 /** The reference architecture of the speed target (64-128-256, projection 256-128), on points and normals. */
-export const DEFAULT_ENCODER: EncoderConfig = { inputFeatures: 'xyz+normal', widths: [64, 128, 256], pooling: 'max', projection: [256, 128] };
+export const DEFAULT_ENCODER: EncoderConfig = { inputFeatures: 'xyz+normal', widths: [64, 128, 256], pooling: 'max', projection: [256, 128], retrieval: 'projection' };
 
 export function inputChannels(f: InputFeatures): number {
   return f === 'xyz' ? 3 : f === 'xyz+normal' ? 6 : 9;
@@ -42,6 +47,7 @@ export function embeddingSize(c: EncoderConfig): number {
 
 export function validateEncoderConfig(c: EncoderConfig): void {
   if (!INPUT_FEATURES.includes(c.inputFeatures)) throw new RangeError(`encoder: inputFeatures must be one of ${INPUT_FEATURES.join(', ')}, got ${c.inputFeatures}`);
+  if (c.retrieval !== undefined && !['projection', 'pooled'].includes(c.retrieval)) throw new RangeError(`encoder: retrieval must be projection or pooled, got ${c.retrieval}`);
   if (!['max', 'max+mean'].includes(c.pooling)) throw new RangeError(`encoder: pooling must be max or max+mean, got ${c.pooling}`);
   for (const [name, list] of [['widths', c.widths], ['projection', c.projection]] as const) {
     if (!Array.isArray(list) || list.length === 0 || list.some((w) => !Number.isInteger(w) || w < 1 || w > 4096)) {
@@ -277,9 +283,12 @@ export class Encoder {
     return pointMlpPool(tf.reshape(x, [B * N, F]), B, N, this.layers, this.config.pooling);
   }
 
-  /** L2-normalised embeddings (B, C): what retrieval uses. */
+  /** L2-normalised embeddings: what retrieval uses — the head's output (B, P), or the pooled features (B, C). */
   embed(x: tf.Tensor3D): tf.Tensor2D {
-    return tf.tidy(() => l2Normalise(this.pooled(x)));
+    return tf.tidy(() => {
+      const pooled = this.pooled(x);
+      return l2Normalise(this.config.retrieval === 'projection' ? this.project(pooled) : pooled);
+    });
   }
 
   /** Projection-head output (B, P), not normalised; losses normalise as they need. */

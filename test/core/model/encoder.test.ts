@@ -130,3 +130,23 @@ describe('unsigned-normal inputs', () => {
     enc.dispose();
   });
 });
+
+describe('what retrieval compares', () => {
+  it('is the normalised projection-head output by default, or the pooled features when asked', () => {
+    const x = tf.tensor3d(cloudBatch(3, 32, 21), [3, 32, 3]);
+    for (const retrieval of ['projection', 'pooled'] as const) {
+      const enc = new Encoder({ ...tiny, retrieval }, createRng(9));
+      const got = tf.tidy(() => enc.embed(x).arraySync()) as number[][];
+      // Reference written with plain tfjs ops: x / ‖x‖ per row of the chosen output.
+      const want = tf.tidy(() => {
+        const pooled = enc.pooled(x);
+        const out = retrieval === 'projection' ? enc.project(pooled) : pooled;
+        return tf.div(out, tf.norm(out, 'euclidean', 1, true)).arraySync();
+      }) as number[][];
+      expect(got[0].length).toBe(retrieval === 'projection' ? tiny.projection[tiny.projection.length - 1] : tiny.widths[tiny.widths.length - 1]);
+      expectClose(got.flat(), want.flat(), { atol: 1e-6 });
+      enc.dispose();
+    }
+    x.dispose();
+  });
+});
