@@ -1,11 +1,13 @@
 // Turn experiment JSON lines (scripts/experiment.ts output, one run per line) into markdown table rows:
-// runs with the same overrides apart from the seed are grouped, and each metric is given as mean ± standard
+// runs with the same overrides, inputs and retrieval apart from the seed are grouped, and each metric is given as mean ± standard
 // deviation over the seeds (sample standard deviation, n − 1).
 //   npx tsx scripts/summarise.ts runs-*.jsonl
 import { readFileSync } from 'node:fs';
 
 interface Run {
   overrides: Record<string, unknown> & { seed?: number };
+  inputs?: string;
+  retrieval?: string;
   seconds: number;
   init?: string;
   learned: Record<string, number>;
@@ -18,7 +20,8 @@ const runs: Run[] = process.argv.slice(2).flatMap((f) => readFileSync(f, 'utf8')
 const groups = new Map<string, Run[]>();
 for (const r of runs) {
   const { seed: _seed, ...rest } = r.overrides;
-  const key = JSON.stringify(rest) + (r.init ? ` init ${r.init}` : '');
+  // Runs before the inputs rule carry no `inputs` (they used normals); before the retrieval change, no `retrieval` (pooled).
+  const key = `${JSON.stringify(rest)} inputs ${r.inputs ?? 'xyz+normal'} retrieval ${r.retrieval ?? 'pooled'}${r.init ? ` init ${r.init}` : ''}`;
   groups.set(key, [...(groups.get(key) ?? []), r]);
 }
 const stat = (xs: number[]) => {
