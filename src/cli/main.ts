@@ -7,7 +7,7 @@ import { initBackend } from '../core/model/backend';
 import { encoderFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
 import { DEFAULT_TRAIN, POOL_POINTS, defaultTrainFor, inputsReason } from '../core/model/defaults';
 import { embedForRetrieval, type ModelPart } from '../core/model/embed';
-import { INPUT_FEATURES, type Encoder, type InputFeatures } from '../core/model/encoder';
+import { INPUT_FEATURES, INPUT_LABELS, type Encoder, type InputFeatures } from '../core/model/encoder';
 import { LOSS_NAMES, type LossName } from '../core/model/losses';
 import { getWeights, Trainer, type TrainConfig } from '../core/model/train';
 import { AUGMENT_KINDS, pipelineFromJson, PRESETS, type AugmentKind, type Pipeline } from '../core/points/augment';
@@ -117,7 +117,7 @@ async function train(lib: string, values: Values): Promise<void> {
   const cfg = trainer.config;
   if (!values.json) {
     process.stderr.write(`training on ${library.parts.length} parts, ${trainer.totalSteps} steps (${cfg.epochs} epochs × ${trainer.stepsPerEpoch}), backend ${backend}\n`);
-    process.stderr.write(`inputs: ${values.inputs || resume ? cfg.encoder.inputFeatures.replaceAll('+', ' + ').replace('xyz', 'x y z') + (resume ? ' (from the saved run)' : ' (--inputs)') : inputsReason(closed)}\n`);
+    process.stderr.write(`inputs: ${values.inputs || resume ? INPUT_LABELS[cfg.encoder.inputFeatures] + (resume ? ' (from the saved run)' : ' (--inputs)') : inputsReason(closed)}\n`);
   }
   const progress = new Progress('training', trainer.totalSteps, values.quiet || values.json);
   const checkpoint = (status: Checkpoint['manifest']['status']) => saveRun(out, {

@@ -27,12 +27,10 @@ export function fillSlot(out: Float32Array, slot: number, n: number, features: I
     else if (F === 9) {
       const nx = normals[src * 3], ny = normals[src * 3 + 1], nz = normals[src * 3 + 2];
       out[o + 3] = nx * nx; out[o + 4] = ny * ny; out[o + 5] = nz * nz;
-      out[o + 6] = SQRT2 * nx * ny; out[o + 7] = SQRT2 * ny * nz; out[o + 8] = SQRT2 * nz * nx;
+      out[o + 6] = Math.SQRT2 * nx * ny; out[o + 7] = Math.SQRT2 * ny * nz; out[o + 8] = Math.SQRT2 * nz * nx;
     }
   }
 }
-
-const SQRT2 = Math.SQRT2;
 
 /** How parts are posed before the encoder sees them. */
 export type Pose = 'as-is' | 'principal-axes';

@@ -19,6 +19,12 @@ export type Pooling = 'max' | 'max+mean';
  */
 export type InputFeatures = 'xyz' | 'xyz+normal' | 'xyz+unsigned-normal';
 export const INPUT_FEATURES: readonly InputFeatures[] = ['xyz', 'xyz+normal', 'xyz+unsigned-normal'];
+/** The inputs in plain words, for the command line and the workbench. */
+export const INPUT_LABELS: Record<InputFeatures, string> = {
+  xyz: 'x y z',
+  'xyz+normal': 'x y z + normal',
+  'xyz+unsigned-normal': 'x y z + normal line (sign ignored)',
+};
 
 export interface EncoderConfig {
   readonly inputFeatures: InputFeatures;

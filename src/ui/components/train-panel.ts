@@ -6,13 +6,7 @@ import { LitElement, css, html } from 'lit';
 import { LOSS_NAMES, type LossName } from '../../core/model/losses';
 import type { TrainConfig, TrainProgress, HeldOutCheck } from '../../core/model/train';
 import { PRESETS } from '../../core/points/augment';
-import { INPUT_FEATURES, type InputFeatures } from '../../core/model/encoder';
-
-const INPUT_LABELS: Record<InputFeatures, string> = {
-  xyz: 'x y z',
-  'xyz+normal': 'x y z + normal',
-  'xyz+unsigned-normal': 'x y z + normal line (sign ignored)',
-};
+import { INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../../core/model/encoder';
 import type { TrainStatusView } from '../status';
 import './loss-chart';
 
