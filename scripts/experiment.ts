@@ -1,20 +1,23 @@
 // Train with the defaults plus JSON overrides, then evaluate against the baselines; prints one JSON line.
 //   npx tsx scripts/experiment.ts <library-dir> '{"epochs": 60, "encoder": {"inputFeatures": "xyz+normal"}}' [--embed-points N] [--init <run-dir>]
+// --save <dir> keeps the trained encoder as a run folder (for scripts/dev/rerank.ts and the CLI).
 // --init starts training from a saved encoder (e.g. the pre-trained one) and also reports it before fine-tuning.
 // Used for the ablation tables in docs/: every row there names the command that produced it.
 
 import { initBackend } from '../src/core/model/backend';
 import { POOL_POINTS, defaultTrainFor } from '../src/core/model/defaults';
-import { Trainer, type TrainConfig } from '../src/core/model/train';
+import { getWeights, Trainer, type TrainConfig } from '../src/core/model/train';
 import { PRESETS } from '../src/core/points/augment';
 import { evaluateMethods } from '../src/core/retrieval/evaluate';
 import { loadLibrary } from '../src/cli/library-dir';
-import { loadRun } from '../src/cli/run-dir';
+import { loadRun, saveRun } from '../src/cli/run-dir';
+
 import { encoderFromCheckpoint } from '../src/core/model/checkpoint';
 import { evaluateRetrieval } from '../src/core/retrieval/metrics';
 import { encoderDescriptors } from '../src/core/retrieval/methods';
 
-const [lib, overridesText = '{}'] = process.argv.slice(2).filter((a) => !a.startsWith('--'));
+const valueFlags = new Set(['--embed-points', '--init', '--save']);
+const [lib, overridesText = '{}'] = process.argv.slice(2).filter((a, i, all) => !a.startsWith('--') && !valueFlags.has(all[i - 1]));
 const embedPointsArg = process.argv.indexOf('--embed-points');
 const overrides = JSON.parse(overridesText) as Partial<TrainConfig> & { preset?: keyof typeof PRESETS };
 const backend = await initBackend();
@@ -48,6 +51,11 @@ const result = await trainer.run({ yieldEvery: 1000 });
 const seconds = (Date.now() - t0) / 1000;
 const points = embedPointsArg > 0 ? Number(process.argv[embedPointsArg + 1]) : config.points;
 const report = evaluateMethods({ parts, labels: library.labels, points, pose: config.pose, learned: trainer.encoder, untrainedConfig: config.encoder, seed: config.seed });
+const saveArg = process.argv.indexOf('--save');
+if (saveArg > 0) await saveRun(process.argv[saveArg + 1], {
+  manifest: { format: 'shapekin-encoder', version: 1, config, sampling: { points: POOL_POINTS, seed: 0 }, step: trainer.step, totalSteps: trainer.totalSteps, status: result.status, backend, history: trainer.history, checks: trainer.checks },
+  weights: getWeights(trainer.encoder), adam: null,
+});
 trainer.dispose();
 const round = (m: Record<string, number>) => Object.fromEntries(Object.entries(m).map(([k, v]) => [k, Math.round(v * 1000) / 1000]));
 console.log(JSON.stringify({ overrides, inputs: config.encoder.inputFeatures, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}), retrieval: config.encoder.retrieval ?? 'pooled', learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!) }));

@@ -1,7 +1,8 @@
 // Batched inference: embeddings for many parts, and the view tensors training and inference share.
 
 import * as tf from '@tensorflow/tfjs';
-import { inputChannels, type Encoder, type InputFeatures } from './encoder';
+import { inputChannels, usesLocalShape, type Encoder, type InputFeatures } from './encoder';
+import { localShapeOf } from '../points/local';
 import { alignToPrincipalAxes, SIGN_FLIPS } from '../points/pca';
 import { makeCloud } from '../points/cloud';
 import { transformPoints } from '../points/rotation';
@@ -10,21 +11,33 @@ import { transformPoints } from '../points/rotation';
 export interface ModelPart {
   readonly points: Float32Array;
   readonly normals: Float32Array;
+  /** Local shape per pool point (points/local.ts), when the inputs use it; computed on demand otherwise. */
+  readonly local?: Float32Array;
+}
+
+/** Parts with their local shape attached when the inputs need it (computed once per pool). */
+export function withLocalShape(parts: readonly ModelPart[], features: InputFeatures): ModelPart[] {
+  if (!usesLocalShape(features)) return [...parts];
+  return parts.map((p) => (p.local ? p : { ...p, local: localShapeOf(p.points) }));
 }
 
 /**
  * Write the first n points of a cloud (repeated in order when it has fewer) into slot `slot` of a batch
  * buffer (B, n, F). Pools are random surface samples, so their first n points are a random subset already.
  */
-export function fillSlot(out: Float32Array, slot: number, n: number, features: InputFeatures, points: Float32Array, normals: Float32Array): void {
+export function fillSlot(out: Float32Array, slot: number, n: number, features: InputFeatures, points: Float32Array, normals: Float32Array, local?: Float32Array): void {
   const F = inputChannels(features);
   const count = points.length / 3;
+  const withNormal = features === 'xyz+normal' || features === 'xyz+normal+local';
+  const localAt = usesLocalShape(features) ? F - 3 : -1;
+  if (localAt > 0 && !(local && local.length === points.length)) throw new RangeError('fillSlot: these inputs need the local shape of every point');
   for (let i = 0; i < n; i++) {
     const src = i % count;
     const o = (slot * n + i) * F;
     out[o] = points[src * 3]; out[o + 1] = points[src * 3 + 1]; out[o + 2] = points[src * 3 + 2];
-    if (F === 6) { out[o + 3] = normals[src * 3]; out[o + 4] = normals[src * 3 + 1]; out[o + 5] = normals[src * 3 + 2]; }
-    else if (F === 9) {
+    if (withNormal) { out[o + 3] = normals[src * 3]; out[o + 4] = normals[src * 3 + 1]; out[o + 5] = normals[src * 3 + 2]; }
+    if (localAt > 0) { out[o + localAt] = local![src * 3]; out[o + localAt + 1] = local![src * 3 + 1]; out[o + localAt + 2] = local![src * 3 + 2]; }
+    else if (features === 'xyz+unsigned-normal') {
       const nx = normals[src * 3], ny = normals[src * 3 + 1], nz = normals[src * 3 + 2];
       out[o + 3] = nx * nx; out[o + 4] = ny * ny; out[o + 5] = nz * nz;
       out[o + 6] = Math.SQRT2 * nx * ny; out[o + 7] = Math.SQRT2 * ny * nz; out[o + 8] = Math.SQRT2 * nz * nx;
@@ -40,7 +53,7 @@ export function posed(parts: readonly ModelPart[], pose: Pose): ModelPart[] {
   if (pose === 'as-is') return [...parts];
   return parts.map((p) => {
     const c = alignToPrincipalAxes(makeCloud(p.points, p.normals));
-    return { points: c.positions, normals: c.normals ?? p.normals };
+    return { points: c.positions, normals: c.normals ?? p.normals, ...(p.local ? { local: p.local } : {}) };
   });
 }
 
@@ -49,11 +62,11 @@ export function posed(parts: readonly ModelPart[], pose: Pose): ModelPart[] {
  * choices of the frame (then renormalised), so the frame's sign ambiguity cannot change the result.
  */
 export function embedForRetrieval(encoder: Encoder, parts: readonly ModelPart[], n: number, pose: Pose): Float32Array {
-  const ready = posed(parts, pose);
+  const ready = posed(withLocalShape(parts, encoder.config.inputFeatures), pose);
   if (pose === 'as-is') return embedParts(encoder, ready, n);
   let sum: Float32Array | null = null;
   for (const flip of SIGN_FLIPS) {
-    const turned = ready.map((p) => ({ points: transformPoints(flip, p.points), normals: transformPoints(flip, p.normals) }));
+    const turned = ready.map((p) => ({ ...p, points: transformPoints(flip, p.points), normals: transformPoints(flip, p.normals) }));
     const e = embedParts(encoder, turned, n);
     if (!sum) sum = e; else for (let i = 0; i < e.length; i++) sum[i] += e[i];
   }
@@ -75,7 +88,8 @@ export function embedParts(encoder: Encoder, parts: readonly ModelPart[], n: num
   for (let start = 0; start < parts.length; start += batch) {
     const group = parts.slice(start, start + batch);
     const buf = new Float32Array(group.length * n * F);
-    group.forEach((p, i) => fillSlot(buf, i, n, encoder.config.inputFeatures, p.points, p.normals));
+    const local = usesLocalShape(encoder.config.inputFeatures);
+    group.forEach((p, i) => fillSlot(buf, i, n, encoder.config.inputFeatures, p.points, p.normals, local ? p.local ?? localShapeOf(p.points) : undefined));
     const out = tf.tidy(() => encoder.embed(tf.tensor3d(buf, [group.length, n, F])));
     D = out.shape[1];
     chunks.push(out.dataSync() as Float32Array);

@@ -17,14 +17,21 @@ export type Pooling = 'max' | 'max+mean';
  * the six distinct entries of n nᵀ (off-diagonals × √2, so the six values have unit length), which an open
  * mesh's unreliable winding cannot flip.
  */
-export type InputFeatures = 'xyz' | 'xyz+normal' | 'xyz+unsigned-normal';
-export const INPUT_FEATURES: readonly InputFeatures[] = ['xyz', 'xyz+normal', 'xyz+unsigned-normal'];
+export type InputFeatures = 'xyz' | 'xyz+normal' | 'xyz+unsigned-normal' | 'xyz+local' | 'xyz+normal+local';
+export const INPUT_FEATURES: readonly InputFeatures[] = ['xyz', 'xyz+normal', 'xyz+unsigned-normal', 'xyz+local', 'xyz+normal+local'];
 /** The inputs in plain words, for the command line and the workbench. */
 export const INPUT_LABELS: Record<InputFeatures, string> = {
   xyz: 'x y z',
   'xyz+normal': 'x y z + normal',
   'xyz+unsigned-normal': 'x y z + normal line (sign ignored)',
+  'xyz+local': 'x y z + local shape (line, sheet, blob)',
+  'xyz+normal+local': 'x y z + normal + local shape',
 };
+
+/** Whether the inputs include the local shape of each point's neighbourhood (points/local.ts). */
+export function usesLocalShape(f: InputFeatures): boolean {
+  return f === 'xyz+local' || f === 'xyz+normal+local';
+}
 
 export interface EncoderConfig {
   readonly inputFeatures: InputFeatures;
@@ -44,7 +51,7 @@ export interface EncoderConfig {
 export const DEFAULT_ENCODER: EncoderConfig = { inputFeatures: 'xyz+normal', widths: [64, 128, 256], pooling: 'max', projection: [256, 128], retrieval: 'projection' };
 
 export function inputChannels(f: InputFeatures): number {
-  return f === 'xyz' ? 3 : f === 'xyz+normal' ? 6 : 9;
+  return f === 'xyz' ? 3 : f === 'xyz+normal' || f === 'xyz+local' ? 6 : 9;
 }
 
 export function embeddingSize(c: EncoderConfig): number {

@@ -3,13 +3,13 @@
 // early stopping, and checkpoints. The same code runs in Node, vitest and a Web Worker.
 
 import * as tf from '@tensorflow/tfjs';
-import { augment, augmentSubset, validatePipeline, type Pipeline } from '../points/augment';
+import { augmentSubset, validatePipeline, type Pipeline } from '../points/augment';
 import { makeCloud } from '../points/cloud';
 import { drawIndices } from '../points/sample';
 import { createRng, hashString, type Rng } from '../rng';
 import { Adam, cosineWithWarmup, type AdamState } from './adam';
-import { embedParts, fillSlot, posed, type ModelPart, type Pose } from './embed';
-import { Encoder, inputChannels, validateEncoderConfig, type EncoderConfig } from './encoder';
+import { embedParts, fillSlot, posed, withLocalShape, type ModelPart, type Pose } from './embed';
+import { Encoder, inputChannels, usesLocalShape, validateEncoderConfig, type EncoderConfig } from './encoder';
 import { computeLoss, LOSS_NAMES, type LossSettings } from './losses';
 
 export interface TrainConfig {
@@ -119,6 +119,8 @@ export class Trainer {
   private readonly labels: readonly number[] | null;
   private readonly viewBuffer: Float32Array;
   private readonly scratch: Uint32Array;
+  private readonly origin: Uint32Array;
+  private readonly viewLocal: Float32Array;
   private readonly poolClouds: ReturnType<typeof makeCloud>[];
   step = 0;
   status: TrainStatus = 'idle';
@@ -133,7 +135,7 @@ export class Trainer {
     if (config.loss.name === 'supervised-contrastive' && !options.labels) throw new RangeError('supervised-contrastive loss needs labels (folders or labels.csv)');
     if (config.pose !== 'as-is' && config.pose !== 'principal-axes') throw new RangeError(`training: pose must be as-is or principal-axes, got ${config.pose}`);
     this.config = config;
-    this.parts = posed(parts, config.pose);
+    this.parts = posed(withLocalShape(parts, config.encoder.inputFeatures), config.pose);
     this.labels = options.labels ?? null;
     const order = permutation(parts.length, createRng(hashString('split', config.seed)));
     const held = Math.round(parts.length * config.heldOutFraction);
@@ -147,6 +149,8 @@ export class Trainer {
     const B = Math.min(config.batchSize, this.trainIdx.length);
     this.viewBuffer = new Float32Array(2 * B * config.points * inputChannels(config.encoder.inputFeatures));
     this.scratch = new Uint32Array(Math.max(...parts.map((p) => p.points.length / 3)));
+    this.origin = new Uint32Array(config.points);
+    this.viewLocal = new Float32Array(config.points * 3);
     this.poolClouds = this.parts.map((p) => makeCloud(p.points, p.normals));
     if (options.resume) {
       this.adam.restore(options.resume.adam);
@@ -170,11 +174,19 @@ export class Trainer {
       const cloud = this.poolClouds[partIndex];
       for (let view = 0; view < 2; view++) {
         // Each view draws its own n points from the part's pool (a fresh resampling), then is augmented.
-        const v = augmentSubset(cloud, drawIndices(cloud.count, n, rng, this.scratch), this.config.pipeline, rng);
-        fillSlot(this.viewBuffer, view * B + slot, n, encoder.inputFeatures, v.positions, v.normals ?? part.normals);
+        const v = augmentSubset(cloud, drawIndices(cloud.count, n, rng, this.scratch), this.config.pipeline, rng, this.origin);
+        fillSlot(this.viewBuffer, view * B + slot, n, encoder.inputFeatures, v.positions, v.normals ?? part.normals, this.localOf(part, this.origin, this.viewLocal));
       }
     });
     return { parts: chosen, x: this.viewBuffer };
+  }
+
+  /** The local shape of a view's points, looked up by the pool point each copies (rigid moves keep it). */
+  private localOf(part: ModelPart, origin: Uint32Array, out: Float32Array): Float32Array | undefined {
+    if (!usesLocalShape(this.config.encoder.inputFeatures)) return undefined;
+    const src = part.local!;
+    for (let i = 0; i < origin.length; i++) { const o = origin[i] * 3; out[3 * i] = src[o]; out[3 * i + 1] = src[o + 1]; out[3 * i + 2] = src[o + 2]; }
+    return out;
   }
 
   /** One optimisation step; returns the loss. */
@@ -211,8 +223,11 @@ export class Trainer {
     const clean = embedParts(this.encoder, held, this.config.points);
     const rng = createRng(hashString('check', this.config.seed));
     const views = held.map((p) => {
-      const v = augment(makeCloud(p.points, p.normals), this.config.pipeline, rng);
-      return { points: v.positions, normals: v.normals ?? p.normals };
+      const count = p.points.length / 3;
+      const all = Uint32Array.from({ length: count }, (_, i) => i), origin = new Uint32Array(count);
+      const v = augmentSubset(makeCloud(p.points, p.normals), all, this.config.pipeline, rng, origin);
+      const local = this.localOf(p, origin, new Float32Array(count * 3));
+      return { points: v.positions, normals: v.normals ?? p.normals, ...(local ? { local } : {}) };
     });
     const viewEmb = embedParts(this.encoder, views, this.config.points);
     const D = clean.length / held.length;

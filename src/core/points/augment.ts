@@ -260,8 +260,9 @@ export function augment(cloud: PointCloud, pipeline: Pipeline, rng: Rng): PointC
 /**
  * One augmented view of some points of a larger pool (the training path: draw N of the pool's points,
  * then augment only those). Occlusion still finds its region on the whole pool, whose kd-tree is cached.
+ * `originOut` (length indices.length), when given, receives the pool index each view point copies.
  */
-export function augmentSubset(pool: PointCloud, indices: Uint32Array, pipeline: Pipeline, rng: Rng): PointCloud {
+export function augmentSubset(pool: PointCloud, indices: Uint32Array, pipeline: Pipeline, rng: Rng, originOut?: Uint32Array): PointCloud {
   validatePipeline(pipeline);
   assertValidCloud(pool, 'augment');
   const n = indices.length;
@@ -279,6 +280,7 @@ export function augmentSubset(pool: PointCloud, indices: Uint32Array, pipeline: 
     if (s.probability < 1 && rng.next() >= s.probability) continue;
     applyStep(w, s, pipeline.upAxis, rng);
   }
+  originOut?.set(w.origin); // which pool point each view point copies
   return makeCloud(w.p, w.n);
 }
 
