@@ -1,6 +1,6 @@
 import * as tf from '@tensorflow/tfjs';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { marginContrastiveLoss, ntXentLoss, supConLoss, tripletLoss } from '../../../src/core/model/losses';
+import { debiasedNtXentLoss, marginContrastiveLoss, ntXentLoss, supConLoss, tripletLoss } from '../../../src/core/model/losses';
 import { expectClose } from '../../helpers';
 import { expectNoLeak, useBackend } from '../../tf-helpers';
 
@@ -42,6 +42,30 @@ describe('NT-Xent (Chen et al. 2020, eq. 1)', () => {
     expect(() => ntXentLoss(tf.ones([1, 3]), tf.ones([1, 3]), 0.1)).toThrow(/at least 2 parts/);
     expect(() => ntXentLoss(tf.ones([2, 3]), tf.ones([2, 3]), 0)).toThrow(/temperature must be > 0/);
     expect(() => ntXentLoss(tf.ones([2, 3]), tf.ones([3, 3]), 0.1)).toThrow(/shapes/);
+  });
+});
+
+describe('debiased NT-Xent (Chuang et al. 2020, eq. 6 with M = 1)', () => {
+  it('with τ⁺ = 0 equals NT-Xent (hand-worked 0.464236 above)', () => {
+    const [za, zb] = worked();
+    expectClose(tf.tidy(() => debiasedNtXentLoss(za, zb, 0.5, 0).dataSync()[0]), 0.464236, { atol: 1e-5 });
+    za.dispose(); zb.dispose();
+  });
+  it('matches a hand-worked example at τ = 0.5, τ⁺ = 0.1, where one anchor hits the floor N·e^{−1/t}', async () => {
+    // N = 2 negatives. a1: Σneg = e^{−2} + e^{−1} = 0.503215, e^{pos} = e^{1}; (0.503215 − 0.1·2·e)/0.9 < 0, so
+    //   N_g = 2e^{−2} = 0.270671 and ℓ = ln(e + 0.270671) − 1 = 0.094923 (a2 the same by symmetry).
+    // b1: Σneg = e^{−1} + e^{1} = 3.086161; N_g = (3.086161 − 0.543656)/0.9 = 2.825005; ℓ = ln(5.543287) − 1 = 0.712588.
+    // L = (2·0.094923 + 2·0.712588)/4 = 0.403756
+    const [za, zb] = worked();
+    const loss = await expectNoLeak(() => tf.tidy(() => debiasedNtXentLoss(za, zb, 0.5, 0.1).dataSync()[0]));
+    expectClose(loss, 0.403756, { atol: 1e-5 });
+    za.dispose(); zb.dispose();
+  });
+  it('stays finite at a low temperature and refuses a prior outside [0, 1)', () => {
+    const za = tf.randomNormal([8, 5], 0, 1, 'float32', 4) as tf.Tensor2D, zb = tf.randomNormal([8, 5], 0, 1, 'float32', 5) as tf.Tensor2D;
+    expect(Number.isFinite(tf.tidy(() => debiasedNtXentLoss(za, zb, 0.02, 0.1).dataSync()[0]))).toBe(true);
+    expect(() => debiasedNtXentLoss(za, zb, 0.1, 1)).toThrow(/class prior/);
+    tf.dispose([za, zb]);
   });
 });
 
