@@ -1,5 +1,5 @@
 // Turn experiment JSON lines (scripts/experiment.ts output, one run per line) into markdown table rows:
-// runs with the same overrides, inputs and retrieval apart from the seed are grouped, and each metric is given as mean ± standard
+// runs with the same overrides, inputs, retrieval, points and steps apart from the seed are grouped, and each metric is given as mean ± standard
 // deviation over the seeds (sample standard deviation, n − 1).
 //   npx tsx scripts/summarise.ts runs-*.jsonl
 import { readFileSync } from 'node:fs';
@@ -8,6 +8,8 @@ interface Run {
   overrides: Record<string, unknown> & { seed?: number };
   inputs?: string;
   retrieval?: string;
+  embedPoints?: number;
+  steps?: number;
   seconds: number;
   init?: string;
   learned: Record<string, number>;
@@ -21,7 +23,8 @@ const groups = new Map<string, Run[]>();
 for (const r of runs) {
   const { seed: _seed, ...rest } = r.overrides;
   // Runs before the inputs rule carry no `inputs` (they used normals); before the retrieval change, no `retrieval` (pooled).
-  const key = `${JSON.stringify(rest)} inputs ${r.inputs ?? 'xyz+normal'} retrieval ${r.retrieval ?? 'pooled'}${r.init ? ` init ${r.init}` : ''}`;
+  // Defaults changed over time, so the points a view and the steps taken are part of the key too.
+  const key = `${JSON.stringify(rest)} inputs ${r.inputs ?? 'xyz+normal'} retrieval ${r.retrieval ?? 'pooled'} points ${r.embedPoints ?? 512} steps ${r.steps ?? '?'}${r.init ? ` init ${r.init}` : ''}`;
   groups.set(key, [...(groups.get(key) ?? []), r]);
 }
 const stat = (xs: number[]) => {

@@ -2,13 +2,19 @@
 //   npx tsx scripts/dev/rerank.ts <library-dir> <run-dir> [--points N]
 // Variants: plain cosine; α-query expansion (Radenović, Tolias & Chum 2018) with the query's neighbours taken
 // from the library without the query; database-side augmentation (Arandjelović & Zisserman 2012); more points
-// or several resamplings at embedding time; fusion with the D2 histogram.
+// or several resamplings at embedding time; the best sign flip instead of their average; fusion with the D2
+// histogram, the pooled features or the untrained encoder.
 import { initBackend } from '../../src/core/model/backend';
 import { POOL_POINTS } from '../../src/core/model/defaults';
 import { loadLibrary } from '../../src/cli/library-dir';
 import { loadRun } from '../../src/cli/run-dir';
 import { encoderFromCheckpoint } from '../../src/core/model/checkpoint';
-import { embedForRetrieval, type ModelPart } from '../../src/core/model/embed';
+import { Encoder } from '../../src/core/model/encoder';
+import { setWeights } from '../../src/core/model/train';
+import { createRng } from '../../src/core/rng';
+import { embedParts, posed, type ModelPart } from '../../src/core/model/embed';
+import { SIGN_FLIPS } from '../../src/core/points/pca';
+import { transformPoints } from '../../src/core/points/rotation';
 import { evaluateRetrieval, cosineSimilarity } from '../../src/core/retrieval/metrics';
 import { d2Descriptors } from '../../src/core/retrieval/methods';
 import { untrainedEncoder } from '../../src/core/retrieval/evaluate';
@@ -29,19 +35,26 @@ function unitRows(v: Float32Array, dim: number): Float32Array {
   for (let i = 0; i < v.length; i += dim) { let s = 0; for (let d = 0; d < dim; d++) s += v[i + d] ** 2; s = Math.sqrt(s) || 1; for (let d = 0; d < dim; d++) v[i + d] /= s; }
   return v;
 }
-/** Embeddings averaged over `views` disjoint-offset subsets of each part's pool. */
+/**
+ * Embeddings averaged over `views` disjoint-offset subsets of each part's pool, posed from the whole pool (as
+ * retrieval does) and averaged over the sign flips of a principal-axes pose.
+ */
+const ready = posed(parts, cfg.pose);
 function embedViews(encoder: typeof enc, views: number, points: number): Float32Array {
   let sum: Float32Array | null = null;
   for (let v = 0; v < views; v++) {
-    const shifted = parts.map((p) => {
+    const shifted = ready.map((p) => {
       const count = p.points.length / 3, off = (v * points) % count;
       const idx = (k: number) => (off + k) % count;
       const pts = new Float32Array(points * 3), nrm = new Float32Array(points * 3);
       for (let k = 0; k < points; k++) for (let a = 0; a < 3; a++) { pts[3 * k + a] = p.points[3 * idx(k) + a]; nrm[3 * k + a] = p.normals[3 * idx(k) + a]; }
       return { points: pts, normals: nrm };
     });
-    const e = embedForRetrieval(encoder, shifted, points, cfg.pose);
-    if (!sum) sum = e; else for (let i = 0; i < e.length; i++) sum[i] += e[i];
+    for (const flip of cfg.pose === 'as-is' ? [null] : SIGN_FLIPS) {
+      const turned = flip ? shifted.map((p) => ({ points: transformPoints(flip, p.points), normals: transformPoints(flip, p.normals) })) : shifted;
+      const e = embedParts(encoder, turned, points);
+      if (!sum) sum = e; else for (let i = 0; i < e.length; i++) sum[i] += e[i];
+    }
   }
   return unitRows(sum!, sum!.length / N);
 }
@@ -50,7 +63,6 @@ function gram(v: Float32Array, dim: number): Float64Array {
   for (let i = 0; i < N; i++) for (let j = 0; j < N; j++) g[i * N + j] = s(i, j);
   return g;
 }
-const fromGram = (g: Float64Array) => (i: number, j: number) => g[i * N + j];
 /** α-QE: query i becomes the sum of itself and its k nearest library parts (excluding i), weighted by sim^α. */
 function alphaQe(v: Float32Array, dim: number, k: number, alpha: number, exclude: boolean): (i: number, j: number) => number {
   const g = gram(v, dim);
@@ -79,6 +91,20 @@ for (const [k, a] of [[1, 0], [2, 3], [3, 3], [5, 3], [10, 3]] as const) console
 const d2 = d2Descriptors(parts), dd = d2.dim;
 const d2u = unitRows(Float32Array.from(d2.vectors, Math.sqrt), dd);
 for (const w of [0.3, 0.5, 1]) console.log(`+ √D2 × ${w}            `, r(evaluateRetrieval(lib.labels, cosineSimilarity(unitRows(concat(base, D, d2u, dd, w), D + dd), D + dd))));
+if (cfg.pose === 'principal-axes') {
+  // Instead of averaging the four sign flips: the best match of the query's first flip over the candidate's four.
+  const E = SIGN_FLIPS.map((f) => embedParts(enc, ready.map((p) => ({ points: transformPoints(f, p.points), normals: transformPoints(f, p.normals) })), n));
+  const dot = (a: Float32Array, i: number, b: Float32Array, j: number) => { let t = 0; for (let d = 0; d < D; d++) t += a[i * D + d] * b[j * D + d]; return t; };
+  console.log('max over sign flips   ', r(evaluateRetrieval(lib.labels, (i, j) => Math.max(...E.map((e) => dot(E[0], i, e, j))))));
+}
+{
+  const pooledEnc = new Encoder({ ...cfg.encoder, retrieval: 'pooled' }, createRng(0));
+  setWeights(pooledEnc, ckpt.weights);
+  const pv = embedViews(pooledEnc, 1, n), dp = pv.length / N;
+  pooledEnc.dispose();
+  console.log('pooled features       ', r(evaluateRetrieval(lib.labels, cosineSimilarity(pv, dp))));
+  console.log('+ pooled features     ', r(evaluateRetrieval(lib.labels, cosineSimilarity(unitRows(concat(base, D, pv, dp, 1), D + dp), D + dp))));
+}
 const un = untrainedEncoder(cfg.encoder, cfg.seed);
 const ue = embedViews(un, 1, n);
 console.log('untrained             ', r(evaluateRetrieval(lib.labels, cosineSimilarity(ue, D))));
@@ -86,4 +112,3 @@ console.log('+ untrained           ', r(evaluateRetrieval(lib.labels, cosineSimi
 console.log('untrained α-QE k=3    ', r(evaluateRetrieval(lib.labels, alphaQe(ue, D, 3, 3, true))));
 console.log('D2                    ', r(evaluateRetrieval(lib.labels, d2.similarity)));
 un.dispose(); enc.dispose();
-void fromGram;
