@@ -11,6 +11,7 @@ import { Adam, cosineWithWarmup, type AdamState } from './adam';
 import { embedParts, fillSlot, posed, withLocalShape, type ModelPart, type Pose } from './embed';
 import { Encoder, inputChannels, usesLocalShape, validateEncoderConfig, type EncoderConfig } from './encoder';
 import { computeLoss, LOSS_NAMES, type LossSettings } from './losses';
+import { iMixLoss, mixTargets } from './losses/imix';
 
 export interface TrainConfig {
   readonly encoder: EncoderConfig;
@@ -33,6 +34,12 @@ export interface TrainConfig {
   readonly evalEvery: number;
   /** Stop after this many checks without improvement (0: never stop early). */
   readonly patience: number;
+  /**
+   * 'i-mix' (Lee et al. 2021): each step's anchor views mix two parts (a union of their points, in proportion
+   * λ ~ U(0, 1)) and the loss is i-Mix's N-pair cross-entropy against the mixture; the loss setting's
+   * temperature applies and its name is not used. Absent or 'none': the loss as set.
+   */
+  readonly mixing?: 'none' | 'i-mix';
 }
 
 export interface TrainProgress {
@@ -83,6 +90,7 @@ export function validateTrainConfig(c: TrainConfig, partCount: number): void {
   whole(c.epochs, 1, 'epochs');
   if (!(c.learningRate > 0 && c.learningRate < 1)) throw new RangeError(`training: learning rate must be in (0, 1), got ${c.learningRate}`);
   if (!(c.loss.temperature > 0)) throw new RangeError(`training: temperature must be > 0, got ${c.loss.temperature}`);
+  if (c.mixing !== undefined && c.mixing !== 'none' && c.mixing !== 'i-mix') throw new RangeError(`training: mixing must be none or i-mix, got ${c.mixing}`);
   if (!(c.heldOutFraction >= 0 && c.heldOutFraction < 0.9)) throw new RangeError(`training: held-out fraction must be in [0, 0.9), got ${c.heldOutFraction}`);
   const trainCount = partCount - Math.round(partCount * c.heldOutFraction);
   if (trainCount < 2) throw new RangeError(`training needs at least 2 parts to train on, got ${trainCount}`);
@@ -161,7 +169,7 @@ export class Trainer {
   }
 
   /** The parts and seeded views of step k: the same k always gives the same batch (resumable). */
-  private batchFor(k: number): { parts: number[]; x: Float32Array } {
+  private batchFor(k: number): { parts: number[]; x: Float32Array; mix: { lambda: number; partner: number[] } | null } {
     const epoch = Math.floor(k / this.stepsPerEpoch);
     const within = k % this.stepsPerEpoch;
     const B = Math.min(this.config.batchSize, this.trainIdx.length);
@@ -178,7 +186,16 @@ export class Trainer {
         fillSlot(this.viewBuffer, view * B + slot, n, encoder.inputFeatures, v.positions, v.normals ?? part.normals, this.localOf(part, this.origin, this.viewLocal));
       }
     });
-    return { parts: chosen, x: this.viewBuffer };
+    if (this.config.mixing !== 'i-mix') return { parts: chosen, x: this.viewBuffer, mix: null };
+    // i-Mix: anchor i keeps its first round(λ·n) points and takes the rest from partner π(i)'s anchor view.
+    const lambda = rng.next();
+    const partner = permutation(B, rng);
+    const row = n * inputChannels(encoder.inputFeatures);
+    const anchors = this.viewBuffer.slice(0, B * row);
+    const keep = Math.round(lambda * n) * inputChannels(encoder.inputFeatures);
+    for (let i = 0; i < B; i++) this.viewBuffer.set(anchors.subarray(partner[i] * row + keep, (partner[i] + 1) * row), i * row + keep);
+    const weight = keep / row; // λ as realised by whole points
+    return { parts: chosen, x: this.viewBuffer, mix: { lambda: weight, partner } };
   }
 
   /** The local shape of a view's points, looked up by the pool point each copies (rigid moves keep it). */
@@ -192,7 +209,7 @@ export class Trainer {
   /** One optimisation step; returns the loss. */
   trainStep(): number {
     const k = this.step;
-    const { parts, x } = this.batchFor(k);
+    const { parts, x, mix } = this.batchFor(k);
     const B = parts.length;
     const F = inputChannels(this.config.encoder.inputFeatures);
     const lr = cosineWithWarmup(k, this.totalSteps, this.config.learningRate, Math.round(this.totalSteps * this.config.warmupFraction));
@@ -204,6 +221,7 @@ export class Trainer {
         const z = this.encoder.project(this.encoder.pooled(input)); // (2B, P)
         const za = tf.slice(z, [0, 0], [B, -1]) as tf.Tensor2D;
         const zb = tf.slice(z, [B, 0], [B, -1]) as tf.Tensor2D;
+        if (mix) return iMixLoss(za, zb, tf.tensor2d(mixTargets(mix.lambda, mix.partner), [B, B]), this.config.loss.temperature);
         return computeLoss(this.config.loss, za, zb, labels);
       }, vars);
       const loss = value.dataSync()[0];

@@ -6,7 +6,7 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { loadPart } from '../../../src/core/library';
 import { Adam, cosineWithWarmup } from '../../../src/core/model/adam';
 import { encoderFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../../../src/core/model/checkpoint';
-import { DEFAULT_TRAIN, defaultInputs, defaultTrainFor, inputsReason } from '../../../src/core/model/defaults';
+import { DEFAULT_STEP_BUDGET, DEFAULT_TRAIN, defaultEpochs, defaultInputs, defaultTrainFor, inputsReason, MIN_DEFAULT_EPOCHS } from '../../../src/core/model/defaults';
 import type { ModelPart } from '../../../src/core/model/embed';
 import { getWeights, Trainer, type TrainConfig } from '../../../src/core/model/train';
 import { PRESETS } from '../../../src/core/points/augment';
@@ -73,6 +73,25 @@ describe('training on the demo library', () => {
     expect(tf.memory().numTensors).toBe(after1);
     t.dispose();
   });
+  it('keeps the tensor count flat with i-Mix anchors too, and each mixed anchor is its partner after λ·n points', () => {
+    const t = new Trainer(demo, { ...small, mixing: 'i-mix' });
+    const plain = new Trainer(demo, small);
+    // The same step draws the same views; i-Mix then replaces each anchor's tail by its partner's.
+    const { x: mixedX, mix } = (t as unknown as { batchFor(k: number): { x: Float32Array; mix: { lambda: number; partner: number[] } } }).batchFor(0);
+    const x = (plain as unknown as { batchFor(k: number): { x: Float32Array } }).batchFor(0).x.slice();
+    const row = small.points * 3, keep = Math.round(mix.lambda * row / 3) * 3;
+    expect(keep > 0 && keep < row).toBe(true); // this step really mixes (seeded)
+    expect(mix.partner[0] !== 0 && mix.partner[5] !== 5).toBe(true);
+    for (const i of [0, 5]) {
+      expect(mixedX.subarray(i * row, i * row + keep)).toEqual(x.subarray(i * row, i * row + keep));
+      expect(mixedX.subarray(i * row + keep, (i + 1) * row)).toEqual(x.subarray(mix.partner[i] * row + keep, (mix.partner[i] + 1) * row));
+    }
+    t.trainStep();
+    const after1 = tf.memory().numTensors;
+    for (let i = 0; i < 3; i++) t.trainStep();
+    expect(tf.memory().numTensors).toBe(after1);
+    t.dispose(); plain.dispose();
+  });
   it('a seeded run is bit-for-bit repeatable on the same backend', () => {
     const run = () => { const t = new Trainer(demo, small); for (let i = 0; i < 3; i++) t.trainStep(); const w = getWeights(t.encoder); t.dispose(); return w; };
     const a = run(), b = run();
@@ -137,6 +156,7 @@ describe('bad input and failures end cleanly', () => {
     expect(() => new Trainer(demo, { ...small, batchSize: 1 })).toThrow(/batch size/);
     expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'hinge' as 'nt-xent' } })).toThrow(/unknown loss "hinge"/);
     expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'supervised-contrastive' } })).toThrow(/needs labels/);
+    expect(() => new Trainer(demo, { ...small, mixing: 'cutmix' as 'i-mix' })).toThrow(/mixing must be none or i-mix/);
   });
   it('a NaN loss stops the run with status failed and a message, not a hang', async () => {
     const t = new Trainer(demo, small);
@@ -173,5 +193,17 @@ describe('default inputs follow the library', () => {
     expect(defaultInputs([])).toBe(DEFAULT_TRAIN.encoder.inputFeatures);
     expect(defaultTrainFor(lib(0, 3)).encoder).toEqual({ ...DEFAULT_TRAIN.encoder, inputFeatures: 'xyz' });
     expect(inputsReason(lib(49, 103))).toMatch(/49 of 152/);
+  });
+});
+
+describe('default epochs follow the library size (a step budget; our own measured rule, docs/results.md)', () => {
+  it('small libraries get the full epochs, large ones about the step budget, never below the floor', () => {
+    expect(DEFAULT_TRAIN.epochs).toBe(160);
+    expect(defaultEpochs(152)).toBe(160); // furniture: 4 steps an epoch → 640 steps
+    expect(defaultEpochs(112)).toBe(160); // demo: 3 steps an epoch → 480 steps
+    expect(defaultEpochs(1000)).toBe(Math.ceil(DEFAULT_STEP_BUDGET / 31)); // 31 steps an epoch → 21 epochs, 651 steps
+    expect(defaultEpochs(20_000)).toBe(MIN_DEFAULT_EPOCHS);
+    expect(defaultEpochs(1000, 16)).toBe(11); // 62 steps an epoch
+    expect(defaultTrainFor(Array(1000).fill(false)).epochs).toBe(21);
   });
 });
