@@ -30,6 +30,7 @@ const USAGE = `shapekin — find parts that look like a given part
 
 usage:
   shapekin train <library-dir> --out <run-dir> [--epochs N] [--seed S] [--points N] [--augment <preset|file.json>]
+                 (default epochs: 160, fewer on a large library so that training stays near 640 steps)
                  [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--resume]
                  [--inputs ${INPUT_FEATURES.join('|')}]   (default: normals only if most meshes are closed)
                  [--pose principal-axes|as-is]   (as-is: keep the files' own frame, for libraries modelled in one; augmentations default to file-pose)
@@ -97,7 +98,7 @@ async function train(lib: string, values: Values): Promise<void> {
     ...base,
     pose,
     encoder: { ...base.encoder, inputFeatures: inputs },
-    epochs: num(values, 'epochs', DEFAULT_TRAIN.epochs),
+    epochs: num(values, 'epochs', base.epochs),
     seed: num(values, 'seed', DEFAULT_TRAIN.seed),
     points: num(values, 'points', DEFAULT_TRAIN.points),
     batchSize: num(values, 'batch', DEFAULT_TRAIN.batchSize),

@@ -1,18 +1,19 @@
-// Default training settings: sized so the demo library trains in a few minutes on two CPU cores, with the
-// per-point inputs chosen from the library itself (normals only where the meshes make them trustworthy).
+// Default training settings: sized so a library of a hundred or so parts trains in about three minutes on two
+// CPU cores, with the per-point inputs chosen from the library itself (normals only where the meshes make them
+// trustworthy) and the training length from its size (a step budget). Measured in docs/results.md.
 
 import { PRESETS } from '../points/augment';
 import { DEFAULT_ENCODER, type InputFeatures } from './encoder';
-import type { TrainConfig } from './train';
+import { stepsPerEpoch, type TrainConfig } from './train';
 
 export const DEFAULT_TRAIN: TrainConfig = {
   encoder: DEFAULT_ENCODER,
   loss: { name: 'nt-xent', temperature: 0.1, margin: 0.2 },
   pipeline: PRESETS['principal-pose'],
   pose: 'principal-axes',
-  points: 512,
+  points: 256,
   batchSize: 32,
-  epochs: 80,
+  epochs: 160,
   learningRate: 1e-3,
   warmupFraction: 0.05,
   seed: 0,
@@ -47,7 +48,22 @@ export function inputsReason(closed: readonly boolean[]): string {
     : `x y z + normal: ${n} of ${closed.length} meshes are closed, so their normals point outward`;
 }
 
-/** The default settings for a library whose meshes are closed or not. */
+/**
+ * Training length in steps that the default epochs aim for. Measured on the furniture set (docs/results.md):
+ * retrieval improves up to about 600 steps and then levels off (1 280 steps were no better than 640).
+ */
+export const DEFAULT_STEP_BUDGET = 640;
+/** Fewest epochs a large library gets from the step budget: each part is still seen this often. */
+export const MIN_DEFAULT_EPOCHS = 10;
+
+/** Default epochs for a library: DEFAULT_TRAIN.epochs, or fewer when that would exceed the step budget. */
+export function defaultEpochs(partCount: number, batchSize = DEFAULT_TRAIN.batchSize): number {
+  if (partCount < 2) return DEFAULT_TRAIN.epochs;
+  const perEpoch = stepsPerEpoch(partCount, batchSize);
+  return Math.min(DEFAULT_TRAIN.epochs, Math.max(MIN_DEFAULT_EPOCHS, Math.ceil(DEFAULT_STEP_BUDGET / perEpoch)));
+}
+
+/** The default settings for a library, given which of its meshes are closed (one entry per part). */
 export function defaultTrainFor(closed: readonly boolean[]): TrainConfig {
-  return { ...DEFAULT_TRAIN, encoder: { ...DEFAULT_TRAIN.encoder, inputFeatures: defaultInputs(closed) } };
+  return { ...DEFAULT_TRAIN, epochs: defaultEpochs(closed.length), encoder: { ...DEFAULT_TRAIN.encoder, inputFeatures: defaultInputs(closed) } };
 }

@@ -4,7 +4,7 @@
 import { LitElement, css, html } from 'lit';
 import { DEFAULT_SAMPLING, type LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
-import { DEFAULT_TRAIN, POOL_POINTS, defaultInputs, inputsReason } from '../../core/model/defaults';
+import { DEFAULT_TRAIN, POOL_POINTS, defaultEpochs, defaultInputs, inputsReason } from '../../core/model/defaults';
 import type { HeldOutCheck, TrainConfig, TrainProgress } from '../../core/model/train';
 import type { Pipeline } from '../../core/points/augment';
 import { EmbeddingIndex } from '../../core/retrieval/index';
@@ -63,6 +63,7 @@ export class SkApp extends LitElement {
   declare pipeline: Pipeline;
   declare config: TrainConfig;
   private inputsChosen = false;
+  private epochsChosen = false;
   declare trainStatus: TrainStatusView;
   declare progress: TrainProgress | null;
   declare history: { step: number; loss: number }[];
@@ -163,7 +164,7 @@ export class SkApp extends LitElement {
       this.selected = stored.parts[0].name;
       this.status = { kind: 'ready', ms: 0 };
       stored.parts.forEach((p) => this.queueThumbnail(p));
-      this.applyLibraryInputs();
+      this.applyLibraryDefaults();
     } else {
       await this.loadDemo();
     }
@@ -182,11 +183,16 @@ export class SkApp extends LitElement {
     void this.refreshEmbeddings();
   }
 
-  /** Until a model exists or the user picks inputs, the inputs follow the library (normals only if mostly closed). */
-  private applyLibraryInputs(): void {
-    if (this.model || this.inputsChosen || this.parts.length === 0) return;
+  /**
+   * Until a model exists or the user picks them, inputs and epochs follow the library: normals only if mostly
+   * closed, and fewer epochs on a large library (a step budget).
+   */
+  private applyLibraryDefaults(): void {
+    if (this.model || this.parts.length === 0) return;
     const inputFeatures = defaultInputs(this.parts.map((p) => p.info.closed));
-    if (inputFeatures !== this.config.encoder.inputFeatures) this.config = { ...this.config, encoder: { ...this.config.encoder, inputFeatures } };
+    if (!this.inputsChosen && inputFeatures !== this.config.encoder.inputFeatures) this.config = { ...this.config, encoder: { ...this.config.encoder, inputFeatures } };
+    const epochs = defaultEpochs(this.parts.length, this.config.batchSize);
+    if (!this.epochsChosen && epochs !== this.config.epochs) this.config = { ...this.config, epochs };
   }
 
   private async loadDemo(): Promise<void> {
@@ -219,7 +225,7 @@ export class SkApp extends LitElement {
         onProgress: (done, total, file) => { this.status = { kind: 'importing', done, total, file }; },
       });
       this.status = { kind: 'ready', ms };
-      this.applyLibraryInputs();
+      this.applyLibraryDefaults();
       await saveLibrary({ parts: this.parts, failures: this.failures, source });
       void this.refreshEmbeddings();
     } catch (err) {
@@ -442,7 +448,11 @@ export class SkApp extends LitElement {
           .backend=${this.backend} .partCount=${this.parts.length} .hasLabels=${new Set(this.parts.map((p) => p.label)).size > 1}
           .savedStep=${this.model?.manifest.step ?? 0} .savedTotal=${this.model?.manifest.totalSteps ?? 0}
           .inputsNote=${this.parts.length ? inputsReason(this.parts.map((p) => p.info.closed)) : ''}
-          @config-change=${(e: CustomEvent<TrainConfig>) => { if (e.detail.encoder.inputFeatures !== this.config.encoder.inputFeatures) this.inputsChosen = true; this.config = e.detail; this.pipeline = e.detail.pipeline; }}
+          @config-change=${(e: CustomEvent<TrainConfig>) => {
+            if (e.detail.encoder.inputFeatures !== this.config.encoder.inputFeatures) this.inputsChosen = true;
+            if (e.detail.epochs !== this.config.epochs) this.epochsChosen = true;
+            this.config = e.detail; this.pipeline = e.detail.pipeline;
+          }}
           @train-start=${(e: CustomEvent<TrainConfig>) => this.startTraining(e.detail)}
           @train-continue=${() => this.model && this.startTraining(this.model.manifest.config, this.model)}
           @train-pause=${() => this.trainer.pause()} @train-resume=${() => this.trainer.resume()} @train-stop=${() => this.trainer.cancel()}></sk-train-panel>`;
