@@ -8,7 +8,7 @@ import { encoderFromCheckpoint, type Checkpoint } from '../core/model/checkpoint
 import { DEFAULT_TRAIN, POOL_POINTS, defaultTrainFor, inputsReason } from '../core/model/defaults';
 import { embedForRetrieval, type ModelPart } from '../core/model/embed';
 import { INPUT_FEATURES, INPUT_LABELS, type Encoder, type InputFeatures } from '../core/model/encoder';
-import { LOSS_NAMES, type LossName } from '../core/model/losses';
+import { DEFAULT_CLASS_PRIOR, LOSS_NAMES, type LossName } from '../core/model/losses';
 import { getWeights, Trainer, type TrainConfig } from '../core/model/train';
 import { AUGMENT_KINDS, pipelineFromJson, PRESETS, type AugmentKind, type Pipeline } from '../core/points/augment';
 import { duplicateGroups } from '../core/retrieval/duplicates';
@@ -31,7 +31,7 @@ const USAGE = `shapekin — find parts that look like a given part
 usage:
   shapekin train <library-dir> --out <run-dir> [--epochs N] [--seed S] [--points N] [--augment <preset|file.json>]
                  (default epochs: 160, fewer on a large library so that training stays near 640 steps)
-                 [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--resume]
+                 [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--class-prior P] [--resume]
                  [--inputs ${INPUT_FEATURES.join('|')}]   (default: normals only if most meshes are closed)
                  [--pose principal-axes|as-is]   (as-is: keep the files' own frame, for libraries modelled in one; augmentations default to file-pose)
   shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy>
@@ -46,7 +46,7 @@ presets for --augment: ${Object.keys(PRESETS).join(', ')}
 const OPTIONS = {
   out: { type: 'string' }, model: { type: 'string' }, library: { type: 'string' },
   epochs: { type: 'string' }, seed: { type: 'string' }, points: { type: 'string' }, augment: { type: 'string' },
-  batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' },
+  batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' }, 'class-prior': { type: 'string' },
   k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, threshold: { type: 'string' },
   json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
   backend: { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
@@ -84,6 +84,7 @@ const asModelParts = (parts: readonly LibraryPart[]): ModelPart[] => parts.map((
 async function train(lib: string, values: Values): Promise<void> {
   const out = need(values, 'out', 'train');
   const loss = (values.loss ?? DEFAULT_TRAIN.loss.name) as LossName;
+  if (values['class-prior'] !== undefined && loss !== 'debiased-nt-xent') throw new CliError('--class-prior applies only to --loss debiased-nt-xent', 2);
   if (!LOSS_NAMES.includes(loss)) throw new CliError(`--loss must be one of ${LOSS_NAMES.join(', ')}, got "${loss}"`, 2);
   const backend = await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
   const library = loadLibrary(lib, { quiet: values.quiet || values.json, points: POOL_POINTS });
@@ -103,7 +104,7 @@ async function train(lib: string, values: Values): Promise<void> {
     points: num(values, 'points', DEFAULT_TRAIN.points),
     batchSize: num(values, 'batch', DEFAULT_TRAIN.batchSize),
     learningRate: num(values, 'lr', DEFAULT_TRAIN.learningRate, false),
-    loss: { ...DEFAULT_TRAIN.loss, name: loss, temperature: num(values, 'temperature', DEFAULT_TRAIN.loss.temperature, false) },
+    loss: { ...base.loss, name: loss, temperature: num(values, 'temperature', base.loss.temperature, false), ...(values['class-prior'] !== undefined ? { classPrior: num(values, 'class-prior', DEFAULT_CLASS_PRIOR, false) } : {}) },
     // Without --augment, a kept file pose gets the preset that does not turn the parts.
     pipeline: values.augment || pose === 'principal-axes' ? pipelineFrom(values.augment) : PRESETS['file-pose'],
   };

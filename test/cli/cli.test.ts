@@ -139,6 +139,7 @@ describe('bad arguments and unreadable files: one clear line and a non-zero exit
     [['embed', DEMO, '--model', 'x', '--out', 'x.txt'], 2, /--out must end in .csv, .json or .npy/],
     [['train', DEMO, '--out', 'x', '--epochs', 'ten'], 2, /--epochs must be a whole number/],
     [['train', DEMO, '--out', 'x', '--pose', 'upright'], 2, /--pose must be principal-axes or as-is/],
+    [['train', DEMO, '--out', 'x', '--loss', 'triplet-hard', '--class-prior', '0.1'], 2, /--class-prior applies only to --loss debiased-nt-xent/],
     [['query', 'missing.stl', '--model', 'x', '--library', DEMO], 2, /query file not found/],
     [['eval', DEMO, '--bogus'], 2, /Unknown option '--bogus'/],
   ] as const)('%j', async (args, code, message) => {

@@ -90,6 +90,8 @@ export function validateTrainConfig(c: TrainConfig, partCount: number): void {
   whole(c.epochs, 1, 'epochs');
   if (!(c.learningRate > 0 && c.learningRate < 1)) throw new RangeError(`training: learning rate must be in (0, 1), got ${c.learningRate}`);
   if (!(c.loss.temperature > 0)) throw new RangeError(`training: temperature must be > 0, got ${c.loss.temperature}`);
+  const prior = c.loss.classPrior;
+  if (prior !== undefined && !(prior >= 0 && prior < 1)) throw new RangeError(`training: class prior τ⁺ must be in [0, 1), got ${prior}`);
   if (c.mixing !== undefined && c.mixing !== 'none' && c.mixing !== 'i-mix') throw new RangeError(`training: mixing must be none or i-mix, got ${c.mixing}`);
   if (!(c.heldOutFraction >= 0 && c.heldOutFraction < 0.9)) throw new RangeError(`training: held-out fraction must be in [0, 0.9), got ${c.heldOutFraction}`);
   const trainCount = partCount - Math.round(partCount * c.heldOutFraction);

@@ -157,6 +157,7 @@ describe('bad input and failures end cleanly', () => {
     expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'hinge' as 'nt-xent' } })).toThrow(/unknown loss "hinge"/);
     expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'supervised-contrastive' } })).toThrow(/needs labels/);
     expect(() => new Trainer(demo, { ...small, mixing: 'cutmix' as 'i-mix' })).toThrow(/mixing must be none or i-mix/);
+    expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'debiased-nt-xent', classPrior: 1 } })).toThrow(/class prior τ⁺ must be in \[0, 1\)/);
   });
   it('a NaN loss stops the run with status failed and a message, not a hang', async () => {
     const t = new Trainer(demo, small);
