@@ -45,6 +45,12 @@ export interface EncoderConfig {
    * features under it. Absent (models saved before the choice existed): pooled. Measured in docs/results.md.
    */
   readonly retrieval?: 'projection' | 'pooled';
+  /**
+   * A first layer over each point's k nearest neighbours in its cloud (EdgeConv of Wang et al. 2019, "Dynamic
+   * Graph CNN for Learning on Point Clouds", eq. 8, on the input points only): h_i = max_j relu(W·[f_i, x_j − x_i] + b)
+   * over the k neighbours j (the point itself included), then the per-point MLP. Absent: none.
+   */
+  readonly edge?: { readonly k: number; readonly width: number };
 }
 
 /** The reference architecture of the speed target (64-128-256, projection 256-128), on points and normals. */
@@ -62,6 +68,9 @@ export function validateEncoderConfig(c: EncoderConfig): void {
   if (!INPUT_FEATURES.includes(c.inputFeatures)) throw new RangeError(`encoder: inputFeatures must be one of ${INPUT_FEATURES.join(', ')}, got ${c.inputFeatures}`);
   if (c.retrieval !== undefined && !['projection', 'pooled'].includes(c.retrieval)) throw new RangeError(`encoder: retrieval must be projection or pooled, got ${c.retrieval}`);
   if (!['max', 'max+mean'].includes(c.pooling)) throw new RangeError(`encoder: pooling must be max or max+mean, got ${c.pooling}`);
+  if (c.edge !== undefined && !(Number.isInteger(c.edge.k) && c.edge.k >= 1 && c.edge.k <= 64 && Number.isInteger(c.edge.width) && c.edge.width >= 1 && c.edge.width <= 4096)) {
+    throw new RangeError(`encoder: edge needs whole numbers k in [1, 64] and width in [1, 4096], got ${JSON.stringify(c.edge)}`);
+  }
   for (const [name, list] of [['widths', c.widths], ['projection', c.projection]] as const) {
     if (!Array.isArray(list) || list.length === 0 || list.some((w) => !Number.isInteger(w) || w < 1 || w > 4096)) {
       throw new RangeError(`encoder: ${name} must be a non-empty list of whole numbers in [1, 4096], got ${JSON.stringify(list)}`);
@@ -250,12 +259,100 @@ function backward(dy: tf.Tensor2D, saved: tf.Tensor[], params: tf.Tensor2D[], B:
   return grads;
 }
 
+/**
+ * The EdgeConv layer fused in plain loops: tfjs-wasm's Max over an axis with its gradient took 6.5 s on one
+ * batch of 64 × 256 points × 16 neighbours, this takes a fraction of that. Forward h_i = max_j relu(e_ij·W + b);
+ * the gradient reaches W and b through the winning edge of each point and channel only (the max is sparse).
+ * The input points get no gradient: they are data.
+ */
+function edgeConv(x: tf.Tensor2D, B: number, N: number, F: number, k: number, layer: Layer): tf.Tensor2D {
+  const op = tf.customGrad((...args: unknown[]) => {
+    const save = args[args.length - 1] as (t: tf.Tensor[]) => void;
+    const [xs, w, b] = args as [tf.Tensor2D, tf.Tensor2D, tf.Tensor1D];
+    const E = F + 3, W = w.shape[1];
+    const edges = edgeFeatures(xs.dataSync() as Float32Array, B, N, F, k);
+    // z = E·W + b by tfjs (fast non-transposed matMul), then max and argmax over each point's k edges in a loop.
+    const zt = tf.tidy(() => tf.add(tf.matMul(tf.tensor2d(edges, [B * N * k, E]), w), b));
+    const z = zt.dataSync();
+    zt.dispose();
+    const out = new Float32Array(B * N * W);
+    const win = new Int32Array(B * N * W).fill(-1); // winning edge (row of `edges`) per point and channel, −1: all ≤ 0
+    for (let p = 0; p < B * N; p++) {
+      const o = p * W;
+      for (let m = 0; m < k; m++) {
+        const r = (p * k + m) * W;
+        for (let c = 0; c < W; c++) if (z[r + c] > out[o + c]) { out[o + c] = z[r + c]; win[o + c] = p * k + m; }
+      }
+    }
+    const value = tf.tensor2d(out, [B * N, W]);
+    save([tf.tensor1d(win, 'int32'), tf.tensor1d(edges)]);
+    return {
+      value,
+      gradFunc: (dy: tf.Tensor, saved: tf.Tensor[]) => {
+        const g = dy.dataSync(), wins = saved[0].dataSync(), ed = saved[1].dataSync();
+        const dW = new Float32Array(E * W), db = new Float32Array(W);
+        for (let p = 0; p < B * N; p++) for (let c = 0; c < W; c++) {
+          const e = wins[p * W + c];
+          if (e < 0) continue; // relu was 0 for every edge: no gradient
+          const d = g[p * W + c];
+          db[c] += d;
+          for (let f = 0; f < E; f++) dW[f * W + c] += ed[e * E + f] * d;
+        }
+        return [tf.zerosLike(xs), tf.tensor2d(dW, [E, W]), tf.tensor1d(db)];
+      },
+    };
+  });
+  return op(x, layer.w, layer.b) as tf.Tensor2D;
+}
+
+/**
+ * EdgeConv inputs [f_i, x_j − x_i] for the k nearest points j of each point i within its cloud (brute force;
+ * the point itself first, ties by index). x: (B, N, F) row-major with x y z first. Returns (B·N·k, F + 3).
+ */
+export function edgeFeatures(x: Float32Array, B: number, N: number, F: number, k: number): Float32Array {
+  const out = new Float32Array(B * N * k * (F + 3));
+  const d = new Float64Array(N);
+  const order = new Int32Array(N);
+  for (let b = 0; b < B; b++) {
+    const base = b * N * F;
+    for (let i = 0; i < N; i++) {
+      const xi = base + i * F;
+      for (let j = 0; j < N; j++) {
+        const xj = base + j * F;
+        d[j] = (x[xj] - x[xi]) ** 2 + (x[xj + 1] - x[xi + 1]) ** 2 + (x[xj + 2] - x[xi + 2]) ** 2;
+      }
+      d[i] = -1; // the point itself is always its first neighbour
+      nearestK(order, d, k);
+      for (let m = 0; m < k; m++) {
+        const xj = base + order[m] * F;
+        const o = ((b * N + i) * k + m) * (F + 3);
+        for (let f = 0; f < F; f++) out[o + f] = x[xi + f];
+        out[o + F] = x[xj] - x[xi]; out[o + F + 1] = x[xj + 1] - x[xi + 1]; out[o + F + 2] = x[xj + 2] - x[xi + 2];
+      }
+    }
+  }
+  return out;
+}
+
+/** Put the indices of the k smallest keys (ties by index) first in `order`, ascending: one pass, insertion into the k best. */
+function nearestK(order: Int32Array, key: Float64Array, k: number): void {
+  let n = 0;
+  for (let j = 0; j < key.length; j++) {
+    const v = key[j];
+    if (n === k && !(v < key[order[k - 1]])) continue; // ties keep the lower index, already in
+    let at = n < k ? n++ : k - 1;
+    while (at > 0 && v < key[order[at - 1]]) { order[at] = order[at - 1]; at--; }
+    order[at] = j;
+  }
+}
+
 let instances = 0; // tfjs variable names must be unique per process
 
 export class Encoder {
   readonly config: EncoderConfig;
   readonly layers: Layer[];
   readonly head: Layer[];
+  readonly edge: Layer | null;
 
   constructor(config: EncoderConfig, rng: Rng) {
     validateEncoderConfig(config);
@@ -266,6 +363,8 @@ export class Encoder {
       b: tf.variable(tf.zeros([fanOut]), true, `${id}/${name}/b`),
     });
     let c = inputChannels(config.inputFeatures);
+    this.edge = config.edge ? make(c + 3, config.edge.width, 'edge', 2) : null;
+    if (config.edge) c = config.edge.width;
     this.layers = config.widths.map((w, i) => { const l = make(c, w, `point${i}`, 2); c = w; return l; });
     c = embeddingSize(config);
     this.head = config.projection.map((w, i) => {
@@ -277,12 +376,13 @@ export class Encoder {
   }
 
   get variables(): tf.Variable[] {
-    return [...this.layers, ...this.head].flatMap((l) => [l.w, l.b]);
+    return [...(this.edge ? [this.edge] : []), ...this.layers, ...this.head].flatMap((l) => [l.w, l.b]);
   }
 
   /** Stable names for saving: "point0/w", …, "head1/b" (independent of the instance). */
   get weightNames(): string[] {
     return [
+      ...(this.edge ? ['edge/w', 'edge/b'] : []),
       ...this.layers.flatMap((_, i) => [`point${i}/w`, `point${i}/b`]),
       ...this.head.flatMap((_, i) => [`head${i}/w`, `head${i}/b`]),
     ];
@@ -293,7 +393,13 @@ export class Encoder {
     const [B, N, F] = x.shape;
     const expected = inputChannels(this.config.inputFeatures);
     if (F !== expected) throw new RangeError(`encoder: input has ${F} channels per point, expected ${expected} (${this.config.inputFeatures})`);
-    return pointMlpPool(tf.reshape(x, [B * N, F]), B, N, this.layers, this.config.pooling);
+    if (!this.edge) return pointMlpPool(tf.reshape(x, [B * N, F]), B, N, this.layers, this.config.pooling);
+    const k = Math.min(this.config.edge!.k, N);
+    const W = this.config.edge!.width;
+    return tf.tidy(() => {
+      const perPoint = edgeConv(tf.reshape(x, [B * N, F]) as tf.Tensor2D, B, N, F, k, this.edge!); // (B·N, W)
+      return pointMlpPool(perPoint, B, N, this.layers, this.config.pooling);
+    });
   }
 
   /** L2-normalised embeddings: what retrieval uses — the head's output (B, P), or the pooled features (B, C). */

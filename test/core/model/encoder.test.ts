@@ -1,6 +1,7 @@
 import * as tf from '@tensorflow/tfjs';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { Encoder, type EncoderConfig } from '../../../src/core/model/encoder';
+import { edgeFeatures, Encoder, type EncoderConfig } from '../../../src/core/model/encoder';
+import { PointIndex } from '../../../src/core/points/kdtree';
 import { embedParts, fillSlot } from '../../../src/core/model/embed';
 import { axisAngle, transformPoints } from '../../../src/core/points/rotation';
 import { createRng } from '../../../src/core/rng';
@@ -148,5 +149,69 @@ describe('what retrieval compares', () => {
       enc.dispose();
     }
     x.dispose();
+  });
+});
+
+describe('EdgeConv first layer (Wang et al. 2019, eq. 8, on the input points)', () => {
+  it('edge inputs are [x_i, x_j − x_i] over the k nearest points, the same set kd-tree-javascript finds', () => {
+    const B = 2, N = 40, k = 6;
+    const x = cloudBatch(B, N, 11);
+    const e = edgeFeatures(x, B, N, 3, k);
+    for (let b = 0; b < B; b++) {
+      const cloud = x.slice(b * N * 3, (b + 1) * N * 3);
+      const index = new PointIndex(cloud);
+      for (const i of [0, 17, 39]) {
+        const ref = index.nearest(cloud[3 * i], cloud[3 * i + 1], cloud[3 * i + 2], k).map((n) => n.index).sort((p, q) => p - q);
+        const got: number[] = [];
+        for (let m = 0; m < k; m++) {
+          const o = ((b * N + i) * k + m) * 6;
+          expect([e[o], e[o + 1], e[o + 2]]).toEqual([cloud[3 * i], cloud[3 * i + 1], cloud[3 * i + 2]]);
+          // Recover j from x_j = x_i + (x_j − x_i).
+          const j = ref.find((c) => Math.abs(cloud[3 * c] - (e[o] + e[o + 3])) < 1e-6 && Math.abs(cloud[3 * c + 1] - (e[o + 1] + e[o + 4])) < 1e-6);
+          expect(j).toBeDefined();
+          got.push(j!);
+        }
+        expect(got[0]).toBe(i); // the point itself first
+        expect([...got].sort((p, q) => p - q)).toEqual(ref);
+      }
+    }
+  });
+  it('the fused layer and its gradients equal tfjs autodiff of max_j relu(e_ij·W + b)', async () => {
+    const cfg: EncoderConfig = { ...tiny, edge: { k: 5, width: 7 } };
+    const enc = new Encoder(cfg, createRng(12));
+    expect(enc.weightNames.slice(0, 2)).toEqual(['edge/w', 'edge/b']);
+    await expectNoLeak(() => {
+      const B = 2, N = 15;
+      const data = cloudBatch(B, N, 13);
+      const x = tf.tensor3d(data, [B, N, 3]);
+      const edges = tf.tensor2d(edgeFeatures(data, B, N, 3, 5), [B * N * 5, 6]);
+      const target = tf.randomNormal([B, 12], 0, 1, 'float32', 14);
+      const naive = () => {
+        const h = tf.max(tf.reshape(tf.relu(tf.add(tf.matMul(edges, enc.edge!.w), enc.edge!.b)), [B * N, 5, 7]), 1) as tf.Tensor2D;
+        let g: tf.Tensor2D = h;
+        for (const l of enc.layers) g = tf.relu(tf.add(tf.matMul(g, l.w), l.b)) as tf.Tensor2D;
+        return tf.max(tf.reshape(g, [B, N, -1]), 1) as tf.Tensor2D;
+      };
+      const objective = (f: () => tf.Tensor2D) => () => tf.sum(tf.mul(f(), target)) as tf.Scalar;
+      const vars = [enc.edge!.w, enc.edge!.b, ...enc.layers.flatMap((l) => [l.w, l.b])];
+      const fast = tf.variableGrads(objective(() => enc.pooled(x)), vars);
+      const slow = tf.variableGrads(objective(naive), vars);
+      expectClose(fast.value.dataSync(), slow.value.dataSync(), { rtol: 1e-5, atol: 1e-5 });
+      for (const v of vars) expectClose(fast.grads[v.name].dataSync(), slow.grads[v.name].dataSync(), { rtol: 1e-4, atol: 1e-5 });
+      tf.dispose([x, edges, target, fast.value, slow.value, ...Object.values(fast.grads), ...Object.values(slow.grads)]);
+    });
+    enc.dispose();
+  });
+  it('keeps the embedding the same when the points are shuffled, and refuses a bad k', () => {
+    const cfg: EncoderConfig = { ...tiny, edge: { k: 4, width: 8 } };
+    const enc = new Encoder(cfg, createRng(15));
+    const data = cloudBatch(1, 30, 16);
+    const perm = Array.from({ length: 30 }, (_, i) => (i * 7) % 30);
+    const shuffled = Float32Array.from(perm.flatMap((p) => [data[3 * p], data[3 * p + 1], data[3 * p + 2]]));
+    const a = tf.tidy(() => enc.embed(tf.tensor3d(data, [1, 30, 3])).dataSync());
+    const b = tf.tidy(() => enc.embed(tf.tensor3d(shuffled, [1, 30, 3])).dataSync());
+    expectClose(b, a, { atol: 1e-5 });
+    enc.dispose();
+    expect(() => new Encoder({ ...tiny, edge: { k: 0, width: 8 } }, createRng(0))).toThrow(/edge needs whole numbers/);
   });
 });

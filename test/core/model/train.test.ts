@@ -7,7 +7,7 @@ import { loadPart } from '../../../src/core/library';
 import { Adam, cosineWithWarmup } from '../../../src/core/model/adam';
 import { encoderFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../../../src/core/model/checkpoint';
 import { DEFAULT_STEP_BUDGET, DEFAULT_TRAIN, defaultEpochs, defaultInputs, defaultTrainFor, inputsReason, MIN_DEFAULT_EPOCHS } from '../../../src/core/model/defaults';
-import type { ModelPart } from '../../../src/core/model/embed';
+import { embedParts, type ModelPart } from '../../../src/core/model/embed';
 import { getWeights, Trainer, type TrainConfig } from '../../../src/core/model/train';
 import { PRESETS } from '../../../src/core/points/augment';
 import { expectClose } from '../../helpers';
@@ -147,6 +147,20 @@ describe('training on the demo library', () => {
     expect(enc.variables.length).toBe(10);
     [straight, first, second].forEach((t) => t.dispose());
     enc.dispose();
+  });
+  it('a checkpoint with an EdgeConv layer round-trips and embeds the same', () => {
+    const cfg: TrainConfig = { ...small, encoder: { ...small.encoder, edge: { k: 8, width: 16 } } };
+    const t = new Trainer(demo, cfg);
+    t.trainStep();
+    const ckpt: Checkpoint = {
+      manifest: { format: 'shapekin-encoder', version: 1, config: cfg, sampling: { points: 512, seed: 0 }, step: t.step, totalSteps: t.totalSteps, status: 'paused', backend: tf.getBackend(), history: t.history, checks: [] },
+      weights: getWeights(t.encoder), adam: null,
+    };
+    const enc = encoderFromCheckpoint(fromArtifacts(toArtifacts(ckpt)));
+    expect(enc.variables.length).toBe(12);
+    const few = demo.slice(0, 4);
+    expect(embedParts(enc, few, 128)).toEqual(embedParts(t.encoder, few, 128));
+    t.dispose(); enc.dispose();
   });
 });
 
