@@ -20,6 +20,14 @@ export async function benchModel(): Promise<void> {
       rows.push([`${name}: one step, B = 32 pairs, N = 512`, `${fmt(ms, 0)} ms · ${fmt((32 * 1000) / ms, 1)} pairs/s · ${fmt(step / 1e9 / (ms / 1000), 1)} GFLOP/s nominal (${fmt(step / 1e9, 2)} GFLOP)`]);
       if (got === 'cpu') break; // the pure-JS backend is ~20× slower: one configuration is enough
     }
+    if (got === 'wasm') {
+      // The shipped view size (256 points) and the EdgeConv option at that size, timed in the same run.
+      const xyz = { ...REFERENCE_ENCODER, inputFeatures: 'xyz' as const };
+      const plain = timeStep(xyz, 32, 256, 5);
+      const edge = timeStep({ ...xyz, edge: { k: 16, width: 64 } }, 32, 256, 5);
+      rows.push(['one step, B = 32 pairs, N = 256 (the default view size), x y z', `${fmt(plain, 0)} ms`]);
+      rows.push(['the same with an EdgeConv first layer (k = 16, width 64)', `${fmt(edge, 0)} ms · ${fmt(edge / plain, 2)}× the plain step`]);
+    }
     const enc = new Encoder(DEFAULT_ENCODER, createRng(3));
     const rng = createRng(4);
     const parts = Array.from({ length: 64 }, () => ({ points: Float32Array.from({ length: 2048 * 3 }, () => rng.uniform(-1, 1)), normals: Float32Array.from({ length: 2048 * 3 }, () => rng.uniform(-1, 1)) }));
