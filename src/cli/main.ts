@@ -7,7 +7,7 @@ import { initBackend } from '../core/model/backend';
 import { encoderFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
 import { DEFAULT_TRAIN, POOL_POINTS, defaultTrainFor, inputsReason } from '../core/model/defaults';
 import { embedForRetrieval, type ModelPart } from '../core/model/embed';
-import { INPUT_FEATURES, INPUT_LABELS, type Encoder, type InputFeatures } from '../core/model/encoder';
+import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type Encoder, type InputFeatures } from '../core/model/encoder';
 import { DEFAULT_CLASS_PRIOR, LOSS_NAMES, type LossName } from '../core/model/losses';
 import { getWeights, Trainer, type TrainConfig } from '../core/model/train';
 import { AUGMENT_KINDS, pipelineFromJson, PRESETS, type AugmentKind, type Pipeline } from '../core/points/augment';
@@ -33,6 +33,7 @@ usage:
                  (default epochs: 160, fewer on a large library so that training stays near 640 steps)
                  [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--class-prior P] [--resume]
                  [--inputs ${INPUT_FEATURES.join('|')}]   (default: normals only if most meshes are closed)
+                 [--neighbours K]   (a first layer over each point's K nearest neighbours, EdgeConv; 0: off)
                  [--pose principal-axes|as-is]   (as-is: keep the files' own frame, for libraries modelled in one; augmentations default to file-pose)
   shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy>
   shapekin query <mesh-file> --model <run-dir> --library <library-dir> [-k 10] [--size-ratio R] [--json]
@@ -49,7 +50,7 @@ const OPTIONS = {
   batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' }, 'class-prior': { type: 'string' },
   k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, threshold: { type: 'string' },
   json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
-  backend: { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
+  backend: { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, neighbours: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
 } as const;
 
 type Values = { [K in keyof typeof OPTIONS]?: (typeof OPTIONS)[K]['type'] extends 'boolean' ? boolean : string };
@@ -95,10 +96,13 @@ async function train(lib: string, values: Values): Promise<void> {
   if (!INPUT_FEATURES.includes(inputs)) throw new CliError(`--inputs must be one of ${INPUT_FEATURES.join(', ')}, got "${inputs}"`, 2);
   const pose = (values.pose ?? base.pose) as TrainConfig['pose'];
   if (pose !== 'principal-axes' && pose !== 'as-is') throw new CliError(`--pose must be principal-axes or as-is, got "${pose}"`, 2);
+  const neighbours = num(values, 'neighbours', base.encoder.edge?.k ?? 0);
+  if (neighbours < 0 || neighbours > 64) throw new CliError(`--neighbours must be 0 (off) to 64, got ${neighbours}`, 2);
+  const { edge: _edge, ...plainEncoder } = base.encoder;
   const config: TrainConfig = {
     ...base,
     pose,
-    encoder: { ...base.encoder, inputFeatures: inputs },
+    encoder: { ...plainEncoder, inputFeatures: inputs, ...(neighbours > 0 ? { edge: { k: neighbours, width: base.encoder.edge?.width ?? EDGE_WIDTH } } : {}) },
     epochs: num(values, 'epochs', base.epochs),
     seed: num(values, 'seed', DEFAULT_TRAIN.seed),
     points: num(values, 'points', DEFAULT_TRAIN.points),

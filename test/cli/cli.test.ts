@@ -48,6 +48,10 @@ describe('shapekin train', () => {
     const kept = JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config;
     expect(kept.pose).toBe('as-is');
     expect(kept.pipeline.steps.map((s: { kind: string }) => s.kind)).toEqual(['scale', 'occlude', 'jitter']); // no turning
+    expect(await main(['train', lib, '--out', openRun, '--epochs', '1', '--points', '64', '--batch', '3', '--neighbours', '8', '--json'])).toBe(0);
+    expect(JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.edge).toEqual({ k: 8, width: 64 });
+    expect(await main(['eval', lib, '--model', openRun, '--json'])).toBe(0); // the saved layer is rebuilt and used
+    expect(await main(['train', lib, '--out', openRun, '--neighbours', '-1'])).toBe(2);
   });
   it('writes a model in tfjs format and reports the run as JSON', () => {
     expect(existsSync(join(run, 'model.json'))).toBe(true);

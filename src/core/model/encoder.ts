@@ -53,6 +53,9 @@ export interface EncoderConfig {
   readonly edge?: { readonly k: number; readonly width: number };
 }
 
+/** Width of the EdgeConv layer when the command line or the workbench switches it on. */
+export const EDGE_WIDTH = 64;
+
 /** The reference architecture of the speed target (64-128-256, projection 256-128), on points and normals. */
 export const DEFAULT_ENCODER: EncoderConfig = { inputFeatures: 'xyz+normal', widths: [64, 128, 256], pooling: 'max', projection: [256, 128], retrieval: 'projection' };
 
