@@ -14,7 +14,7 @@ export async function benchModel(): Promise<void> {
   for (const backend of only ?? (['wasm', 'cpu'] as BackendName[])) {
     const got = await initBackend({ prefer: backend });
     const rows: [string, string][] = [];
-    for (const [name, cfg] of [['reference (xyz, 64-128-256, head 256-128)', REFERENCE_ENCODER], ['default (xyz+normal, same widths)', DEFAULT_ENCODER]] as const) {
+    for (const [name, cfg] of [['reference (xyz, 64-128-256, head 256-128)', REFERENCE_ENCODER], ['default (xyz+normal, EdgeConv k = 16, same widths)', DEFAULT_ENCODER]] as const) {
       const ms = timeStep(cfg, 32, 512, got === 'cpu' ? 1 : 7);
       const { step } = stepFlops(cfg, 32, 512);
       rows.push([`${name}: one step, B = 32 pairs, N = 512`, `${fmt(ms, 0)} ms · ${fmt((32 * 1000) / ms, 1)} pairs/s · ${fmt(step / 1e9 / (ms / 1000), 1)} GFLOP/s nominal (${fmt(step / 1e9, 2)} GFLOP)`]);

@@ -56,8 +56,12 @@ export interface EncoderConfig {
 /** Width of the EdgeConv layer when the command line or the workbench switches it on. */
 export const EDGE_WIDTH = 64;
 
-/** The reference architecture of the speed target (64-128-256, projection 256-128), on points and normals. */
-export const DEFAULT_ENCODER: EncoderConfig = { inputFeatures: 'xyz+normal', widths: [64, 128, 256], pooling: 'max', projection: [256, 128], retrieval: 'projection' };
+/**
+ * The default encoder: an EdgeConv layer over 16 neighbours (width 64), then the reference widths 64-128-256,
+ * max pooling and head 256-128, on points and normals (inputs are then chosen per library). The neighbour layer
+ * costs about three times the step and lifted furniture retrieval in every seed (docs/results.md).
+ */
+export const DEFAULT_ENCODER: EncoderConfig = { inputFeatures: 'xyz+normal', edge: { k: 16, width: EDGE_WIDTH }, widths: [64, 128, 256], pooling: 'max', projection: [256, 128], retrieval: 'projection' };
 
 export function inputChannels(f: InputFeatures): number {
   return f === 'xyz' ? 3 : f === 'xyz+normal' || f === 'xyz+local' ? 6 : 9;

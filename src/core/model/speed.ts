@@ -11,11 +11,13 @@ import { ntXentLoss } from './losses';
 /** The configuration of the speed target: B = 32 pairs, N = 512, widths 64-128-256, projection 256-128. */
 export const REFERENCE_ENCODER: EncoderConfig = { inputFeatures: 'xyz', widths: [64, 128, 256], pooling: 'max', projection: [256, 128] };
 
-/** Nominal FLOPs of one step: forward 2·rows·Σ(in·out) over the point MLP and the head, ×3 for forward +
+/** Nominal FLOPs of one step: forward 2·rows·Σ(in·out) over the point MLP (k rows a point in an EdgeConv layer)
+ *  and the head, ×3 for forward +
  *  backward (the usual convention; the sparse max-pool backward here actually does fewer). */
 export function stepFlops(c: EncoderConfig, pairs: number, points: number): { forward: number; step: number } {
   const rows = 2 * pairs * points;
   let f = 0, cin = inputChannels(c.inputFeatures);
+  if (c.edge) { f += 2 * rows * c.edge.k * (cin + 3) * c.edge.width; cin = c.edge.width; } // one matMul row per edge
   for (const w of c.widths) { f += 2 * rows * cin * w; cin = w; }
   cin = embeddingSize(c);
   for (const w of c.projection) { f += 2 * 2 * pairs * cin * w; cin = w; }
