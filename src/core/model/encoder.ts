@@ -48,9 +48,9 @@ export interface EncoderConfig {
   /**
    * A first layer over each point's k nearest neighbours in its cloud (EdgeConv of Wang et al. 2019, "Dynamic
    * Graph CNN for Learning on Point Clouds", eq. 8, on the input points only): h_i = max_j relu(W·[f_i, x_j − x_i] + b)
-   * over the k neighbours j (the point itself included), then the per-point MLP. Absent: none.
+   * over the k neighbours j (the point itself included), then the per-point MLP. Absent or null: none.
    */
-  readonly edge?: { readonly k: number; readonly width: number };
+  readonly edge?: { readonly k: number; readonly width: number } | null;
 }
 
 /** Width of the EdgeConv layer when the command line or the workbench switches it on. */
@@ -75,7 +75,7 @@ export function validateEncoderConfig(c: EncoderConfig): void {
   if (!INPUT_FEATURES.includes(c.inputFeatures)) throw new RangeError(`encoder: inputFeatures must be one of ${INPUT_FEATURES.join(', ')}, got ${c.inputFeatures}`);
   if (c.retrieval !== undefined && !['projection', 'pooled'].includes(c.retrieval)) throw new RangeError(`encoder: retrieval must be projection or pooled, got ${c.retrieval}`);
   if (!['max', 'max+mean'].includes(c.pooling)) throw new RangeError(`encoder: pooling must be max or max+mean, got ${c.pooling}`);
-  if (c.edge !== undefined && !(Number.isInteger(c.edge.k) && c.edge.k >= 1 && c.edge.k <= 64 && Number.isInteger(c.edge.width) && c.edge.width >= 1 && c.edge.width <= 4096)) {
+  if (c.edge != null && !(Number.isInteger(c.edge.k) && c.edge.k >= 1 && c.edge.k <= 64 && Number.isInteger(c.edge.width) && c.edge.width >= 1 && c.edge.width <= 4096)) {
     throw new RangeError(`encoder: edge needs whole numbers k in [1, 64] and width in [1, 4096], got ${JSON.stringify(c.edge)}`);
   }
   for (const [name, list] of [['widths', c.widths], ['projection', c.projection]] as const) {

@@ -213,5 +213,8 @@ describe('EdgeConv first layer (Wang et al. 2019, eq. 8, on the input points)', 
     expectClose(b, a, { atol: 1e-5 });
     enc.dispose();
     expect(() => new Encoder({ ...tiny, edge: { k: 0, width: 8 } }, createRng(0))).toThrow(/edge needs whole numbers/);
+    const none = new Encoder({ ...tiny, edge: null }, createRng(0)); // null, as JSON overrides write "no layer"
+    expect(none.edge).toBe(null);
+    none.dispose();
   });
 });
