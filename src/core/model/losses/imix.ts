@@ -6,9 +6,8 @@
 // part i's view and the rest from part π(i)'s view (both in their own unit-sphere frames).
 
 import * as tf from '@tensorflow/tfjs';
+import { l2Normalise } from '../encoder';
 import { assertPairs } from './common';
-
-const unit = (z: tf.Tensor2D) => tf.div(z, tf.maximum(tf.norm(z, 'euclidean', 1, true), 1e-12)) as tf.Tensor2D;
 
 /** targets: B × B row-stochastic mixture weights (row i: λ at i, 1 − λ at π(i)). */
 export function iMixLoss(mixed: tf.Tensor2D, zb: tf.Tensor2D, targets: tf.Tensor2D, temperature: number): tf.Scalar {
@@ -16,7 +15,7 @@ export function iMixLoss(mixed: tf.Tensor2D, zb: tf.Tensor2D, targets: tf.Tensor
   const B = assertPairs(mixed, zb, 'iMixLoss');
   if (targets.shape[0] !== B || targets.shape[1] !== B) throw new RangeError(`iMixLoss: targets have shape ${targets.shape}, expected ${B},${B}`);
   return tf.tidy(() => {
-    const logits = tf.div(tf.matMul(unit(mixed), unit(zb), false, true), temperature); // (B, B)
+    const logits = tf.div(tf.matMul(l2Normalise(mixed), l2Normalise(zb), false, true), temperature); // (B, B)
     const logProb = tf.sub(logits, tf.logSumExp(logits, 1, true));
     return tf.neg(tf.mean(tf.sum(tf.mul(targets, logProb), 1))) as tf.Scalar;
   });
