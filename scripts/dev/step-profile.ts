@@ -4,7 +4,7 @@ import { Encoder, DEFAULT_ENCODER } from '../../src/core/model/encoder';
 import { ntXentLoss } from '../../src/core/model/losses';
 import { createRng } from '../../src/core/rng';
 await initBackend({ prefer: 'wasm' });
-const B = 32, N = 512;
+const B = 32, N = Number(process.env.N ?? 512);
 const enc = new Encoder({ ...DEFAULT_ENCODER, inputFeatures: 'xyz' }, createRng(1));
 const rng = createRng(2);
 const x = tf.tensor3d(Float32Array.from({ length: 2 * B * N * 3 }, () => rng.uniform(-1, 1)), [2 * B, N, 3]);

@@ -267,90 +267,105 @@ function backward(dy: tf.Tensor2D, saved: tf.Tensor[], params: tf.Tensor2D[], B:
 }
 
 /**
- * The EdgeConv layer fused in plain loops: tfjs-wasm's Max over an axis with its gradient took 6.5 s on one
- * batch of 64 × 256 points × 16 neighbours, this takes a fraction of that. Forward h_i = max_j relu(e_ij·W + b);
- * the gradient reaches W and b through the winning edge of each point and channel only (the max is sparse).
+ * The EdgeConv layer (Wang et al. 2019, eq. 8) on the input points: h_i = max_j relu([f_i, x_j − x_i]·W + b)
+ * over each point's k nearest points j. Split W into W_f (rows for f_i) and W_d (rows for x_j − x_i): the
+ * edge term is A_i + C_j with A = F·W_f − X·W_d + b and C = X·W_d, both per point, and since relu is monotone
+ * h_i = relu(A_i + max_j C_j). Two small matMuls over B·N rows and a neighbour max replace one matMul over
+ * B·N·k edge rows; tfjs differentiates the matMuls, `neighbourMax` scatters its gradient to the winners.
  * The input points get no gradient: they are data.
  */
 function edgeConv(x: tf.Tensor2D, B: number, N: number, F: number, k: number, layer: Layer): tf.Tensor2D {
-  const op = tf.customGrad((...args: unknown[]) => {
-    const save = args[args.length - 1] as (t: tf.Tensor[]) => void;
-    const [xs, w, b] = args as [tf.Tensor2D, tf.Tensor2D, tf.Tensor1D];
-    const E = F + 3, W = w.shape[1];
-    const edges = edgeFeatures(xs.dataSync() as Float32Array, B, N, F, k);
-    // z = E·W + b by tfjs (fast non-transposed matMul), then max and argmax over each point's k edges in a loop.
-    const zt = tf.tidy(() => tf.add(tf.matMul(tf.tensor2d(edges, [B * N * k, E]), w), b));
-    const z = zt.dataSync();
-    zt.dispose();
-    const out = new Float32Array(B * N * W);
-    const win = new Int32Array(B * N * W).fill(-1); // winning edge (row of `edges`) per point and channel, −1: all ≤ 0
-    for (let p = 0; p < B * N; p++) {
-      const o = p * W;
-      for (let m = 0; m < k; m++) {
-        const r = (p * k + m) * W;
-        for (let c = 0; c < W; c++) if (z[r + c] > out[o + c]) { out[o + c] = z[r + c]; win[o + c] = p * k + m; }
-      }
-    }
-    const value = tf.tensor2d(out, [B * N, W]);
-    save([tf.tensor1d(win, 'int32'), tf.tensor1d(edges)]);
-    return {
-      value,
-      gradFunc: (dy: tf.Tensor, saved: tf.Tensor[]) => {
-        const g = dy.dataSync(), wins = saved[0].dataSync(), ed = saved[1].dataSync();
-        const dW = new Float32Array(E * W), db = new Float32Array(W);
-        for (let p = 0; p < B * N; p++) for (let c = 0; c < W; c++) {
-          const e = wins[p * W + c];
-          if (e < 0) continue; // relu was 0 for every edge: no gradient
-          const d = g[p * W + c];
-          db[c] += d;
-          for (let f = 0; f < E; f++) dW[f * W + c] += ed[e * E + f] * d;
-        }
-        return [tf.zerosLike(xs), tf.tensor2d(dW, [E, W]), tf.tensor1d(db)];
-      },
-    };
+  return tf.tidy(() => {
+    const W = layer.w.shape[1] as number;
+    const neighbours = neighbourIndex(x.dataSync() as Float32Array, B, N, F, k);
+    const wf = tf.slice(layer.w, [0, 0], [F, W]);
+    const wd = tf.slice(layer.w, [F, 0], [3, W]);
+    const xyz = F === 3 ? x : tf.slice(x, [0, 0], [B * N, 3]);
+    const c = tf.matMul(xyz, wd);
+    const a = tf.add(tf.sub(tf.matMul(x, wf), c), layer.b);
+    return tf.relu(tf.add(a, neighbourMax(c as tf.Tensor2D, neighbours, k))) as tf.Tensor2D;
   });
-  return op(x, layer.w, layer.b) as tf.Tensor2D;
 }
 
 /**
- * EdgeConv inputs [f_i, x_j − x_i] for the k nearest points j of each point i within its cloud (brute force;
- * the point itself first, ties by index). x: (B, N, F) row-major with x y z first. Returns (B·N·k, F + 3).
+ * M_i = max over the k rows j = neighbours[i·k + m] of C_j, channel by channel (C: (P, W), P = B·N).
+ * Gradient: each output's gradient goes to the row that won it (the first in neighbour order on ties).
  */
-export function edgeFeatures(x: Float32Array, B: number, N: number, F: number, k: number): Float32Array {
-  const out = new Float32Array(B * N * k * (F + 3));
-  const d = new Float64Array(N);
-  const order = new Int32Array(N);
+function neighbourMax(c: tf.Tensor2D, neighbours: Int32Array, k: number): tf.Tensor2D {
+  const op = tf.customGrad((...args: unknown[]) => {
+    const save = args[args.length - 1] as (t: tf.Tensor[]) => void;
+    const input = args[0] as tf.Tensor2D;
+    const [P, W] = input.shape;
+    const v = input.dataSync() as Float32Array;
+    const out = new Float32Array(P * W);
+    const win = new Int32Array(P * W);
+    for (let p = 0; p < P; p++) {
+      const o = p * W;
+      const first = neighbours[p * k] * W;
+      for (let ch = 0; ch < W; ch++) { out[o + ch] = v[first + ch]; win[o + ch] = neighbours[p * k]; }
+      for (let m = 1; m < k; m++) {
+        const j = neighbours[p * k + m], r = j * W;
+        for (let ch = 0; ch < W; ch++) if (v[r + ch] > out[o + ch]) { out[o + ch] = v[r + ch]; win[o + ch] = j; }
+      }
+    }
+    save([tf.tensor1d(win, 'int32')]);
+    return {
+      value: tf.tensor2d(out, [P, W]),
+      gradFunc: (dy: tf.Tensor, saved: tf.Tensor[]) => {
+        const g = dy.dataSync(), wins = saved[0].dataSync();
+        const d = new Float32Array(P * W);
+        for (let i = 0; i < P * W; i++) d[wins[i] * W + (i % W)] += g[i];
+        return [tf.tensor2d(d, [P, W])];
+      },
+    };
+  });
+  return op(c) as tf.Tensor2D;
+}
+
+/**
+ * The k nearest points of each point within its cloud (brute force; the point itself first, ties by index),
+ * as rows of the (B·N) batch: entry (b·N + i)·k + m. x: (B, N, F) row-major with x y z first.
+ */
+export function neighbourIndex(x: Float32Array, B: number, N: number, F: number, k: number): Int32Array {
+  const out = new Int32Array(B * N * k);
+  const bestKey = new Float64Array(k); // the k best squared distances so far, ascending
+  const bestRow = new Int32Array(k);
   for (let b = 0; b < B; b++) {
     const base = b * N * F;
     for (let i = 0; i < N; i++) {
       const xi = base + i * F;
+      const x0 = x[xi], x1 = x[xi + 1], x2 = x[xi + 2];
+      bestKey[0] = -1; bestRow[0] = i; // the point itself is always its first neighbour
+      let n = 1;
+      let worst = n === k ? -1 : Infinity; // a candidate must be strictly nearer than this to enter
       for (let j = 0; j < N; j++) {
+        if (j === i) continue;
         const xj = base + j * F;
-        d[j] = (x[xj] - x[xi]) ** 2 + (x[xj + 1] - x[xi + 1]) ** 2 + (x[xj + 2] - x[xi + 2]) ** 2;
+        const d0 = x[xj] - x0, d1 = x[xj + 1] - x1, d2 = x[xj + 2] - x2;
+        const v = d0 * d0 + d1 * d1 + d2 * d2;
+        if (!(v < worst)) continue; // ties keep the lower index, already in
+        let at = n < k ? n++ : k - 1;
+        while (at > 0 && v < bestKey[at - 1]) { bestKey[at] = bestKey[at - 1]; bestRow[at] = bestRow[at - 1]; at--; }
+        bestKey[at] = v; bestRow[at] = j;
+        if (n === k) worst = bestKey[k - 1];
       }
-      d[i] = -1; // the point itself is always its first neighbour
-      nearestK(order, d, k);
-      for (let m = 0; m < k; m++) {
-        const xj = base + order[m] * F;
-        const o = ((b * N + i) * k + m) * (F + 3);
-        for (let f = 0; f < F; f++) out[o + f] = x[xi + f];
-        out[o + F] = x[xj] - x[xi]; out[o + F + 1] = x[xj + 1] - x[xi + 1]; out[o + F + 2] = x[xj + 2] - x[xi + 2];
-      }
+      const o = (b * N + i) * k;
+      for (let m = 0; m < k; m++) out[o + m] = b * N + bestRow[m];
     }
   }
   return out;
 }
 
-/** Put the indices of the k smallest keys (ties by index) first in `order`, ascending: one pass, insertion into the k best. */
-function nearestK(order: Int32Array, key: Float64Array, k: number): void {
-  let n = 0;
-  for (let j = 0; j < key.length; j++) {
-    const v = key[j];
-    if (n === k && !(v < key[order[k - 1]])) continue; // ties keep the lower index, already in
-    let at = n < k ? n++ : k - 1;
-    while (at > 0 && v < key[order[at - 1]]) { order[at] = order[at - 1]; at--; }
-    order[at] = j;
+/** EdgeConv inputs [f_i, x_j − x_i] over `neighbourIndex` (B·N·k, F + 3): the layer's definition, kept for checks. */
+export function edgeFeatures(x: Float32Array, B: number, N: number, F: number, k: number): Float32Array {
+  const nbr = neighbourIndex(x, B, N, F, k);
+  const out = new Float32Array(B * N * k * (F + 3));
+  for (let e = 0; e < B * N * k; e++) {
+    const xi = Math.floor(e / k) * F, xj = nbr[e] * F, o = e * (F + 3);
+    for (let f = 0; f < F; f++) out[o + f] = x[xi + f];
+    out[o + F] = x[xj] - x[xi]; out[o + F + 1] = x[xj + 1] - x[xi + 1]; out[o + F + 2] = x[xj + 2] - x[xi + 2];
   }
+  return out;
 }
 
 let instances = 0; // tfjs variable names must be unique per process
@@ -401,12 +416,14 @@ export class Encoder {
     const expected = inputChannels(this.config.inputFeatures);
     if (F !== expected) throw new RangeError(`encoder: input has ${F} channels per point, expected ${expected} (${this.config.inputFeatures})`);
     if (!this.edge) return pointMlpPool(tf.reshape(x, [B * N, F]), B, N, this.layers, this.config.pooling);
-    const k = Math.min(this.config.edge!.k, N);
-    const W = this.config.edge!.width;
-    return tf.tidy(() => {
-      const perPoint = edgeConv(tf.reshape(x, [B * N, F]) as tf.Tensor2D, B, N, F, k, this.edge!); // (B·N, W)
-      return pointMlpPool(perPoint, B, N, this.layers, this.config.pooling);
-    });
+    return tf.tidy(() => pointMlpPool(this.edgeOutput(x), B, N, this.layers, this.config.pooling));
+  }
+
+  /** Per-point output of the EdgeConv layer (B·N, width) for a batch x: (B, N, F); only with an edge layer. */
+  edgeOutput(x: tf.Tensor3D): tf.Tensor2D {
+    if (!this.edge) throw new Error('encoder: no EdgeConv layer in this configuration');
+    const [B, N, F] = x.shape;
+    return tf.tidy(() => edgeConv(tf.reshape(x, [B * N, F]) as tf.Tensor2D, B, N, F, Math.min(this.config.edge!.k, N), this.edge!));
   }
 
   /** L2-normalised embeddings: what retrieval uses — the head's output (B, P), or the pooled features (B, C). */

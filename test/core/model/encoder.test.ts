@@ -176,15 +176,18 @@ describe('EdgeConv first layer (Wang et al. 2019, eq. 8, on the input points)', 
       }
     }
   });
-  it('the fused layer and its gradients equal tfjs autodiff of max_j relu(e_ij·W + b)', async () => {
-    const cfg: EncoderConfig = { ...tiny, edge: { k: 5, width: 7 } };
+  it.each([
+    ['xyz', 3],
+    ['xyz+normal', 6],
+  ] as const)('the split layer relu(A_i + max_j C_j) and its gradients equal tfjs autodiff of max_j relu(e_ij·W + b) (%s inputs)', async (inputFeatures, F) => {
+    const cfg: EncoderConfig = { ...tiny, inputFeatures, edge: { k: 5, width: 7 } };
     const enc = new Encoder(cfg, createRng(12));
     expect(enc.weightNames.slice(0, 2)).toEqual(['edge/w', 'edge/b']);
     await expectNoLeak(() => {
       const B = 2, N = 15;
-      const data = cloudBatch(B, N, 13);
-      const x = tf.tensor3d(data, [B, N, 3]);
-      const edges = tf.tensor2d(edgeFeatures(data, B, N, 3, 5), [B * N * 5, 6]);
+      const data = cloudBatch(B, N, 13, F);
+      const x = tf.tensor3d(data, [B, N, F]);
+      const edges = tf.tensor2d(edgeFeatures(data, B, N, F, 5), [B * N * 5, F + 3]);
       const target = tf.randomNormal([B, 12], 0, 1, 'float32', 14);
       const naive = () => {
         const h = tf.max(tf.reshape(tf.relu(tf.add(tf.matMul(edges, enc.edge!.w), enc.edge!.b)), [B * N, 5, 7]), 1) as tf.Tensor2D;
@@ -200,6 +203,29 @@ describe('EdgeConv first layer (Wang et al. 2019, eq. 8, on the input points)', 
       for (const v of vars) expectClose(fast.grads[v.name].dataSync(), slow.grads[v.name].dataSync(), { rtol: 1e-4, atol: 1e-5 });
       tf.dispose([x, edges, target, fast.value, slow.value, ...Object.values(fast.grads), ...Object.values(slow.grads)]);
     });
+    enc.dispose();
+  });
+  it('gives a repeated point (dropout refills by repeating) the gradient once, as the autodiff reference does', () => {
+    const enc = new Encoder({ ...tiny, edge: { k: 4, width: 5 } }, createRng(21));
+    const data = cloudBatch(1, 12, 22);
+    data.copyWithin(3, 0, 3); // point 1 = point 0: equal C rows tie in every channel
+    const x = tf.tensor3d(data, [1, 12, 3]);
+    const edges = tf.tensor2d(edgeFeatures(data, 1, 12, 3, 4), [12 * 4, 6]);
+    const vars = [enc.edge!.w, enc.edge!.b];
+    // Reference: tfjs autodiff of the max written as Σ_m z_m·[m = first argmax] (tfjs's own Max gradient would
+    // credit every tied edge in full, which sums to twice the derivative of the function).
+    const slow = tf.variableGrads(() => {
+      const z = tf.reshape(tf.relu(tf.add(tf.matMul(edges, enc.edge!.w), enc.edge!.b)), [12, 4, 5]);
+      const first = tf.transpose(tf.oneHot(tf.argMax(z, 1), 4), [0, 2, 1]); // (12, 4, 5): 1 at the first winning edge
+      return tf.sum(tf.mul(z, first)) as tf.Scalar;
+    }, vars);
+    const fast = tf.variableGrads(() => tf.sum(enc.edgeOutput(x)) as tf.Scalar, vars);
+    expectClose(fast.value.dataSync(), slow.value.dataSync(), { rtol: 1e-5 });
+    for (const v of vars) expectClose(fast.grads[v.name].dataSync(), slow.grads[v.name].dataSync(), { rtol: 1e-4, atol: 1e-5 });
+    // The case has real ties: tfjs's Max gradient (every tie credited) gives a larger bias gradient.
+    const tied = tf.variableGrads(() => tf.sum(tf.max(tf.reshape(tf.relu(tf.add(tf.matMul(edges, enc.edge!.w), enc.edge!.b)), [12, 4, 5]), 1)) as tf.Scalar, vars);
+    expect(tf.sum(tied.grads[enc.edge!.b.name]).dataSync()[0]).toBeGreaterThan(tf.sum(fast.grads[enc.edge!.b.name]).dataSync()[0] + 0.5);
+    tf.dispose([x, edges, slow.value, fast.value, tied.value, ...Object.values(slow.grads), ...Object.values(fast.grads), ...Object.values(tied.grads)]);
     enc.dispose();
   });
   it('keeps the embedding the same when the points are shuffled, and refuses a bad k', () => {
