@@ -41,7 +41,11 @@ function shapesFor(config: TrainConfig): { names: string[]; shapes: number[][] }
   const names: string[] = [];
   const shapes: number[][] = [];
   let c = inputChannels(config.encoder.inputFeatures);
-  if (config.encoder.edge) { names.push('edge/w', 'edge/b'); shapes.push([c + 3, config.encoder.edge.width], [config.encoder.edge.width]); c = config.encoder.edge.width; }
+  const edge = config.encoder.edge;
+  if (edge) {
+    names.push('edge/w', 'edge/b'); shapes.push([c + 3, edge.width], [edge.width]); c = edge.width;
+    for (let i = 1; i < (edge.layers ?? 1); i++) { names.push(`edge${i}/w`, `edge${i}/b`); shapes.push([2 * c, c], [c]); }
+  }
   config.encoder.widths.forEach((w, i) => { names.push(`point${i}/w`, `point${i}/b`); shapes.push([c, w], [w]); c = w; });
   c = config.encoder.widths[config.encoder.widths.length - 1] * (config.encoder.pooling === 'max+mean' ? 2 : 1);
   config.encoder.projection.forEach((w, i) => { names.push(`head${i}/w`, `head${i}/b`); shapes.push([c, w], [w]); c = w; });

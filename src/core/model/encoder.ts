@@ -49,8 +49,11 @@ export interface EncoderConfig {
    * A first layer over each point's k nearest neighbours in its cloud (EdgeConv of Wang et al. 2019, "Dynamic
    * Graph CNN for Learning on Point Clouds", eq. 8, on the input points only): h_i = max_j relu(W·[f_i, x_j − x_i] + b)
    * over the k neighbours j (the point itself included), then the per-point MLP. Absent or null: none.
+   * `layers` > 1 stacks further EdgeConv layers on the same neighbour graph, each on the previous one's features
+   * (h_i, h_j − h_i): on the same graph (the paper's fixed-graph variant), or with `dynamic` on each layer's
+   * k nearest neighbours in the previous layer's feature space (the paper's dynamic graph). Absent: 1.
    */
-  readonly edge?: { readonly k: number; readonly width: number } | null;
+  readonly edge?: { readonly k: number; readonly width: number; readonly layers?: number; readonly dynamic?: boolean } | null;
 }
 
 /** Width of the EdgeConv layer when the command line or the workbench switches it on. */
@@ -75,8 +78,10 @@ export function validateEncoderConfig(c: EncoderConfig): void {
   if (!INPUT_FEATURES.includes(c.inputFeatures)) throw new RangeError(`encoder: inputFeatures must be one of ${INPUT_FEATURES.join(', ')}, got ${c.inputFeatures}`);
   if (c.retrieval !== undefined && !['projection', 'pooled'].includes(c.retrieval)) throw new RangeError(`encoder: retrieval must be projection or pooled, got ${c.retrieval}`);
   if (!['max', 'max+mean'].includes(c.pooling)) throw new RangeError(`encoder: pooling must be max or max+mean, got ${c.pooling}`);
-  if (c.edge != null && !(Number.isInteger(c.edge.k) && c.edge.k >= 1 && c.edge.k <= 64 && Number.isInteger(c.edge.width) && c.edge.width >= 1 && c.edge.width <= 4096)) {
-    throw new RangeError(`encoder: edge needs whole numbers k in [1, 64] and width in [1, 4096], got ${JSON.stringify(c.edge)}`);
+  if (c.edge != null && !(Number.isInteger(c.edge.k) && c.edge.k >= 1 && c.edge.k <= 64 && Number.isInteger(c.edge.width) && c.edge.width >= 1 && c.edge.width <= 4096
+    && (c.edge.layers === undefined || (Number.isInteger(c.edge.layers) && c.edge.layers >= 1 && c.edge.layers <= 4))
+    && (c.edge.dynamic === undefined || typeof c.edge.dynamic === 'boolean'))) {
+    throw new RangeError(`encoder: edge needs whole numbers k in [1, 64], width in [1, 4096] and layers in [1, 4] (dynamic: true or false), got ${JSON.stringify(c.edge)}`);
   }
   for (const [name, list] of [['widths', c.widths], ['projection', c.projection]] as const) {
     if (!Array.isArray(list) || list.length === 0 || list.some((w) => !Number.isInteger(w) || w < 1 || w > 4096)) {
@@ -272,16 +277,16 @@ function backward(dy: tf.Tensor2D, saved: tf.Tensor[], params: tf.Tensor2D[], B:
  * edge term is A_i + C_j with A = F·W_f − X·W_d + b and C = X·W_d, both per point, and since relu is monotone
  * h_i = relu(A_i + max_j C_j). Two small matMuls over B·N rows and a neighbour max replace one matMul over
  * B·N·k edge rows; tfjs differentiates the matMuls, `neighbourMax` scatters its gradient to the winners.
- * The input points get no gradient: they are data.
+ * `diff` leading channels enter the difference: x y z on the input points, all of them in a stacked layer.
  */
-function edgeConv(x: tf.Tensor2D, B: number, N: number, F: number, k: number, layer: Layer): tf.Tensor2D {
+function edgeConv(x: tf.Tensor2D, neighbours: Int32Array, k: number, diff: number, layer: Layer): tf.Tensor2D {
   return tf.tidy(() => {
+    const [P, F] = x.shape;
     const W = layer.w.shape[1] as number;
-    const neighbours = neighbourIndex(x.dataSync() as Float32Array, B, N, F, k);
     const wf = tf.slice(layer.w, [0, 0], [F, W]);
-    const wd = tf.slice(layer.w, [F, 0], [3, W]);
-    const xyz = F === 3 ? x : tf.slice(x, [0, 0], [B * N, 3]);
-    const c = tf.matMul(xyz, wd);
+    const wd = tf.slice(layer.w, [F, 0], [diff, W]);
+    const xd = F === diff ? x : tf.slice(x, [0, 0], [P, diff]);
+    const c = tf.matMul(xd, wd);
     const a = tf.add(tf.sub(tf.matMul(x, wf), c), layer.b);
     return tf.relu(tf.add(a, neighbourMax(c as tf.Tensor2D, neighbours, k))) as tf.Tensor2D;
   });
@@ -356,6 +361,43 @@ export function neighbourIndex(x: Float32Array, B: number, N: number, F: number,
   return out;
 }
 
+/**
+ * The k nearest points of each point in feature space (squared Euclidean distance between rows of h within a
+ * cloud, the point itself first, ties by index), for the dynamic graph of Wang et al. 2019: the pairwise dot
+ * products come from one batched tfjs matMul, the selection from a plain loop. h: (B·N, C).
+ */
+export function featureNeighbourIndex(h: tf.Tensor2D, B: number, N: number, k: number): Int32Array {
+  const C = h.shape[1] as number;
+  const gram = tf.tidy(() => { const h3 = tf.reshape(h, [B, N, C]) as tf.Tensor3D; return tf.matMul(h3, h3, false, true); });
+  const g = gram.dataSync() as Float32Array;
+  gram.dispose();
+  const out = new Int32Array(B * N * k);
+  const bestKey = new Float64Array(k);
+  const bestRow = new Int32Array(k);
+  for (let b = 0; b < B; b++) {
+    const base = b * N * N;
+    for (let i = 0; i < N; i++) {
+      // ‖h_i − h_j‖² = g_ii + g_jj − 2 g_ij; g_ii is the same for every j, so rank by g_jj − 2 g_ij.
+      const row = base + i * N;
+      bestKey[0] = -Infinity; bestRow[0] = i;
+      let n = 1;
+      let worst = n === k ? -Infinity : Infinity;
+      for (let j = 0; j < N; j++) {
+        if (j === i) continue;
+        const v = g[base + j * N + j] - 2 * g[row + j];
+        if (!(v < worst)) continue;
+        let at = n < k ? n++ : k - 1;
+        while (at > 0 && v < bestKey[at - 1]) { bestKey[at] = bestKey[at - 1]; bestRow[at] = bestRow[at - 1]; at--; }
+        bestKey[at] = v; bestRow[at] = j;
+        if (n === k) worst = bestKey[k - 1];
+      }
+      const o = (b * N + i) * k;
+      for (let m = 0; m < k; m++) out[o + m] = b * N + bestRow[m];
+    }
+  }
+  return out;
+}
+
 /** EdgeConv inputs [f_i, x_j − x_i] over `neighbourIndex` (B·N·k, F + 3): the layer's definition, kept for checks. */
 export function edgeFeatures(x: Float32Array, B: number, N: number, F: number, k: number): Float32Array {
   const nbr = neighbourIndex(x, B, N, F, k);
@@ -375,6 +417,8 @@ export class Encoder {
   readonly layers: Layer[];
   readonly head: Layer[];
   readonly edge: Layer | null;
+  /** EdgeConv layers after the first (edge.layers − 1 of them), on the same neighbour graph. */
+  readonly edgeStack: Layer[];
 
   constructor(config: EncoderConfig, rng: Rng) {
     validateEncoderConfig(config);
@@ -387,6 +431,7 @@ export class Encoder {
     let c = inputChannels(config.inputFeatures);
     this.edge = config.edge ? make(c + 3, config.edge.width, 'edge', 2) : null;
     if (config.edge) c = config.edge.width;
+    this.edgeStack = Array.from({ length: config.edge ? (config.edge.layers ?? 1) - 1 : 0 }, (_, i) => make(2 * c, c, `edge${i + 1}`, 2));
     this.layers = config.widths.map((w, i) => { const l = make(c, w, `point${i}`, 2); c = w; return l; });
     c = embeddingSize(config);
     this.head = config.projection.map((w, i) => {
@@ -398,13 +443,14 @@ export class Encoder {
   }
 
   get variables(): tf.Variable[] {
-    return [...(this.edge ? [this.edge] : []), ...this.layers, ...this.head].flatMap((l) => [l.w, l.b]);
+    return [...(this.edge ? [this.edge] : []), ...this.edgeStack, ...this.layers, ...this.head].flatMap((l) => [l.w, l.b]);
   }
 
   /** Stable names for saving: "point0/w", …, "head1/b" (independent of the instance). */
   get weightNames(): string[] {
     return [
       ...(this.edge ? ['edge/w', 'edge/b'] : []),
+      ...this.edgeStack.flatMap((_, i) => [`edge${i + 1}/w`, `edge${i + 1}/b`]),
       ...this.layers.flatMap((_, i) => [`point${i}/w`, `point${i}/b`]),
       ...this.head.flatMap((_, i) => [`head${i}/w`, `head${i}/b`]),
     ];
@@ -423,7 +469,17 @@ export class Encoder {
   edgeOutput(x: tf.Tensor3D): tf.Tensor2D {
     if (!this.edge) throw new Error('encoder: no EdgeConv layer in this configuration');
     const [B, N, F] = x.shape;
-    return tf.tidy(() => edgeConv(tf.reshape(x, [B * N, F]) as tf.Tensor2D, B, N, F, Math.min(this.config.edge!.k, N), this.edge!));
+    const k = Math.min(this.config.edge!.k, N);
+    return tf.tidy(() => {
+      const flat = tf.reshape(x, [B * N, F]) as tf.Tensor2D;
+      const neighbours = neighbourIndex(flat.dataSync() as Float32Array, B, N, F, k);
+      let h = edgeConv(flat, neighbours, k, 3, this.edge!);
+      for (const layer of this.edgeStack) {
+        const graph = this.config.edge!.dynamic ? featureNeighbourIndex(h, B, N, k) : neighbours;
+        h = edgeConv(h, graph, k, h.shape[1] as number, layer);
+      }
+      return h;
+    });
   }
 
   /** L2-normalised embeddings: what retrieval uses — the head's output (B, P), or the pooled features (B, C). */

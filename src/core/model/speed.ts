@@ -11,13 +11,16 @@ import { ntXentLoss } from './losses';
 /** The configuration of the speed target: B = 32 pairs, N = 512, widths 64-128-256, projection 256-128. */
 export const REFERENCE_ENCODER: EncoderConfig = { inputFeatures: 'xyz', widths: [64, 128, 256], pooling: 'max', projection: [256, 128] };
 
-/** Nominal FLOPs of one step: forward 2·rows·Σ(in·out) over the point MLP (k rows a point in an EdgeConv layer)
- *  and the head, ×3 for forward +
- *  backward (the usual convention; the sparse max-pool backward here actually does fewer). */
+/** Nominal FLOPs of one step: forward 2·rows·Σ(in·out) over the point MLP (an EdgeConv layer on F inputs with d
+ *  differenced channels is two matMuls, F and d rows of weights, plus the neighbour max) and the head, ×3 for
+ *  forward + backward (the usual convention; the sparse max-pool backward here actually does fewer). */
 export function stepFlops(c: EncoderConfig, pairs: number, points: number): { forward: number; step: number } {
   const rows = 2 * pairs * points;
   let f = 0, cin = inputChannels(c.inputFeatures);
-  if (c.edge) { f += 2 * rows * c.edge.k * (cin + 3) * c.edge.width; cin = c.edge.width; } // one matMul row per edge
+  if (c.edge) {
+    f += 2 * rows * (cin + 3) * c.edge.width + rows * c.edge.k * c.edge.width; cin = c.edge.width;
+    for (let i = 1; i < (c.edge.layers ?? 1); i++) f += 2 * rows * 2 * cin * cin + rows * c.edge.k * cin;
+  }
   for (const w of c.widths) { f += 2 * rows * cin * w; cin = w; }
   cin = embeddingSize(c);
   for (const w of c.projection) { f += 2 * 2 * pairs * cin * w; cin = w; }
