@@ -333,32 +333,51 @@ function neighbourMax(c: tf.Tensor2D, neighbours: Int32Array, k: number): tf.Ten
  */
 export function neighbourIndex(x: Float32Array, B: number, N: number, F: number, k: number): Int32Array {
   const out = new Int32Array(B * N * k);
-  const bestKey = new Float64Array(k); // the k best squared distances so far, ascending
-  const bestRow = new Int32Array(k);
+  const best = new NearestK(k);
   for (let b = 0; b < B; b++) {
     const base = b * N * F;
     for (let i = 0; i < N; i++) {
       const xi = base + i * F;
       const x0 = x[xi], x1 = x[xi + 1], x2 = x[xi + 2];
-      bestKey[0] = -1; bestRow[0] = i; // the point itself is always its first neighbour
-      let n = 1;
-      let worst = n === k ? -1 : Infinity; // a candidate must be strictly nearer than this to enter
+      best.start(i);
       for (let j = 0; j < N; j++) {
         if (j === i) continue;
         const xj = base + j * F;
         const d0 = x[xj] - x0, d1 = x[xj + 1] - x1, d2 = x[xj + 2] - x2;
-        const v = d0 * d0 + d1 * d1 + d2 * d2;
-        if (!(v < worst)) continue; // ties keep the lower index, already in
-        let at = n < k ? n++ : k - 1;
-        while (at > 0 && v < bestKey[at - 1]) { bestKey[at] = bestKey[at - 1]; bestRow[at] = bestRow[at - 1]; at--; }
-        bestKey[at] = v; bestRow[at] = j;
-        if (n === k) worst = bestKey[k - 1];
+        best.offer(d0 * d0 + d1 * d1 + d2 * d2, j);
       }
-      const o = (b * N + i) * k;
-      for (let m = 0; m < k; m++) out[o + m] = b * N + bestRow[m];
+      best.write(out, (b * N + i) * k, b * N);
     }
   }
   return out;
+}
+
+/** The k smallest keys offered so far, ascending (ties keep the earlier), the point itself held first. */
+class NearestK {
+  private readonly key: Float64Array;
+  private readonly row: Int32Array;
+  private n = 1;
+  private worst = Infinity; // a candidate must be strictly nearer than this to enter
+  constructor(private readonly k: number) {
+    this.key = new Float64Array(k);
+    this.row = new Int32Array(k);
+  }
+  start(self: number): void {
+    this.key[0] = -Infinity; this.row[0] = self; this.n = 1;
+    this.worst = this.k === 1 ? -Infinity : Infinity;
+  }
+  offer(v: number, j: number): void {
+    if (!(v < this.worst)) return;
+    const { key, row, k } = this;
+    let at = this.n < k ? this.n++ : k - 1;
+    while (at > 0 && v < key[at - 1]) { key[at] = key[at - 1]; row[at] = row[at - 1]; at--; }
+    key[at] = v; row[at] = j;
+    if (this.n === k) this.worst = key[k - 1];
+  }
+  /** Rows (offset by `base`) into out[o … o + k). */
+  write(out: Int32Array, o: number, base: number): void {
+    for (let m = 0; m < this.k; m++) out[o + m] = base + this.row[m];
+  }
 }
 
 /**
@@ -372,27 +391,15 @@ export function featureNeighbourIndex(h: tf.Tensor2D, B: number, N: number, k: n
   const g = gram.dataSync() as Float32Array;
   gram.dispose();
   const out = new Int32Array(B * N * k);
-  const bestKey = new Float64Array(k);
-  const bestRow = new Int32Array(k);
+  const best = new NearestK(k);
   for (let b = 0; b < B; b++) {
     const base = b * N * N;
     for (let i = 0; i < N; i++) {
       // ‖h_i − h_j‖² = g_ii + g_jj − 2 g_ij; g_ii is the same for every j, so rank by g_jj − 2 g_ij.
       const row = base + i * N;
-      bestKey[0] = -Infinity; bestRow[0] = i;
-      let n = 1;
-      let worst = n === k ? -Infinity : Infinity;
-      for (let j = 0; j < N; j++) {
-        if (j === i) continue;
-        const v = g[base + j * N + j] - 2 * g[row + j];
-        if (!(v < worst)) continue;
-        let at = n < k ? n++ : k - 1;
-        while (at > 0 && v < bestKey[at - 1]) { bestKey[at] = bestKey[at - 1]; bestRow[at] = bestRow[at - 1]; at--; }
-        bestKey[at] = v; bestRow[at] = j;
-        if (n === k) worst = bestKey[k - 1];
-      }
-      const o = (b * N + i) * k;
-      for (let m = 0; m < k; m++) out[o + m] = b * N + bestRow[m];
+      best.start(i);
+      for (let j = 0; j < N; j++) if (j !== i) best.offer(g[base + j * N + j] - 2 * g[row + j], j);
+      best.write(out, (b * N + i) * k, b * N);
     }
   }
   return out;
