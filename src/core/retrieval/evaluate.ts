@@ -4,12 +4,16 @@ import { Encoder, type EncoderConfig } from '../model/encoder';
 import type { ModelPart, Pose } from '../model/embed';
 import { createRng, hashString } from '../rng';
 import { evaluateRetrieval, type RetrievalMetrics } from './metrics';
-import { d2Descriptors, encoderDescriptors, type MethodName } from './methods';
+import { d2Descriptors, encoderDescriptors, type Descriptors, type MethodName } from './methods';
+import { diffusedSimilarity, type DiffusionOptions } from './diffusion';
+
+/** A method as scored: its own similarity, or ranked by diffusion over the library graph built from it. */
+export type EvaluatedMethod = MethodName | `${MethodName}+diffusion`;
 
 export interface EvaluationReport {
   readonly parts: number;
   readonly labels: number;
-  readonly methods: Partial<Record<MethodName, Omit<RetrievalMetrics, 'queries'>>>;
+  readonly methods: Partial<Record<EvaluatedMethod, Omit<RetrievalMetrics, 'queries'>>>;
 }
 
 export interface EvaluationInput {
@@ -21,6 +25,8 @@ export interface EvaluationInput {
   /** Architecture of the untrained baseline (the learned model's, when there is one). */
   readonly untrainedConfig: EncoderConfig;
   readonly seed?: number;
+  /** Also score every method ranked by diffusion over its own library graph (absent: not scored). */
+  readonly diffusion?: DiffusionOptions;
 }
 
 /** The untrained baseline: the same architecture with seeded random weights. */
@@ -31,13 +37,21 @@ export function untrainedEncoder(config: EncoderConfig, seed = 0): Encoder {
 export function evaluateMethods(input: EvaluationInput): EvaluationReport {
   const strip = (m: RetrievalMetrics) => ({ nn: m.nn, first_tier: m.first_tier, second_tier: m.second_tier, dcg: m.dcg, map: m.map, p_at_5: m.p_at_5 });
   const methods: EvaluationReport['methods'] = {};
-  if (input.learned) methods.learned = strip(evaluateRetrieval(input.labels, encoderDescriptors('learned', input.learned, input.parts, input.points, input.pose).similarity));
+  const n = input.parts.length;
+  const score = (d: Descriptors) => {
+    methods[d.method] = strip(evaluateRetrieval(input.labels, d.similarity));
+    if (!input.diffusion) return;
+    // D2's similarity is −L1 in [−2, 0]; its graph uses 1 − L1/2 in [0, 1], cosine-like.
+    const graphSimilarity = d.method === 'd2' ? (i: number, j: number) => 1 + d.similarity(i, j) / 2 : d.similarity;
+    methods[`${d.method}+diffusion`] = strip(evaluateRetrieval(input.labels, diffusedSimilarity(n, graphSimilarity, input.diffusion)));
+  };
+  if (input.learned) score(encoderDescriptors('learned', input.learned, input.parts, input.points, input.pose));
   const untrained = untrainedEncoder(input.untrainedConfig, input.seed ?? 0);
   try {
-    methods.untrained = strip(evaluateRetrieval(input.labels, encoderDescriptors('untrained', untrained, input.parts, input.points, input.pose).similarity));
+    score(encoderDescriptors('untrained', untrained, input.parts, input.points, input.pose));
   } finally {
     untrained.dispose();
   }
-  methods.d2 = strip(evaluateRetrieval(input.labels, d2Descriptors(input.parts, input.seed ?? 0).similarity));
+  score(d2Descriptors(input.parts, input.seed ?? 0));
   return { parts: input.parts.length, labels: new Set(input.labels).size, methods };
 }

@@ -2,6 +2,10 @@
 // on real size and on folder.
 
 import { topK, type Hit } from './topk';
+import { DIFFUSION_DEFAULTS, DiffusionGraph, rankingKeys, type DiffusionOptions } from './diffusion';
+
+/** How results are ordered: by cosine similarity to the query, or by diffusion over the library's neighbour graph. */
+export type Ranking = 'cosine' | 'diffusion';
 
 export interface IndexEntry {
   readonly name: string;
@@ -67,6 +71,37 @@ export class EmbeddingIndex {
   query(query: ArrayLike<number>, k: number, filter: QueryFilter = {}): Hit[] {
     if (query.length !== this.dim) throw new RangeError(`query has ${query.length} values, the index ${this.dim}`);
     return topK(this.scores(query), Math.min(k, this.count), this.filterOf(filter));
+  }
+
+  private graph: DiffusionGraph | null = null;
+
+  /** The library's neighbour graph, built on first use (n score scans) and kept. */
+  diffusionGraph(options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
+    if (!this.graph || this.graph.options !== options) {
+      const rows = Array.from({ length: this.count }, (_, i) => this.scores(this.vector(i)));
+      this.graph = DiffusionGraph.build(this.count, (i, j) => rows[i][j], options);
+    }
+    return this.graph;
+  }
+
+  /**
+   * The k best parts ordered by diffusion from the query (see diffusion.ts); each hit's score is still its
+   * cosine similarity. A library part queries from its own node (pass it as `filter.exclude`); any other
+   * vector first joins the graph as one more node.
+   */
+  queryDiffused(query: ArrayLike<number>, k: number, filter: QueryFilter = {}, options: DiffusionOptions = DIFFUSION_DEFAULTS): Hit[] {
+    if (query.length !== this.dim) throw new RangeError(`query has ${query.length} values, the index ${this.dim}`);
+    const cosine = this.scores(query);
+    const graph = this.diffusionGraph(options);
+    const inLibrary = filter.exclude !== undefined && filter.exclude >= 0 && filter.exclude < this.count;
+    const f = inLibrary ? graph.scoresFrom(filter.exclude!) : graph.withQuery(cosine).scoresFrom(this.count);
+    const hits = topK(rankingKeys(f, cosine, this.count), Math.min(k, this.count), this.filterOf(filter));
+    return hits.map((h) => ({ index: h.index, score: cosine[h.index] }));
+  }
+
+  /** `query` or `queryDiffused`, by ranking. */
+  ranked(ranking: Ranking, query: ArrayLike<number>, k: number, filter: QueryFilter = {}): Hit[] {
+    return ranking === 'diffusion' ? this.queryDiffused(query, k, filter) : this.query(query, k, filter);
   }
 }
 

@@ -1,0 +1,170 @@
+// Ranking by diffusion over the library's nearest-neighbour graph: scores spread from the query along chains of
+// close parts, so a part reached through several close neighbours ranks above one that is merely near in one
+// step. The iteration and its fixed point f = (1 − α)(I − αS)⁻¹y are those of Zhou, Bousquet, Lal, Weston &
+// Schölkopf 2004 ("Learning with local and global consistency"); the kNN graph with affinities max(0, cos)^γ is
+// the retrieval form of Iscen, Tolias, Avrithis, Furon & Chum 2017 ("Efficient diffusion on region manifolds").
+
+import { topK } from './topk';
+
+export interface DiffusionOptions {
+  /** Neighbours of each part in the graph. */
+  readonly k: number;
+  /** Share of the walk against the restart at the query, in (0, 1). */
+  readonly alpha: number;
+  /** Edge weight max(0, cos)^γ: γ > 1 keeps the closest neighbours dominant. */
+  readonly gamma: number;
+  /** Steps of f ← αSf + (1 − α)y; the error after t steps is at most α^t of the start. */
+  readonly iterations: number;
+}
+
+/**
+ * k, α and γ measured on the furniture validation set (docs/results.md), near the settings of Iscen et al. 2017
+ * (γ = 3); 40 iterations leave α^40 ≈ 10⁻⁴ of the start at α = 0.8.
+ */
+export const DIFFUSION_DEFAULTS: DiffusionOptions = { k: 15, alpha: 0.8, gamma: 3, iterations: 40 };
+
+export function validateDiffusion(o: DiffusionOptions): void {
+  if (!(Number.isInteger(o.k) && o.k >= 1)) throw new RangeError(`diffusion: k must be a whole number ≥ 1, got ${o.k}`);
+  if (!(o.alpha > 0 && o.alpha < 1)) throw new RangeError(`diffusion: alpha must be in (0, 1), got ${o.alpha}`);
+  if (!(o.gamma > 0)) throw new RangeError(`diffusion: gamma must be > 0, got ${o.gamma}`);
+  if (!(Number.isInteger(o.iterations) && o.iterations >= 1)) throw new RangeError(`diffusion: iterations must be a whole number ≥ 1, got ${o.iterations}`);
+}
+
+/**
+ * The symmetric affinity W = (A + Aᵀ)/2 of a kNN graph (A_ij = max(0, s_ij)^γ for the k most similar j ≠ i),
+ * stored as compressed rows, with its degrees. Diffusion walks S = D^−½ W D^−½.
+ */
+export class DiffusionGraph {
+  private readonly rowStart: Int32Array;
+  private readonly cols: Int32Array;
+  private readonly weights: Float64Array;
+  private readonly invSqrtDegree: Float64Array;
+
+  private constructor(
+    readonly size: number,
+    /** The directed kNN edges A (i → j, weight A_ij). */
+    private readonly directed: readonly Edge[],
+    /** Similarity of each node's k-th neighbour: a newcomer closer than this would be among its k nearest. */
+    private readonly kthSimilarity: Float64Array,
+    readonly options: DiffusionOptions,
+  ) {
+    const rows = Array.from({ length: size }, () => new Map<number, number>());
+    for (const { i, j, w } of directed) {
+      rows[i].set(j, (rows[i].get(j) ?? 0) + w / 2);
+      rows[j].set(i, (rows[j].get(i) ?? 0) + w / 2);
+    }
+    this.rowStart = new Int32Array(size + 1);
+    for (let i = 0; i < size; i++) this.rowStart[i + 1] = this.rowStart[i] + rows[i].size;
+    this.cols = new Int32Array(this.rowStart[size]);
+    this.weights = new Float64Array(this.rowStart[size]);
+    this.invSqrtDegree = new Float64Array(size);
+    for (let i = 0; i < size; i++) {
+      let degree = 0, e = this.rowStart[i];
+      for (const [j, w] of [...rows[i].entries()].sort((p, q) => p[0] - q[0])) { this.cols[e] = j; this.weights[e++] = w; degree += w; }
+      this.invSqrtDegree[i] = degree > 0 ? 1 / Math.sqrt(degree) : 0;
+    }
+  }
+
+  /**
+   * The graph over n parts from their pairwise similarity (higher is closer; `similarity(i, j)` for i ≠ j).
+   * Cost: n² similarity calls and n partial selections of k.
+   */
+  static build(n: number, similarity: (i: number, j: number) => number, options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
+    validateDiffusion(options);
+    const k = Math.min(options.k, n - 1);
+    const directed: Edge[] = [];
+    const kth = new Float64Array(n).fill(-Infinity);
+    const row = new Float64Array(n);
+    for (let i = 0; i < n && k > 0; i++) {
+      for (let j = 0; j < n; j++) row[j] = j === i ? NaN : similarity(i, j); // NaN: never selected
+      const hits = topK(row, k);
+      for (const h of hits) directed.push({ i, j: h.index, w: affinity(h.score, options.gamma) });
+      kth[i] = hits[hits.length - 1].score;
+    }
+    return new DiffusionGraph(n, directed, kth, options);
+  }
+
+  /**
+   * The graph a query from outside the library joins: node `size` links to its k most similar parts, and a part
+   * links back when the query is closer than its present k-th neighbour (the part keeps its other edges).
+   */
+  withQuery(similarityToParts: ArrayLike<number>): DiffusionGraph {
+    const n = this.size;
+    if (similarityToParts.length !== n) throw new RangeError(`diffusion: ${similarityToParts.length} similarities for ${n} parts`);
+    const { gamma, k } = this.options;
+    const directed = [...this.directed];
+    for (const h of topK(similarityToParts, Math.min(k, n))) directed.push({ i: n, j: h.index, w: affinity(h.score, gamma) });
+    for (let j = 0; j < n; j++) if (similarityToParts[j] > this.kthSimilarity[j]) directed.push({ i: j, j: n, w: affinity(similarityToParts[j], gamma) });
+    const kth = new Float64Array(n + 1).fill(-Infinity);
+    kth.set(this.kthSimilarity);
+    return new DiffusionGraph(n + 1, directed, kth, this.options);
+  }
+
+  /**
+   * Diffusion scores of every node from node `source` (y = e_source): f after `iterations` steps of
+   * f ← αSf + (1 − α)y, starting from y.
+   */
+  scoresFrom(source: number): Float64Array {
+    if (!(Number.isInteger(source) && source >= 0 && source < this.size)) throw new RangeError(`diffusion: no node ${source} in a graph of ${this.size}`);
+    const { alpha, iterations } = this.options;
+    const { rowStart, cols, weights, invSqrtDegree: r } = this;
+    let f = new Float64Array(this.size), next = new Float64Array(this.size);
+    f[source] = 1;
+    for (let t = 0; t < iterations; t++) {
+      for (let i = 0; i < this.size; i++) {
+        let acc = 0;
+        for (let e = rowStart[i]; e < rowStart[i + 1]; e++) acc += weights[e] * r[cols[e]] * f[cols[e]];
+        next[i] = alpha * r[i] * acc; // (αSf)_i with S_ij = W_ij / √(d_i d_j)
+      }
+      next[source] += 1 - alpha;
+      [f, next] = [next, f];
+    }
+    return f;
+  }
+
+  /** W_ij (symmetric; 0 when i and j are not linked). */
+  weight(i: number, j: number): number {
+    for (let e = this.rowStart[i]; e < this.rowStart[i + 1]; e++) if (this.cols[e] === j) return this.weights[e];
+    return 0;
+  }
+}
+
+interface Edge {
+  readonly i: number;
+  readonly j: number;
+  readonly w: number;
+}
+
+function affinity(similarity: number, gamma: number): number {
+  return Math.max(0, similarity) ** gamma;
+}
+
+/**
+ * Ranking keys for the parts from diffusion scores f (parts 0 … n − 1): f where the diffusion reached a part;
+ * below all of those, parts it never reached (another component of the graph) in cosine order.
+ */
+export function rankingKeys(f: ArrayLike<number>, cosine: ArrayLike<number>, n: number): Float64Array {
+  const keys = new Float64Array(n);
+  for (let j = 0; j < n; j++) keys[j] = f[j] > 0 ? f[j] : -2 + (1 + Math.max(-1, Math.min(1, cosine[j]))) / 4; // in [−2, −1.5]
+  return keys;
+}
+
+/**
+ * A similarity (i, j) → ranking key for leave-one-out over a library: diffusion from part i over the graph
+ * built from `similarity`, computed once per query row and kept until the next one (queries go row by row).
+ * `similarity` must be cosine-like (higher is closer, affinity from its positive part).
+ */
+export function diffusedSimilarity(n: number, similarity: (i: number, j: number) => number, options: DiffusionOptions = DIFFUSION_DEFAULTS): (i: number, j: number) => number {
+  const graph = DiffusionGraph.build(n, similarity, options);
+  let row = -1;
+  let keys: Float64Array = new Float64Array(0);
+  const cosine = new Float64Array(n);
+  return (i, j) => {
+    if (i !== row) {
+      for (let m = 0; m < n; m++) cosine[m] = m === i ? 1 : similarity(i, m);
+      keys = rankingKeys(graph.scoresFrom(i), cosine, n);
+      row = i;
+    }
+    return keys[j];
+  };
+}

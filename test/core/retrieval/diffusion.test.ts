@@ -1,0 +1,125 @@
+import { describe, expect, it } from 'vitest';
+import { Matrix, inverse } from 'ml-matrix';
+import { DIFFUSION_DEFAULTS, DiffusionGraph, diffusedSimilarity, rankingKeys, validateDiffusion, type DiffusionOptions } from '../../../src/core/retrieval/diffusion';
+import { EmbeddingIndex } from '../../../src/core/retrieval/index';
+import { createRng } from '../../../src/core/rng';
+import { expectClose } from '../../helpers';
+
+function unitVectors(n: number, dim: number, seed: number): number[][] {
+  const rng = createRng(seed);
+  return Array.from({ length: n }, () => {
+    const v = Array.from({ length: dim }, () => rng.normal() + 0.8); // a shared offset keeps most cosines positive
+    const s = Math.hypot(...v);
+    return v.map((x) => x / s);
+  });
+}
+const dot = (a: number[], b: number[]) => a.reduce((s, x, i) => s + x * b[i], 0);
+
+/** W = (A + Aᵀ)/2 written out from the definition: A_ij = max(0, s_ij)^γ for the k most similar j ≠ i. */
+function referenceW(sim: number[][], k: number, gamma: number): number[][] {
+  const n = sim.length;
+  const A = sim.map((row, i) => {
+    const order = row.map((_, j) => j).filter((j) => j !== i).sort((a, b) => row[b] - row[a] || a - b).slice(0, k);
+    const out = new Array<number>(n).fill(0);
+    for (const j of order) out[j] = Math.max(0, row[j]) ** gamma;
+    return out;
+  });
+  return A.map((row, i) => row.map((a, j) => (a + A[j][i]) / 2));
+}
+
+/** The closed form of Zhou et al. 2004: f = (1 − α)(I − αS)⁻¹ y, S = D^−½ W D^−½, inverted by ml-matrix. */
+function closedForm(W: number[][], alpha: number, source: number): number[] {
+  const n = W.length;
+  const d = W.map((row) => row.reduce((a, b) => a + b, 0));
+  const S = new Matrix(W.map((row, i) => row.map((w, j) => w / Math.sqrt(d[i] * d[j]))));
+  const M = Matrix.eye(n).sub(S.mul(alpha));
+  return inverse(M).getColumn(source).map((v) => (1 - alpha) * v);
+}
+
+describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', () => {
+  const options: DiffusionOptions = { k: 5, alpha: 0.8, gamma: 3, iterations: 120 };
+  const V = unitVectors(30, 6, 1);
+  const sim = V.map((a) => V.map((b) => dot(a, b)));
+
+  it('builds W = (A + Aᵀ)/2 with A_ij = max(0, cos)^γ over each part’s k nearest', () => {
+    const graph = DiffusionGraph.build(V.length, (i, j) => sim[i][j], options);
+    const W = referenceW(sim, options.k, options.gamma);
+    for (let i = 0; i < V.length; i++) expectClose(W[i].map((_, j) => graph.weight(i, j)), W[i], { atol: 1e-12 });
+  });
+
+  it('converges to the closed form (1 − α)(I − αS)⁻¹ e_i, inverted by ml-matrix', () => {
+    const graph = DiffusionGraph.build(V.length, (i, j) => sim[i][j], options);
+    const W = referenceW(sim, options.k, options.gamma);
+    for (const source of [0, 7, 29]) expectClose(graph.scoresFrom(source), closedForm(W, options.alpha, source), { atol: 1e-9 });
+    // Fewer iterations stop short by at most α^t of the start (here the start is e_i with norm 1).
+    const short = DiffusionGraph.build(V.length, (i, j) => sim[i][j], { ...options, iterations: 10 }).scoresFrom(7);
+    const exact = closedForm(W, options.alpha, 7);
+    const gap = Math.hypot(...short.map((v, i) => v - exact[i]));
+    expect(gap).toBeGreaterThan(1e-6);
+    expect(gap).toBeLessThanOrEqual(0.8 ** 10 * 2);
+  });
+
+  it('a query from outside joins as one more node, linked as the rule says, and diffuses as the closed form', () => {
+    const graph = DiffusionGraph.build(V.length, (i, j) => sim[i][j], options);
+    const [q] = unitVectors(1, 6, 2);
+    const s = V.map((v) => dot(q, v));
+    const joined = graph.withQuery(s);
+    expect(joined.size).toBe(31);
+    // Reference: the library's A, plus A_qj for the query's k nearest, plus A_jq where q beats j's k-th neighbour.
+    const n = V.length;
+    const A: number[][] = Array.from({ length: n + 1 }, () => new Array<number>(n + 1).fill(0));
+    sim.forEach((row, i) => {
+      const order = row.map((_, j) => j).filter((j) => j !== i).sort((a, b) => row[b] - row[a] || a - b);
+      for (const j of order.slice(0, options.k)) A[i][j] = Math.max(0, row[j]) ** 3;
+      if (s[i] > row[order[options.k - 1]]) A[i][n] = Math.max(0, s[i]) ** 3;
+    });
+    for (const j of s.map((_, j) => j).sort((a, b) => s[b] - s[a] || a - b).slice(0, options.k)) A[n][j] = Math.max(0, s[j]) ** 3;
+    const W = A.map((row, i) => row.map((a, j) => (a + A[j][i]) / 2));
+    expect(W[n].filter((w) => w > 0).length).toBeGreaterThanOrEqual(options.k);
+    for (let i = 0; i <= n; i++) expectClose(W[i].map((_, j) => joined.weight(i, j)), W[i], { atol: 1e-12 });
+    expectClose(joined.scoresFrom(n), closedForm(W, options.alpha, n), { atol: 1e-9 });
+  });
+
+  it('ranks a chain of close neighbours above a part nearer in one step but in another group (worked example)', () => {
+    // Unit vectors in a plane: a chain at 0°, 8°, …, 64° and a tight group at −34°, −38°, −42°. From 0°, cosine
+    // puts −34° (cos 0.83) above 40° … 64° (cos 0.77 … 0.44); along the chain the diffusion reaches those first.
+    const deg = [0, 8, 16, 24, 32, 40, 48, 56, 64, -34, -38, -42];
+    const P = deg.map((d) => [Math.cos((d * Math.PI) / 180), Math.sin((d * Math.PI) / 180)]);
+    const s = P.map((a) => P.map((b) => dot(a, b)));
+    const graph = DiffusionGraph.build(P.length, (i, j) => s[i][j], { k: 2, alpha: 0.95, gamma: 3, iterations: 400 });
+    const keys = rankingKeys(graph.scoresFrom(0), s[0], P.length);
+    const order = [...keys.keys()].filter((j) => j !== 0).sort((a, b) => keys[b] - keys[a]);
+    const byCosine = [...s[0].keys()].filter((j) => j !== 0).sort((a, b) => s[0][b] - s[0][a]);
+    expect(byCosine.indexOf(9)).toBeLessThan(byCosine.indexOf(8)); // −34° before 64° by cosine
+    expect(order.slice(0, 8)).toEqual([1, 2, 3, 4, 5, 6, 7, 8]); // the whole chain first, in chain order
+    expect(order.slice(8)).toEqual([9, 10, 11]); // the other group, unreached, then in cosine order
+  });
+
+  it('refuses options outside their ranges, naming the option', () => {
+    expect(() => validateDiffusion({ ...options, alpha: 1 })).toThrow(/alpha must be in \(0, 1\)/);
+    expect(() => validateDiffusion({ ...options, k: 0 })).toThrow(/k must be a whole number/);
+    expect(() => DiffusionGraph.build(3, () => 0, options).scoresFrom(3)).toThrow(/no node 3/);
+    expect(() => DiffusionGraph.build(3, () => 0, options).withQuery([1, 2])).toThrow(/2 similarities for 3 parts/);
+  });
+
+  it('the index orders hits by diffusion and reports their cosine; leave-one-out keys come from the same graph', () => {
+    const flat = Float32Array.from(V.flat());
+    const index = new EmbeddingIndex(flat, 6, V.map((_, i) => ({ name: `p${i}`, label: 'x', diagonal: 1 })));
+    const graph = index.diffusionGraph();
+    expect(index.diffusionGraph()).toBe(graph); // built once
+    const fromPart = index.queryDiffused(index.vector(4), 29, { exclude: 4 });
+    const keys = rankingKeys(graph.scoresFrom(4), index.scores(index.vector(4)), V.length);
+    expect(fromPart.map((h) => h.index)).toEqual([...keys.keys()].filter((j) => j !== 4).sort((a, b) => keys[b] - keys[a] || a - b));
+    fromPart.forEach((h) => expectClose(h.score, dot(V[4], V[h.index]), { atol: 1e-6 }));
+    const loo = diffusedSimilarity(V.length, (i, j) => sim[i][j], DIFFUSION_DEFAULTS);
+    const viaLoo = [...Array(V.length).keys()].filter((j) => j !== 4).sort((a, b) => loo(4, b) - loo(4, a) || a - b);
+    expect(viaLoo).toEqual(fromPart.map((h) => h.index));
+    // A vector from outside the library ranks as its node in the joined graph.
+    const [q] = unitVectors(1, 6, 3);
+    const outside = index.queryDiffused(q, 5);
+    const cos = index.scores(q);
+    const joinedKeys = rankingKeys(graph.withQuery(cos).scoresFrom(V.length), cos, V.length);
+    expect(outside.map((h) => h.index)).toEqual([...joinedKeys.keys()].sort((a, b) => joinedKeys[b] - joinedKeys[a] || a - b).slice(0, 5));
+    expect(index.ranked('cosine', q, 5)).toEqual(index.query(q, 5));
+  });
+});
