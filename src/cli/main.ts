@@ -13,7 +13,9 @@ import { getWeights, Trainer, type TrainConfig } from '../core/model/train';
 import { AUGMENT_KINDS, pipelineFromJson, PRESETS, type AugmentKind, type Pipeline } from '../core/points/augment';
 import { duplicateGroups } from '../core/retrieval/duplicates';
 import { evaluateMethods, untrainedEncoder } from '../core/retrieval/evaluate';
+import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
 import { TensorIndex } from '../core/retrieval/tensor-index';
+import type { Ranking } from '../core/retrieval/index';
 import { cosineSimilarity } from '../core/retrieval/metrics';
 import { writeNpyFloat32 } from '../core/retrieval/npy';
 import { runStudy } from '../core/retrieval/study';
@@ -36,7 +38,8 @@ usage:
                  [--neighbours K]   (a first layer over each point's K nearest neighbours, EdgeConv; 0: off)
                  [--pose principal-axes|as-is]   (as-is: keep the files' own frame, for libraries modelled in one; augmentations default to file-pose)
   shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy>
-  shapekin query <mesh-file> --model <run-dir> --library <library-dir> [-k 10] [--size-ratio R] [--json]
+  shapekin query <mesh-file> --model <run-dir> --library <library-dir> [-k 10] [--size-ratio R] [--order diffusion|cosine] [--json]
+                 (diffusion: ranked through the library's neighbour graph; cosine: by similarity to the query alone)
   shapekin eval <library-dir> [--model <run-dir>] [--json]
   shapekin study <library-dir> --model <run-dir> [--augmentations a,b,…] [--strengths 0,0.5,1] [--json]
   shapekin duplicates <library-dir> --model <run-dir> [--threshold 0.97] [--json]
@@ -48,7 +51,7 @@ const OPTIONS = {
   out: { type: 'string' }, model: { type: 'string' }, library: { type: 'string' },
   epochs: { type: 'string' }, seed: { type: 'string' }, points: { type: 'string' }, augment: { type: 'string' },
   batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' }, 'class-prior': { type: 'string' },
-  k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, threshold: { type: 'string' },
+  k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, order: { type: 'string' }, threshold: { type: 'string' },
   json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
   backend: { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, neighbours: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
 } as const;
@@ -187,6 +190,8 @@ async function query(file: string, values: Values): Promise<void> {
   const lib = need(values, 'library', 'query');
   const k = num(values, 'k', 10);
   if (!existsSync(file)) throw new CliError(`query file not found: ${file}`, 2);
+  const ranking = (values.order ?? 'diffusion') as Ranking;
+  if (ranking !== 'diffusion' && ranking !== 'cosine') throw new CliError(`--order must be diffusion or cosine, got "${values.order}"`, 2);
   await withModel(values, 'query', (enc, ckpt) => {
     const bytes = readFileSync(file);
     let q: LibraryPart;
@@ -203,15 +208,16 @@ async function query(file: string, values: Values): Promise<void> {
     const index = new TensorIndex(vectors, D, library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal })));
     const qv = embedForRetrieval(enc, [{ points: q.points, normals: q.normals }], points, ckpt.manifest.config.pose);
     const ratio = values['size-ratio'] !== undefined ? num(values, 'size-ratio', 2, false) : undefined;
-    const hits = index.query(qv, k, ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal } : {});
+    const hits = index.ranked(ranking, qv, k, ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal } : {});
     index.dispose();
     const rows = hits.map((h, r) => {
       const p = library.parts[h.index];
       return { rank: r + 1, score: h.score, file: p.name, label: library.labels[h.index], extents: p.info.extents, size_ratio: p.diagonal / q.diagonal };
     });
-    if (values.json) { console.log(JSON.stringify({ query: file, query_extents: q.info.extents, results: rows, caution: CAUTION })); return; }
+    if (values.json) { console.log(JSON.stringify({ query: file, query_extents: q.info.extents, order: ranking, results: rows, caution: CAUTION })); return; }
     const fmt = (e: readonly number[]) => e.map((v) => v.toPrecision(4)).join(' × ');
     console.log(`query ${file}  (${fmt(q.info.extents)} file units)`);
+    console.log(ranking === 'diffusion' ? 'ordered through the library (diffusion over its neighbour graph); score: cosine similarity to the query' : 'ordered by cosine similarity to the query');
     console.log('rank  score   size×   folder            file');
     for (const r of rows) console.log(`${String(r.rank).padStart(4)}  ${r.score.toFixed(3)}  ${r.size_ratio.toFixed(2).padStart(5)}   ${r.label.padEnd(17)} ${r.file}  (${fmt(r.extents)})`);
     console.log(`\n${CAUTION}`);
@@ -226,13 +232,13 @@ async function evaluate(lib: string, values: Values): Promise<void> {
   reportFailures(library.failures, Boolean(values.json));
   const learned = ckpt ? encoderFromCheckpoint(ckpt) : undefined;
   const config = ckpt?.manifest.config ?? defaultTrainFor(library.parts.map((p) => p.info.closed));
-  const report = evaluateMethods({ parts: asModelParts(library.parts), labels: library.labels, points: config.points, pose: config.pose, ...(learned ? { learned } : {}), untrainedConfig: config.encoder, seed: config.seed });
+  const report = evaluateMethods({ parts: asModelParts(library.parts), labels: library.labels, points: config.points, pose: config.pose, ...(learned ? { learned } : {}), untrainedConfig: config.encoder, seed: config.seed, diffusion: DIFFUSION_DEFAULTS });
   learned?.dispose();
   if (values.json) { console.log(JSON.stringify(report)); return; }
-  console.log(`${report.parts} parts, ${report.labels} labels (leave-one-out)`);
-  console.log('method      NN     1st tier  2nd tier  DCG    mAP    P@5');
+  console.log(`${report.parts} parts, ${report.labels} labels (leave-one-out; "+diffusion": ranked by diffusion over the library's neighbour graph)`);
+  console.log('method              NN     1st tier  2nd tier  DCG    mAP    P@5');
   for (const [m, r] of Object.entries(report.methods)) {
-    console.log(`${m.padEnd(10)}  ${r.nn.toFixed(3)}  ${r.first_tier.toFixed(3)}     ${r.second_tier.toFixed(3)}     ${r.dcg.toFixed(3)}  ${r.map.toFixed(3)}  ${r.p_at_5.toFixed(3)}`);
+    console.log(`${m.padEnd(18)}  ${r.nn.toFixed(3)}  ${r.first_tier.toFixed(3)}     ${r.second_tier.toFixed(3)}     ${r.dcg.toFixed(3)}  ${r.map.toFixed(3)}  ${r.p_at_5.toFixed(3)}`);
   }
 }
 

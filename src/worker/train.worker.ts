@@ -11,6 +11,7 @@ import { embedForRetrieval } from '../core/model/embed';
 import { getWeights, Trainer } from '../core/model/train';
 import { REFERENCE_ENCODER, timeStep } from '../core/model/speed';
 import { evaluateMethods, untrainedEncoder } from '../core/retrieval/evaluate';
+import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
 import { runStudy } from '../core/retrieval/study';
 import type { CheckpointMessage, TrainReply, TrainRequest } from './protocol';
 
@@ -112,7 +113,7 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         const cfg = ckpt ? ckpt.manifest.config : req.config;
         const learned = ckpt ? encoderFromCheckpoint(ckpt) : undefined;
         try {
-          const report = evaluateMethods({ parts: req.parts, labels: req.labels, points: cfg.points, pose: cfg.pose, ...(learned ? { learned } : {}), untrainedConfig: cfg.encoder, seed: cfg.seed });
+          const report = evaluateMethods({ parts: req.parts, labels: req.labels, points: cfg.points, pose: cfg.pose, ...(learned ? { learned } : {}), untrainedConfig: cfg.encoder, seed: cfg.seed, diffusion: DIFFUSION_DEFAULTS });
           post({ type: 'evaluation', id: req.id, report });
         } finally {
           learned?.dispose();

@@ -77,7 +77,7 @@ describe('shapekin eval --json', () => {
     const r = JSON.parse(out.join('\n'));
     expect(r.parts).toBe(112);
     expect(r.labels).toBe(14);
-    expect(Object.keys(r.methods).sort()).toEqual(['d2', 'learned', 'untrained']);
+    expect(Object.keys(r.methods).sort()).toEqual(['d2', 'd2+diffusion', 'learned', 'learned+diffusion', 'untrained', 'untrained+diffusion']);
     for (const m of Object.values(r.methods) as Record<string, number>[]) {
       expect(Object.keys(m).sort()).toEqual(['dcg', 'first_tier', 'map', 'nn', 'p_at_5', 'second_tier']);
       for (const v of Object.values(m)) { expect(v).toBeGreaterThanOrEqual(0); expect(v).toBeLessThanOrEqual(1); }
@@ -87,7 +87,7 @@ describe('shapekin eval --json', () => {
   it('without --model leaves learned out', async () => {
     capture();
     expect(await main(['eval', DEMO, '--json'])).toBe(0);
-    expect(Object.keys(JSON.parse(out.join('\n')).methods).sort()).toEqual(['d2', 'untrained']);
+    expect(Object.keys(JSON.parse(out.join('\n')).methods).sort()).toEqual(['d2', 'd2+diffusion', 'untrained', 'untrained+diffusion']);
   }, 120_000);
 });
 
@@ -113,8 +113,15 @@ describe('shapekin embed, query, duplicates, study', () => {
     // Sampled afresh under another name, the file need not be its own first match, but its family leads.
     expect(r.results[0].label).toBe('washer');
     expect(r.results.map((x: { file: string }) => x.file)).toContain('washer/BC01-100A.stl');
-    for (let i = 1; i < 5; i++) expect(r.results[i].score).toBeLessThanOrEqual(r.results[i - 1].score);
+    expect(r.order).toBe('diffusion');
     expect(r.caution).toMatch(/qualified person/);
+    // By similarity alone the cosine scores fall rank by rank.
+    capture();
+    expect(await main(['query', file, '--model', run, '--library', DEMO, '-k', '5', '--order', 'cosine', '--json'])).toBe(0);
+    const c = JSON.parse(out.join('\n'));
+    expect(c.order).toBe('cosine');
+    for (let i = 1; i < 5; i++) expect(c.results[i].score).toBeLessThanOrEqual(c.results[i - 1].score);
+    expect(c.results[0].label).toBe('washer');
   }, 120_000);
   it('duplicates groups look-alikes above a threshold', async () => {
     capture();
@@ -145,6 +152,7 @@ describe('bad arguments and unreadable files: one clear line and a non-zero exit
     [['train', DEMO, '--out', 'x', '--pose', 'upright'], 2, /--pose must be principal-axes or as-is/],
     [['train', DEMO, '--out', 'x', '--loss', 'triplet-hard', '--class-prior', '0.1'], 2, /--class-prior applies only to --loss debiased-nt-xent/],
     [['query', 'missing.stl', '--model', 'x', '--library', DEMO], 2, /query file not found/],
+    [['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '--order', 'best'], 2, /--order must be diffusion or cosine, got "best"/],
     [['eval', DEMO, '--bogus'], 2, /Unknown option '--bogus'/],
   ] as const)('%j', async (args, code, message) => {
     capture();

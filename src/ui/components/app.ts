@@ -17,7 +17,7 @@ import { fetchDemoLibrary } from '../demo-library';
 import { namedFromDrop, namedFromInput, readFiles, type NamedFile } from '../files';
 import type { ImportStatus, TrainStatusView } from '../status';
 import type { CheckpointMessage, FileInput } from '../../worker/protocol';
-import type { SearchFilters } from './search-panel';
+import { DEFAULT_FILTERS, type SearchFilters } from './search-panel';
 import './library-panel';
 import './augment-panel';
 import './train-panel';
@@ -102,7 +102,7 @@ export class SkApp extends LitElement {
     this.index = null;
     this.hits = [];
     this.query = null;
-    this.filters = { k: 10, sizeRatio: null, family: '' };
+    this.filters = DEFAULT_FILTERS;
     this.embedding = false;
     this.notice = '';
     this.report = null;
@@ -314,7 +314,8 @@ export class SkApp extends LitElement {
     this.lastQueryVector = Array.from(vector);
     this.lastExclude = exclude;
     const f = this.filters;
-    this.hits = this.index.query(vector, f.k, {
+    // Diffusion sharpened trained embeddings and blurred untrained ones (docs/results.md): without a model, cosine.
+    this.hits = this.index.ranked(this.model ? f.ranking : 'cosine', vector, f.k, {
       exclude,
       ...(f.sizeRatio ? { sizeRatio: f.sizeRatio, queryDiagonal: this.query.diagonal } : {}),
       ...(f.family ? { labels: [f.family] } : {}),
@@ -457,7 +458,7 @@ export class SkApp extends LitElement {
           @train-continue=${() => this.model && this.startTraining(this.model.manifest.config, this.model)}
           @train-pause=${() => this.trainer.pause()} @train-resume=${() => this.trainer.resume()} @train-stop=${() => this.trainer.cancel()}></sk-train-panel>`;
       case 'search':
-        return html`<sk-search-panel .parts=${this.parts} .query=${this.query} .hits=${this.hits} .thumbnails=${this.thumbs} .filters=${this.filters} .families=${families} .busy=${this.embedding}
+        return html`<sk-search-panel .trained=${Boolean(this.model)} .parts=${this.parts} .query=${this.query} .hits=${this.hits} .thumbnails=${this.thumbs} .filters=${this.filters} .families=${families} .busy=${this.embedding}
           .source=${this.model ? `learned encoder, step ${this.model.manifest.step}` : 'untrained encoder (train one on the Training tab)'}
           @search-query=${(e: CustomEvent<string>) => { const p = this.parts.find((x) => x.name === e.detail); if (p) void this.runSearchFor(p); }}
           @search-file=${(e: CustomEvent<File>) => void this.queryFile(e.detail)}

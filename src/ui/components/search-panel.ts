@@ -5,6 +5,7 @@
 import { LitElement, css, html } from 'lit';
 import type { Object3D } from 'three';
 import type { LibraryPart } from '../../core/library';
+import type { Ranking } from '../../core/retrieval/index';
 import type { Hit } from '../../core/retrieval/topk';
 import { meshObject, pointsObject, PALETTE } from '../controllers/scene';
 import { CameraLink } from '../controllers/viewer';
@@ -14,12 +15,16 @@ export interface SearchFilters {
   readonly k: number;
   readonly sizeRatio: number | null;
   readonly family: string;
+  /** Order: diffusion over the library's neighbour graph, or plain cosine similarity. */
+  readonly ranking: Ranking;
 }
+
+export const DEFAULT_FILTERS: SearchFilters = { k: 10, sizeRatio: null, family: '', ranking: 'diffusion' };
 
 export class SkSearchPanel extends LitElement {
   static override properties = {
     parts: { attribute: false }, query: { attribute: false }, hits: { attribute: false }, thumbnails: { attribute: false },
-    filters: { attribute: false }, families: { attribute: false }, source: { type: String }, chosen: { state: true }, busy: { type: Boolean },
+    filters: { attribute: false }, families: { attribute: false }, source: { type: String }, chosen: { state: true }, busy: { type: Boolean }, trained: { type: Boolean },
   };
   declare parts: readonly LibraryPart[];
   declare query: LibraryPart | null;
@@ -30,6 +35,8 @@ export class SkSearchPanel extends LitElement {
   declare source: string;
   declare chosen: number;
   declare busy: boolean;
+  /** A trained model is in use: only then can results be ordered through the library. */
+  declare trained: boolean;
   private readonly link = new CameraLink();
   private objects: { query: Object3D | null; result: Object3D | null } = { query: null, result: null };
 
@@ -39,11 +46,12 @@ export class SkSearchPanel extends LitElement {
     this.query = null;
     this.hits = [];
     this.thumbnails = new Map();
-    this.filters = { k: 10, sizeRatio: null, family: '' };
+    this.filters = DEFAULT_FILTERS;
     this.families = [];
     this.source = '';
     this.chosen = 0;
     this.busy = false;
+    this.trained = false;
   }
 
   static override styles = css`
@@ -109,6 +117,10 @@ export class SkSearchPanel extends LitElement {
             <option value="">all folders</option>
             ${this.families.map((fam) => html`<option value=${fam} ?selected=${f.family === fam}>${fam}</option>`)}
           </select></label>
+        <label title="through the library: parts reached by chains of close neighbours come first (diffusion); or by similarity to the query alone">order
+          <select aria-label="Result order" ?disabled=${!this.trained} @change=${(e: Event) => this.emit('search-filters', { ...f, ranking: (e.target as HTMLSelectElement).value as Ranking })}>
+            ${([['diffusion', 'through the library'], ['cosine', 'by similarity alone']] as const).map(([v, t]) => html`<option value=${v} ?selected=${(this.trained ? f.ranking : 'cosine') === v}>${t}</option>`)}
+          </select></label>
         <span class="small">${this.busy ? 'embedding…' : this.source}</span>
       </div>
       ${q ? html`<div class="main">
@@ -119,7 +131,7 @@ export class SkSearchPanel extends LitElement {
             return html`<li><button aria-pressed=${i === this.chosen} @click=${() => (this.chosen = i)}>
               <span class="rank">${i + 1}</span>
               ${this.thumbnails.get(p.name) ? html`<img src=${this.thumbnails.get(p.name)} alt="" />` : html`<span></span>`}
-              <span><span class="score">${h.score.toFixed(3)}</span> <span class="small">${p.label}</span>
+              <span><span class="score" title="cosine similarity to the query">${h.score.toFixed(3)}</span> <span class="small">${p.label}</span>
                 <div class="bar-score" style="width:${Math.max(2, Math.round(Math.max(0, h.score) * 100))}%"></div>
                 <div class="small">${p.name.split('/').pop()}</div>
                 <div class="small">${p.info.extents.map((v) => v.toPrecision(3)).join(' × ')} · size ×${ratio.toFixed(2)}</div></span>
