@@ -10,6 +10,8 @@ import { getWeights, Trainer, type TrainConfig } from '../src/core/model/train';
 import { PRESETS } from '../src/core/points/augment';
 import { evaluateMethods } from '../src/core/retrieval/evaluate';
 import { DIFFUSION_DEFAULTS } from '../src/core/retrieval/diffusion';
+import { EmbeddingIndex } from '../src/core/retrieval/index';
+import { embedForRetrieval } from '../src/core/model/embed';
 import { loadLibrary } from '../src/cli/library-dir';
 import { loadRun, saveRun } from '../src/cli/run-dir';
 
@@ -52,6 +54,9 @@ const result = await trainer.run({ yieldEvery: 1000 });
 const seconds = (Date.now() - t0) / 1000;
 const points = embedPointsArg > 0 ? Number(process.argv[embedPointsArg + 1]) : config.points;
 const report = evaluateMethods({ parts, labels: library.labels, points, pose: config.pose, learned: trainer.encoder, untrainedConfig: config.encoder, seed: config.seed, diffusion: DIFFUSION_DEFAULTS });
+// How spread out the learned embedding is (diffusion applies below DIFFUSION_MAX_MEAN_COSINE; see EmbeddingIndex.diffusionApplies).
+const learnedVectors = embedForRetrieval(trainer.encoder, parts, points, config.pose);
+const meanPairCosine = new EmbeddingIndex(learnedVectors, learnedVectors.length / parts.length, parts.map(() => ({ name: '', label: '', diagonal: 1 }))).meanPairCosine();
 const saveArg = process.argv.indexOf('--save');
 if (saveArg > 0) await saveRun(process.argv[saveArg + 1], {
   manifest: { format: 'shapekin-encoder', version: 1, config, sampling: { points: POOL_POINTS, seed: 0 }, step: trainer.step, totalSteps: trainer.totalSteps, status: result.status, backend, history: trainer.history, checks: trainer.checks },
@@ -59,4 +64,4 @@ if (saveArg > 0) await saveRun(process.argv[saveArg + 1], {
 });
 trainer.dispose();
 const round = (m: Record<string, number>) => Object.fromEntries(Object.entries(m).map(([k, v]) => [k, Math.round(v * 1000) / 1000]));
-console.log(JSON.stringify({ overrides, inputs: config.encoder.inputFeatures, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}), retrieval: config.encoder.retrieval ?? 'pooled', learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!), diffused: { learned: round(report.methods['learned+diffusion']!), untrained: round(report.methods['untrained+diffusion']!), d2: round(report.methods['d2+diffusion']!) } }));
+console.log(JSON.stringify({ overrides, inputs: config.encoder.inputFeatures, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}), retrieval: config.encoder.retrieval ?? 'pooled', learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!), meanPairCosine: Math.round(meanPairCosine * 1000) / 1000, diffused: { learned: round(report.methods['learned+diffusion']!), untrained: round(report.methods['untrained+diffusion']!), d2: round(report.methods['d2+diffusion']!) } }));

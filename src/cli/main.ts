@@ -208,16 +208,18 @@ async function query(file: string, values: Values): Promise<void> {
     const index = new TensorIndex(vectors, D, library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal })));
     const qv = embedForRetrieval(enc, [{ points: q.points, normals: q.normals }], points, ckpt.manifest.config.pose);
     const ratio = values['size-ratio'] !== undefined ? num(values, 'size-ratio', 2, false) : undefined;
-    const hits = index.ranked(ranking, qv, k, ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal } : {});
+    const order: Ranking = ranking === 'diffusion' && !index.diffusionApplies() ? 'cosine' : ranking; // ranked() falls back the same way
+    const hits = index.ranked(order, qv, k, ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal } : {});
     index.dispose();
     const rows = hits.map((h, r) => {
       const p = library.parts[h.index];
       return { rank: r + 1, score: h.score, file: p.name, label: library.labels[h.index], extents: p.info.extents, size_ratio: p.diagonal / q.diagonal };
     });
-    if (values.json) { console.log(JSON.stringify({ query: file, query_extents: q.info.extents, order: ranking, results: rows, caution: CAUTION })); return; }
+    if (values.json) { console.log(JSON.stringify({ query: file, query_extents: q.info.extents, order, results: rows, caution: CAUTION })); return; }
     const fmt = (e: readonly number[]) => e.map((v) => v.toPrecision(4)).join(' × ');
     console.log(`query ${file}  (${fmt(q.info.extents)} file units)`);
-    console.log(ranking === 'diffusion' ? 'ordered through the library (diffusion over its neighbour graph); score: cosine similarity to the query' : 'ordered by cosine similarity to the query');
+    if (order !== ranking) console.log(`ordered by cosine similarity: this model's embedding is too concentrated (mean pair cosine ${index.meanPairCosine().toFixed(2)}) to order through the library`);
+    else console.log(order === 'diffusion' ? 'ordered through the library (diffusion over its neighbour graph); score: cosine similarity to the query' : 'ordered by cosine similarity to the query');
     console.log('rank  score   size×   folder            file');
     for (const r of rows) console.log(`${String(r.rank).padStart(4)}  ${r.score.toFixed(3)}  ${r.size_ratio.toFixed(2).padStart(5)}   ${r.label.padEnd(17)} ${r.file}  (${fmt(r.extents)})`);
     console.log(`\n${CAUTION}`);

@@ -87,19 +87,17 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.getByRole('tab', { name: 'Look-alikes' }).click();
     const results = page.getByTestId('search-results').locator('li button');
     await expect.poll(async () => results.count(), { timeout: 60_000 }).toBe(10);
-    // With a trained model the results are ordered through the library by default; by similarity alone the
-    // cosine scores fall rank by rank.
+    // The order defaults to "through the library"; a 9-step model's embedding is still too concentrated for it
+    // (mean pair cosine 0.37 in the same run from the command line), so the page says so and orders by cosine:
+    // the scores fall rank by rank.
     const order = page.locator('sk-search-panel select[aria-label="Result order"]');
     expect(await order.inputValue()).toBe('diffusion');
-    expect(await order.isEnabled()).toBe(true);
-    const diffused = await page.getByTestId('search-results').locator('.small').allTextContents();
-    await order.selectOption('cosine');
-    await expect.poll(async () => (await page.getByTestId('search-results').locator('.small').allTextContents()).join('|'), { timeout: 10_000 }).not.toBe('');
+    await page.getByTestId('order-note').waitFor({ timeout: 10_000 });
     const scores = (await page.getByTestId('search-results').locator('.score').allTextContents()).map(Number);
     expect(scores.length).toBe(10);
     for (let i = 1; i < scores.length; i++) expect(scores[i]).toBeLessThanOrEqual(scores[i - 1]);
-    expect(diffused.length).toBeGreaterThan(0);
-    await order.selectOption('diffusion');
+    await order.selectOption('cosine');
+    await expect.poll(async () => page.getByTestId('order-note').count(), { timeout: 10_000 }).toBe(0);
     expect(await page.getByText(/qualified person/).count()).toBeGreaterThan(0);
     await page.screenshot({ path: `${ARTIFACTS}/search.png` });
     // A new file, not in the library, as the query.

@@ -99,11 +99,38 @@ export class EmbeddingIndex {
     return hits.map((h) => ({ index: h.index, score: cosine[h.index] }));
   }
 
-  /** `query` or `queryDiffused`, by ranking. */
+  /**
+   * Mean cosine similarity over distinct pairs of parts, from the sum of the unit rows in one pass:
+   * Σ_{i≠j} x_i·x_j = ‖Σ_i x_i‖² − n.
+   */
+  meanPairCosine(): number {
+    const n = this.count;
+    if (n < 2) return 1;
+    const sum = new Float64Array(this.dim);
+    for (let i = 0; i < n; i++) for (let d = 0; d < this.dim; d++) sum[d] += this.vectors[i * this.dim + d];
+    let sq = 0;
+    for (let d = 0; d < this.dim; d++) sq += sum[d] * sum[d];
+    return (sq - n) / (n * (n - 1));
+  }
+
+  /**
+   * Whether diffusion can order this library: its edge weights max(0, cos)³ only tell neighbours apart when the
+   * embedding is spread out. On the demo and furniture libraries, models trained 60 steps or more measured a mean
+   * pair cosine of 0.00–0.05, where diffusion helped or changed little; a 9-step model measured 0.37 and untrained
+   * encoders 0.98–0.99, where it lowered NN and mAP (docs/results.md). The cut sits between.
+   */
+  diffusionApplies(): boolean {
+    return this.meanPairCosine() < DIFFUSION_MAX_MEAN_COSINE;
+  }
+
+  /** `query` or `queryDiffused`, by ranking; diffusion falls back to cosine where it does not apply. */
   ranked(ranking: Ranking, query: ArrayLike<number>, k: number, filter: QueryFilter = {}): Hit[] {
-    return ranking === 'diffusion' ? this.queryDiffused(query, k, filter) : this.query(query, k, filter);
+    return ranking === 'diffusion' && this.diffusionApplies() ? this.queryDiffused(query, k, filter) : this.query(query, k, filter);
   }
 }
+
+/** Above this mean pair cosine an embedding is too concentrated for diffusion (see `diffusionApplies`). */
+export const DIFFUSION_MAX_MEAN_COSINE = 0.2;
 
 /**
  * v[o .. o+D) · q with four independent accumulators (they let the JIT overlap the multiply-adds, ~3× a

@@ -314,8 +314,8 @@ export class SkApp extends LitElement {
     this.lastQueryVector = Array.from(vector);
     this.lastExclude = exclude;
     const f = this.filters;
-    // Diffusion sharpened trained embeddings and blurred untrained ones (docs/results.md): without a model, cosine.
-    this.hits = this.index.ranked(this.model ? f.ranking : 'cosine', vector, f.k, {
+    // ranked() orders by cosine instead where the embedding is too concentrated for diffusion (e.g. untrained).
+    this.hits = this.index.ranked(f.ranking, vector, f.k, {
       exclude,
       ...(f.sizeRatio ? { sizeRatio: f.sizeRatio, queryDiagonal: this.query.diagonal } : {}),
       ...(f.family ? { labels: [f.family] } : {}),
@@ -458,7 +458,7 @@ export class SkApp extends LitElement {
           @train-continue=${() => this.model && this.startTraining(this.model.manifest.config, this.model)}
           @train-pause=${() => this.trainer.pause()} @train-resume=${() => this.trainer.resume()} @train-stop=${() => this.trainer.cancel()}></sk-train-panel>`;
       case 'search':
-        return html`<sk-search-panel .trained=${Boolean(this.model)} .parts=${this.parts} .query=${this.query} .hits=${this.hits} .thumbnails=${this.thumbs} .filters=${this.filters} .families=${families} .busy=${this.embedding}
+        return html`<sk-search-panel .diffusionApplies=${this.index?.diffusionApplies() ?? true} .parts=${this.parts} .query=${this.query} .hits=${this.hits} .thumbnails=${this.thumbs} .filters=${this.filters} .families=${families} .busy=${this.embedding}
           .source=${this.model ? `learned encoder, step ${this.model.manifest.step}` : 'untrained encoder (train one on the Training tab)'}
           @search-query=${(e: CustomEvent<string>) => { const p = this.parts.find((x) => x.name === e.detail); if (p) void this.runSearchFor(p); }}
           @search-file=${(e: CustomEvent<File>) => void this.queryFile(e.detail)}

@@ -24,7 +24,7 @@ export const DEFAULT_FILTERS: SearchFilters = { k: 10, sizeRatio: null, family: 
 export class SkSearchPanel extends LitElement {
   static override properties = {
     parts: { attribute: false }, query: { attribute: false }, hits: { attribute: false }, thumbnails: { attribute: false },
-    filters: { attribute: false }, families: { attribute: false }, source: { type: String }, chosen: { state: true }, busy: { type: Boolean }, trained: { type: Boolean },
+    filters: { attribute: false }, families: { attribute: false }, source: { type: String }, chosen: { state: true }, busy: { type: Boolean }, diffusionApplies: { type: Boolean },
   };
   declare parts: readonly LibraryPart[];
   declare query: LibraryPart | null;
@@ -35,8 +35,8 @@ export class SkSearchPanel extends LitElement {
   declare source: string;
   declare chosen: number;
   declare busy: boolean;
-  /** A trained model is in use: only then can results be ordered through the library. */
-  declare trained: boolean;
+  /** The embedding is spread out enough to order results through the library (else they follow cosine). */
+  declare diffusionApplies: boolean;
   private readonly link = new CameraLink();
   private objects: { query: Object3D | null; result: Object3D | null } = { query: null, result: null };
 
@@ -51,7 +51,7 @@ export class SkSearchPanel extends LitElement {
     this.source = '';
     this.chosen = 0;
     this.busy = false;
-    this.trained = false;
+    this.diffusionApplies = true;
   }
 
   static override styles = css`
@@ -118,9 +118,10 @@ export class SkSearchPanel extends LitElement {
             ${this.families.map((fam) => html`<option value=${fam} ?selected=${f.family === fam}>${fam}</option>`)}
           </select></label>
         <label title="through the library: parts reached by chains of close neighbours come first (diffusion); or by similarity to the query alone">order
-          <select aria-label="Result order" ?disabled=${!this.trained} @change=${(e: Event) => this.emit('search-filters', { ...f, ranking: (e.target as HTMLSelectElement).value as Ranking })}>
-            ${([['diffusion', 'through the library'], ['cosine', 'by similarity alone']] as const).map(([v, t]) => html`<option value=${v} ?selected=${(this.trained ? f.ranking : 'cosine') === v}>${t}</option>`)}
+          <select aria-label="Result order" @change=${(e: Event) => this.emit('search-filters', { ...f, ranking: (e.target as HTMLSelectElement).value as Ranking })}>
+            ${([['diffusion', 'through the library'], ['cosine', 'by similarity alone']] as const).map(([v, t]) => html`<option value=${v} ?selected=${f.ranking === v}>${t}</option>`)}
           </select></label>
+        ${f.ranking === 'diffusion' && !this.diffusionApplies ? html`<span class="small" data-testid="order-note">ordered by similarity: this embedding is too concentrated to order through the library (train a model)</span>` : null}
         <span class="small">${this.busy ? 'embedding…' : this.source}</span>
       </div>
       ${q ? html`<div class="main">

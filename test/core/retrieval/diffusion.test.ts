@@ -123,3 +123,22 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
     expect(index.ranked('cosine', q, 5)).toEqual(index.query(q, 5));
   });
 });
+
+describe('when diffusion applies', () => {
+  it('mean pair cosine from the row sum equals the mean over all pairs, and a concentrated embedding falls back to cosine', () => {
+    const rng = createRng(7);
+    const spread = Array.from({ length: 20 }, () => Array.from({ length: 5 }, () => rng.normal())); // mean cosine near 0
+    const concentrated = unitVectors(20, 5, 8).map((v) => v.map((x, d) => (d === 0 ? x + 20 : x)));
+    for (const [set, applies] of [[spread, true], [concentrated, false]] as const) {
+      const index = new EmbeddingIndex(Float32Array.from(set.flat()), 5, set.map((_, i) => ({ name: `p${i}`, label: 'x', diagonal: 1 })));
+      const unit = set.map((v) => { const s = Math.hypot(...v); return v.map((x) => x / s); });
+      let sum = 0, pairs = 0;
+      for (let i = 0; i < unit.length; i++) for (let j = 0; j < unit.length; j++) if (i !== j) { sum += dot(unit[i], unit[j]); pairs++; }
+      expectClose(index.meanPairCosine(), sum / pairs, { atol: 1e-6 });
+      expect(index.diffusionApplies()).toBe(applies);
+      const q = index.vector(3);
+      const want = applies ? index.queryDiffused(q, 5, { exclude: 3 }) : index.query(q, 5, { exclude: 3 });
+      expect(index.ranked('diffusion', q, 5, { exclude: 3 })).toEqual(want);
+    }
+  });
+});
