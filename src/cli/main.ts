@@ -215,7 +215,7 @@ async function query(file: string, values: Values): Promise<void> {
       const p = library.parts[h.index];
       return { rank: r + 1, score: h.score, file: p.name, label: library.labels[h.index], extents: p.info.extents, size_ratio: p.diagonal / q.diagonal };
     });
-    if (values.json) { console.log(JSON.stringify({ query: file, query_extents: q.info.extents, order, results: rows, caution: CAUTION })); return; }
+    if (values.json) { console.log(JSON.stringify({ query: file, query_extents: q.info.extents, order, mean_pair_cosine: index.meanPairCosine(), results: rows, caution: CAUTION })); return; }
     const fmt = (e: readonly number[]) => e.map((v) => v.toPrecision(4)).join(' × ');
     console.log(`query ${file}  (${fmt(q.info.extents)} file units)`);
     if (order !== ranking) console.log(`ordered by cosine similarity: this model's embedding is too concentrated (mean pair cosine ${index.meanPairCosine().toFixed(2)}) to order through the library`);

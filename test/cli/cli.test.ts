@@ -2,6 +2,7 @@
 
 import { existsSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { CylinderGeometry, PlaneGeometry } from 'three';
+import { DIFFUSION_MAX_MEAN_COSINE } from '../../src/core/retrieval/index';
 import { writeObj } from '../../src/core/mesh/write';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -113,7 +114,8 @@ describe('shapekin embed, query, duplicates, study', () => {
     // Sampled afresh under another name, the file need not be its own first match, but its family leads.
     expect(r.results[0].label).toBe('washer');
     expect(r.results.map((x: { file: string }) => x.file)).toContain('washer/BC01-100A.stl');
-    expect(r.order).toBe('diffusion');
+    // Ordered through the library unless the model's embedding is too concentrated (this short run's may be).
+    expect(r.order).toBe(r.mean_pair_cosine < DIFFUSION_MAX_MEAN_COSINE ? 'diffusion' : 'cosine');
     expect(r.caution).toMatch(/qualified person/);
     // By similarity alone the cosine scores fall rank by rank.
     capture();
