@@ -62,7 +62,7 @@ export const EDGE_WIDTH = 64;
 /**
  * The default encoder: an EdgeConv layer over 16 neighbours (width 64), then the reference widths 64-128-256,
  * max pooling and head 256-128, on points and normals (inputs are then chosen per library). The neighbour layer
- * costs about three times the step and lifted furniture retrieval in every seed (docs/results.md).
+ * costs about twice the plain step and lifted furniture retrieval in every seed (docs/results.md).
  */
 export const DEFAULT_ENCODER: EncoderConfig = { inputFeatures: 'xyz+normal', edge: { k: 16, width: EDGE_WIDTH }, widths: [64, 128, 256], pooling: 'max', projection: [256, 128], retrieval: 'projection' };
 
