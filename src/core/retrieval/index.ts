@@ -78,8 +78,13 @@ export class EmbeddingIndex {
   /** The library's neighbour graph, built on first use (n score scans) and kept. */
   diffusionGraph(options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
     if (!this.graph || this.graph.options !== options) {
-      const rows = Array.from({ length: this.count }, (_, i) => this.scores(this.vector(i)));
-      this.graph = DiffusionGraph.build(this.count, (i, j) => rows[i][j], options);
+      // build() asks row by row, so one row of scores is kept at a time (not n² of them).
+      let row = -1;
+      const scores = new Float32Array(this.count);
+      this.graph = DiffusionGraph.build(this.count, (i, j) => {
+        if (i !== row) { this.scores(this.vector(i), scores); row = i; }
+        return scores[j];
+      }, options);
     }
     return this.graph;
   }
@@ -103,7 +108,13 @@ export class EmbeddingIndex {
    * Mean cosine similarity over distinct pairs of parts, from the sum of the unit rows in one pass:
    * Σ_{i≠j} x_i·x_j = ‖Σ_i x_i‖² − n.
    */
+  private meanCosine: number | null = null;
+
   meanPairCosine(): number {
+    return (this.meanCosine ??= this.computeMeanPairCosine());
+  }
+
+  private computeMeanPairCosine(): number {
     const n = this.count;
     if (n < 2) return 1;
     const sum = new Float64Array(this.dim);
