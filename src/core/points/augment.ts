@@ -3,13 +3,13 @@
 // pairs are two independent passes, as SimCLR (Chen et al. 2020) trains on.
 
 import type { Rng } from '../rng';
-import { assertValidCloud, makeCloud, type PointCloud } from './cloud';
+import { assertValidCloud, centroid, makeCloud, type PointCloud } from './cloud';
 import { PointIndex } from './kdtree';
 import { axisAngle, quaternionToMatrix, transformPoints, type Mat3 } from './rotation';
 import { SIGN_FLIPS } from './pca';
 
 export const AUGMENT_KINDS = [
-  'rotate-up', 'rotate-any', 'flip-axes', 'scale', 'translate', 'jitter', 'dropout', 'occlude', 'partial-view', 'mirror',
+  'rotate-up', 'rotate-any', 'flip-axes', 'scale', 'translate', 'jitter', 'dropout', 'occlude', 'partial-view', 'mirror', 'local-warp',
 ] as const;
 export type AugmentKind = (typeof AUGMENT_KINDS)[number];
 
@@ -41,6 +41,7 @@ export const STRENGTH_RANGES: Record<AugmentKind, string> = {
   'partial-view': 'keeps points whose normal n satisfies n·d ≥ s − 1 for a random view direction d (s = 1: the visible half)',
   mirror: 'reflects across a random coordinate plane through the centre, with probability scaled by s',
   'flip-axes': 'turns by 180° about a random coordinate axis (the sign ambiguity of a principal-axes pose), with probability scaled by s',
+  'local-warp': 'PointWOLF (Kim et al. 2021): 4 farthest-point anchors, each with its own turn (±20°·s per axis), stretch (per axis in [1, 1 + 4s]) and shift (±0.5·s), blended by Gaussian weights (σ 0.5) on distances over a random subset of axes; then back into the unit sphere (s = 0.5 is the paper\'s setting)',
 };
 
 const AXIS: Record<UpAxis, [number, number, number]> = { x: [1, 0, 0], y: [0, 1, 0], z: [0, 0, 1] };
@@ -235,6 +236,9 @@ function applyStep(w: Work, s: AugmentStep, upAxis: UpAxis, rng: Rng): void {
       refill(w, keep, rng, 'partial-view');
       return;
     }
+    case 'local-warp':
+      localWarp(w, k, rng);
+      return;
     case 'flip-axes': {
       if (rng.next() >= k) return;
       rotate(w, SIGN_FLIPS[1 + rng.int(3)]);
@@ -248,6 +252,102 @@ function applyStep(w: Work, s: AugmentStep, upAxis: UpAxis, rng: Rng): void {
       return;
     }
   }
+}
+
+const WARP_ANCHORS = 4;
+/** Bandwidth of the Gaussian kernel that blends the local transforms (unit-sphere units; the paper's 0.5). */
+export const WARP_SIGMA = 0.5;
+
+/** One local transform of a warp: p ↦ linear·(p − centre) + centre + shift near its anchor. */
+export interface LocalTransform {
+  readonly centre: readonly [number, number, number];
+  readonly linear: Mat3;
+  readonly shift: readonly [number, number, number];
+}
+
+/**
+ * Points (and normals) moved by the Nadaraya–Watson blend of local transforms (PointWOLF; Kim, Lee, Hwang &
+ * Kim 2021, "Point Cloud Augmentation with Weighted Local Transformations"): p' = Σ_j w_j T_j(p) / Σ_j w_j with
+ * w_j = exp(−d_j² / 2σ²), d_j the distance to anchor j over the axes set in `axes` (bit 0 x, 1 y, 2 z). Normals
+ * follow the blended linear part L = Σ_j w_j·linear_j / Σ_j w_j as n' ∝ (Lᵀ)⁻¹n = cof(L)·n (the weights' own
+ * gradient is ignored). In place; returns nothing.
+ */
+export function blendLocalTransforms(p: Float32Array, n: Float32Array | null, transforms: readonly LocalTransform[], axes: number, sigma = WARP_SIGMA): void {
+  const M = transforms.length;
+  const weight = new Float64Array(M);
+  const blended = new Float64Array(9);
+  for (let i = 0; i < p.length / 3; i++) {
+    const x = p[i * 3], y = p[i * 3 + 1], z = p[i * 3 + 2];
+    let total = 0;
+    for (let j = 0; j < M; j++) {
+      const [cx, cy, cz] = transforms[j].centre;
+      const d2 = (axes & 1 ? (x - cx) ** 2 : 0) + (axes & 2 ? (y - cy) ** 2 : 0) + (axes & 4 ? (z - cz) ** 2 : 0);
+      weight[j] = Math.exp(-d2 / (2 * sigma * sigma)) + 1e-12; // never all zero far from every anchor
+      total += weight[j];
+    }
+    let ox = 0, oy = 0, oz = 0;
+    blended.fill(0);
+    for (let j = 0; j < M; j++) {
+      const a = weight[j] / total, { linear: m, centre: [cx, cy, cz], shift: t } = transforms[j];
+      const u = x - cx, v = y - cy, q = z - cz;
+      ox += a * (m[0] * u + m[1] * v + m[2] * q + cx + t[0]);
+      oy += a * (m[3] * u + m[4] * v + m[5] * q + cy + t[1]);
+      oz += a * (m[6] * u + m[7] * v + m[8] * q + cz + t[2]);
+      for (let e = 0; e < 9; e++) blended[e] += a * m[e];
+    }
+    p[i * 3] = ox; p[i * 3 + 1] = oy; p[i * 3 + 2] = oz;
+    if (!n) continue;
+    const m = blended, nx = n[i * 3], ny = n[i * 3 + 1], nz = n[i * 3 + 2];
+    // Rows of the cofactor matrix of L times n.
+    const ax = (m[4] * m[8] - m[5] * m[7]) * nx + (m[5] * m[6] - m[3] * m[8]) * ny + (m[3] * m[7] - m[4] * m[6]) * nz;
+    const ay = (m[2] * m[7] - m[1] * m[8]) * nx + (m[0] * m[8] - m[2] * m[6]) * ny + (m[1] * m[6] - m[0] * m[7]) * nz;
+    const az = (m[1] * m[5] - m[2] * m[4]) * nx + (m[2] * m[3] - m[0] * m[5]) * ny + (m[0] * m[4] - m[1] * m[3]) * nz;
+    const len = Math.hypot(ax, ay, az) || 1;
+    n[i * 3] = ax / len; n[i * 3 + 1] = ay / len; n[i * 3 + 2] = az / len;
+  }
+}
+
+/**
+ * PointWOLF's random draw at strength s: anchors by farthest-point sampling from a random start, each with a turn
+ * of up to ±20°·s about every axis, a stretch per axis in [1, 1 + 4s] and a shift per axis in ±0.5·s (s = 0.5
+ * gives the paper's ±10°, [1, 3] and ±0.25), distances over a random non-empty subset of the axes; then the view
+ * goes back into the unit sphere about its centroid.
+ */
+function localWarp(w: Work, s: number, rng: Rng): void {
+  if (s <= 0) return;
+  const N = w.p.length / 3;
+  const p = w.p;
+  const anchors: number[] = [rng.int(N)];
+  const nearest = new Float64Array(N).fill(Infinity);
+  while (anchors.length < Math.min(WARP_ANCHORS, N)) {
+    const a = anchors[anchors.length - 1];
+    let best = -1, bestI = 0;
+    for (let i = 0; i < N; i++) {
+      const d = (p[i * 3] - p[a * 3]) ** 2 + (p[i * 3 + 1] - p[a * 3 + 1]) ** 2 + (p[i * 3 + 2] - p[a * 3 + 2]) ** 2;
+      if (d < nearest[i]) nearest[i] = d;
+      if (nearest[i] > best) { best = nearest[i]; bestI = i; }
+    }
+    anchors.push(bestI);
+  }
+  const maxAngle = ((20 * Math.PI) / 180) * s;
+  const transforms: LocalTransform[] = anchors.map((a) => {
+    const turn = mul3(axisAngle([0, 0, 1], rng.uniform(-maxAngle, maxAngle)), mul3(axisAngle([0, 1, 0], rng.uniform(-maxAngle, maxAngle)), axisAngle([1, 0, 0], rng.uniform(-maxAngle, maxAngle))));
+    const stretch = [0, 1, 2].map(() => rng.uniform(1, 1 + 4 * s));
+    const linear = turn.map((v, e) => v * stretch[e % 3]) as Mat3; // turn · diag(stretch)
+    return { centre: [p[a * 3], p[a * 3 + 1], p[a * 3 + 2]], linear, shift: [rng.uniform(-0.5, 0.5) * s, rng.uniform(-0.5, 0.5) * s, rng.uniform(-0.5, 0.5) * s] };
+  });
+  blendLocalTransforms(p, w.n, transforms, 1 + rng.int(7));
+  const [mx, my, mz] = centroid(makeCloud(p));
+  let r2 = 0;
+  for (let i = 0; i < N; i++) r2 = Math.max(r2, (p[i * 3] - mx) ** 2 + (p[i * 3 + 1] - my) ** 2 + (p[i * 3 + 2] - mz) ** 2);
+  const inv = 1 / (Math.sqrt(r2) || 1);
+  for (let i = 0; i < N; i++) { p[i * 3] = (p[i * 3] - mx) * inv; p[i * 3 + 1] = (p[i * 3 + 1] - my) * inv; p[i * 3 + 2] = (p[i * 3 + 2] - mz) * inv; }
+}
+
+function mul3(a: Mat3, b: Mat3): Mat3 {
+  const out = new Float64Array(9);
+  for (let r = 0; r < 3; r++) for (let c = 0; c < 3; c++) out[r * 3 + c] = a[r * 3] * b[c] + a[r * 3 + 1] * b[3 + c] + a[r * 3 + 2] * b[6 + c];
+  return out;
 }
 
 /** One augmented view. The input is not modified. */

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { makeCloud, type PointCloud } from '../../../src/core/points/cloud';
-import { augment, pipelineFromJson, pipelineToJson, PRESETS, viewPair, type Pipeline } from '../../../src/core/points/augment';
+import { augment, blendLocalTransforms, pipelineFromJson, pipelineToJson, PRESETS, viewPair, WARP_SIGMA, type LocalTransform, type Pipeline } from '../../../src/core/points/augment';
 import { cloudDistances } from '../../../src/core/points/distance';
 import { PointIndex } from '../../../src/core/points/kdtree';
 import { axisAngle, randomRotation, rotationAngle, type Mat3 } from '../../../src/core/points/rotation';
@@ -163,10 +163,75 @@ describe('dropout, occlusion and partial view keep N points', () => {
   });
   it('strength 0 leaves a cloud unchanged for every step kind', () => {
     const cloud = sphereCloud(200, 19);
-    for (const kind of ['rotate-up', 'rotate-any', 'scale', 'translate', 'jitter', 'dropout', 'occlude', 'partial-view', 'mirror'] as const) {
+    for (const kind of ['rotate-up', 'rotate-any', 'scale', 'translate', 'jitter', 'dropout', 'occlude', 'partial-view', 'mirror', 'local-warp'] as const) {
       const out = augment(cloud, only(kind, 0), createRng(20));
       expectClose(out.positions, cloud.positions, { atol: 1e-6 });
     }
+  });
+});
+
+describe('local warp (PointWOLF: Kim, Lee, Hwang & Kim 2021, weighted local transformations)', () => {
+  const identity = (): Mat3 => Float64Array.from([1, 0, 0, 0, 1, 0, 0, 0, 1]);
+  it('local transforms that are one affine map blend to that map exactly (the Nadaraya–Watson weights sum to 1)', () => {
+    // T_j(p) = L(p − c_j) + c_j + t_j equals L·p + t0 for every anchor when t_j = t0 + L·c_j − c_j.
+    const L = Float64Array.from([1.3, 0.2, 0, -0.1, 0.9, 0.3, 0, 0.4, 1.1]);
+    const t0 = [0.05, -0.1, 0.2];
+    const transforms: LocalTransform[] = [[0.5, 0, 0], [-0.4, 0.3, 0.1], [0, -0.6, 0.5]].map((c) => {
+      const Lc = [0, 1, 2].map((r) => L[r * 3] * c[0] + L[r * 3 + 1] * c[1] + L[r * 3 + 2] * c[2]);
+      return { centre: c as [number, number, number], linear: L, shift: [0, 1, 2].map((r) => t0[r] + Lc[r] - c[r]) as [number, number, number] };
+    });
+    const cloud = randomCloud(50, 31);
+    const p = cloud.positions.slice();
+    blendLocalTransforms(p, null, transforms, 7);
+    const expected = Array.from({ length: 150 }, (_, e) => {
+      const i = Math.floor(e / 3), r = e % 3, q = cloud.positions;
+      return L[r * 3] * q[i * 3] + L[r * 3 + 1] * q[i * 3 + 1] + L[r * 3 + 2] * q[i * 3 + 2] + t0[r];
+    });
+    expectClose(p, expected, { atol: 1e-5 });
+  });
+  it('hand-worked: two anchors at x = ±0.5 shifting by (0.1, 0, 0) and (0, 0.2, 0), σ = 0.5', () => {
+    expect(WARP_SIGMA).toBe(0.5); // the paper's bandwidth
+    const transforms: LocalTransform[] = [
+      { centre: [0.5, 0, 0], linear: identity(), shift: [0.1, 0, 0] },
+      { centre: [-0.5, 0, 0], linear: identity(), shift: [0, 0.2, 0] },
+    ];
+    // Midway the weights are equal: the mean of the two moves. At an anchor the other's weight is
+    // exp(−1² / (2·0.5²)) = e⁻² = 0.135335 against 1: a share of 0.135335 / 1.135335 = 0.119203.
+    const p = Float32Array.from([0, 0, 0, 0.5, 0, 0]);
+    blendLocalTransforms(p, null, transforms, 7);
+    expectClose(p, [0.05, 0.1, 0, 0.5 + 0.1 * (1 - 0.119203), 0.2 * 0.119203, 0], { atol: 1e-6 });
+    // With distances over y alone both anchors are at distance 0 from every point on the x axis: equal weights.
+    const q = Float32Array.from([0.5, 0, 0]);
+    blendLocalTransforms(q, null, transforms, 2);
+    expectClose(q, [0.55, 0.1, 0], { atol: 1e-6 });
+  });
+  it('normals stay normal to the surface: (Au) × (Av) is parallel to cof(A)(u × v) for tangents u, v', () => {
+    const A = Float64Array.from([1.8, 0.3, -0.2, 0.1, 0.7, 0.4, -0.3, 0.2, 2.5]);
+    const rng = createRng(33);
+    for (let t = 0; t < 20; t++) {
+      const n = [rng.normal(), rng.normal(), rng.normal()];
+      const len = Math.hypot(n[0], n[1], n[2]);
+      const unit = n.map((v) => v / len);
+      // Two tangents orthogonal to the normal, mapped by A; their cross product is the mapped surface's normal.
+      const helper = Math.abs(unit[0]) < 0.9 ? [1, 0, 0] : [0, 1, 0];
+      const cross = (a: number[], b: number[]) => [a[1] * b[2] - a[2] * b[1], a[2] * b[0] - a[0] * b[2], a[0] * b[1] - a[1] * b[0]];
+      const u = cross(unit, helper), v = cross(unit, u);
+      const map = (w: number[]) => [0, 1, 2].map((r) => A[r * 3] * w[0] + A[r * 3 + 1] * w[1] + A[r * 3 + 2] * w[2]);
+      const want = cross(map(u), map(v));
+      const wl = Math.hypot(want[0], want[1], want[2]);
+      const normals = Float32Array.from(unit);
+      blendLocalTransforms(Float32Array.from([0.1, 0.2, 0.3]), normals, [{ centre: [0, 0, 0], linear: A, shift: [0, 0, 0] }], 7);
+      expectClose(normals, want.map((w) => w / wl), { atol: 1e-5 });
+    }
+  });
+  it('at full strength the view is deformed, then back in the unit sphere about its centroid', () => {
+    const cloud = sphereCloud(500, 34);
+    const out = augment(cloud, only('local-warp', 1), createRng(35));
+    let mx = 0, my = 0, mz = 0, r = 0;
+    for (let i = 0; i < 500; i++) { mx += out.positions[i * 3] / 500; my += out.positions[i * 3 + 1] / 500; mz += out.positions[i * 3 + 2] / 500; }
+    for (let i = 0; i < 500; i++) r = Math.max(r, Math.hypot(out.positions[i * 3] - mx, out.positions[i * 3 + 1] - my, out.positions[i * 3 + 2] - mz));
+    expectClose([mx, my, mz, r], [0, 0, 0, 1], { atol: 1e-5 });
+    expect(cloudDistances(out, cloud).chamfer).toBeGreaterThan(1e-3);
   });
 });
 
