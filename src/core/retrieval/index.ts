@@ -90,8 +90,8 @@ export class EmbeddingIndex {
   }
 
   /**
-   * The k best parts ordered by diffusion from the query (see diffusion.ts); each hit's score is still its
-   * cosine similarity. A library part queries from its own node (pass it as `filter.exclude`); any other
+   * The k best parts ordered by diffusion from the query, the most similar part first (see `rankingKeys`); each
+   * hit's score is still its cosine similarity. A library part queries from its own node (pass it as `filter.exclude`); any other
    * vector first joins the graph as one more node.
    */
   queryDiffused(query: ArrayLike<number>, k: number, filter: QueryFilter = {}, options: DiffusionOptions = DIFFUSION_DEFAULTS): Hit[] {
@@ -100,7 +100,8 @@ export class EmbeddingIndex {
     const graph = this.diffusionGraph(options);
     const inLibrary = filter.exclude !== undefined && filter.exclude >= 0 && filter.exclude < this.count;
     const f = inLibrary ? graph.scoresFrom(filter.exclude!) : graph.withQuery(cosine).scoresFrom(this.count);
-    const hits = topK(rankingKeys(f, cosine, this.count), Math.min(k, this.count), this.filterOf(filter));
+    const accept = this.filterOf(filter);
+    const hits = topK(rankingKeys(f, cosine, this.count, accept), Math.min(k, this.count), accept);
     return hits.map((h) => ({ index: h.index, score: cosine[h.index] }));
   }
 

@@ -95,6 +95,27 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
     expect(order.slice(8)).toEqual([9, 10, 11]); // the other group, unreached, then in cosine order
   });
 
+  it('keeps the most similar part first: a twin at −4° beside a family at 6° … 14° (worked example)', () => {
+    // From 0°, the twin at −4° is nearest by cosine, but the family's many links carry the diffusion to 6° and 8°
+    // first. Nearest first puts the twin on top and leaves the rest in diffusion order.
+    const deg = [0, -4, 6, 8, 10, 12, 14];
+    const P = deg.map((d) => [Math.cos((d * Math.PI) / 180), Math.sin((d * Math.PI) / 180)]);
+    const s = P.map((a) => P.map((b) => dot(a, b)));
+    const f = DiffusionGraph.build(P.length, (i, j) => s[i][j], { k: 3, alpha: 0.9, gamma: 3, iterations: 400 }).scoresFrom(0);
+    const byDiffusion = [1, 2, 3, 4, 5, 6].sort((a, b) => f[b] - f[a]);
+    expect(byDiffusion).toEqual([2, 3, 1, 4, 5, 6]); // the twin third by diffusion alone
+    const keys = rankingKeys(f, s[0], P.length, (j) => j !== 0);
+    expect([1, 2, 3, 4, 5, 6].sort((a, b) => keys[b] - keys[a])).toEqual([1, 2, 3, 4, 5, 6]);
+    // The same through the index, and in leave-one-out scoring.
+    const index = new EmbeddingIndex(Float32Array.from(P.flat()), 2, P.map((_, i) => ({ name: `p${i}`, label: i === 1 ? 'twin' : 'family', diagonal: 1 })));
+    expect(index.queryDiffused(index.vector(0), 6, { exclude: 0 }, { k: 3, alpha: 0.9, gamma: 3, iterations: 400 }).map((h) => h.index)).toEqual([1, 2, 3, 4, 5, 6]);
+    const loo = diffusedSimilarity(P.length, (i, j) => s[i][j], { k: 3, alpha: 0.9, gamma: 3, iterations: 400 });
+    expect([1, 2, 3, 4, 5, 6].sort((a, b) => loo(0, b) - loo(0, a))).toEqual([1, 2, 3, 4, 5, 6]);
+    // A filter that leaves the twin out lifts the nearest part it keeps instead (6°, also diffusion's first).
+    const kept = index.queryDiffused(index.vector(0), 5, { exclude: 0, labels: ['family'] }, { k: 3, alpha: 0.9, gamma: 3, iterations: 400 });
+    expect(kept.map((h) => h.index)).toEqual([2, 3, 4, 5, 6]);
+  });
+
   it('refuses options outside their ranges, naming the option', () => {
     expect(() => validateDiffusion({ ...options, alpha: 1 })).toThrow(/alpha must be in \(0, 1\)/);
     expect(() => validateDiffusion({ ...options, k: 0 })).toThrow(/k must be a whole number/);
@@ -108,7 +129,7 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
     const graph = index.diffusionGraph();
     expect(index.diffusionGraph()).toBe(graph); // built once
     const fromPart = index.queryDiffused(index.vector(4), 29, { exclude: 4 });
-    const keys = rankingKeys(graph.scoresFrom(4), index.scores(index.vector(4)), V.length);
+    const keys = rankingKeys(graph.scoresFrom(4), index.scores(index.vector(4)), V.length, (j) => j !== 4);
     expect(fromPart.map((h) => h.index)).toEqual([...keys.keys()].filter((j) => j !== 4).sort((a, b) => keys[b] - keys[a] || a - b));
     fromPart.forEach((h) => expectClose(h.score, dot(V[4], V[h.index]), { atol: 1e-6 }));
     const loo = diffusedSimilarity(V.length, (i, j) => sim[i][j], DIFFUSION_DEFAULTS);
@@ -118,7 +139,7 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
     const [q] = unitVectors(1, 6, 3);
     const outside = index.queryDiffused(q, 5);
     const cos = index.scores(q);
-    const joinedKeys = rankingKeys(graph.withQuery(cos).scoresFrom(V.length), cos, V.length);
+    const joinedKeys = rankingKeys(graph.withQuery(cos).scoresFrom(V.length), cos, V.length, (j) => j < V.length);
     expect(outside.map((h) => h.index)).toEqual([...joinedKeys.keys()].sort((a, b) => joinedKeys[b] - joinedKeys[a] || a - b).slice(0, 5));
     expect(index.ranked('cosine', q, 5)).toEqual(index.query(q, 5));
   });
