@@ -16,6 +16,8 @@ interface Run {
   untrained: Record<string, number>;
   d2: Record<string, number>;
   beforeFineTune?: Record<string, number>;
+  /** The same methods ordered through the library (runs since the diffusion ordering). */
+  diffused?: { learned: Record<string, number> };
 }
 
 const runs: Run[] = process.argv.slice(2).flatMap((f) => readFileSync(f, 'utf8').split('\n').filter((l) => l.startsWith('{')).map((l) => JSON.parse(l) as Run));
@@ -33,9 +35,10 @@ const stat = (xs: number[]) => {
   return `${m.toFixed(3)} ± ${sd.toFixed(3)}`;
 };
 const cell = (rs: Run[], method: 'learned' | 'untrained' | 'd2') => ['nn', 'first_tier', 'map'].map((k) => stat(rs.map((r) => r[method][k]))).join(' / ');
-console.log('| overrides | seeds | learned NN / 1st tier / mAP | untrained | D2 | seconds |');
-console.log('| --- | --- | --- | --- | --- | --- |');
+const diffusedCell = (rs: Run[]) => (rs.every((r) => r.diffused) ? ['nn', 'first_tier', 'map'].map((k) => stat(rs.map((r) => r.diffused!.learned[k]))).join(' / ') : '—');
+console.log('| overrides | seeds | learned NN / 1st tier / mAP | learned, through the library | untrained | D2 | seconds |');
+console.log('| --- | --- | --- | --- | --- | --- | --- |');
 for (const [key, rs] of groups) {
   const seeds = rs.map((r) => r.overrides.seed ?? 0).join(',');
-  console.log(`| \`${key}\` | ${seeds} | ${cell(rs, 'learned')} | ${cell(rs, 'untrained')} | ${cell(rs, 'd2')} | ${Math.round(rs.reduce((a, r) => a + r.seconds, 0) / rs.length)} |`);
+  console.log(`| \`${key}\` | ${seeds} | ${cell(rs, 'learned')} | ${diffusedCell(rs)} | ${cell(rs, 'untrained')} | ${cell(rs, 'd2')} | ${Math.round(rs.reduce((a, r) => a + r.seconds, 0) / rs.length)} |`);
 }
