@@ -228,6 +228,23 @@ describe('EdgeConv first layer (Wang et al. 2019, eq. 8, on the input points)', 
     tf.dispose([x, edges, slow.value, fast.value, tied.value, ...Object.values(slow.grads), ...Object.values(fast.grads), ...Object.values(tied.grads)]);
     enc.dispose();
   });
+  it('neighbour lists are the first k of a full sort by (squared distance, index), the point itself first, repeated points included', () => {
+    // The definition, by Array.prototype.sort (stable, ECMAScript 2019) over all points: the selection must give the
+    // same rows in the same order, since the order decides which of tied neighbours wins a max.
+    const B = 3, N = 48;
+    const x = cloudBatch(B, N, 43);
+    for (let i = 0; i < 10; i++) x.copyWithin(3 * (2 * i + 1), 3 * (2 * i), 3 * (2 * i) + 3); // ten repeated pairs in cloud 0
+    x.copyWithin(3 * (N + 5), 3 * (N + 4), 3 * (N + 5)); // and one in cloud 1
+    for (const k of [1, 2, 7, 16, 33, N]) {
+      const got = neighbourIndex(x, B, N, 3, k);
+      for (let b = 0; b < B; b++) for (let i = 0; i < N; i++) {
+        const d = (j: number) => (x[(b * N + j) * 3] - x[(b * N + i) * 3]) ** 2 + (x[(b * N + j) * 3 + 1] - x[(b * N + i) * 3 + 1]) ** 2 + (x[(b * N + j) * 3 + 2] - x[(b * N + i) * 3 + 2]) ** 2;
+        const others = Array.from({ length: N }, (_, j) => j).filter((j) => j !== i).sort((p, q) => d(p) - d(q) || p - q);
+        const ref = [i, ...others].slice(0, k).map((j) => b * N + j);
+        expect(Array.from(got.subarray((b * N + i) * k, (b * N + i + 1) * k))).toEqual(ref);
+      }
+    }
+  });
   it('feature-space neighbours (dynamic graph) are the k nearest rows by exact distance, the point itself first', () => {
     const B = 2, N = 25, C = 5, k = 6;
     const data = cloudBatch(B, N, 41, C);
