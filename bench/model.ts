@@ -14,7 +14,7 @@ export async function benchModel(): Promise<void> {
   for (const backend of only ?? (['wasm', 'cpu'] as BackendName[])) {
     const got = await initBackend({ prefer: backend });
     const rows: [string, string][] = [];
-    for (const [name, cfg] of [['reference (xyz, 64-128-256, head 256-128)', REFERENCE_ENCODER], ['default (xyz+normal, EdgeConv k = 16, same widths)', DEFAULT_ENCODER]] as const) {
+    for (const [name, cfg] of [['reference (xyz, 64-128-256, head 256-128)', REFERENCE_ENCODER], [`default (xyz+normal, EdgeConv k = ${DEFAULT_ENCODER.edge?.k}, same widths)`, DEFAULT_ENCODER]] as const) {
       const ms = timeStep(cfg, 32, 512, got === 'cpu' ? 1 : 7);
       const { step } = stepFlops(cfg, 32, 512);
       rows.push([`${name}: one step, B = 32 pairs, N = 512`, `${fmt(ms, 0)} ms · ${fmt((32 * 1000) / ms, 1)} pairs/s · ${fmt(step / 1e9 / (ms / 1000), 1)} GFLOP/s nominal (${fmt(step / 1e9, 2)} GFLOP)`]);
@@ -24,9 +24,11 @@ export async function benchModel(): Promise<void> {
       // The shipped view size (256 points) and the EdgeConv option at that size, timed in the same run.
       const xyz = { ...REFERENCE_ENCODER, inputFeatures: 'xyz' as const };
       const plain = timeStep(xyz, 32, 256, 5);
-      const edge = timeStep({ ...xyz, edge: { k: 16, width: 64 } }, 32, 256, 5);
       rows.push(['one step, B = 32 pairs, N = 256 (the default view size), x y z', `${fmt(plain, 0)} ms`]);
-      rows.push(['the same with an EdgeConv first layer (k = 16, width 64)', `${fmt(edge, 0)} ms · ${fmt(edge / plain, 2)}× the plain step`]);
+      for (const k of [16, 32]) {
+        const edge = timeStep({ ...xyz, edge: { k, width: 64 } }, 32, 256, 5);
+        rows.push([`the same with an EdgeConv first layer (k = ${k}, width 64${k === DEFAULT_ENCODER.edge?.k ? ', the default' : ''})`, `${fmt(edge, 0)} ms · ${fmt(edge / plain, 2)}× the plain step`]);
+      }
     }
     const enc = new Encoder(DEFAULT_ENCODER, createRng(3));
     const rng = createRng(4);

@@ -66,7 +66,7 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.getByRole('tab', { name: 'Training' }).click();
     // The demo's meshes are all closed, so the library's default inputs keep the normals, and say why.
     expect(await page.getByLabel('per-point inputs').inputValue()).toBe('xyz+normal');
-    expect(await page.getByLabel('neighbour layer').inputValue()).toBe('16'); // the EdgeConv default
+    expect(await page.getByLabel('neighbour layer').inputValue()).toBe('32'); // the EdgeConv default
     await page.getByText(/Default inputs for this library: x y z \+ normal: 112 of 112 meshes are closed/).waitFor({ timeout: 10_000 });
     await page.getByLabel('epochs').fill('3');
     await page.getByLabel('epochs').dispatchEvent('change');
