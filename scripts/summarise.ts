@@ -18,6 +18,10 @@ interface Run {
   beforeFineTune?: Record<string, number>;
   /** The same methods ordered through the library (runs since the diffusion ordering). */
   diffused?: { learned: Record<string, number> };
+  /** Since the 32-neighbour defaults: the EdgeConv k, the scale step's strength, and how diffusion ordered. */
+  edge?: number;
+  scale?: number;
+  diffusionOrder?: string;
 }
 
 const runs: Run[] = process.argv.slice(2).flatMap((f) => readFileSync(f, 'utf8').split('\n').filter((l) => l.startsWith('{')).map((l) => JSON.parse(l) as Run));
@@ -26,7 +30,7 @@ for (const r of runs) {
   const { seed: _seed, ...rest } = r.overrides;
   // Runs before the inputs rule carry no `inputs` (they used normals); before the retrieval change, no `retrieval` (pooled).
   // Defaults changed over time, so the points a view and the steps taken are part of the key too.
-  const key = `${JSON.stringify(rest)} inputs ${r.inputs ?? 'xyz+normal'} retrieval ${r.retrieval ?? 'pooled'} points ${r.embedPoints ?? 512} steps ${r.steps ?? '?'}${r.init ? ` init ${r.init}` : ''}`;
+  const key = `${JSON.stringify(rest)} inputs ${r.inputs ?? 'xyz+normal'} retrieval ${r.retrieval ?? 'pooled'} points ${r.embedPoints ?? 512} steps ${r.steps ?? '?'}${r.init ? ` init ${r.init}` : ''}${r.edge !== undefined ? ` edge k ${r.edge} scale ${r.scale}` : ''}`;
   groups.set(key, [...(groups.get(key) ?? []), r]);
 }
 const stat = (xs: number[]) => {
