@@ -18,10 +18,9 @@ interface Run {
   beforeFineTune?: Record<string, number>;
   /** The same methods ordered through the library (runs since the diffusion ordering). */
   diffused?: { learned: Record<string, number> };
-  /** Since the 32-neighbour defaults: the EdgeConv k, the scale step's strength, and how diffusion ordered. */
+  /** Since the 32-neighbour defaults: the EdgeConv k and the scale step's strength (part of the grouping key). */
   edge?: number;
   scale?: number;
-  diffusionOrder?: string;
 }
 
 const runs: Run[] = process.argv.slice(2).flatMap((f) => readFileSync(f, 'utf8').split('\n').filter((l) => l.startsWith('{')).map((l) => JSON.parse(l) as Run));

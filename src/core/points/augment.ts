@@ -3,10 +3,11 @@
 // pairs are two independent passes, as SimCLR (Chen et al. 2020) trains on.
 
 import type { Rng } from '../rng';
-import { assertValidCloud, centroid, makeCloud, type PointCloud } from './cloud';
+import { assertValidCloud, makeCloud, type PointCloud } from './cloud';
 import { PointIndex } from './kdtree';
 import { axisAngle, quaternionToMatrix, transformPoints, type Mat3 } from './rotation';
 import { SIGN_FLIPS } from './pca';
+import { farthestPointSample, normaliseToUnitSphere } from './sample';
 
 export const AUGMENT_KINDS = [
   'rotate-up', 'rotate-any', 'flip-axes', 'scale', 'translate', 'jitter', 'dropout', 'occlude', 'partial-view', 'mirror', 'local-warp',
@@ -319,33 +320,18 @@ export function blendLocalTransforms(p: Float32Array, n: Float32Array | null, tr
  */
 function localWarp(w: Work, s: number, rng: Rng): void {
   if (s <= 0) return;
-  const N = w.p.length / 3;
   const p = w.p;
-  const anchors: number[] = [rng.int(N)];
-  const nearest = new Float64Array(N).fill(Infinity);
-  while (anchors.length < Math.min(WARP_ANCHORS, N)) {
-    const a = anchors[anchors.length - 1];
-    let best = -1, bestI = 0;
-    for (let i = 0; i < N; i++) {
-      const d = (p[i * 3] - p[a * 3]) ** 2 + (p[i * 3 + 1] - p[a * 3 + 1]) ** 2 + (p[i * 3 + 2] - p[a * 3 + 2]) ** 2;
-      if (d < nearest[i]) nearest[i] = d;
-      if (nearest[i] > best) { best = nearest[i]; bestI = i; }
-    }
-    anchors.push(bestI);
-  }
+  const anchors = farthestPointSample(makeCloud(p), Math.min(WARP_ANCHORS, p.length / 3), rng).positions;
   const maxAngle = ((20 * Math.PI) / 180) * s;
-  const transforms: LocalTransform[] = anchors.map((a) => {
+  const transforms: LocalTransform[] = [];
+  for (let a = 0; a < anchors.length; a += 3) {
     const turn = mul3(axisAngle([0, 0, 1], rng.uniform(-maxAngle, maxAngle)), mul3(axisAngle([0, 1, 0], rng.uniform(-maxAngle, maxAngle)), axisAngle([1, 0, 0], rng.uniform(-maxAngle, maxAngle))));
     const stretch = [0, 1, 2].map(() => rng.uniform(1, 1 + 4 * s));
     const linear = turn.map((v, e) => v * stretch[e % 3]) as Mat3; // turn · diag(stretch)
-    return { centre: [p[a * 3], p[a * 3 + 1], p[a * 3 + 2]], linear, shift: [rng.uniform(-0.5, 0.5) * s, rng.uniform(-0.5, 0.5) * s, rng.uniform(-0.5, 0.5) * s] };
-  });
+    transforms.push({ centre: [anchors[a], anchors[a + 1], anchors[a + 2]], linear, shift: [rng.uniform(-0.5, 0.5) * s, rng.uniform(-0.5, 0.5) * s, rng.uniform(-0.5, 0.5) * s] });
+  }
   blendLocalTransforms(p, w.n, transforms, 1 + rng.int(7));
-  const [mx, my, mz] = centroid(makeCloud(p));
-  let r2 = 0;
-  for (let i = 0; i < N; i++) r2 = Math.max(r2, (p[i * 3] - mx) ** 2 + (p[i * 3 + 1] - my) ** 2 + (p[i * 3 + 2] - mz) ** 2);
-  const inv = 1 / (Math.sqrt(r2) || 1);
-  for (let i = 0; i < N; i++) { p[i * 3] = (p[i * 3] - mx) * inv; p[i * 3 + 1] = (p[i * 3 + 1] - my) * inv; p[i * 3 + 2] = (p[i * 3 + 2] - mz) * inv; }
+  p.set(normaliseToUnitSphere(makeCloud(p)).cloud.positions);
 }
 
 function mul3(a: Mat3, b: Mat3): Mat3 {
