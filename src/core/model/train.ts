@@ -8,10 +8,12 @@ import { makeCloud } from '../points/cloud';
 import { drawIndices } from '../points/sample';
 import { createRng, hashString, type Rng } from '../rng';
 import { Adam, cosineWithWarmup, type AdamState } from './adam';
-import { embedParts, fillSlot, posed, withLocalShape, type ModelPart, type Pose } from './embed';
+import { embedParts, fillSlot, posed, POSES, withLocalShape, type ModelPart, type Pose } from './embed';
 import { Encoder, inputChannels, usesLocalShape, validateEncoderConfig, type EncoderConfig } from './encoder';
 import { computeLoss, LOSS_NAMES, type LossSettings } from './losses';
 import { iMixLoss, mixTargets } from './losses/imix';
+import { multiViewSupConLoss } from './losses/supcon';
+import { PointIndex } from '../points/kdtree';
 
 export interface TrainConfig {
   readonly encoder: EncoderConfig;
@@ -40,6 +42,13 @@ export interface TrainConfig {
    * temperature applies and its name is not used. Absent or 'none': the loss as set.
    */
   readonly mixing?: 'none' | 'i-mix';
+  /**
+   * Extra local views per part each step (multi-crop, after SwAV; Caron et al. 2020): each keeps `points` points
+   * drawn from the `share` of the part's pool nearest a random pool point, in place (not rescaled), then goes
+   * through the pipeline. All views of a part are each other's positives (multi-view NT-Xent, i.e. supervised
+   * contrastive with the part as label; with labels, the labels). Absent or count 0: two views only.
+   */
+  readonly localViews?: { readonly count: number; readonly points: number; readonly share: number };
 }
 
 export interface TrainProgress {
@@ -132,6 +141,8 @@ export class Trainer {
   private readonly origin: Uint32Array;
   private readonly viewLocal: Float32Array;
   private readonly poolClouds: ReturnType<typeof makeCloud>[];
+  private readonly localBuffer: Float32Array | null;
+  private readonly poolIndex = new Map<number, PointIndex>();
   step = 0;
   status: TrainStatus = 'idle';
   history: { step: number; loss: number; lr: number }[] = [];
@@ -143,7 +154,7 @@ export class Trainer {
   constructor(parts: readonly ModelPart[], config: TrainConfig, options: TrainerOptions = {}) {
     validateTrainConfig(config, parts.length);
     if (config.loss.name === 'supervised-contrastive' && !options.labels) throw new RangeError('supervised-contrastive loss needs labels (folders or labels.csv)');
-    if (config.pose !== 'as-is' && config.pose !== 'principal-axes') throw new RangeError(`training: pose must be as-is or principal-axes, got ${config.pose}`);
+    if (!POSES.includes(config.pose)) throw new RangeError(`training: pose must be one of ${POSES.join(', ')}, got ${config.pose}`);
     this.config = config;
     this.parts = posed(withLocalShape(parts, config.encoder.inputFeatures), config.pose);
     this.labels = options.labels ?? null;
@@ -162,6 +173,8 @@ export class Trainer {
     this.origin = new Uint32Array(config.points);
     this.viewLocal = new Float32Array(config.points * 3);
     this.poolClouds = this.parts.map((p) => makeCloud(p.points, p.normals));
+    const lv = config.localViews;
+    this.localBuffer = lv && lv.count > 0 ? new Float32Array(lv.count * B * lv.points * inputChannels(config.encoder.inputFeatures)) : null;
     if (options.resume) {
       this.adam.restore(options.resume.adam);
       this.step = options.resume.step;
@@ -188,6 +201,25 @@ export class Trainer {
         fillSlot(this.viewBuffer, view * B + slot, n, encoder.inputFeatures, v.positions, v.normals ?? part.normals, this.localOf(part, this.origin, this.viewLocal));
       }
     });
+    const lv = this.config.localViews;
+    if (lv && this.localBuffer) {
+      chosen.forEach((partIndex, slot) => {
+        const part = this.parts[partIndex];
+        const cloud = this.poolClouds[partIndex];
+        let index = this.poolIndex.get(partIndex);
+        if (!index) { index = new PointIndex(cloud.positions); this.poolIndex.set(partIndex, index); }
+        const region = Math.max(lv.points, Math.min(cloud.count, Math.round(lv.share * cloud.count)));
+        for (let view = 0; view < lv.count; view++) {
+          const s = rng.int(cloud.count) * 3, p = cloud.positions;
+          const near = index.nearest(p[s], p[s + 1], p[s + 2], Math.min(region, cloud.count));
+          const pick = drawIndices(near.length, lv.points, rng, this.scratch);
+          const chosenIdx = Uint32Array.from(pick, (i) => near[i].index);
+          const origin = new Uint32Array(lv.points);
+          const v = augmentSubset(cloud, chosenIdx, this.config.pipeline, rng, origin);
+          fillSlot(this.localBuffer!, view * B + slot, lv.points, encoder.inputFeatures, v.positions, v.normals ?? part.normals, this.localOf(part, origin, new Float32Array(lv.points * 3)));
+        }
+      });
+    }
     if (this.config.mixing !== 'i-mix') return { parts: chosen, x: this.viewBuffer, mix: null };
     // i-Mix: anchor i keeps its first round(λ·n) points and takes the rest from partner π(i)'s anchor view.
     const lambda = rng.next();
@@ -219,8 +251,14 @@ export class Trainer {
     const vars = this.encoder.variables;
     const lossValue = tf.tidy(() => {
       const input = tf.tensor3d(x, [2 * B, this.config.points, F]);
+      const lv = this.config.localViews;
       const { value, grads } = tf.variableGrads(() => {
         const z = this.encoder.project(this.encoder.pooled(input)); // (2B, P)
+        if (lv && this.localBuffer) {
+          const zl = this.encoder.project(this.encoder.pooled(tf.tensor3d(this.localBuffer, [lv.count * B, lv.points, F])));
+          const ids = Array.from({ length: (2 + lv.count) * B }, (_, r) => (labels ? labels[r % B] : r % B));
+          return multiViewSupConLoss(tf.concat([z, zl], 0) as tf.Tensor2D, ids, this.config.loss.temperature);
+        }
         const za = tf.slice(z, [0, 0], [B, -1]) as tf.Tensor2D;
         const zb = tf.slice(z, [B, 0], [B, -1]) as tf.Tensor2D;
         if (mix) return iMixLoss(za, zb, tf.tensor2d(mixTargets(mix.lambda, mix.partner), [B, B]), this.config.loss.temperature);

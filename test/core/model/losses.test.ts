@@ -2,6 +2,7 @@ import * as tf from '@tensorflow/tfjs';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { iMixLoss, mixTargets } from '../../../src/core/model/losses/imix';
 import { debiasedNtXentLoss, marginContrastiveLoss, ntXentLoss, supConLoss, tripletLoss } from '../../../src/core/model/losses';
+import { multiViewSupConLoss } from '../../../src/core/model/losses/supcon';
 import { expectClose } from '../../helpers';
 import { expectNoLeak, useBackend } from '../../tf-helpers';
 
@@ -109,6 +110,11 @@ describe('supervised contrastive (Khosla et al. 2020, eq. 2)', () => {
     // L = −(2·(−1.836513) + 2·(−1.425294)) / 4 = 1.630903
     const [za, zb] = worked();
     expectClose(tf.tidy(() => supConLoss(za, zb, [3, 3], 0.5).dataSync()[0]), 1.630903, { atol: 1e-5 });
+  });
+  it('its many-view form gives the same hand-worked values on the views stacked [a; b]', () => {
+    const [za, zb] = worked();
+    expectClose(tf.tidy(() => multiViewSupConLoss(tf.concat([za, zb]), [0, 1, 0, 1], 0.5).dataSync()[0]), 0.464236, { atol: 1e-5 });
+    expectClose(tf.tidy(() => multiViewSupConLoss(tf.concat([za, zb]), [3, 3, 3, 3], 0.5).dataSync()[0]), 1.630903, { atol: 1e-5 });
   });
 });
 
