@@ -3,7 +3,7 @@
 import * as tf from '@tensorflow/tfjs';
 import { inputChannels, usesLocalShape, type Encoder, type InputFeatures } from './encoder';
 import { localShapeOf } from '../points/local';
-import { alignToPrincipalAxes, AXIS_TURNS, SIGN_FLIPS } from '../points/pca';
+import { alignToPrincipalAxes, SIGN_FLIPS } from '../points/pca';
 import { makeCloud } from '../points/cloud';
 import { transformPoints } from '../points/rotation';
 
@@ -46,8 +46,7 @@ export function fillSlot(out: Float32Array, slot: number, n: number, features: I
 }
 
 /** How parts are posed before the encoder sees them. */
-export type Pose = 'as-is' | 'principal-axes' | 'principal-axes-any-order';
-export const POSES: readonly Pose[] = ['as-is', 'principal-axes', 'principal-axes-any-order'];
+export type Pose = 'as-is' | 'principal-axes';
 
 /** Parts in the pose the model expects: unchanged, or rotated into their principal frame. */
 export function posed(parts: readonly ModelPart[], pose: Pose): ModelPart[] {
@@ -66,7 +65,7 @@ export function embedForRetrieval(encoder: Encoder, parts: readonly ModelPart[],
   const ready = posed(withLocalShape(parts, encoder.config.inputFeatures), pose);
   if (pose === 'as-is') return embedParts(encoder, ready, n);
   let sum: Float32Array | null = null;
-  for (const flip of pose === 'principal-axes' ? SIGN_FLIPS : AXIS_TURNS) {
+  for (const flip of SIGN_FLIPS) {
     const turned = ready.map((p) => ({ ...p, points: transformPoints(flip, p.points), normals: transformPoints(flip, p.normals) }));
     const e = embedParts(encoder, turned, n);
     if (!sum) sum = e; else for (let i = 0; i < e.length; i++) sum[i] += e[i];

@@ -8,7 +8,7 @@ import { makeCloud } from '../points/cloud';
 import { drawIndices } from '../points/sample';
 import { createRng, hashString, type Rng } from '../rng';
 import { Adam, cosineWithWarmup, type AdamState } from './adam';
-import { embedParts, fillSlot, posed, POSES, withLocalShape, type ModelPart, type Pose } from './embed';
+import { embedParts, fillSlot, posed, withLocalShape, type ModelPart, type Pose } from './embed';
 import { Encoder, inputChannels, usesLocalShape, validateEncoderConfig, type EncoderConfig } from './encoder';
 import { computeLoss, LOSS_NAMES, type LossSettings } from './losses';
 import { iMixLoss, mixTargets } from './losses/imix';
@@ -102,6 +102,14 @@ export function validateTrainConfig(c: TrainConfig, partCount: number): void {
   const prior = c.loss.classPrior;
   if (prior !== undefined && !(prior >= 0 && prior < 1)) throw new RangeError(`training: class prior τ⁺ must be in [0, 1), got ${prior}`);
   if (c.mixing !== undefined && c.mixing !== 'none' && c.mixing !== 'i-mix') throw new RangeError(`training: mixing must be none or i-mix, got ${c.mixing}`);
+  const lv = c.localViews;
+  if (lv) {
+    whole(lv.count, 0, 'local views per part');
+    whole(lv.points, 16, 'points per local view');
+    if (!(lv.share > 0 && lv.share <= 1)) throw new RangeError(`training: a local view's share of the part must be in (0, 1], got ${lv.share}`);
+    if (c.loss.name !== 'nt-xent' && c.loss.name !== 'supervised-contrastive') throw new RangeError(`training: local views need the nt-xent or supervised-contrastive loss, got ${c.loss.name}`);
+    if (c.mixing === 'i-mix') throw new RangeError('training: local views and i-Mix do not combine');
+  }
   if (!(c.heldOutFraction >= 0 && c.heldOutFraction < 0.9)) throw new RangeError(`training: held-out fraction must be in [0, 0.9), got ${c.heldOutFraction}`);
   const trainCount = partCount - Math.round(partCount * c.heldOutFraction);
   if (trainCount < 2) throw new RangeError(`training needs at least 2 parts to train on, got ${trainCount}`);
@@ -154,7 +162,7 @@ export class Trainer {
   constructor(parts: readonly ModelPart[], config: TrainConfig, options: TrainerOptions = {}) {
     validateTrainConfig(config, parts.length);
     if (config.loss.name === 'supervised-contrastive' && !options.labels) throw new RangeError('supervised-contrastive loss needs labels (folders or labels.csv)');
-    if (!POSES.includes(config.pose)) throw new RangeError(`training: pose must be one of ${POSES.join(', ')}, got ${config.pose}`);
+    if (config.pose !== 'as-is' && config.pose !== 'principal-axes') throw new RangeError(`training: pose must be as-is or principal-axes, got ${config.pose}`);
     this.config = config;
     this.parts = posed(withLocalShape(parts, config.encoder.inputFeatures), config.pose);
     this.labels = options.labels ?? null;
@@ -184,7 +192,7 @@ export class Trainer {
   }
 
   /** The parts and seeded views of step k: the same k always gives the same batch (resumable). */
-  private batchFor(k: number): { parts: number[]; x: Float32Array; mix: { lambda: number; partner: number[] } | null } {
+  private batchFor(k: number): { parts: number[]; x: Float32Array; local: Float32Array | null; mix: { lambda: number; partner: number[] } | null } {
     const epoch = Math.floor(k / this.stepsPerEpoch);
     const within = k % this.stepsPerEpoch;
     const B = Math.min(this.config.batchSize, this.trainIdx.length);
@@ -220,7 +228,7 @@ export class Trainer {
         }
       });
     }
-    if (this.config.mixing !== 'i-mix') return { parts: chosen, x: this.viewBuffer, mix: null };
+    if (this.config.mixing !== 'i-mix') return { parts: chosen, x: this.viewBuffer, local: this.localBuffer, mix: null };
     // i-Mix: anchor i keeps its first round(λ·n) points and takes the rest from partner π(i)'s anchor view.
     const lambda = rng.next();
     const partner = permutation(B, rng);
@@ -229,7 +237,7 @@ export class Trainer {
     const keep = Math.round(lambda * n) * inputChannels(encoder.inputFeatures);
     for (let i = 0; i < B; i++) this.viewBuffer.set(anchors.subarray(partner[i] * row + keep, (partner[i] + 1) * row), i * row + keep);
     const weight = keep / row; // λ as realised by whole points
-    return { parts: chosen, x: this.viewBuffer, mix: { lambda: weight, partner } };
+    return { parts: chosen, x: this.viewBuffer, local: null, mix: { lambda: weight, partner } };
   }
 
   /** The local shape of a view's points, looked up by the pool point each copies (rigid moves keep it). */

@@ -6,11 +6,11 @@ import type { Rng } from '../rng';
 import { assertValidCloud, makeCloud, type PointCloud } from './cloud';
 import { PointIndex } from './kdtree';
 import { axisAngle, quaternionToMatrix, transformPoints, type Mat3 } from './rotation';
-import { AXIS_TURNS, SIGN_FLIPS } from './pca';
+import { SIGN_FLIPS } from './pca';
 import { farthestPointSample, normaliseToUnitSphere } from './sample';
 
 export const AUGMENT_KINDS = [
-  'rotate-up', 'rotate-any', 'flip-axes', 'turn-axes', 'swap-close-axes', 'scale', 'translate', 'jitter', 'dropout', 'occlude', 'partial-view', 'mirror', 'local-warp',
+  'rotate-up', 'rotate-any', 'flip-axes', 'scale', 'translate', 'jitter', 'dropout', 'occlude', 'partial-view', 'mirror', 'local-warp',
 ] as const;
 export type AugmentKind = (typeof AUGMENT_KINDS)[number];
 
@@ -42,8 +42,6 @@ export const STRENGTH_RANGES: Record<AugmentKind, string> = {
   'partial-view': 'keeps points whose normal n satisfies n·d ≥ s − 1 for a random view direction d (s = 1: the visible half)',
   mirror: 'reflects across a random coordinate plane through the centre, with probability scaled by s',
   'flip-axes': 'turns by 180° about a random coordinate axis (the sign ambiguity of a principal-axes pose), with probability scaled by s',
-  'turn-axes': 'with probability s, one of the 24 turns that map the coordinate axes onto themselves, at random (the order and sign ambiguity of a principal-axes pose)',
-  'swap-close-axes': 'for each neighbouring pair of principal axes (x–y, y–z) whose spreads are close (ratio r of the smaller to the larger variance above 0.5), turns by 90° to swap them with probability s·(r − 0.5) (½·s at a tie)',
   'local-warp': 'PointWOLF (Kim et al. 2021): 4 farthest-point anchors, each with its own turn (±20°·s per axis), stretch (per axis in [1, 1 + 4s]) and shift (±0.5·s), blended by Gaussian weights (σ 0.5) on distances over a random subset of axes; then back into the unit sphere (s = 0.5 is the paper\'s setting)',
 };
 
@@ -249,26 +247,6 @@ function applyStep(w: Work, s: AugmentStep, upAxis: UpAxis, rng: Rng): void {
     case 'flip-axes': {
       if (rng.next() >= k) return;
       rotate(w, SIGN_FLIPS[1 + rng.int(3)]);
-      return;
-    }
-    case 'swap-close-axes': {
-      const v = [0, 0, 0], m = [0, 0, 0];
-      for (let i = 0; i < w.p.length; i++) m[i % 3] += w.p[i] / N;
-      for (let i = 0; i < w.p.length; i++) v[i % 3] += (w.p[i] - m[i % 3]) ** 2;
-      for (const [a, b] of [[0, 1], [1, 2]]) {
-        const r = Math.min(v[a], v[b]) / Math.max(v[a], v[b], 1e-30);
-        if (!(rng.next() < k * Math.max(0, r - 0.5))) continue;
-        const t = new Float64Array(9); // a 90° turn about the third axis: e_a → e_b, e_b → −e_a
-        const c = 3 - a - b;
-        t[b * 3 + a] = 1; t[a * 3 + b] = -1; t[c * 3 + c] = 1;
-        rotate(w, t);
-        [v[a], v[b]] = [v[b], v[a]];
-      }
-      return;
-    }
-    case 'turn-axes': {
-      if (rng.next() >= k) return;
-      rotate(w, AXIS_TURNS[rng.int(AXIS_TURNS.length)]);
       return;
     }
     case 'mirror': {

@@ -80,22 +80,3 @@ export function alignToPrincipalAxes(cloud: PointCloud): PointCloud {
 export const SIGN_FLIPS: readonly Mat3[] = [
   [1, 1, 1], [1, -1, -1], [-1, 1, -1], [-1, -1, 1],
 ].map(([a, b, c]) => Float64Array.from([a, 0, 0, 0, b, 0, 0, 0, c]));
-
-/**
- * The 24 proper rotations that map the coordinate axes onto themselves (the rotation group of the cube):
- * every signed permutation matrix with determinant +1. A principal frame is settled only up to these when
- * spreads along two axes are close (their order) and for the signs; the identity comes first.
- */
-export const AXIS_TURNS: readonly Mat3[] = (() => {
-  const perms = [[0, 1, 2], [0, 2, 1], [1, 0, 2], [1, 2, 0], [2, 0, 1], [2, 1, 0]];
-  const out: Mat3[] = [];
-  for (const perm of perms) {
-    for (let signs = 0; signs < 8; signs++) {
-      const m = new Float64Array(9);
-      perm.forEach((col, row) => (m[row * 3 + col] = signs & (1 << row) ? -1 : 1));
-      const det = m[0] * (m[4] * m[8] - m[5] * m[7]) - m[1] * (m[3] * m[8] - m[5] * m[6]) + m[2] * (m[3] * m[7] - m[4] * m[6]);
-      if (det > 0) out.push(m);
-    }
-  }
-  return out;
-})();

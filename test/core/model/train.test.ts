@@ -92,6 +92,31 @@ describe('training on the demo library', () => {
     expect(tf.memory().numTensors).toBe(after1);
     t.dispose(); plain.dispose();
   });
+  it('local views: each is one region of its part (the share nearest one pool point), and the tensor count stays flat', () => {
+    const localViews = { count: 2, points: 32, share: 0.25 };
+    const cfg: TrainConfig = { ...small, pose: 'as-is', pipeline: { version: 1, upAxis: 'z', steps: [] }, localViews };
+    const t = new Trainer(demo, cfg);
+    const { parts, x, local } = (t as unknown as { batchFor(k: number): { parts: number[]; x: Float32Array; local: Float32Array } }).batchFor(0);
+    const B = parts.length, region = Math.round(localViews.share * 512);
+    // Brute force over every pool point as a centre: does some centre's `region` nearest pool points hold them all?
+    const oneRegion = (pool: Float32Array, pts: Float32Array) => Array.from({ length: 512 }, (_, c) => c).some((c) => {
+      const d = Array.from({ length: 512 }, (_, j) => [(pool[3 * j] - pool[3 * c]) ** 2 + (pool[3 * j + 1] - pool[3 * c + 1]) ** 2 + (pool[3 * j + 2] - pool[3 * c + 2]) ** 2, j]);
+      d.sort((a, b) => a[0] - b[0] || a[1] - b[1]);
+      const near = new Set(d.slice(0, region).map(([, j]) => `${pool[3 * j]},${pool[3 * j + 1]},${pool[3 * j + 2]}`));
+      for (let i = 0; i < pts.length / 3; i++) if (!near.has(`${pts[3 * i]},${pts[3 * i + 1]},${pts[3 * i + 2]}`)) return false;
+      return true;
+    });
+    for (const [view, slot] of [[0, 0], [1, 0], [1, B - 1]]) {
+      expect(oneRegion(demo[parts[slot]].points, local.subarray((view * B + slot) * 32 * 3, (view * B + slot + 1) * 32 * 3))).toBe(true);
+    }
+    // A whole view of the same part (its first 32 points) is not one such region: the check can fail.
+    expect(oneRegion(demo[parts[0]].points, x.subarray(0, 32 * 3))).toBe(false);
+    t.trainStep();
+    const after1 = tf.memory().numTensors;
+    for (let i = 0; i < 3; i++) t.trainStep();
+    expect(tf.memory().numTensors).toBe(after1);
+    t.dispose();
+  });
   it('a seeded run is bit-for-bit repeatable on the same backend', () => {
     const run = () => { const t = new Trainer(demo, small); for (let i = 0; i < 3; i++) t.trainStep(); const w = getWeights(t.encoder); t.dispose(); return w; };
     const a = run(), b = run();
@@ -172,6 +197,11 @@ describe('bad input and failures end cleanly', () => {
     expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'supervised-contrastive' } })).toThrow(/needs labels/);
     expect(() => new Trainer(demo, { ...small, mixing: 'cutmix' as 'i-mix' })).toThrow(/mixing must be none or i-mix/);
     expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'debiased-nt-xent', classPrior: 1 } })).toThrow(/class prior τ⁺ must be in \[0, 1\)/);
+    const lv = { count: 2, points: 32, share: 0.4 };
+    expect(() => new Trainer(demo, { ...small, localViews: { ...lv, share: 0 } })).toThrow(/local view's share of the part must be in \(0, 1\]/);
+    expect(() => new Trainer(demo, { ...small, localViews: { ...lv, points: 8 } })).toThrow(/points per local view/);
+    expect(() => new Trainer(demo, { ...small, localViews: lv, loss: { ...small.loss, name: 'triplet-hard' } })).toThrow(/local views need the nt-xent/);
+    expect(() => new Trainer(demo, { ...small, localViews: lv, mixing: 'i-mix' })).toThrow(/do not combine/);
   });
   it('a NaN loss stops the run with status failed and a message, not a hang', async () => {
     const t = new Trainer(demo, small);
