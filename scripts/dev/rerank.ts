@@ -4,28 +4,19 @@
 // from the library without the query; database-side augmentation (Arandjelović & Zisserman 2012); more points
 // or several resamplings at embedding time; the best sign flip instead of their average; fusion with the D2
 // histogram, the pooled features or the untrained encoder.
-import { initBackend } from '../../src/core/model/backend';
-import { POOL_POINTS } from '../../src/core/model/defaults';
-import { loadLibrary } from '../../src/cli/library-dir';
-import { loadRun } from '../../src/cli/run-dir';
-import { encoderFromCheckpoint } from '../../src/core/model/checkpoint';
 import { Encoder } from '../../src/core/model/encoder';
 import { setWeights } from '../../src/core/model/train';
 import { createRng } from '../../src/core/rng';
-import { embedParts, posed, type ModelPart } from '../../src/core/model/embed';
+import { embedParts, posed } from '../../src/core/model/embed';
+import { openSavedRun } from './saved-run';
 import { SIGN_FLIPS } from '../../src/core/points/pca';
 import { transformPoints } from '../../src/core/points/rotation';
 import { evaluateRetrieval, cosineSimilarity } from '../../src/core/retrieval/metrics';
 import { d2Descriptors } from '../../src/core/retrieval/methods';
 import { untrainedEncoder } from '../../src/core/retrieval/evaluate';
 
-await initBackend();
 const [libDir, runDir] = process.argv.slice(2);
-const lib = loadLibrary(libDir, { quiet: true, points: POOL_POINTS });
-const parts: ModelPart[] = lib.parts.map((p) => ({ points: p.points, normals: p.normals }));
-const ckpt = await loadRun(runDir);
-const enc = encoderFromCheckpoint(ckpt);
-const cfg = ckpt.manifest.config;
+const { lib, parts, ckpt, enc, cfg } = await openSavedRun(libDir, runDir);
 const pArg = process.argv.indexOf('--points');
 const n = pArg > 0 ? Number(process.argv[pArg + 1]) : cfg.points;
 const r = (m: { nn: number; first_tier: number; map: number }) => `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
