@@ -11,7 +11,7 @@ import { PRESETS } from '../src/core/points/augment';
 import { evaluateMethods } from '../src/core/retrieval/evaluate';
 import { DIFFUSION_DEFAULTS } from '../src/core/retrieval/diffusion';
 import { EmbeddingIndex } from '../src/core/retrieval/index';
-import { embedForRetrieval } from '../src/core/model/embed';
+import { embedForRetrieval, RETRIEVAL_RESAMPLINGS } from '../src/core/model/embed';
 import { loadLibrary } from '../src/cli/library-dir';
 import { loadRun, saveRun } from '../src/cli/run-dir';
 
@@ -64,4 +64,4 @@ if (saveArg > 0) await saveRun(process.argv[saveArg + 1], {
 });
 trainer.dispose();
 const round = (m: Record<string, number>) => Object.fromEntries(Object.entries(m).map(([k, v]) => [k, Math.round(v * 1000) / 1000]));
-console.log(JSON.stringify({ overrides, inputs: config.encoder.inputFeatures, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}), retrieval: config.encoder.retrieval ?? 'pooled', edge: config.encoder.edge?.k ?? 0, scale: config.pipeline.steps.find((s) => s.kind === 'scale')?.strength ?? 0, diffusionOrder: 'nearest first', learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!), meanPairCosine: Math.round(meanPairCosine * 1000) / 1000, diffused: { learned: round(report.methods['learned+diffusion']!), untrained: round(report.methods['untrained+diffusion']!), d2: round(report.methods['d2+diffusion']!) } }));
+console.log(JSON.stringify({ overrides, inputs: config.encoder.inputFeatures, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}), retrieval: config.encoder.retrieval ?? 'pooled', edge: config.encoder.edge?.k ?? 0, scale: config.pipeline.steps.find((s) => s.kind === 'scale')?.strength ?? 0, diffusionOrder: 'nearest first', resamplings: RETRIEVAL_RESAMPLINGS, learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!), meanPairCosine: Math.round(meanPairCosine * 1000) / 1000, diffused: { learned: round(report.methods['learned+diffusion']!), untrained: round(report.methods['untrained+diffusion']!), d2: round(report.methods['d2+diffusion']!) } }));

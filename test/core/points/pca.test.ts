@@ -1,6 +1,6 @@
 import { beforeAll, describe, expect, it } from 'vitest';
 import { Encoder, DEFAULT_ENCODER } from '../../../src/core/model/encoder';
-import { embedForRetrieval } from '../../../src/core/model/embed';
+import { embedForRetrieval, embedParts, resampled, RETRIEVAL_RESAMPLINGS } from '../../../src/core/model/embed';
 import { makeCloud } from '../../../src/core/points/cloud';
 import { alignToPrincipalAxes, principalFrame, symmetricEigen3 } from '../../../src/core/points/pca';
 import { axisAngle, randomRotation, transformPoints } from '../../../src/core/points/rotation';
@@ -67,6 +67,46 @@ describe('principal-axes pose', () => {
     let cos = 0;
     for (let i = 0; i < f1.length; i++) cos += f1[i] * f2[i];
     expect(cos).toBeLessThan(0.999);
+    enc.dispose();
+  });
+});
+
+// Test-time augmentation: averaging a model's outputs over several versions of one input is common practice
+// (Krizhevsky, Sutskever & Hinton 2012 averaged over ten crops; from memory).
+describe('retrieval embedding averaged over resamplings', () => {
+  it('subset r is the n pool points from r·n on, wrapping; the subsets of a 4n pool are disjoint and cover it', () => {
+    const p = skewedCloud(64, 6);
+    const part = { points: p, normals: p.map((v) => -v) };
+    expect(resampled(part, 0, 16)).toBe(part);
+    const seen = new Set<number>();
+    for (let r = 0; r < 4; r++) {
+      const s = resampled(part, r, 16);
+      for (let k = 0; k < 16; k++) {
+        expect([s.points[3 * k], s.points[3 * k + 2]]).toEqual([p[3 * (16 * r + k)], p[3 * (16 * r + k) + 2]]);
+        expect(s.normals[3 * k + 1]).toBe(-p[3 * (16 * r + k) + 1]);
+        seen.add(16 * r + k);
+      }
+    }
+    expect(seen.size).toBe(64);
+    expect(resampled(part, 5, 16).points.subarray(0, 3)).toEqual(p.subarray(16 * 3, 16 * 3 + 3)); // 80 mod 64
+  });
+  it('a pool of four copies of one subset embeds as that subset does, four different subsets do not', () => {
+    const enc = new Encoder(DEFAULT_ENCODER, createRng(7));
+    const p = skewedCloud(128, 8);
+    const tiled = new Float32Array(512 * 3);
+    for (let r = 0; r < 4; r++) tiled.set(p, r * 128 * 3);
+    const zeros = new Float32Array(512 * 3);
+    const one = embedForRetrieval(enc, [{ points: tiled, normals: zeros }], 128, 'as-is', 1);
+    expectClose(embedForRetrieval(enc, [{ points: tiled, normals: zeros }], 128, 'as-is', 4), one, { atol: 1e-5 });
+    expectClose(one, embedParts(enc, [{ points: p, normals: zeros.subarray(0, 384) }], 128), { atol: 1e-6 });
+    const other = skewedCloud(512, 9);
+    const a = embedForRetrieval(enc, [{ points: other, normals: zeros }], 128, 'as-is', 1);
+    const b = embedForRetrieval(enc, [{ points: other, normals: zeros }], 128, 'as-is', RETRIEVAL_RESAMPLINGS);
+    let cos = 0, len = 0;
+    for (let i = 0; i < a.length; i++) { cos += a[i] * b[i]; len += b[i] * b[i]; }
+    expect(cos).toBeLessThan(0.99999);
+    expectClose(len, 1, { atol: 1e-5 });
+    expect(() => embedForRetrieval(enc, [{ points: other, normals: zeros }], 128, 'as-is', 0)).toThrow(/resamplings must be a whole number/);
     enc.dispose();
   });
 });
