@@ -251,7 +251,7 @@ export class Trainer {
   /** One optimisation step; returns the loss. */
   trainStep(): number {
     const k = this.step;
-    const { parts, x, mix } = this.batchFor(k);
+    const { parts, x, local, mix } = this.batchFor(k);
     const B = parts.length;
     const F = inputChannels(this.config.encoder.inputFeatures);
     const lr = cosineWithWarmup(k, this.totalSteps, this.config.learningRate, Math.round(this.totalSteps * this.config.warmupFraction));
@@ -262,8 +262,8 @@ export class Trainer {
       const lv = this.config.localViews;
       const { value, grads } = tf.variableGrads(() => {
         const z = this.encoder.project(this.encoder.pooled(input)); // (2B, P)
-        if (lv && this.localBuffer) {
-          const zl = this.encoder.project(this.encoder.pooled(tf.tensor3d(this.localBuffer, [lv.count * B, lv.points, F])));
+        if (lv && local) {
+          const zl = this.encoder.project(this.encoder.pooled(tf.tensor3d(local, [lv.count * B, lv.points, F])));
           const ids = Array.from({ length: (2 + lv.count) * B }, (_, r) => (labels ? labels[r % B] : r % B));
           return multiViewSupConLoss(tf.concat([z, zl], 0) as tf.Tensor2D, ids, this.config.loss.temperature);
         }

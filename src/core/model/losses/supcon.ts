@@ -4,7 +4,7 @@
 // With every part its own label it reduces to NT-Xent.
 
 import * as tf from '@tensorflow/tfjs';
-import { assertPairs, MASKED_LOGIT, selfMask, similarityMatrix } from './common';
+import { assertPairs, MASKED_LOGIT, selfMask } from './common';
 
 /**
  * The same loss over any number of views stacked in z (V·B, D), with one label per row: the multi-view form
@@ -32,15 +32,5 @@ export function supConLoss(za: tf.Tensor2D, zb: tf.Tensor2D, labels: ArrayLike<n
   if (!(temperature > 0)) throw new RangeError(`supConLoss: temperature must be > 0, got ${temperature}`);
   const B = assertPairs(za, zb, 'supConLoss');
   if (labels.length !== B) throw new RangeError(`supConLoss: ${labels.length} labels for ${B} parts`);
-  const y = Int32Array.from({ length: 2 * B }, (_, i) => labels[i % B]);
-  return tf.tidy(() => {
-    const logits = tf.div(similarityMatrix(za, zb), temperature);
-    const eye = selfMask(2 * B);
-    const logProb = tf.sub(logits, tf.logSumExp(tf.add(logits, tf.mul(eye, MASKED_LOGIT)), 1, true)); // (2B, 2B)
-    const yt = tf.tensor1d(y, 'int32');
-    const same = tf.cast(tf.equal(yt.reshape([2 * B, 1]), yt.reshape([1, 2 * B])), 'float32');
-    const positives = tf.sub(same, eye); // exclude i itself
-    const perAnchor = tf.div(tf.sum(tf.mul(positives, logProb), 1), tf.sum(positives, 1)); // (2B)
-    return tf.neg(tf.mean(perAnchor)) as tf.Scalar;
-  });
+  return tf.tidy(() => multiViewSupConLoss(tf.concat([za, zb], 0), Int32Array.from({ length: 2 * B }, (_, i) => labels[i % B]), temperature));
 }
