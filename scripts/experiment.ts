@@ -5,7 +5,7 @@
 // Used for the ablation tables in docs/: every row there names the command that produced it.
 
 import { initBackend } from '../src/core/model/backend';
-import { POOL_POINTS, defaultTrainFor } from '../src/core/model/defaults';
+import { POOL_POINTS, defaultTrainFor, libraryTraits } from '../src/core/model/defaults';
 import { getWeights, Trainer, type TrainConfig } from '../src/core/model/train';
 import { PRESETS } from '../src/core/points/augment';
 import { evaluateMethods } from '../src/core/retrieval/evaluate';
@@ -25,8 +25,8 @@ const embedPointsArg = process.argv.indexOf('--embed-points');
 const overrides = JSON.parse(overridesText) as Partial<TrainConfig> & { preset?: keyof typeof PRESETS };
 const backend = await initBackend();
 const library = loadLibrary(lib, { quiet: true, points: POOL_POINTS });
-// The library's own defaults (inputs follow its share of closed meshes), then the overrides.
-const DEFAULT_TRAIN = defaultTrainFor(library.parts.map((p) => p.info.closed));
+// The library's own defaults (inputs follow its share of closed meshes, pose how square its parts sit in their files), then the overrides.
+const DEFAULT_TRAIN = defaultTrainFor(libraryTraits(library.parts));
 const config: TrainConfig = {
   ...DEFAULT_TRAIN,
   ...overrides,
@@ -64,4 +64,4 @@ if (saveArg > 0) await saveRun(process.argv[saveArg + 1], {
 });
 trainer.dispose();
 const round = (m: Record<string, number>) => Object.fromEntries(Object.entries(m).map(([k, v]) => [k, Math.round(v * 1000) / 1000]));
-console.log(JSON.stringify({ overrides, inputs: config.encoder.inputFeatures, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}), retrieval: config.encoder.retrieval ?? 'pooled', edge: config.encoder.edge?.k ?? 0, scale: config.pipeline.steps.find((s) => s.kind === 'scale')?.strength ?? 0, diffusionOrder: 'nearest first', resamplings: RETRIEVAL_RESAMPLINGS, learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!), meanPairCosine: Math.round(meanPairCosine * 1000) / 1000, diffused: { learned: round(report.methods['learned+diffusion']!), untrained: round(report.methods['untrained+diffusion']!), d2: round(report.methods['d2+diffusion']!) } }));
+console.log(JSON.stringify({ overrides, inputs: config.encoder.inputFeatures, pose: config.pose, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}), retrieval: config.encoder.retrieval ?? 'pooled', edge: config.encoder.edge?.k ?? 0, scale: config.pipeline.steps.find((s) => s.kind === 'scale')?.strength ?? 0, diffusionOrder: 'nearest first', resamplings: RETRIEVAL_RESAMPLINGS, learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!), meanPairCosine: Math.round(meanPairCosine * 1000) / 1000, diffused: { learned: round(report.methods['learned+diffusion']!), untrained: round(report.methods['untrained+diffusion']!), d2: round(report.methods['d2+diffusion']!) } }));

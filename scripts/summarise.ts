@@ -23,6 +23,8 @@ interface Run {
   scale?: number;
   /** Since retrieval averages over resamplings: how many (absent: 1). */
   resamplings?: number;
+  /** Since the pose follows the library: the pose used (absent: principal axes, or as in the overrides). */
+  pose?: string;
 }
 
 const runs: Run[] = process.argv.slice(2).flatMap((f) => readFileSync(f, 'utf8').split('\n').filter((l) => l.startsWith('{')).map((l) => JSON.parse(l) as Run));
@@ -31,7 +33,7 @@ for (const r of runs) {
   const { seed: _seed, ...rest } = r.overrides;
   // Runs before the inputs rule carry no `inputs` (they used normals); before the retrieval change, no `retrieval` (pooled).
   // Defaults changed over time, so the points a view and the steps taken are part of the key too.
-  const key = `${JSON.stringify(rest)} inputs ${r.inputs ?? 'xyz+normal'} retrieval ${r.retrieval ?? 'pooled'} points ${r.embedPoints ?? 512} steps ${r.steps ?? '?'}${r.init ? ` init ${r.init}` : ''}${r.edge !== undefined ? ` edge k ${r.edge} scale ${r.scale}` : ''}${(r.resamplings ?? 1) > 1 ? ` resamplings ${r.resamplings}` : ''}`;
+  const key = `${JSON.stringify(rest)} inputs ${r.inputs ?? 'xyz+normal'} retrieval ${r.retrieval ?? 'pooled'} points ${r.embedPoints ?? 512} steps ${r.steps ?? '?'}${r.init ? ` init ${r.init}` : ''}${r.edge !== undefined ? ` edge k ${r.edge} scale ${r.scale}` : ''}${(r.resamplings ?? 1) > 1 ? ` resamplings ${r.resamplings}` : ''}${r.pose && r.pose !== 'principal-axes' && !('pose' in rest) ? ` pose ${r.pose}` : ''}`;
   groups.set(key, [...(groups.get(key) ?? []), r]);
 }
 const stat = (xs: number[]) => {

@@ -5,8 +5,8 @@ import { extname } from 'node:path';
 import { parseArgs } from 'node:util';
 import { initBackend } from '../core/model/backend';
 import { encoderFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
-import { DEFAULT_TRAIN, POOL_POINTS, defaultTrainFor, inputsReason } from '../core/model/defaults';
-import { embedForRetrieval, type ModelPart } from '../core/model/embed';
+import { DEFAULT_TRAIN, POOL_POINTS, defaultTrainFor, inputsReason, libraryTraits, poseReason } from '../core/model/defaults';
+import { embedForRetrieval, POSE_LABELS, POSES, type ModelPart } from '../core/model/embed';
 import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type Encoder, type InputFeatures } from '../core/model/encoder';
 import { DEFAULT_CLASS_PRIOR, LOSS_NAMES, type LossName } from '../core/model/losses';
 import { getWeights, Trainer, type TrainConfig } from '../core/model/train';
@@ -36,7 +36,8 @@ usage:
                  [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--class-prior P] [--resume]
                  [--inputs ${INPUT_FEATURES.join('|')}]   (default: normals only if most meshes are closed)
                  [--neighbours K]   (a first layer over each point's K nearest neighbours, EdgeConv; 0: off)
-                 [--pose principal-axes|as-is]   (as-is: keep the files' own frame, for libraries modelled in one; augmentations default to file-pose)
+                 [--pose principal-axes|file-axes|as-is]   (default: file-axes when most parts sit square in their files' axes)
+                 (as-is also keeps each axis's sign; its augmentations default to file-pose)
   shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy>
   shapekin query <mesh-file> --model <run-dir> --library <library-dir> [-k 10] [--size-ratio R] [--order diffusion|cosine] [--json]
                  (diffusion: ranked through the library's neighbour graph; cosine: by similarity to the query alone)
@@ -93,12 +94,13 @@ async function train(lib: string, values: Values): Promise<void> {
   const backend = await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
   const library = loadLibrary(lib, { quiet: values.quiet || values.json, points: POOL_POINTS });
   reportFailures(library.failures, Boolean(values.json));
-  const closed = library.parts.map((p) => p.info.closed);
-  const base = defaultTrainFor(closed);
+  const traits = libraryTraits(library.parts);
+  const closed = traits.closed;
+  const base = defaultTrainFor(traits);
   const inputs = (values.inputs ?? base.encoder.inputFeatures) as InputFeatures;
   if (!INPUT_FEATURES.includes(inputs)) throw new CliError(`--inputs must be one of ${INPUT_FEATURES.join(', ')}, got "${inputs}"`, 2);
   const pose = (values.pose ?? base.pose) as TrainConfig['pose'];
-  if (pose !== 'principal-axes' && pose !== 'as-is') throw new CliError(`--pose must be principal-axes or as-is, got "${pose}"`, 2);
+  if (!POSES.includes(pose)) throw new CliError(`--pose must be one of ${POSES.join(', ')}, got "${pose}"`, 2);
   const neighbours = num(values, 'neighbours', base.encoder.edge?.k ?? 0);
   if (neighbours < 0 || neighbours > 64) throw new CliError(`--neighbours must be 0 (off) to 64, got ${neighbours}`, 2);
   const { edge: _edge, ...plainEncoder } = base.encoder;
@@ -112,8 +114,8 @@ async function train(lib: string, values: Values): Promise<void> {
     batchSize: num(values, 'batch', DEFAULT_TRAIN.batchSize),
     learningRate: num(values, 'lr', DEFAULT_TRAIN.learningRate, false),
     loss: { ...base.loss, name: loss, temperature: num(values, 'temperature', base.loss.temperature, false), ...(values['class-prior'] !== undefined ? { classPrior: num(values, 'class-prior', DEFAULT_CLASS_PRIOR, false) } : {}) },
-    // Without --augment, a kept file pose gets the preset that does not turn the parts.
-    pipeline: values.augment || pose === 'principal-axes' ? pipelineFrom(values.augment) : PRESETS['file-pose'],
+    // Without --augment, a pose kept exactly as in the files (signs included) gets the preset that does not turn the parts.
+    pipeline: values.augment || pose !== 'as-is' ? pipelineFrom(values.augment) : PRESETS['file-pose'],
   };
   const labelNames = [...new Set(library.labels)].sort();
   const labelIds = library.labels.map((l) => labelNames.indexOf(l));
@@ -127,6 +129,7 @@ async function train(lib: string, values: Values): Promise<void> {
   if (!values.json) {
     process.stderr.write(`training on ${library.parts.length} parts, ${trainer.totalSteps} steps (${cfg.epochs} epochs × ${trainer.stepsPerEpoch}), backend ${backend}\n`);
     process.stderr.write(`inputs: ${values.inputs || resume ? INPUT_LABELS[cfg.encoder.inputFeatures] + (resume ? ' (from the saved run)' : ' (--inputs)') : inputsReason(closed)}\n`);
+    process.stderr.write(`pose: ${values.pose || resume ? `${POSE_LABELS[cfg.pose]}${resume ? ' (from the saved run)' : ' (--pose)'}` : poseReason(traits.boxRatios)}\n`);
   }
   const progress = new Progress('training', trainer.totalSteps, values.quiet || values.json);
   const checkpoint = (status: Checkpoint['manifest']['status']) => saveRun(out, {
@@ -233,7 +236,7 @@ async function evaluate(lib: string, values: Values): Promise<void> {
   const library = loadLibrary(lib, { quiet: values.quiet || values.json, ...sampling });
   reportFailures(library.failures, Boolean(values.json));
   const learned = ckpt ? encoderFromCheckpoint(ckpt) : undefined;
-  const config = ckpt?.manifest.config ?? defaultTrainFor(library.parts.map((p) => p.info.closed));
+  const config = ckpt?.manifest.config ?? defaultTrainFor(libraryTraits(library.parts));
   const report = evaluateMethods({ parts: asModelParts(library.parts), labels: library.labels, points: config.points, pose: config.pose, ...(learned ? { learned } : {}), untrainedConfig: config.encoder, seed: config.seed, diffusion: DIFFUSION_DEFAULTS });
   learned?.dispose();
   if (values.json) { console.log(JSON.stringify(report)); return; }

@@ -4,6 +4,8 @@
 
 import { PRESETS } from '../points/augment';
 import { DEFAULT_ENCODER, type InputFeatures } from './encoder';
+import type { Pose } from './embed';
+import { fileFrameBoxRatio } from '../points/pca';
 import { stepsPerEpoch, type TrainConfig } from './train';
 
 export const DEFAULT_TRAIN: TrainConfig = {
@@ -63,7 +65,48 @@ export function defaultEpochs(partCount: number, batchSize = DEFAULT_TRAIN.batch
   return Math.min(DEFAULT_TRAIN.epochs, Math.max(MIN_DEFAULT_EPOCHS, Math.ceil(DEFAULT_STEP_BUDGET / perEpoch)));
 }
 
-/** The default settings for a library, given which of its meshes are closed (one entry per part). */
-export function defaultTrainFor(closed: readonly boolean[]): TrainConfig {
-  return { ...DEFAULT_TRAIN, epochs: defaultEpochs(closed.length), encoder: { ...DEFAULT_TRAIN.encoder, inputFeatures: defaultInputs(closed) } };
+/** A part sits square in its file's axes when its box there is at most this much larger than its principal box. */
+export const FILE_FRAME_FIT = 1.05;
+/**
+ * Share of parts that must sit square in their files' axes for the default pose to keep the files' frame.
+ * Measured (docs/results.md): both real furniture sets (96 % and 90 % square) retrieve better in their files'
+ * frame, where a chair's seat is up whatever its proportions; the demo library (66 %: a third of its parts were
+ * exported turned) keeps the principal-axes pose.
+ */
+export const FILE_FRAME_MIN_SHARE = 0.8;
+
+/** Default pose for a library from each part's file-frame box ratio (points/pca.ts `fileFrameBoxRatio`). */
+export function defaultPose(boxRatios: readonly number[]): Pose {
+  if (boxRatios.length === 0) return DEFAULT_TRAIN.pose;
+  const square = boxRatios.filter((r) => r <= FILE_FRAME_FIT).length;
+  return square / boxRatios.length >= FILE_FRAME_MIN_SHARE ? 'file-axes' : 'principal-axes';
+}
+
+/** Why that pose, in a sentence for the command line and the workbench. */
+export function poseReason(boxRatios: readonly number[]): string {
+  const square = boxRatios.filter((r) => r <= FILE_FRAME_FIT).length;
+  return defaultPose(boxRatios) === 'file-axes'
+    ? `the files' own axes: ${square} of ${boxRatios.length} parts sit square in them`
+    : `principal axes: only ${square} of ${boxRatios.length} parts sit square in their files' axes`;
+}
+
+/** What the defaults read from a library: per part, whether its mesh is closed and how square it sits in its file. */
+export interface LibraryTraits {
+  readonly closed: readonly boolean[];
+  readonly boxRatios: readonly number[];
+}
+
+/** The traits of library parts (their clouds centred, as sampled). */
+export function libraryTraits(parts: readonly { readonly info: { readonly closed: boolean }; readonly points: Float32Array }[]): LibraryTraits {
+  return { closed: parts.map((p) => p.info.closed), boxRatios: parts.map((p) => fileFrameBoxRatio(p.points)) };
+}
+
+/** The default settings for a library (inputs from its closed meshes, pose from its files' frames, epochs from its size). */
+export function defaultTrainFor(traits: LibraryTraits): TrainConfig {
+  return {
+    ...DEFAULT_TRAIN,
+    epochs: defaultEpochs(traits.closed.length),
+    pose: defaultPose(traits.boxRatios),
+    encoder: { ...DEFAULT_TRAIN.encoder, inputFeatures: defaultInputs(traits.closed) },
+  };
 }

@@ -45,12 +45,23 @@ export function fillSlot(out: Float32Array, slot: number, n: number, features: I
   }
 }
 
-/** How parts are posed before the encoder sees them. */
-export type Pose = 'as-is' | 'principal-axes';
+/**
+ * How parts are posed before the encoder sees them: rotated into their principal frame; kept in their files' axes
+ * with each axis's sign left open (as for the principal frame: training flips, retrieval averages the four proper
+ * sign choices); or exactly as in the files.
+ */
+export type Pose = 'principal-axes' | 'file-axes' | 'as-is';
+export const POSES: readonly Pose[] = ['principal-axes', 'file-axes', 'as-is'];
+/** The poses in plain words, for the command line and the workbench. */
+export const POSE_LABELS: Record<Pose, string> = {
+  'principal-axes': 'principal axes',
+  'file-axes': "the files' axes, signs open",
+  'as-is': 'exactly as in the files',
+};
 
-/** Parts in the pose the model expects: unchanged, or rotated into their principal frame. */
+/** Parts in the pose the model expects: rotated into their principal frame, or unchanged. */
 export function posed(parts: readonly ModelPart[], pose: Pose): ModelPart[] {
-  if (pose === 'as-is') return [...parts];
+  if (pose !== 'principal-axes') return [...parts];
   return parts.map((p) => {
     const c = alignToPrincipalAxes(makeCloud(p.points, p.normals));
     return { points: c.positions, normals: c.normals ?? p.normals, ...(p.local ? { local: p.local } : {}) };
@@ -79,7 +90,7 @@ export function resampled(p: ModelPart, r: number, n: number): ModelPart {
 
 /**
  * Retrieval embeddings: the average (then renormalised) over `resamplings` disjoint point subsets of each part
- * and, with a principal-axes pose, over the four proper sign choices of the frame, so the frame's sign
+ * and, unless the pose is exactly as in the files, over the four proper sign choices of the frame, so the frame's sign
  * ambiguity cannot change the result. The pose is found from the whole pool, once.
  */
 export function embedForRetrieval(encoder: Encoder, parts: readonly ModelPart[], n: number, pose: Pose, resamplings = RETRIEVAL_RESAMPLINGS): Float32Array {

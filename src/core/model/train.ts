@@ -8,7 +8,7 @@ import { makeCloud } from '../points/cloud';
 import { drawIndices } from '../points/sample';
 import { createRng, hashString, type Rng } from '../rng';
 import { Adam, cosineWithWarmup, type AdamState } from './adam';
-import { embedParts, fillSlot, posed, withLocalShape, type ModelPart, type Pose } from './embed';
+import { embedParts, fillSlot, posed, POSES, withLocalShape, type ModelPart, type Pose } from './embed';
 import { Encoder, inputChannels, usesLocalShape, validateEncoderConfig, type EncoderConfig } from './encoder';
 import { computeLoss, LOSS_NAMES, type LossSettings } from './losses';
 import { iMixLoss, mixTargets } from './losses/imix';
@@ -19,7 +19,7 @@ export interface TrainConfig {
   readonly encoder: EncoderConfig;
   readonly loss: LossSettings;
   readonly pipeline: Pipeline;
-  /** Pose parts before encoding: as they are, or in their principal-axes frame. */
+  /** Pose parts before encoding: in their principal-axes frame, in their files' axes (signs open), or exactly as they are. */
   readonly pose: Pose;
   /** Points per view. */
   readonly points: number;
@@ -162,7 +162,7 @@ export class Trainer {
   constructor(parts: readonly ModelPart[], config: TrainConfig, options: TrainerOptions = {}) {
     validateTrainConfig(config, parts.length);
     if (config.loss.name === 'supervised-contrastive' && !options.labels) throw new RangeError('supervised-contrastive loss needs labels (folders or labels.csv)');
-    if (config.pose !== 'as-is' && config.pose !== 'principal-axes') throw new RangeError(`training: pose must be as-is or principal-axes, got ${config.pose}`);
+    if (!POSES.includes(config.pose)) throw new RangeError(`training: pose must be one of ${POSES.join(', ')}, got ${config.pose}`);
     this.config = config;
     this.parts = posed(withLocalShape(parts, config.encoder.inputFeatures), config.pose);
     this.labels = options.labels ?? null;

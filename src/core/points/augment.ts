@@ -95,9 +95,9 @@ export const PRESETS: Record<'gentle' | 'scan-like' | 'aggressive' | 'any-orient
   },
   'any-orientation': { version: 1, upAxis: 'z', steps: [step('rotate-any', 1), step('scale', 0.4), step('jitter', 0.5)] },
   /**
-   * For parts put in their principal-axes pose first: the pose's sign ambiguity, small pose errors, proportions
-   * that vary within a family (each axis stretched by up to 1.5×: on two real sets this lifted mAP by 0.02–0.03
-   * over 1.2×; docs/results.md), scan damage.
+   * For parts put in a canonical pose first (principal axes, or their files' axes): the pose's sign ambiguity,
+   * small pose errors, proportions that vary within a family (each axis stretched by up to 1.5×: on two real
+   * sets this lifted mAP by 0.02–0.03 over 1.2×; docs/results.md), scan damage.
    */
   'principal-pose': {
     version: 1, upAxis: 'z',

@@ -80,3 +80,28 @@ export function alignToPrincipalAxes(cloud: PointCloud): PointCloud {
 export const SIGN_FLIPS: readonly Mat3[] = [
   [1, 1, 1], [1, -1, -1], [-1, 1, -1], [-1, -1, 1],
 ].map(([a, b, c]) => Float64Array.from([a, 0, 0, 0, b, 0, 0, 0, c]));
+
+/** Volume of a cloud's axis-aligned bounding box, each side at least `floor` (a flat part is not a zero box). */
+export function boxVolume(points: Float32Array, floor = 1e-3): number {
+  const lo = [Infinity, Infinity, Infinity], hi = [-Infinity, -Infinity, -Infinity];
+  for (let i = 0; i < points.length; i += 3) {
+    for (let a = 0; a < 3; a++) {
+      const v = points[i + a];
+      if (v < lo[a]) lo[a] = v;
+      if (v > hi[a]) hi[a] = v;
+    }
+  }
+  let volume = 1;
+  for (let a = 0; a < 3; a++) volume *= Math.max(floor, hi[a] - lo[a]);
+  return volume;
+}
+
+/**
+ * How square a part sits in its file's own axes: the volume of its bounding box in those axes over the volume in
+ * its principal axes (cloud centred). Parts modelled square to their axes, as most CAD and furniture exports are,
+ * give about 1 or less (principal axes of an L-shaped or asymmetric part are tilted, so its principal box is
+ * larger); a part turned arbitrarily in its file gives more (a cube turned 45° about one axis gives 2).
+ */
+export function fileFrameBoxRatio(points: Float32Array): number {
+  return boxVolume(points) / boxVolume(transformPoints(principalFrame(points), points));
+}

@@ -4,7 +4,7 @@
 import { LitElement, css, html } from 'lit';
 import { DEFAULT_SAMPLING, type LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
-import { DEFAULT_TRAIN, POOL_POINTS, defaultEpochs, defaultInputs, inputsReason } from '../../core/model/defaults';
+import { DEFAULT_TRAIN, POOL_POINTS, defaultEpochs, defaultInputs, defaultPose, inputsReason, libraryTraits, poseReason, type LibraryTraits } from '../../core/model/defaults';
 import type { HeldOutCheck, TrainConfig, TrainProgress } from '../../core/model/train';
 import type { Pipeline } from '../../core/points/augment';
 import { EmbeddingIndex } from '../../core/retrieval/index';
@@ -64,6 +64,14 @@ export class SkApp extends LitElement {
   declare config: TrainConfig;
   private inputsChosen = false;
   private epochsChosen = false;
+  private poseChosen = false;
+  private traitsMemo: { parts: LibraryPart[]; traits: LibraryTraits } | null = null;
+
+  /** What the defaults read from the library (closed meshes, how square parts sit in their files), once per library. */
+  private get traits(): LibraryTraits {
+    if (this.traitsMemo?.parts !== this.parts) this.traitsMemo = { parts: this.parts, traits: libraryTraits(this.parts) };
+    return this.traitsMemo.traits;
+  }
   declare trainStatus: TrainStatusView;
   declare progress: TrainProgress | null;
   declare history: { step: number; loss: number }[];
@@ -184,12 +192,14 @@ export class SkApp extends LitElement {
   }
 
   /**
-   * Until a model exists or the user picks them, inputs and epochs follow the library: normals only if mostly
-   * closed, and fewer epochs on a large library (a step budget).
+   * Until a model exists or the user picks them, inputs, pose and epochs follow the library: normals only if mostly
+   * closed, the files' own frame if most parts sit square in it, and fewer epochs on a large library (a step budget).
    */
   private applyLibraryDefaults(): void {
     if (this.model || this.parts.length === 0) return;
-    const inputFeatures = defaultInputs(this.parts.map((p) => p.info.closed));
+    const inputFeatures = defaultInputs(this.traits.closed);
+    const pose = defaultPose(this.traits.boxRatios);
+    if (!this.poseChosen && pose !== this.config.pose) this.config = { ...this.config, pose };
     if (!this.inputsChosen && inputFeatures !== this.config.encoder.inputFeatures) this.config = { ...this.config, encoder: { ...this.config.encoder, inputFeatures } };
     const epochs = defaultEpochs(this.parts.length, this.config.batchSize);
     if (!this.epochsChosen && epochs !== this.config.epochs) this.config = { ...this.config, epochs };
@@ -448,10 +458,11 @@ export class SkApp extends LitElement {
         return html`<sk-train-panel .config=${this.config} .status=${this.trainStatus} .progress=${this.progress} .history=${this.history} .checks=${this.checks}
           .backend=${this.backend} .partCount=${this.parts.length} .hasLabels=${new Set(this.parts.map((p) => p.label)).size > 1}
           .savedStep=${this.model?.manifest.step ?? 0} .savedTotal=${this.model?.manifest.totalSteps ?? 0}
-          .inputsNote=${this.parts.length ? inputsReason(this.parts.map((p) => p.info.closed)) : ''}
+          .inputsNote=${this.parts.length ? inputsReason(this.traits.closed) : ''} .poseNote=${this.parts.length ? poseReason(this.traits.boxRatios) : ''}
           @config-change=${(e: CustomEvent<TrainConfig>) => {
             if (e.detail.encoder.inputFeatures !== this.config.encoder.inputFeatures) this.inputsChosen = true;
             if (e.detail.epochs !== this.config.epochs) this.epochsChosen = true;
+            if (e.detail.pose !== this.config.pose) this.poseChosen = true;
             this.config = e.detail; this.pipeline = e.detail.pipeline;
           }}
           @train-start=${(e: CustomEvent<TrainConfig>) => this.startTraining(e.detail)}

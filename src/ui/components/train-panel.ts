@@ -7,6 +7,7 @@ import { DEFAULT_CLASS_PRIOR, LOSS_NAMES, type LossName } from '../../core/model
 import type { TrainConfig, TrainProgress, HeldOutCheck } from '../../core/model/train';
 import { PRESETS } from '../../core/points/augment';
 import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../../core/model/encoder';
+import { POSE_LABELS, POSES } from '../../core/model/embed';
 import type { TrainStatusView } from '../status';
 import './loss-chart';
 
@@ -16,6 +17,7 @@ export class SkTrainPanel extends LitElement {
     history: { attribute: false }, checks: { attribute: false }, backend: { type: String },
     savedStep: { type: Number }, savedTotal: { type: Number }, partCount: { type: Number }, hasLabels: { type: Boolean },
     inputsNote: { type: String },
+    poseNote: { type: String },
   };
   declare config: TrainConfig;
   declare status: TrainStatusView;
@@ -29,6 +31,7 @@ export class SkTrainPanel extends LitElement {
   declare hasLabels: boolean;
   /** Why the library's default inputs are what they are. */
   declare inputsNote: string;
+  declare poseNote: string;
 
   constructor() {
     super();
@@ -42,6 +45,7 @@ export class SkTrainPanel extends LitElement {
     this.partCount = 0;
     this.hasLabels = false;
     this.inputsNote = '';
+    this.poseNote = '';
   }
 
   static override styles = css`
@@ -98,16 +102,15 @@ export class SkTrainPanel extends LitElement {
           <label for="inputs">per-point inputs</label><select id="inputs" title=${this.inputsNote} ?disabled=${busy} @change=${(e: Event) => this.set('encoder', { ...c.encoder, inputFeatures: (e.target as HTMLSelectElement).value as InputFeatures })}>
             ${INPUT_FEATURES.map((f) => html`<option value=${f} ?selected=${c.encoder.inputFeatures === f}>${INPUT_LABELS[f]}</option>`)}
           </select>
-          <label for="pose">pose</label><select id="pose" ?disabled=${busy} @change=${(e: Event) => this.set('pose', (e.target as HTMLSelectElement).value as TrainConfig['pose'])}>
-            <option value="principal-axes" ?selected=${c.pose === 'principal-axes'}>principal axes</option>
-            <option value="as-is" ?selected=${c.pose === 'as-is'}>as in the file</option>
+          <label for="pose">pose</label><select id="pose" title=${this.poseNote} ?disabled=${busy} @change=${(e: Event) => this.set('pose', (e.target as HTMLSelectElement).value as TrainConfig['pose'])}>
+            ${POSES.map((p) => html`<option value=${p} ?selected=${c.pose === p}>${POSE_LABELS[p]}</option>`)}
           </select>
           <label for="nbrs" title="a first layer that looks at each point's nearest neighbours (EdgeConv); a step takes about 3× (16) to 5× (32) as long as without it">neighbour layer</label><select id="nbrs" ?disabled=${busy} @change=${(e: Event) => { const k = Number((e.target as HTMLSelectElement).value); const { edge: _edge, ...rest } = c.encoder; this.set('encoder', k > 0 ? { ...rest, edge: { k, width: EDGE_WIDTH } } : rest); }}>
             ${[0, 8, 16, 32].map((k) => html`<option value=${k} ?selected=${(c.encoder.edge?.k ?? 0) === k}>${k === 0 ? 'off' : `${k} neighbours`}</option>`)}
           </select>
           <label for="seed">seed</label><input id="seed" type="number" min="0" step="1" .value=${String(c.seed)} ?disabled=${busy} @change=${(e: Event) => this.set('seed', this.num(e))} />
           <label for="held">held out</label><input id="held" type="number" min="0" max="0.5" step="0.05" .value=${String(c.heldOutFraction)} ?disabled=${busy} @change=${(e: Event) => this.set('heldOutFraction', this.num(e))} />
-          <div class="note">${this.partCount} parts → ${stepsPerEpoch} steps an epoch, ${stepsPerEpoch * c.epochs} steps. Labels are never needed, except by the supervised-contrastive loss.${this.inputsNote ? html`<br />Default inputs for this library: ${this.inputsNote}.` : null}</div>
+          <div class="note">${this.partCount} parts → ${stepsPerEpoch} steps an epoch, ${stepsPerEpoch * c.epochs} steps. Labels are never needed, except by the supervised-contrastive loss.${this.inputsNote ? html`<br />Default inputs for this library: ${this.inputsNote}.` : null}${this.poseNote ? html`<br />Default pose: ${this.poseNote}.` : null}</div>
         </form>
         <div class="buttons">
           <button class="primary" ?disabled=${busy || this.partCount < 2} @click=${() => this.emit('train-start', c)}>Start training</button>

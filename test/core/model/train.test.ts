@@ -6,7 +6,7 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { loadPart } from '../../../src/core/library';
 import { Adam, cosineWithWarmup } from '../../../src/core/model/adam';
 import { encoderFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../../../src/core/model/checkpoint';
-import { DEFAULT_STEP_BUDGET, DEFAULT_TRAIN, defaultEpochs, defaultInputs, defaultTrainFor, inputsReason, MIN_DEFAULT_EPOCHS } from '../../../src/core/model/defaults';
+import { DEFAULT_STEP_BUDGET, DEFAULT_TRAIN, defaultEpochs, defaultInputs, defaultPose, defaultTrainFor, FILE_FRAME_FIT, inputsReason, MIN_DEFAULT_EPOCHS, poseReason } from '../../../src/core/model/defaults';
 import { embedParts, type ModelPart } from '../../../src/core/model/embed';
 import { getWeights, Trainer, type TrainConfig } from '../../../src/core/model/train';
 import { PRESETS } from '../../../src/core/points/augment';
@@ -236,8 +236,23 @@ describe('default inputs follow the library', () => {
     expect(defaultInputs(lib(49, 103))).toBe('xyz'); // the furniture set
     expect(defaultInputs(lib(112, 0))).toBe('xyz+normal'); // the demo library
     expect(defaultInputs([])).toBe(DEFAULT_TRAIN.encoder.inputFeatures);
-    expect(defaultTrainFor(lib(0, 3)).encoder).toEqual({ ...DEFAULT_TRAIN.encoder, inputFeatures: 'xyz' });
+    expect(defaultTrainFor({ closed: lib(0, 3), boxRatios: [] }).encoder).toEqual({ ...DEFAULT_TRAIN.encoder, inputFeatures: 'xyz' });
     expect(inputsReason(lib(49, 103))).toMatch(/49 of 152/);
+  });
+});
+
+describe('default pose follows how square the parts sit in their files', () => {
+  // The thresholds are our own, from measurements (docs/results.md: both real furniture sets, 96 % and 90 % of
+  // parts square, retrieve better in their files' frame; the demo library, 66 %, keeps principal axes).
+  it('keeps the files\' frame from 80 % of parts within 5 % of their principal box, principal axes below', () => {
+    const lib = (square: number, turned: number) => [...Array(square).fill(0.9), ...Array(turned).fill(2)];
+    expect(defaultPose(lib(8, 2))).toBe('file-axes');
+    expect(defaultPose(lib(7, 3))).toBe('principal-axes');
+    expect(defaultPose([FILE_FRAME_FIT, FILE_FRAME_FIT + 1e-9])).toBe('principal-axes'); // one of two square
+    expect(defaultPose([])).toBe(DEFAULT_TRAIN.pose);
+    expect(defaultTrainFor({ closed: [true, true], boxRatios: [1, 1] }).pose).toBe('file-axes');
+    expect(poseReason(lib(146, 6))).toMatch(/files' own axes: 146 of 152/);
+    expect(poseReason(lib(74, 38))).toMatch(/principal axes: only 74 of 112/);
   });
 });
 
@@ -249,6 +264,6 @@ describe('default epochs follow the library size (a step budget; our own measure
     expect(defaultEpochs(1000)).toBe(Math.ceil(DEFAULT_STEP_BUDGET / 31)); // 31 steps an epoch → 21 epochs, 651 steps
     expect(defaultEpochs(20_000)).toBe(MIN_DEFAULT_EPOCHS);
     expect(defaultEpochs(1000, 16)).toBe(11); // 62 steps an epoch
-    expect(defaultTrainFor(Array(1000).fill(false)).epochs).toBe(21);
+    expect(defaultTrainFor({ closed: Array(1000).fill(false), boxRatios: [] }).epochs).toBe(21);
   });
 });

@@ -2,7 +2,8 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { Encoder, DEFAULT_ENCODER } from '../../../src/core/model/encoder';
 import { embedForRetrieval, embedParts, resampled, RETRIEVAL_RESAMPLINGS } from '../../../src/core/model/embed';
 import { makeCloud } from '../../../src/core/points/cloud';
-import { alignToPrincipalAxes, principalFrame, symmetricEigen3 } from '../../../src/core/points/pca';
+import { defaultPose } from '../../../src/core/model/defaults';
+import { alignToPrincipalAxes, boxVolume, fileFrameBoxRatio, principalFrame, symmetricEigen3 } from '../../../src/core/points/pca';
 import { axisAngle, randomRotation, transformPoints } from '../../../src/core/points/rotation';
 import { createRng } from '../../../src/core/rng';
 import { expectClose } from '../../helpers';
@@ -73,6 +74,49 @@ describe('principal-axes pose', () => {
 
 // Test-time augmentation: averaging a model's outputs over several versions of one input is common practice
 // (Krizhevsky, Sutskever & Hinton 2012 averaged over ten crops; from memory).
+describe('how square a part sits in its file (file-frame box over principal box)', () => {
+  /** A centred lattice filling a cuboid with half-extents a: symmetric, so its principal axes are the cuboid's. */
+  function cuboidLattice(a: readonly [number, number, number], steps = 8): Float32Array {
+    const out: number[] = [];
+    for (let i = 0; i <= steps; i++) for (let j = 0; j <= steps; j++) for (let k = 0; k <= steps; k++) {
+      out.push(a[0] * (2 * i / steps - 1), a[1] * (2 * j / steps - 1), a[2] * (2 * k / steps - 1));
+    }
+    return Float32Array.from(out);
+  }
+  const a: [number, number, number] = [1, 0.5, 0.25];
+
+  it('is 1 for a cuboid square to its file axes, in any order of its sides', () => {
+    expectClose(fileFrameBoxRatio(cuboidLattice(a)), 1, { atol: 1e-6 });
+    expectClose(fileFrameBoxRatio(cuboidLattice([0.25, 1, 0.5])), 1, { atol: 1e-6 });
+  });
+
+  it('matches the box of a turned box, half-extent Σⱼ |Rᵢⱼ| aⱼ on axis i (Ericson, Real-Time Collision Detection, 2004, §4.2.6)', () => {
+    // Worked by hand: 2 × 1 × 0.5 turned 45° about z has half-extents 1.5/√2, 1.5/√2, 0.25 → volume ratio 2.25.
+    const r45 = axisAngle([0, 0, 1], Math.PI / 4);
+    expectClose(fileFrameBoxRatio(transformPoints(r45, cuboidLattice(a))), 2.25, { atol: 1e-5 });
+    const rng = createRng(11);
+    for (let t = 0; t < 5; t++) {
+      const r = randomRotation(rng);
+      let expected = 1;
+      for (let i = 0; i < 3; i++) expected *= (Math.abs(r[i * 3]) * a[0] + Math.abs(r[i * 3 + 1]) * a[1] + Math.abs(r[i * 3 + 2]) * a[2]) / a[i];
+      expectClose(fileFrameBoxRatio(transformPoints(r, cuboidLattice(a))), expected, { rtol: 1e-5 });
+    }
+  });
+
+  it('sends a library of parts turned at random to the principal-axes pose, and the same parts square to the file axes', () => {
+    const rng = createRng(12);
+    const parts = Array.from({ length: 20 }, (_, i) => cuboidLattice([1, 0.4 + 0.02 * i, 0.2], 5));
+    expect(defaultPose(parts.map((p) => fileFrameBoxRatio(p)))).toBe('file-axes');
+    expect(defaultPose(parts.map((p) => fileFrameBoxRatio(transformPoints(randomRotation(rng), p))))).toBe('principal-axes');
+  });
+
+  it('gives a flat part a thin box instead of a zero one', () => {
+    const flat = Float32Array.from([-1, -1, 0, 1, -1, 0, 1, 1, 0, -1, 1, 0]);
+    expectClose(boxVolume(flat), 4e-3, { rtol: 1e-9 });
+    expect(Number.isFinite(fileFrameBoxRatio(flat))).toBe(true);
+  });
+});
+
 describe('retrieval embedding averaged over resamplings', () => {
   it('subset r is the n pool points from r·n on, wrapping; the subsets of a 4n pool are disjoint and cover it', () => {
     const p = skewedCloud(64, 6);

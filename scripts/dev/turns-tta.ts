@@ -1,0 +1,31 @@
+// Diagnostic: retrieval embeddings also averaged over small turns of each part (test-time augmentation), on a
+// saved run, by cosine and through the library; and the same model read without the sign-flip average.
+//   npx tsx scripts/dev/turns-tta.ts <library-dir> <run-dir> [degrees ...]
+import { embedForRetrieval } from '../../src/core/model/embed';
+import { axisAngle, transformPoints } from '../../src/core/points/rotation';
+import { DIFFUSION_DEFAULTS, diffusedSimilarity } from '../../src/core/retrieval/diffusion';
+import { cosineSimilarity, evaluateRetrieval } from '../../src/core/retrieval/metrics';
+import { openSavedRun } from './saved-run';
+
+const [libDir, runDir, ...ds] = process.argv.slice(2);
+const { lib, parts, enc, cfg } = await openSavedRun(libDir, runDir);
+const r3 = (m: { nn: number; first_tier: number; map: number }) => `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
+const score = (v: Float32Array) => {
+  const sim = cosineSimilarity(v, v.length / parts.length);
+  return `${r3(evaluateRetrieval(lib.labels, sim))} · ${r3(evaluateRetrieval(lib.labels, diffusedSimilarity(parts.length, sim, DIFFUSION_DEFAULTS)))}`;
+};
+console.log(`as trained (${cfg.pose}): ${score(embedForRetrieval(enc, parts, cfg.points, cfg.pose))}`);
+if (cfg.pose === 'file-axes') console.log(`without the sign-flip average: ${score(embedForRetrieval(enc, parts, cfg.points, 'as-is'))}`);
+for (const deg of (ds.length ? ds : ['5', '10']).map(Number)) {
+  const turns = [null, ...[[1, 0, 0], [0, 1, 0], [0, 0, 1]].flatMap((axis) => [deg, -deg].map((d) => axisAngle(axis as [number, number, number], (d * Math.PI) / 180)))];
+  const sum = new Float32Array(parts.length * enc.config.projection.at(-1)!);
+  for (const t of turns) {
+    const turned = t ? parts.map((p) => ({ points: transformPoints(t, p.points), normals: transformPoints(t, p.normals) })) : parts;
+    const v = embedForRetrieval(enc, turned, cfg.points, cfg.pose);
+    for (let i = 0; i < v.length; i++) sum[i] += v[i];
+  }
+  const D = sum.length / parts.length;
+  for (let o = 0; o < sum.length; o += D) { let s = 0; for (let d = 0; d < D; d++) s += sum[o + d] ** 2; for (let d = 0; d < D; d++) sum[o + d] /= Math.sqrt(s); }
+  console.log(`± ${deg}° about each axis (7 poses): ${score(sum)}`);
+}
+enc.dispose();
