@@ -68,6 +68,9 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     expect(await page.getByLabel('per-point inputs').inputValue()).toBe('xyz+normal');
     expect(await page.getByLabel('neighbour layer').inputValue()).toBe('32'); // the EdgeConv default
     await page.getByText(/Default inputs for this library: x y z \+ normal: 112 of 112 meshes are closed/).waitFor({ timeout: 10_000 });
+    // A third of the demo was exported turned, so it keeps the principal-axes pose, and says why.
+    expect(await page.getByLabel('pose', { exact: true }).inputValue()).toBe('principal-axes');
+    await page.getByText(/Default pose: principal axes: only 74 of 112 parts sit square in their files' axes/).waitFor({ timeout: 10_000 });
     await page.getByLabel('epochs').fill('3');
     await page.getByLabel('epochs').dispatchEvent('change');
     await page.getByRole('button', { name: 'Start training' }).click();
