@@ -4,6 +4,7 @@
 import { embedForRetrieval } from '../../src/core/model/embed';
 import { axisAngle, transformPoints } from '../../src/core/points/rotation';
 import { DIFFUSION_DEFAULTS, diffusedSimilarity } from '../../src/core/retrieval/diffusion';
+import { normaliseRows } from '../../src/core/retrieval/index';
 import { cosineSimilarity, evaluateRetrieval } from '../../src/core/retrieval/metrics';
 import { openSavedRun } from './saved-run';
 
@@ -24,8 +25,6 @@ for (const deg of (ds.length ? ds : ['5', '10']).map(Number)) {
     const v = embedForRetrieval(enc, turned, cfg.points, cfg.pose);
     for (let i = 0; i < v.length; i++) sum[i] += v[i];
   }
-  const D = sum.length / parts.length;
-  for (let o = 0; o < sum.length; o += D) { let s = 0; for (let d = 0; d < D; d++) s += sum[o + d] ** 2; for (let d = 0; d < D; d++) sum[o + d] /= Math.sqrt(s); }
-  console.log(`± ${deg}° about each axis (7 poses): ${score(sum)}`);
+  console.log(`± ${deg}° about each axis (7 poses): ${score(normaliseRows(sum, sum.length / parts.length))}`);
 }
 enc.dispose();

@@ -6,6 +6,7 @@ import { localShapeOf } from '../points/local';
 import { alignToPrincipalAxes, SIGN_FLIPS } from '../points/pca';
 import { makeCloud } from '../points/cloud';
 import { transformPoints } from '../points/rotation';
+import { normaliseRows } from '../retrieval/index';
 
 /** A part as the model sees it: a pool of unit-sphere points (stride 3) with normals. */
 export interface ModelPart {
@@ -105,14 +106,7 @@ export function embedForRetrieval(encoder: Encoder, parts: readonly ModelPart[],
       if (!sum) sum = e; else for (let i = 0; i < e.length; i++) sum[i] += e[i];
     }
   }
-  const D = sum!.length / Math.max(1, parts.length);
-  for (let o = 0; o < sum!.length; o += D) {
-    let s = 0;
-    for (let d = 0; d < D; d++) s += sum![o + d] ** 2;
-    const inv = 1 / Math.sqrt(s || 1);
-    for (let d = 0; d < D; d++) sum![o + d] *= inv;
-  }
-  return sum!;
+  return normaliseRows(sum!, sum!.length / Math.max(1, parts.length));
 }
 
 /** Unit-length embeddings (count × D, row-major) of parts, n points each, in batches. */

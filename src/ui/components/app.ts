@@ -66,12 +66,6 @@ export class SkApp extends LitElement {
   private epochsChosen = false;
   private poseChosen = false;
   private traitsMemo: { parts: LibraryPart[]; traits: LibraryTraits } | null = null;
-
-  /** What the defaults read from the library (closed meshes, how square parts sit in their files), once per library. */
-  private get traits(): LibraryTraits {
-    if (this.traitsMemo?.parts !== this.parts) this.traitsMemo = { parts: this.parts, traits: libraryTraits(this.parts) };
-    return this.traitsMemo.traits;
-  }
   declare trainStatus: TrainStatusView;
   declare progress: TrainProgress | null;
   declare history: { step: number; loss: number }[];
@@ -90,6 +84,12 @@ export class SkApp extends LitElement {
   private thumbQueue: LibraryPart[] = [];
   private thumbTimer = 0;
   private embedVersion = 0;
+
+  /** What the defaults read from the library (closed meshes, how square parts sit in their files), once per library. */
+  private get traits(): LibraryTraits {
+    if (this.traitsMemo?.parts !== this.parts) this.traitsMemo = { parts: this.parts, traits: libraryTraits(this.parts) };
+    return this.traitsMemo.traits;
+  }
 
   constructor() {
     super();
