@@ -1,4 +1,5 @@
-// Diagnostic: leave-one-out quality of several saved encoders alone and with their embeddings concatenated.
+// Diagnostic: leave-one-out quality of several saved encoders alone and with their embeddings concatenated,
+// by cosine and through the library.
 //   npx tsx scripts/dev/ensemble.ts <library-dir> <run-dir> <run-dir>...
 import { initBackend } from '../../src/core/model/backend';
 import { POOL_POINTS } from '../../src/core/model/defaults';
@@ -7,13 +8,19 @@ import { loadRun } from '../../src/cli/run-dir';
 import { encoderFromCheckpoint } from '../../src/core/model/checkpoint';
 import { embedForRetrieval } from '../../src/core/model/embed';
 import { evaluateRetrieval, cosineSimilarity } from '../../src/core/retrieval/metrics';
+import { DIFFUSION_DEFAULTS, diffusedSimilarity } from '../../src/core/retrieval/diffusion';
 
 await initBackend();
 const [libDir, ...runs] = process.argv.slice(2);
 const lib = loadLibrary(libDir, { quiet: true, points: POOL_POINTS });
 const parts = lib.parts.map((p) => ({ points: p.points, normals: p.normals }));
 const N = parts.length;
-const r = (m: { nn: number; first_tier: number; map: number }) => `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
+const r3 = (m: { nn: number; first_tier: number; map: number }) => `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
+// By cosine · through the library (diffusion, as the search orders).
+const score = (v: Float32Array, d: number) => {
+  const sim = cosineSimilarity(v, d);
+  return `${r3(evaluateRetrieval(lib.labels, sim))} · ${r3(evaluateRetrieval(lib.labels, diffusedSimilarity(N, sim, DIFFUSION_DEFAULTS)))}`;
+};
 const all: Float32Array[] = [];
 for (const dir of runs) {
   const ckpt = await loadRun(dir);
@@ -21,9 +28,9 @@ for (const dir of runs) {
   const v = embedForRetrieval(enc, parts, ckpt.manifest.config.points, ckpt.manifest.config.pose);
   enc.dispose();
   all.push(v);
-  console.log(dir.padEnd(28), r(evaluateRetrieval(lib.labels, cosineSimilarity(v, v.length / N))));
+  console.log(dir.padEnd(28), score(v, v.length / N));
 }
 const D = all.reduce((s, v) => s + v.length / N, 0);
 const cat = new Float32Array(N * D);
 for (let i = 0, o = 0; i < N; i++) for (const v of all) { const d = v.length / N; for (let k = 0; k < d; k++) cat[o++] = v[i * d + k] / Math.sqrt(all.length); }
-console.log('concatenated'.padEnd(28), r(evaluateRetrieval(lib.labels, cosineSimilarity(cat, D))));
+console.log('concatenated'.padEnd(28), score(cat, D));
