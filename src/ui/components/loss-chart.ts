@@ -40,7 +40,7 @@ export class SkLossChart extends LitElement {
     return html`<svg viewBox="0 0 ${W} ${H}" role="img" aria-label="training loss by step${this.checks.length ? ' and held-out recognition' : ''}">
       ${svg`<line class="axis" x1=${L} y1=${H - B} x2=${W - R} y2=${H - B}></line><line class="axis" x1=${L} y1=${T} x2=${L} y2=${H - B}></line>`}
       ${svg`<text x=${L - 4} y=${T + 8} text-anchor="end">${hi.toFixed(2)}</text><text x=${L - 4} y=${H - B} text-anchor="end">${lo.toFixed(2)}</text>`}
-      ${svg`<text x=${W - R} y=${H - 8} text-anchor="end">step ${total}</text><text x=${L} y=${H - 8}>loss (teal)</text>`}
+      ${svg`<text x=${W - R} y=${H - 8} text-anchor="end">step ${total}</text><text x=${L} y=${H - 8}>loss each step (light), smoothed (teal)</text>`}
       ${h.length > 1 ? svg`<polyline class="raw" points=${h.map((p) => `${x(p.step).toFixed(1)},${y(p.loss).toFixed(1)}`).join(' ')}></polyline><polyline class="smooth" points=${smooth.join(' ')}></polyline>` : null}
       ${this.checks.map((c) => svg`<circle class="check" cx=${x(c.step)} cy=${yCheck(c.instanceTop1)} r="4"><title>held-out recognition ${(c.instanceTop1 * 100).toFixed(0)}% at step ${c.step}</title></circle>`)}
       ${this.checks.length ? svg`<text x=${W - R + 4} y=${T + 8}>100%</text><text x=${W - R + 4} y=${H - B}>0%</text><text x=${W - R} y=${T + 22} text-anchor="end" style="fill:#c2571a">held-out recognition (dots)</text>` : null}
