@@ -4,13 +4,15 @@
 //   npx tsx scripts/dev/axis-agreement.ts <library-dir>
 import { FILE_FRAME_FIT, POOL_POINTS } from '../../src/core/model/defaults';
 import { loadLibrary } from '../../src/cli/library-dir';
+import { boundingBox } from '../../src/core/mesh/geometry';
 import { fileFrameBoxRatio } from '../../src/core/points/pca';
 import { d2Descriptors } from '../../src/core/retrieval/methods';
 const lib = loadLibrary(process.argv[2], { quiet: true, points: POOL_POINTS });
+// Each part's extents along its file's axes, as fractions of the longest.
 const ext = lib.parts.map((p) => {
-  const lo = [1e9, 1e9, 1e9], hi = [-1e9, -1e9, -1e9];
-  for (let k = 0; k < p.points.length; k += 3) for (let a = 0; a < 3; a++) { lo[a] = Math.min(lo[a], p.points[k + a]); hi[a] = Math.max(hi[a], p.points[k + a]); }
-  const e = hi.map((h, a) => h - lo[a]); const m = Math.max(...e); return e.map((x) => x / m);
+  const { min, max } = boundingBox(p.points);
+  const e = [0, 1, 2].map((a) => max[a] - min[a]), m = Math.max(...e);
+  return e.map((x) => x / m);
 });
 const square = lib.parts.map((p) => fileFrameBoxRatio(p.points) <= FILE_FRAME_FIT);
 const idx = ext.map((_, i) => i).filter((i) => square[i]);

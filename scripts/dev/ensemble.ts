@@ -7,20 +7,13 @@ import { loadLibrary } from '../../src/cli/library-dir';
 import { loadRun } from '../../src/cli/run-dir';
 import { encoderFromCheckpoint } from '../../src/core/model/checkpoint';
 import { embedForRetrieval } from '../../src/core/model/embed';
-import { evaluateRetrieval, cosineSimilarity } from '../../src/core/retrieval/metrics';
-import { DIFFUSION_DEFAULTS, diffusedSimilarity } from '../../src/core/retrieval/diffusion';
+import { embeddingReadings } from './saved-run';
 
 await initBackend();
 const [libDir, ...runs] = process.argv.slice(2);
 const lib = loadLibrary(libDir, { quiet: true, points: POOL_POINTS });
 const parts = lib.parts.map((p) => ({ points: p.points, normals: p.normals }));
 const N = parts.length;
-const r3 = (m: { nn: number; first_tier: number; map: number }) => `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
-// By cosine · through the library (diffusion, as the search orders).
-const score = (v: Float32Array, d: number) => {
-  const sim = cosineSimilarity(v, d);
-  return `${r3(evaluateRetrieval(lib.labels, sim))} · ${r3(evaluateRetrieval(lib.labels, diffusedSimilarity(N, sim, DIFFUSION_DEFAULTS)))}`;
-};
 const all: Float32Array[] = [];
 for (const dir of runs) {
   const ckpt = await loadRun(dir);
@@ -28,9 +21,9 @@ for (const dir of runs) {
   const v = embedForRetrieval(enc, parts, ckpt.manifest.config.points, ckpt.manifest.config.pose);
   enc.dispose();
   all.push(v);
-  console.log(dir.padEnd(28), score(v, v.length / N));
+  console.log(dir.padEnd(28), embeddingReadings(lib.labels, v));
 }
 const D = all.reduce((s, v) => s + v.length / N, 0);
 const cat = new Float32Array(N * D);
 for (let i = 0, o = 0; i < N; i++) for (const v of all) { const d = v.length / N; for (let k = 0; k < d; k++) cat[o++] = v[i * d + k] / Math.sqrt(all.length); }
-console.log('concatenated'.padEnd(28), score(cat, D));
+console.log('concatenated'.padEnd(28), embeddingReadings(lib.labels, cat));

@@ -1,22 +1,19 @@
 // Diagnostic: hubness reduction on a saved run's retrieval embeddings. CSLS (Conneau et al. 2018):
 // s'(q, j) = 2·cos(q, j) − r(q) − r(j), r(x) the mean cosine of x to its k nearest library parts; for a query's
 // ranking only −r(j) matters, so parts close to everything ("hubs") stop crowding the first hits.
-//   npx tsx scripts/dev/hubness.ts <library-dir> <run-dir>...
+//   [KS=5,10,20,30] npx tsx scripts/dev/hubness.ts <library-dir> <run-dir>...
 import { embedForRetrieval } from '../../src/core/model/embed';
-import { DIFFUSION_DEFAULTS, diffusedSimilarity } from '../../src/core/retrieval/diffusion';
-import { cosineSimilarity, evaluateRetrieval } from '../../src/core/retrieval/metrics';
-import { openSavedRun } from './saved-run';
+import { cosineSimilarity } from '../../src/core/retrieval/metrics';
+import { bothReadings, openSavedRun } from './saved-run';
 
 const [libDir, ...runs] = process.argv.slice(2);
-const r3 = (m: { nn: number; first_tier: number; map: number }) => `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
 for (const run of runs) {
   const { lib, parts, enc, cfg } = await openSavedRun(libDir, run);
   const v = embedForRetrieval(enc, parts, cfg.points, cfg.pose);
   enc.dispose();
   const N = parts.length, cos = cosineSimilarity(v, v.length / N);
-  const score = (sim: (i: number, j: number) => number) => `${r3(evaluateRetrieval(lib.labels, sim))} · ${r3(evaluateRetrieval(lib.labels, diffusedSimilarity(N, sim, DIFFUSION_DEFAULTS)))}`;
-  console.log(run, 'cosine   ', score(cos));
-  for (const k of (process.env.KS ?? "5,10,20,30").split(",").map(Number)) {
+  console.log(run, 'cosine   ', bothReadings(lib.labels, cos));
+  for (const k of (process.env.KS ?? '5,10,20,30').split(',').map(Number)) {
     const r = new Float64Array(N);
     for (let j = 0; j < N; j++) {
       const s: number[] = [];
@@ -24,6 +21,6 @@ for (const run of runs) {
       s.sort((a, b) => b - a);
       r[j] = s.slice(0, k).reduce((a, b) => a + b, 0) / k;
     }
-    console.log(run, `CSLS k=${String(k).padEnd(2)}`, score((i, j) => 2 * cos(i, j) - r[i] - r[j]));
+    console.log(run, `CSLS k=${String(k).padEnd(2)}`, bothReadings(lib.labels, (i, j) => 2 * cos(i, j) - r[i] - r[j]));
   }
 }

@@ -12,7 +12,7 @@ for (const run of runs) {
   const N = parts.length, sim = cosineSimilarity(v, v.length / N);
   for (let i = 0; i < N; i++) {
     let best = -1, bs = -Infinity;
-    for (let j = 0; j < N; j++) if (j !== i && sim(i, j) > bs) { bs = sim(i, j); best = j; }
+    for (let j = 0; j < N; j++) { const s = j === i ? -Infinity : sim(i, j); if (s > bs) { bs = s; best = j; } }
     if (lib.labels[best] !== lib.labels[i]) { const k = lib.parts[i].name; fails.set(k, [...(fails.get(k) ?? []), lib.parts[best].name]); }
   }
 }

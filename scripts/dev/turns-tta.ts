@@ -3,18 +3,12 @@
 //   npx tsx scripts/dev/turns-tta.ts <library-dir> <run-dir> [degrees ...]
 import { embedForRetrieval } from '../../src/core/model/embed';
 import { axisAngle, transformPoints } from '../../src/core/points/rotation';
-import { DIFFUSION_DEFAULTS, diffusedSimilarity } from '../../src/core/retrieval/diffusion';
 import { normaliseRows } from '../../src/core/retrieval/index';
-import { cosineSimilarity, evaluateRetrieval } from '../../src/core/retrieval/metrics';
-import { openSavedRun } from './saved-run';
+import { embeddingReadings, openSavedRun } from './saved-run';
 
 const [libDir, runDir, ...ds] = process.argv.slice(2);
 const { lib, parts, enc, cfg } = await openSavedRun(libDir, runDir);
-const r3 = (m: { nn: number; first_tier: number; map: number }) => `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
-const score = (v: Float32Array) => {
-  const sim = cosineSimilarity(v, v.length / parts.length);
-  return `${r3(evaluateRetrieval(lib.labels, sim))} · ${r3(evaluateRetrieval(lib.labels, diffusedSimilarity(parts.length, sim, DIFFUSION_DEFAULTS)))}`;
-};
+const score = (v: Float32Array) => embeddingReadings(lib.labels, v);
 console.log(`as trained (${cfg.pose}): ${score(embedForRetrieval(enc, parts, cfg.points, cfg.pose))}`);
 if (cfg.pose === 'file-axes') console.log(`without the sign-flip average: ${score(embedForRetrieval(enc, parts, cfg.points, 'as-is'))}`);
 for (const deg of (ds.length ? ds : ['5', '10']).map(Number)) {
