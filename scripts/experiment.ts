@@ -6,7 +6,7 @@
 
 import { initBackend } from '../src/core/model/backend';
 import { POOL_POINTS, defaultTrainFor, libraryTraits } from '../src/core/model/defaults';
-import { getWeights, Trainer, type TrainConfig } from '../src/core/model/train';
+import { Trainer, type TrainConfig } from '../src/core/model/train';
 import { PRESETS } from '../src/core/points/augment';
 import { evaluateMethods } from '../src/core/retrieval/evaluate';
 import { DIFFUSION_DEFAULTS } from '../src/core/retrieval/diffusion';
@@ -53,14 +53,14 @@ const trainer = new Trainer(parts, config, { labels, ...(init ? { initialWeights
 const result = await trainer.run({ yieldEvery: 1000 });
 const seconds = (Date.now() - t0) / 1000;
 const points = embedPointsArg > 0 ? Number(process.argv[embedPointsArg + 1]) : config.points;
-const report = evaluateMethods({ parts, labels: library.labels, points, pose: config.pose, learned: trainer.encoder, untrainedConfig: config.encoder, seed: config.seed, diffusion: DIFFUSION_DEFAULTS });
+const report = evaluateMethods({ parts, labels: library.labels, points, pose: config.pose, learned: trainer.encoders, untrainedConfig: config.encoder, seed: config.seed, diffusion: DIFFUSION_DEFAULTS });
 // How spread out the learned embedding is (diffusion applies below DIFFUSION_MAX_MEAN_COSINE; see EmbeddingIndex.diffusionApplies).
-const learnedVectors = embedForRetrieval(trainer.encoder, parts, points, config.pose);
+const learnedVectors = embedForRetrieval(trainer.encoders, parts, points, config.pose);
 const meanPairCosine = new EmbeddingIndex(learnedVectors, learnedVectors.length / parts.length, parts.map(() => ({ name: '', label: '', diagonal: 1 }))).meanPairCosine();
 const saveArg = process.argv.indexOf('--save');
 if (saveArg > 0) await saveRun(process.argv[saveArg + 1], {
   manifest: { format: 'shapekin-encoder', version: 1, config, sampling: { points: POOL_POINTS, seed: 0 }, step: trainer.step, totalSteps: trainer.totalSteps, status: result.status, backend, history: trainer.history, checks: trainer.checks },
-  weights: getWeights(trainer.encoder), adam: null,
+  weights: trainer.weights(), adam: null,
 });
 trainer.dispose();
 const round = (m: Record<string, number>) => Object.fromEntries(Object.entries(m).map(([k, v]) => [k, Math.round(v * 1000) / 1000]));

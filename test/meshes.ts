@@ -1,10 +1,13 @@
-// Test-side mesh builders: byte-by-byte file writers and three.js geometry adapters.
+// Test-side mesh builders: byte-by-byte file writers, three.js geometry adapters, and the demo library as model parts.
 
 import type { BufferGeometry } from 'three';
 import { finishMesh } from '../src/core/mesh/geometry';
 import type { ImportedMesh } from '../src/core/mesh/types';
-import { readFileSync } from 'node:fs';
+import { readFileSync, readdirSync, statSync } from 'node:fs';
+import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import { loadPart } from '../src/core/library';
+import type { ModelPart } from '../src/core/model/embed';
 
 export function fixture(relative: string): ArrayBuffer {
   const bytes = readFileSync(fileURLToPath(new URL(`./fixtures/${relative}`, import.meta.url)));
@@ -66,4 +69,17 @@ export function fromThree(geometry: BufferGeometry, name: string): ImportedMesh 
   const g = geometry.index ? geometry.toNonIndexed() : geometry;
   const positions = Float32Array.from(g.getAttribute('position').array as ArrayLike<number>);
   return finishMesh(name, 'obj', { positions, indices: null, soup: true }, 0);
+}
+
+/** The demo library's good parts (not its broken/ folder) as model parts, sorted by path, sampled with seed 0. */
+export function demoModelParts(points: number): ModelPart[] {
+  const root = fileURLToPath(new URL('../demo-shapes/', import.meta.url));
+  const files: string[] = [];
+  const walk = (d: string) => readdirSync(d).forEach((n) => { const p = join(d, n); if (statSync(p).isDirectory()) walk(p); else files.push(p); });
+  walk(root);
+  return files.filter((f) => !f.includes('/broken/') && /\.(stl|obj|ply|off)$/.test(f)).sort().map((f) => {
+    const b = readFileSync(f);
+    const part = loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.length), f.slice(root.length), { points, seed: 0 });
+    return { points: part.points, normals: part.normals };
+  });
 }

@@ -1,26 +1,22 @@
-// Diagnostic: hubness reduction on a saved run's retrieval embeddings. CSLS (Conneau et al. 2018):
-// s'(q, j) = 2·cos(q, j) − r(q) − r(j), r(x) the mean cosine of x to its k nearest library parts; for a query's
-// ranking only −r(j) matters, so parts close to everything ("hubs") stop crowding the first hits.
-//   [KS=5,10,20,30] npx tsx scripts/dev/hubness.ts <library-dir> <run-dir>...
-import { embedForRetrieval } from '../../src/core/model/embed';
-import { cosineSimilarity } from '../../src/core/retrieval/metrics';
-import { bothReadings, openSavedRun } from './saved-run';
+// Diagnostic: how much the hub correction (CSLS, Conneau et al. 2018; src/core/retrieval/hubness.ts) does on a saved
+// run, for several k: each line is "by itself · diffused over the graph built from it". The "no correction" line is
+// the ordering before the correction became part of the search; the k = 30 line is what the search does now.
+//   [KS=10,20,30,40] npx tsx scripts/dev/hubness.ts <library-dir> <run-dir>...
+import { disposeEncoders, embedForRetrieval } from '../../src/core/model/embed';
+import { encodersFromCheckpoint } from '../../src/core/model/checkpoint';
+import { DIFFUSION_DEFAULTS, diffusedSimilarity } from '../../src/core/retrieval/diffusion';
+import { hubCorrected } from '../../src/core/retrieval/hubness';
+import { cosineSimilarity, evaluateRetrieval } from '../../src/core/retrieval/metrics';
+import { openSavedRun, threeMeasures } from './saved-run';
 
 const [libDir, ...runs] = process.argv.slice(2);
 for (const run of runs) {
-  const { lib, parts, enc, cfg } = await openSavedRun(libDir, run);
+  const { lib, parts, ckpt, cfg } = await openSavedRun(libDir, run, false);
+  const enc = encodersFromCheckpoint(ckpt);
   const v = embedForRetrieval(enc, parts, cfg.points, cfg.pose);
-  enc.dispose();
+  disposeEncoders(enc);
   const N = parts.length, cos = cosineSimilarity(v, v.length / N);
-  console.log(run, 'cosine   ', bothReadings(lib.labels, cos));
-  for (const k of (process.env.KS ?? '5,10,20,30').split(',').map(Number)) {
-    const r = new Float64Array(N);
-    for (let j = 0; j < N; j++) {
-      const s: number[] = [];
-      for (let x = 0; x < N; x++) if (x !== j) s.push(cos(j, x));
-      s.sort((a, b) => b - a);
-      r[j] = s.slice(0, k).reduce((a, b) => a + b, 0) / k;
-    }
-    console.log(run, `CSLS k=${String(k).padEnd(2)}`, bothReadings(lib.labels, (i, j) => 2 * cos(i, j) - r[i] - r[j]));
-  }
+  const both = (s: (i: number, j: number) => number) => `${threeMeasures(evaluateRetrieval(lib.labels, s))} · ${threeMeasures(evaluateRetrieval(lib.labels, diffusedSimilarity(N, s, DIFFUSION_DEFAULTS)))}`;
+  console.log(run, 'no correction', both(cos));
+  for (const k of (process.env.KS ?? '10,20,30,40').split(',').map(Number)) console.log(run, `CSLS k=${String(k).padEnd(2)}   `, both(hubCorrected(N, cos, k)));
 }

@@ -3,7 +3,7 @@
 // part is also embedded in the five other orders (each averaged over the four sign flips, as retrieval does)
 // and a pair scores its best order, with a penalty w for leaving the pose's own order.
 //   npx tsx scripts/dev/order-match.ts <library-dir> <run-dir>
-import { embedParts, posed } from '../../src/core/model/embed';
+import { embedParts, posed, type SinglePose } from '../../src/core/model/embed';
 import { SIGN_FLIPS } from '../../src/core/points/pca';
 import { transformPoints, type Mat3 } from '../../src/core/points/rotation';
 import { cosineSimilarity, evaluateRetrieval } from '../../src/core/retrieval/metrics';
@@ -11,7 +11,7 @@ import { openSavedRun } from './saved-run';
 
 const [libDir, runDir] = process.argv.slice(2);
 const { lib, parts, enc, cfg } = await openSavedRun(libDir, runDir);
-const ready = posed(parts, cfg.pose);
+const ready = posed(parts, cfg.pose as SinglePose); // encoderFromCheckpoint above accepts one-encoder runs only
 const N = parts.length;
 // The six axis orders as proper turns: the identity, two cyclic shifts, three swaps with one axis negated.
 const orders: Mat3[] = [[0, 1, 2], [1, 2, 0], [2, 0, 1], [1, 0, 2], [0, 2, 1], [2, 1, 0]].map((perm, k) => {

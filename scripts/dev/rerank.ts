@@ -7,7 +7,7 @@
 import { Encoder } from '../../src/core/model/encoder';
 import { setWeights } from '../../src/core/model/train';
 import { createRng } from '../../src/core/rng';
-import { embedParts, posed } from '../../src/core/model/embed';
+import { embedParts, posed, type SinglePose } from '../../src/core/model/embed';
 import { openSavedRun } from './saved-run';
 import { SIGN_FLIPS } from '../../src/core/points/pca';
 import { transformPoints } from '../../src/core/points/rotation';
@@ -30,7 +30,7 @@ function unitRows(v: Float32Array, dim: number): Float32Array {
  * Embeddings averaged over `views` disjoint-offset subsets of each part's pool, posed from the whole pool (as
  * retrieval does) and averaged over the sign flips of a principal-axes pose.
  */
-const ready = posed(parts, cfg.pose);
+const ready = posed(parts, cfg.pose as SinglePose); // encoderFromCheckpoint above accepts one-encoder runs only
 function embedViews(encoder: typeof enc, views: number, points: number): Float32Array {
   let sum: Float32Array | null = null;
   for (let v = 0; v < views; v++) {

@@ -4,15 +4,15 @@ import { writeFileSync } from 'node:fs';
 import { extname } from 'node:path';
 import { parseArgs } from 'node:util';
 import { initBackend } from '../core/model/backend';
-import { encoderFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
+import { encodersFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
 import { DEFAULT_TRAIN, POOL_POINTS, defaultTrainFor, inputsReason, libraryTraits, poseReason } from '../core/model/defaults';
-import { embedForRetrieval, POSE_LABELS, POSES, type ModelPart } from '../core/model/embed';
-import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type Encoder, type InputFeatures } from '../core/model/encoder';
+import { disposeEncoders, embedForRetrieval, POSE_LABELS, POSES, type Encoders, type ModelPart } from '../core/model/embed';
+import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../core/model/encoder';
 import { DEFAULT_CLASS_PRIOR, LOSS_NAMES, type LossName } from '../core/model/losses';
-import { getWeights, Trainer, type TrainConfig } from '../core/model/train';
+import { Trainer, type TrainConfig } from '../core/model/train';
 import { AUGMENT_KINDS, pipelineFromJson, PRESETS, type AugmentKind, type Pipeline } from '../core/points/augment';
 import { duplicateGroups } from '../core/retrieval/duplicates';
-import { evaluateMethods, untrainedEncoder } from '../core/retrieval/evaluate';
+import { evaluateMethods, untrainedEncoders } from '../core/retrieval/evaluate';
 import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
 import { TensorIndex } from '../core/retrieval/tensor-index';
 import type { Ranking } from '../core/retrieval/index';
@@ -36,11 +36,13 @@ usage:
                  [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--class-prior P] [--resume]
                  [--inputs ${INPUT_FEATURES.join('|')}]   (default: normals only if most meshes are closed)
                  [--neighbours K]   (a first layer over each point's K nearest neighbours, EdgeConv; 0: off)
-                 [--pose principal-axes|file-axes|as-is]   (default: file-axes when most parts sit square in their files' axes)
+                 [--pose principal-axes|file-axes|as-is|file-and-principal]
+                 (default: file-and-principal, two encoders trained one after the other, when most parts sit square in
+                 their files' axes; principal-axes otherwise)
                  (as-is also keeps each axis's sign; its augmentations default to file-pose)
   shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy>
   shapekin query <mesh-file> --model <run-dir> --library <library-dir> [-k 10] [--size-ratio R] [--order diffusion|cosine] [--json]
-                 (diffusion: ranked through the library's neighbour graph; cosine: by similarity to the query alone)
+                 (diffusion: through the library — scores corrected for parts near everything, then diffused over its neighbour graph; cosine: by similarity to the query alone)
   shapekin eval <library-dir> [--model <run-dir>] [--json]
   shapekin study <library-dir> --model <run-dir> [--augmentations a,b,…] [--strengths 0,0.5,1] [--json]
   shapekin duplicates <library-dir> --model <run-dir> [--threshold 0.97] [--json]
@@ -127,14 +129,14 @@ async function train(lib: string, values: Values): Promise<void> {
   });
   const cfg = trainer.config;
   if (!values.json) {
-    process.stderr.write(`training on ${library.parts.length} parts, ${trainer.totalSteps} steps (${cfg.epochs} epochs × ${trainer.stepsPerEpoch}), backend ${backend}\n`);
+    process.stderr.write(`training on ${library.parts.length} parts, ${trainer.totalSteps} steps (${trainer.encoders.length > 1 ? `${trainer.encoders.length} encoders × ` : ''}${cfg.epochs} epochs × ${trainer.stepsPerEpoch}), backend ${backend}\n`);
     process.stderr.write(`inputs: ${values.inputs || resume ? INPUT_LABELS[cfg.encoder.inputFeatures] + (resume ? ' (from the saved run)' : ' (--inputs)') : inputsReason(closed)}\n`);
     process.stderr.write(`pose: ${values.pose || resume ? `${POSE_LABELS[cfg.pose]}${resume ? ' (from the saved run)' : ' (--pose)'}` : poseReason(traits.boxRatios)}\n`);
   }
   const progress = new Progress('training', trainer.totalSteps, values.quiet || values.json);
   const checkpoint = (status: Checkpoint['manifest']['status']) => saveRun(out, {
     manifest: { format: 'shapekin-encoder', version: 1, config: cfg, sampling: { points: POOL_POINTS, seed: 0 }, step: trainer.step, totalSteps: trainer.totalSteps, status, backend, history: trainer.history, checks: trainer.checks, labelNames },
-    weights: getWeights(trainer.encoder),
+    weights: trainer.weights(),
     adam: trainer.adamState(),
   });
   let lastSave = Date.now();
@@ -144,7 +146,7 @@ async function train(lib: string, values: Values): Promise<void> {
   const result = await trainer.run({
     yieldEvery: 1,
     onProgress: (p) => {
-      progress.update(p.step, `loss ${p.loss.toFixed(3)} · ${p.samplesPerSec.toFixed(0)} parts/s · ${duration(p.etaSec)} left`);
+      progress.update(p.step, `${p.members > 1 ? `encoder ${p.member + 1} of ${p.members} · ` : ''}loss ${p.loss.toFixed(3)} · ${p.samplesPerSec.toFixed(0)} parts/s · ${duration(p.etaSec)} left`);
       if (Date.now() - lastSave > 60_000) { void checkpoint('running'); lastSave = Date.now(); }
     },
   });
@@ -158,11 +160,11 @@ async function train(lib: string, values: Values): Promise<void> {
   if (result.status === 'failed') throw new CliError(result.message ?? 'training failed');
 }
 
-async function withModel<T>(values: Values, command: string, fn: (enc: Encoder, ckpt: Checkpoint) => Promise<T> | T): Promise<T> {
+async function withModel<T>(values: Values, command: string, fn: (enc: Encoders, ckpt: Checkpoint) => Promise<T> | T): Promise<T> {
   const ckpt = await loadRun(need(values, 'model', command));
   await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
-  const enc = encoderFromCheckpoint(ckpt);
-  try { return await fn(enc, ckpt); } finally { enc.dispose(); }
+  const enc = encodersFromCheckpoint(ckpt);
+  try { return await fn(enc, ckpt); } finally { disposeEncoders(enc); }
 }
 
 async function embed(lib: string, values: Values): Promise<void> {
@@ -222,7 +224,7 @@ async function query(file: string, values: Values): Promise<void> {
     const fmt = (e: readonly number[]) => e.map((v) => v.toPrecision(4)).join(' × ');
     console.log(`query ${file}  (${fmt(q.info.extents)} file units)`);
     if (order !== ranking) console.log(`ordered by cosine similarity: this model's embedding is too concentrated (mean pair cosine ${index.meanPairCosine().toFixed(2)}) to order through the library`);
-    else console.log(order === 'diffusion' ? 'ordered through the library (diffusion over its neighbour graph); score: cosine similarity to the query' : 'ordered by cosine similarity to the query');
+    else console.log(order === 'diffusion' ? 'ordered through the library (scores corrected for parts near everything, then diffused over its neighbour graph); score: cosine similarity to the query' : 'ordered by cosine similarity to the query');
     console.log('rank  score   size×   folder            file');
     for (const r of rows) console.log(`${String(r.rank).padStart(4)}  ${r.score.toFixed(3)}  ${r.size_ratio.toFixed(2).padStart(5)}   ${r.label.padEnd(17)} ${r.file}  (${fmt(r.extents)})`);
     console.log(`\n${CAUTION}`);
@@ -235,12 +237,12 @@ async function evaluate(lib: string, values: Values): Promise<void> {
   const sampling = ckpt?.manifest.sampling ?? { points: POOL_POINTS, seed: 0 };
   const library = loadLibrary(lib, { quiet: values.quiet || values.json, ...sampling });
   reportFailures(library.failures, Boolean(values.json));
-  const learned = ckpt ? encoderFromCheckpoint(ckpt) : undefined;
+  const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
   const config = ckpt?.manifest.config ?? defaultTrainFor(libraryTraits(library.parts));
   const report = evaluateMethods({ parts: asModelParts(library.parts), labels: library.labels, points: config.points, pose: config.pose, ...(learned ? { learned } : {}), untrainedConfig: config.encoder, seed: config.seed, diffusion: DIFFUSION_DEFAULTS });
-  learned?.dispose();
+  if (learned) disposeEncoders(learned);
   if (values.json) { console.log(JSON.stringify(report)); return; }
-  console.log(`${report.parts} parts, ${report.labels} labels (leave-one-out; "+diffusion": ranked by diffusion over the library's neighbour graph)`);
+  console.log(`${report.parts} parts, ${report.labels} labels (leave-one-out; "+diffusion": ordered through the library, as queries are by default: scores corrected for parts near everything, then diffused over the neighbour graph)`);
   console.log('method              NN     1st tier  2nd tier  DCG    mAP    P@5');
   for (const [m, r] of Object.entries(report.methods)) {
     console.log(`${m.padEnd(18)}  ${r.nn.toFixed(3)}  ${r.first_tier.toFixed(3)}     ${r.second_tier.toFixed(3)}     ${r.dcg.toFixed(3)}  ${r.map.toFixed(3)}  ${r.p_at_5.toFixed(3)}`);
@@ -255,7 +257,7 @@ async function study(lib: string, values: Values): Promise<void> {
     for (const k of kinds ?? []) if (!(AUGMENT_KINDS as readonly string[]).includes(k)) throw new CliError(`--augmentations: unknown "${k}" (one of ${AUGMENT_KINDS.join(', ')})`, 2);
     const strengths = values.strengths ? values.strengths.split(',').map(Number) : undefined;
     if (strengths?.some((s) => !(s >= 0 && s <= 1))) throw new CliError(`--strengths must be numbers in [0, 1], got "${values.strengths}"`, 2);
-    const untrained = untrainedEncoder(ckpt.manifest.config.encoder, ckpt.manifest.config.seed);
+    const untrained = untrainedEncoders(ckpt.manifest.config.encoder, ckpt.manifest.config.pose, ckpt.manifest.config.seed);
     const progress = new Progress('study', 1, values.quiet || values.json);
     const rows = runStudy({
       parts: asModelParts(library.parts), labels: library.labels, points: ckpt.manifest.config.points, pose: ckpt.manifest.config.pose,
@@ -263,7 +265,7 @@ async function study(lib: string, values: Values): Promise<void> {
       onProgress: (done, total, what) => { (progress as unknown as { total: number }).total = total; progress.update(done, what); },
     });
     progress.done();
-    untrained.dispose();
+    disposeEncoders(untrained);
     if (values.json) { console.log(JSON.stringify({ parts: library.parts.length, rows })); return; }
     console.log('augmentation   strength  method     instance  label   similarity  chamfer');
     for (const r of rows) console.log(`${r.augmentation.padEnd(14)} ${r.strength.toFixed(2).padStart(8)}  ${r.method.padEnd(9)}  ${r.instance_top1.toFixed(3).padStart(8)}  ${r.label_top1.toFixed(3)}   ${r.mean_similarity.toFixed(3).padStart(10)}  ${r.mean_chamfer.toFixed(4)}`);

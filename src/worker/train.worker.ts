@@ -6,11 +6,11 @@ import wasmPlain from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm.wasm
 import wasmSimd from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm-simd.wasm?url';
 import wasmThreaded from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm-threaded-simd.wasm?url';
 import { initBackend } from '../core/model/backend';
-import { encoderFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../core/model/checkpoint';
-import { embedForRetrieval } from '../core/model/embed';
-import { getWeights, Trainer } from '../core/model/train';
+import { encodersFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../core/model/checkpoint';
+import { disposeEncoders, embedForRetrieval } from '../core/model/embed';
+import { Trainer } from '../core/model/train';
 import { REFERENCE_ENCODER, timeStep } from '../core/model/speed';
-import { evaluateMethods, untrainedEncoder } from '../core/retrieval/evaluate';
+import { evaluateMethods, untrainedEncoders } from '../core/retrieval/evaluate';
 import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
 import { runStudy } from '../core/retrieval/study';
 import type { CheckpointMessage, TrainReply, TrainRequest } from './protocol';
@@ -61,7 +61,7 @@ export function fromMessage(m: CheckpointMessage): Checkpoint {
 function snapshot(t: Trainer, sampling: { points: number; seed: number }, status: Checkpoint['manifest']['status'], name: string): CheckpointMessage {
   return toMessage({
     manifest: { format: 'shapekin-encoder', version: 1, config: t.config, sampling, step: t.step, totalSteps: t.totalSteps, status, backend: name, history: t.history, checks: t.checks },
-    weights: getWeights(t.encoder),
+    weights: t.weights(),
     adam: t.adamState(),
   });
 }
@@ -111,20 +111,20 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
       case 'evaluate': {
         const ckpt = req.checkpoint ? fromMessage(req.checkpoint) : null;
         const cfg = ckpt ? ckpt.manifest.config : req.config;
-        const learned = ckpt ? encoderFromCheckpoint(ckpt) : undefined;
+        const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
         try {
           const report = evaluateMethods({ parts: req.parts, labels: req.labels, points: cfg.points, pose: cfg.pose, ...(learned ? { learned } : {}), untrainedConfig: cfg.encoder, seed: cfg.seed, diffusion: DIFFUSION_DEFAULTS });
           post({ type: 'evaluation', id: req.id, report });
         } finally {
-          learned?.dispose();
+          if (learned) disposeEncoders(learned);
         }
         return;
       }
       case 'study': {
         const ckpt = req.checkpoint ? fromMessage(req.checkpoint) : null;
         const cfg = ckpt ? ckpt.manifest.config : req.config;
-        const learned = ckpt ? encoderFromCheckpoint(ckpt) : undefined;
-        const untrained = untrainedEncoder(cfg.encoder, cfg.seed);
+        const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
+        const untrained = untrainedEncoders(cfg.encoder, cfg.pose, cfg.seed);
         try {
           const rows = runStudy({
             parts: req.parts, labels: req.labels, points: cfg.points, pose: cfg.pose, upAxis: cfg.pipeline.upAxis, seed: cfg.seed,
@@ -134,8 +134,8 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
           });
           post({ type: 'study', id: req.id, rows });
         } finally {
-          learned?.dispose();
-          untrained.dispose();
+          if (learned) disposeEncoders(learned);
+          disposeEncoders(untrained);
         }
         return;
       }
@@ -151,13 +151,13 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         return;
       }
       case 'embed': {
-        const enc = req.checkpoint ? encoderFromCheckpoint(fromMessage(req.checkpoint)) : untrainedEncoder(req.config.encoder, req.config.seed);
+        const enc = req.checkpoint ? encodersFromCheckpoint(fromMessage(req.checkpoint)) : untrainedEncoders(req.config.encoder, req.config.pose, req.config.seed);
         const cfg = req.checkpoint ? fromMessage(req.checkpoint).manifest.config : req.config;
         try {
           const vectors = embedForRetrieval(enc, req.parts, cfg.points, cfg.pose);
           post({ type: 'embeddings', id: req.id, vectors, dim: vectors.length / Math.max(1, req.parts.length), learned: Boolean(req.checkpoint) }, [vectors.buffer as ArrayBuffer]);
         } finally {
-          enc.dispose();
+          disposeEncoders(enc);
         }
         return;
       }

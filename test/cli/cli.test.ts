@@ -43,10 +43,11 @@ describe('shapekin train', () => {
     expect(err.join('')).toMatch(/inputs: x y z only: 0 of 3 meshes are closed/);
     // A plane and two cylinders modelled square to their axes keep the files' axes; the demo, a third of it
     // exported turned, gets principal axes.
-    expect(err.join('')).toMatch(/pose: the files' own axes: 3 of 3 parts sit square in them/);
+    expect(err.join('')).toMatch(/pose: the files' own axes and principal axes, one encoder each: 3 of 3 parts sit square in their files' axes/);
+    expect(err.join('')).toMatch(/training on 3 parts, 2 steps \(2 encoders × 1 epochs × 1\)/);
     const openConfig = JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config;
     expect(openConfig.encoder.inputFeatures).toBe('xyz');
-    expect(openConfig.pose).toBe('file-axes');
+    expect(openConfig.pose).toBe('file-and-principal');
     expect(JSON.parse(readFileSync(join(run, 'model.json'), 'utf8')).modelTopology.shapekin.config.pose).toBe('principal-axes');
     expect(await main(['train', lib, '--out', openRun, '--epochs', '1', '--points', '64', '--batch', '3', '--inputs', 'xyz+unsigned-normal', '--json'])).toBe(0);
     expect(JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.inputFeatures).toBe('xyz+unsigned-normal');
@@ -157,7 +158,7 @@ describe('bad arguments and unreadable files: one clear line and a non-zero exit
     [['embed', DEMO, '--model', 'no/such/run', '--out', 'x.npy'], 1, /no model in no\/such\/run/],
     [['embed', DEMO, '--model', 'x', '--out', 'x.txt'], 2, /--out must end in .csv, .json or .npy/],
     [['train', DEMO, '--out', 'x', '--epochs', 'ten'], 2, /--epochs must be a whole number/],
-    [['train', DEMO, '--out', 'x', '--pose', 'upright'], 2, /--pose must be one of principal-axes, file-axes, as-is, got "upright"/],
+    [['train', DEMO, '--out', 'x', '--pose', 'upright'], 2, /--pose must be one of principal-axes, file-axes, as-is, file-and-principal, got "upright"/],
     [['train', DEMO, '--out', 'x', '--loss', 'triplet-hard', '--class-prior', '0.1'], 2, /--class-prior applies only to --loss debiased-nt-xent/],
     [['query', 'missing.stl', '--model', 'x', '--library', DEMO], 2, /query file not found/],
     [['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '--order', 'best'], 2, /--order must be diffusion or cosine, got "best"/],

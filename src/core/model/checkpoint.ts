@@ -6,6 +6,7 @@ import type * as tf from '@tensorflow/tfjs';
 import { createRng } from '../rng';
 import type { AdamState } from './adam';
 import { Encoder, inputChannels, validateEncoderConfig } from './encoder';
+import { disposeEncoders, memberPoses, type Encoders } from './embed';
 import { setWeights, type HeldOutCheck, type TrainConfig, type TrainStatus } from './train';
 import type { SamplingSettings } from '../library';
 
@@ -36,7 +37,17 @@ export interface Checkpoint {
   readonly adam: AdamState | null;
 }
 
+/** Weight names and shapes of a configuration: one encoder's, or each encoder's in turn (the second's names prefixed). */
 function shapesFor(config: TrainConfig): { names: string[]; shapes: number[][] } {
+  const one = encoderShapes(config);
+  const members = memberPoses(config.pose).length;
+  return {
+    names: Array.from({ length: members }, (_, m) => one.names.map((n) => (m === 0 ? n : `encoder${m}/${n}`))).flat(),
+    shapes: Array.from({ length: members }, () => one.shapes).flat(),
+  };
+}
+
+function encoderShapes(config: TrainConfig): { names: string[]; shapes: number[][] } {
   // Build a throwaway encoder description without tensors: widths give every shape.
   const names: string[] = [];
   const shapes: number[][] = [];
@@ -143,9 +154,22 @@ function concat(parts: ArrayBuffer[]): ArrayBuffer {
   return out.buffer;
 }
 
-/** A ready encoder with the checkpoint's weights. */
+/** The ready encoder(s) of a checkpoint: one, or one per pose of `memberPoses` in order (file-and-principal). */
+export function encodersFromCheckpoint(ckpt: Checkpoint): Encoders {
+  const members = memberPoses(ckpt.manifest.config.pose).length;
+  const per = ckpt.weights.length / members;
+  const list = Array.from({ length: members }, (_, m) => {
+    const enc = new Encoder(ckpt.manifest.config.encoder, createRng(0));
+    setWeights(enc, ckpt.weights.slice(m * per, (m + 1) * per));
+    return enc;
+  });
+  return members === 1 ? list[0] : list;
+}
+
+/** The ready encoder of a one-encoder checkpoint (a diagnostic's or a pre-trained start). */
 export function encoderFromCheckpoint(ckpt: Checkpoint): Encoder {
-  const enc = new Encoder(ckpt.manifest.config.encoder, createRng(0));
-  setWeights(enc, ckpt.weights);
-  return enc;
+  const e = encodersFromCheckpoint(ckpt);
+  if (e instanceof Encoder) return e;
+  disposeEncoders(e);
+  throw new RangeError(`this model has ${e.length} encoders (pose ${ckpt.manifest.config.pose}); this use needs a one-encoder model`);
 }

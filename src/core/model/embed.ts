@@ -1,7 +1,7 @@
 // Batched inference: embeddings for many parts, and the view tensors training and inference share.
 
 import * as tf from '@tensorflow/tfjs';
-import { inputChannels, usesLocalShape, type Encoder, type InputFeatures } from './encoder';
+import { Encoder, inputChannels, usesLocalShape, type InputFeatures } from './encoder';
 import { localShapeOf } from '../points/local';
 import { alignToPrincipalAxes, SIGN_FLIPS } from '../points/pca';
 import { makeCloud } from '../points/cloud';
@@ -49,19 +49,39 @@ export function fillSlot(out: Float32Array, slot: number, n: number, features: I
 /**
  * How parts are posed before the encoder sees them: rotated into their principal frame; kept in their files' axes
  * with each axis's sign left open (as for the principal frame: training flips, retrieval averages the four proper
- * sign choices); or exactly as in the files.
+ * sign choices); exactly as in the files; or both of the first two, by two encoders trained one after the other
+ * (`file-and-principal`: a part's embedding is the two encoders' embeddings side by side).
  */
-export type Pose = 'principal-axes' | 'file-axes' | 'as-is';
-export const POSES: readonly Pose[] = ['principal-axes', 'file-axes', 'as-is'];
+export type Pose = 'principal-axes' | 'file-axes' | 'as-is' | 'file-and-principal';
+/** A pose that one encoder reads. */
+export type SinglePose = Exclude<Pose, 'file-and-principal'>;
+export const POSES: readonly Pose[] = ['principal-axes', 'file-axes', 'as-is', 'file-and-principal'];
 /** The poses in plain words, for the command line and the workbench. */
 export const POSE_LABELS: Record<Pose, string> = {
   'principal-axes': 'principal axes',
   'file-axes': "the files' axes, signs open",
   'as-is': 'exactly as in the files',
+  'file-and-principal': "the files' axes and principal axes (two encoders)",
 };
 
+/** The pose each encoder of a model reads, in the order they are trained and stored. */
+export function memberPoses(pose: Pose): SinglePose[] {
+  return pose === 'file-and-principal' ? ['file-axes', 'principal-axes'] : [pose];
+}
+
+/** What retrieval embeds with: one encoder, or one per pose of `memberPoses` (file-and-principal). */
+export type Encoders = Encoder | readonly Encoder[];
+
+export function encoderList(e: Encoders): readonly Encoder[] {
+  return e instanceof Encoder ? [e] : e;
+}
+
+export function disposeEncoders(e: Encoders): void {
+  for (const x of encoderList(e)) x.dispose();
+}
+
 /** Parts in the pose the model expects: rotated into their principal frame, or unchanged. */
-export function posed(parts: readonly ModelPart[], pose: Pose): ModelPart[] {
+export function posed(parts: readonly ModelPart[], pose: SinglePose): ModelPart[] {
   if (pose !== 'principal-axes') return [...parts];
   return parts.map((p) => {
     const c = alignToPrincipalAxes(makeCloud(p.points, p.normals));
@@ -92,9 +112,26 @@ export function resampled(p: ModelPart, r: number, n: number): ModelPart {
 /**
  * Retrieval embeddings: the average (then renormalised) over `resamplings` disjoint point subsets of each part
  * and, unless the pose is exactly as in the files, over the four proper sign choices of the frame, so the frame's sign
- * ambiguity cannot change the result. The pose is found from the whole pool, once.
+ * ambiguity cannot change the result. The pose is found from the whole pool, once. With two encoders
+ * (file-and-principal) each embeds in its own pose and the two unit rows are set side by side, scaled by 1/√2, so the
+ * row stays unit length and its cosine is the mean of the two encoders' cosines.
  */
-export function embedForRetrieval(encoder: Encoder, parts: readonly ModelPart[], n: number, pose: Pose, resamplings = RETRIEVAL_RESAMPLINGS): Float32Array {
+export function embedForRetrieval(encoders: Encoders, parts: readonly ModelPart[], n: number, pose: Pose, resamplings = RETRIEVAL_RESAMPLINGS): Float32Array {
+  const list = encoderList(encoders), poses = memberPoses(pose);
+  if (list.length !== poses.length) throw new RangeError(`embedForRetrieval: the pose "${pose}" needs ${poses.length} encoder(s), got ${list.length}`);
+  if (list.length === 1) return embedInPose(list[0], parts, n, poses[0], resamplings);
+  const each = list.map((e, m) => embedInPose(e, parts, n, poses[m], resamplings));
+  const count = parts.length, dims = each.map((v) => v.length / Math.max(1, count));
+  const D = dims.reduce((a, b) => a + b, 0), scale = 1 / Math.sqrt(list.length);
+  const out = new Float32Array(count * D);
+  for (let i = 0; i < count; i++) {
+    let o = i * D;
+    each.forEach((v, m) => { for (let d = 0; d < dims[m]; d++) out[o++] = v[i * dims[m] + d] * scale; });
+  }
+  return out;
+}
+
+function embedInPose(encoder: Encoder, parts: readonly ModelPart[], n: number, pose: SinglePose, resamplings: number): Float32Array {
   if (!(Number.isInteger(resamplings) && resamplings >= 1)) throw new RangeError(`embedForRetrieval: resamplings must be a whole number ≥ 1, got ${resamplings}`);
   const ready = posed(withLocalShape(parts, encoder.config.inputFeatures), pose);
   let sum: Float32Array | null = null;

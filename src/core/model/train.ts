@@ -8,7 +8,7 @@ import { makeCloud } from '../points/cloud';
 import { drawIndices } from '../points/sample';
 import { createRng, hashString, type Rng } from '../rng';
 import { Adam, cosineWithWarmup, type AdamState } from './adam';
-import { embedParts, fillSlot, posed, POSES, withLocalShape, type ModelPart, type Pose } from './embed';
+import { embedParts, fillSlot, memberPoses, posed, POSES, withLocalShape, type ModelPart, type Pose } from './embed';
 import { Encoder, inputChannels, usesLocalShape, validateEncoderConfig, type EncoderConfig } from './encoder';
 import { computeLoss, LOSS_NAMES, type LossSettings } from './losses';
 import { iMixLoss, mixTargets } from './losses/imix';
@@ -19,7 +19,11 @@ export interface TrainConfig {
   readonly encoder: EncoderConfig;
   readonly loss: LossSettings;
   readonly pipeline: Pipeline;
-  /** Pose parts before encoding: in their principal-axes frame, in their files' axes (signs open), or exactly as they are. */
+  /**
+   * Pose parts before encoding: in their principal-axes frame, in their files' axes (signs open), exactly as they
+   * are, or both of the first two (`file-and-principal`: two encoders, the files' axes one trained first, each
+   * for the full number of epochs).
+   */
   readonly pose: Pose;
   /** Points per view. */
   readonly points: number;
@@ -61,6 +65,9 @@ export interface TrainProgress {
   readonly samplesPerSec: number;
   readonly etaSec: number;
   readonly msPerStep: number;
+  /** The encoder being trained (0-based) and how many the pose has (two for file-and-principal). */
+  readonly member: number;
+  readonly members: number;
 }
 
 export interface HeldOutCheck {
@@ -110,6 +117,7 @@ export function validateTrainConfig(c: TrainConfig, partCount: number): void {
     if (c.loss.name !== 'nt-xent' && c.loss.name !== 'supervised-contrastive') throw new RangeError(`training: local views need the nt-xent or supervised-contrastive loss, got ${c.loss.name}`);
     if (c.mixing === 'i-mix') throw new RangeError('training: local views and i-Mix do not combine');
   }
+  if (c.pose === 'file-and-principal' && c.patience > 0) throw new RangeError('training: early stopping (patience) is not available with two encoders (file-and-principal)');
   if (!(c.heldOutFraction >= 0 && c.heldOutFraction < 0.9)) throw new RangeError(`training: held-out fraction must be in [0, 0.9), got ${c.heldOutFraction}`);
   const trainCount = partCount - Math.round(partCount * c.heldOutFraction);
   if (trainCount < 2) throw new RangeError(`training needs at least 2 parts to train on, got ${trainCount}`);
@@ -135,20 +143,25 @@ export interface TrainerOptions {
 }
 
 export class Trainer {
-  readonly encoder: Encoder;
+  /** One encoder per pose of `memberPoses(config.pose)`, trained one after the other. */
+  readonly encoders: readonly Encoder[];
   readonly config: TrainConfig;
   readonly trainIdx: number[];
   readonly heldIdx: number[];
+  /** Steps of all encoders together. */
   readonly totalSteps: number;
+  /** Steps of one encoder (epochs × steps per epoch). */
+  readonly memberSteps: number;
   readonly stepsPerEpoch: number;
-  private readonly adam: Adam;
-  private readonly parts: readonly ModelPart[];
+  private readonly adams: readonly Adam[];
+  /** The parts in each encoder's pose. */
+  private readonly memberParts: readonly (readonly ModelPart[])[];
   private readonly labels: readonly number[] | null;
   private readonly viewBuffer: Float32Array;
   private readonly scratch: Uint32Array;
   private readonly origin: Uint32Array;
   private readonly viewLocal: Float32Array;
-  private readonly poolClouds: ReturnType<typeof makeCloud>[];
+  private readonly poolClouds: readonly ReturnType<typeof makeCloud>[][];
   private readonly localBuffer: Float32Array | null;
   private readonly poolIndex = new Map<number, PointIndex>();
   step = 0;
@@ -164,35 +177,69 @@ export class Trainer {
     if (config.loss.name === 'supervised-contrastive' && !options.labels) throw new RangeError('supervised-contrastive loss needs labels (folders or labels.csv)');
     if (!POSES.includes(config.pose)) throw new RangeError(`training: pose must be one of ${POSES.join(', ')}, got ${config.pose}`);
     this.config = config;
-    this.parts = posed(withLocalShape(parts, config.encoder.inputFeatures), config.pose);
+    const withLocal = withLocalShape(parts, config.encoder.inputFeatures);
+    this.memberParts = memberPoses(config.pose).map((pose) => posed(withLocal, pose));
     this.labels = options.labels ?? null;
     const order = permutation(parts.length, createRng(hashString('split', config.seed)));
     const held = Math.round(parts.length * config.heldOutFraction);
     this.heldIdx = order.slice(0, held).sort((a, b) => a - b);
     this.trainIdx = order.slice(held).sort((a, b) => a - b);
     this.stepsPerEpoch = stepsPerEpoch(this.trainIdx.length, config.batchSize);
-    this.totalSteps = this.stepsPerEpoch * config.epochs;
-    this.encoder = new Encoder(config.encoder, createRng(hashString('init', config.seed)));
-    if (options.initialWeights) setWeights(this.encoder, options.initialWeights);
-    this.adam = new Adam(this.encoder.variables);
+    this.memberSteps = this.stepsPerEpoch * config.epochs;
+    this.totalSteps = this.memberSteps * this.memberParts.length;
+    // Every encoder starts from the seed's initial weights: each is the encoder a one-pose run with this seed would train.
+    this.encoders = this.memberParts.map(() => new Encoder(config.encoder, createRng(hashString('init', config.seed))));
+    if (options.initialWeights) {
+      const w = options.initialWeights, per = this.encoders[0].variables.length;
+      // One encoder's weights start every encoder; otherwise each encoder takes its own share, in order.
+      this.encoders.forEach((e, m) => setWeights(e, w.length === per ? w : w.slice(m * per, (m + 1) * per)));
+    }
+    this.adams = this.encoders.map((e) => new Adam(e.variables));
     const B = Math.min(config.batchSize, this.trainIdx.length);
     this.viewBuffer = new Float32Array(2 * B * config.points * inputChannels(config.encoder.inputFeatures));
     this.scratch = new Uint32Array(Math.max(...parts.map((p) => p.points.length / 3)));
     this.origin = new Uint32Array(config.points);
     this.viewLocal = new Float32Array(config.points * 3);
-    this.poolClouds = this.parts.map((p) => makeCloud(p.points, p.normals));
+    this.poolClouds = this.memberParts.map((ps) => ps.map((p) => makeCloud(p.points, p.normals)));
     const lv = config.localViews;
     this.localBuffer = lv && lv.count > 0 ? new Float32Array(lv.count * B * lv.points * inputChannels(config.encoder.inputFeatures)) : null;
     if (options.resume) {
-      this.adam.restore(options.resume.adam);
+      const { adam, step } = options.resume, per = this.encoders[0].variables.length;
+      if (this.adams.length === 1) this.adams[0].restore(adam);
+      else this.adams.forEach((a, m) => a.restore({
+        step: Math.min(this.memberSteps, Math.max(0, step - m * this.memberSteps)),
+        m: adam.m.slice(m * per, (m + 1) * per), v: adam.v.slice(m * per, (m + 1) * per),
+      }));
       this.step = options.resume.step;
       this.history = [...options.resume.history];
       this.checks = [...options.resume.checks];
     }
   }
 
-  /** The parts and seeded views of step k: the same k always gives the same batch (resumable). */
+  /** Which encoder step k trains, and its step within that encoder's run. */
+  memberOf(k: number): { member: number; step: number } {
+    const member = Math.min(this.encoders.length - 1, Math.floor(k / this.memberSteps));
+    return { member, step: k - member * this.memberSteps };
+  }
+
+  /** The encoder being trained at the current step (the last one once training is over). */
+  get encoder(): Encoder {
+    return this.encoders[this.memberOf(this.step).member];
+  }
+
+  /** All encoders' weights, in `memberPoses` order (each in Encoder.variables order). */
+  weights(): Float32Array[] {
+    return this.encoders.flatMap((e) => getWeights(e));
+  }
+
+  /**
+   * The parts and seeded views of step k: the same k always gives the same batch (resumable). An encoder's steps
+   * draw exactly what a one-pose run with the same seed draws at those steps.
+   */
   private batchFor(k: number): { parts: number[]; x: Float32Array; local: Float32Array | null; mix: { lambda: number; partner: number[] } | null } {
+    const { member, step } = this.memberOf(k);
+    const parts = this.memberParts[member], clouds = this.poolClouds[member];
+    k = step;
     const epoch = Math.floor(k / this.stepsPerEpoch);
     const within = k % this.stepsPerEpoch;
     const B = Math.min(this.config.batchSize, this.trainIdx.length);
@@ -201,8 +248,8 @@ export class Trainer {
     const rng = createRng(hashString(`step:${k}`, this.config.seed));
     const { points: n, encoder } = this.config;
     chosen.forEach((partIndex, slot) => {
-      const part = this.parts[partIndex];
-      const cloud = this.poolClouds[partIndex];
+      const part = parts[partIndex];
+      const cloud = clouds[partIndex];
       for (let view = 0; view < 2; view++) {
         // Each view draws its own n points from the part's pool (a fresh resampling), then is augmented.
         const v = augmentSubset(cloud, drawIndices(cloud.count, n, rng, this.scratch), this.config.pipeline, rng, this.origin);
@@ -212,10 +259,11 @@ export class Trainer {
     const lv = this.config.localViews;
     if (lv && this.localBuffer) {
       chosen.forEach((partIndex, slot) => {
-        const part = this.parts[partIndex];
-        const cloud = this.poolClouds[partIndex];
-        let index = this.poolIndex.get(partIndex);
-        if (!index) { index = new PointIndex(cloud.positions); this.poolIndex.set(partIndex, index); }
+        const part = parts[partIndex];
+        const cloud = clouds[partIndex];
+        const key = member * this.memberParts[0].length + partIndex;
+        let index = this.poolIndex.get(key);
+        if (!index) { index = new PointIndex(cloud.positions); this.poolIndex.set(key, index); }
         const region = Math.max(lv.points, Math.min(cloud.count, Math.round(lv.share * cloud.count)));
         for (let view = 0; view < lv.count; view++) {
           const s = rng.int(cloud.count) * 3, p = cloud.positions;
@@ -254,16 +302,18 @@ export class Trainer {
     const { parts, x, local, mix } = this.batchFor(k);
     const B = parts.length;
     const F = inputChannels(this.config.encoder.inputFeatures);
-    const lr = cosineWithWarmup(k, this.totalSteps, this.config.learningRate, Math.round(this.totalSteps * this.config.warmupFraction));
+    const { member, step } = this.memberOf(k);
+    const encoder = this.encoders[member], adam = this.adams[member];
+    const lr = cosineWithWarmup(step, this.memberSteps, this.config.learningRate, Math.round(this.memberSteps * this.config.warmupFraction));
     const labels = this.labels ? parts.map((i) => this.labels![i]) : null;
-    const vars = this.encoder.variables;
+    const vars = encoder.variables;
     const lossValue = tf.tidy(() => {
       const input = tf.tensor3d(x, [2 * B, this.config.points, F]);
       const lv = this.config.localViews;
       const { value, grads } = tf.variableGrads(() => {
-        const z = this.encoder.project(this.encoder.pooled(input)); // (2B, P)
+        const z = encoder.project(encoder.pooled(input)); // (2B, P)
         if (lv && local) {
-          const zl = this.encoder.project(this.encoder.pooled(tf.tensor3d(local, [lv.count * B, lv.points, F])));
+          const zl = encoder.project(encoder.pooled(tf.tensor3d(local, [lv.count * B, lv.points, F])));
           const ids = Array.from({ length: (2 + lv.count) * B }, (_, r) => (labels ? labels[r % B] : r % B));
           return multiViewSupConLoss(tf.concat([z, zl], 0) as tf.Tensor2D, ids, this.config.loss.temperature);
         }
@@ -273,7 +323,7 @@ export class Trainer {
         return computeLoss(this.config.loss, za, zb, labels);
       }, vars);
       const loss = value.dataSync()[0];
-      if (Number.isFinite(loss)) this.adam.apply(vars.map((v) => grads[v.name]), lr);
+      if (Number.isFinite(loss)) adam.apply(vars.map((v) => grads[v.name]), lr);
       return loss;
     });
     if (!Number.isFinite(lossValue)) throw new RangeError(`training diverged at step ${k + 1}: the loss is ${lossValue} (try a lower learning rate)`);
@@ -285,8 +335,9 @@ export class Trainer {
   /** Held-out instance recognition: views of held-out parts against their clean embeddings. */
   heldOutCheck(): HeldOutCheck | null {
     if (this.heldIdx.length < 2) return null;
-    const held = this.heldIdx.map((i) => this.parts[i]);
-    const clean = embedParts(this.encoder, held, this.config.points);
+    const held = this.heldIdx.map((i) => this.memberParts[this.memberOf(Math.max(0, this.step - 1)).member][i]);
+    const encoder = this.encoders[this.memberOf(Math.max(0, this.step - 1)).member];
+    const clean = embedParts(encoder, held, this.config.points);
     const rng = createRng(hashString('check', this.config.seed));
     const views = held.map((p) => {
       const count = p.points.length / 3;
@@ -295,7 +346,7 @@ export class Trainer {
       const local = this.localOf(p, origin, new Float32Array(count * 3));
       return { points: v.positions, normals: v.normals ?? p.normals, ...(local ? { local } : {}) };
     });
-    const viewEmb = embedParts(this.encoder, views, this.config.points);
+    const viewEmb = embedParts(encoder, views, this.config.points);
     const D = clean.length / held.length;
     let hits = 0;
     for (let i = 0; i < held.length; i++) {
@@ -338,9 +389,10 @@ export class Trainer {
         const avg = recent.reduce((s, v) => s + v, 0) / recent.length;
         const B = Math.min(this.config.batchSize, this.trainIdx.length);
         events.onProgress?.({
-          step: this.step, totalSteps: this.totalSteps, epoch: Math.floor((this.step - 1) / this.stepsPerEpoch), loss,
+          step: this.step, totalSteps: this.totalSteps, epoch: Math.floor(this.memberOf(this.step - 1).step / this.stepsPerEpoch), loss,
           learningRate: this.history[this.history.length - 1].lr, samplesPerSec: (B * 1000) / avg,
           etaSec: ((this.totalSteps - this.step) * avg) / 1000, msPerStep: avg,
+          member: this.memberOf(this.step - 1).member, members: this.encoders.length,
         });
         const due = this.config.evalEvery > 0 ? this.step % this.config.evalEvery === 0 : false;
         if ((due || this.step === this.totalSteps) && this.heldIdx.length >= 2) {
@@ -369,13 +421,16 @@ export class Trainer {
     return { status: this.status, steps: this.step, finalLoss: last ? last.loss : NaN, history: this.history, checks: this.checks, ...(message ? { message } : {}) };
   }
 
+  /** The optimiser's state: one encoder's, or every encoder's moments in order with the overall step. */
   adamState(): AdamState {
-    return this.adam.state();
+    if (this.adams.length === 1) return this.adams[0].state();
+    const states = this.adams.map((a) => a.state());
+    return { step: this.step, m: states.flatMap((s) => s.m), v: states.flatMap((s) => s.v) };
   }
 
   dispose(): void {
-    this.encoder.dispose();
-    this.adam.dispose();
+    for (const e of this.encoders) e.dispose();
+    for (const a of this.adams) a.dispose();
   }
 }
 

@@ -1,10 +1,14 @@
-// The embedding index: unit-length vectors in one contiguous Float32Array, exact cosine top-k, and filters
-// on real size and on folder.
+// The embedding index: unit-length vectors in one contiguous Float32Array, exact cosine top-k, filters on real
+// size and on folder, and results ordered through the library (hub-corrected scores diffused over its graph).
 
 import { topK, type Hit } from './topk';
 import { DIFFUSION_DEFAULTS, DiffusionGraph, rankingKeys, type DiffusionOptions } from './diffusion';
+import { HUB_NEIGHBOURS, meanOfTop } from './hubness';
 
-/** How results are ordered: by cosine similarity to the query, or by diffusion over the library's neighbour graph. */
+/**
+ * How results are ordered: by cosine similarity to the query, or through the library: hub-corrected (CSLS,
+ * hubness.ts) and diffused over the library's neighbour graph.
+ */
 export type Ranking = 'cosine' | 'diffusion';
 
 export interface IndexEntry {
@@ -74,34 +78,57 @@ export class EmbeddingIndex {
   }
 
   private graph: DiffusionGraph | null = null;
+  private hubs: Float64Array | null = null;
 
-  /** The library's neighbour graph, built on first use (n score scans) and kept. */
+  /** r(j) of every part (hubness.ts): the mean cosine to its HUB_NEIGHBOURS nearest other parts; n score scans, kept. */
+  neighbourhoodMeans(): Float64Array {
+    if (!this.hubs) {
+      const r = new Float64Array(this.count);
+      const scores = new Float32Array(this.count);
+      for (let i = 0; i < this.count; i++) { this.scores(this.vector(i), scores); r[i] = meanOfTop(scores, HUB_NEIGHBOURS, (j) => j !== i); }
+      this.hubs = r;
+    }
+    return this.hubs;
+  }
+
+  /** Hub-corrected scores of a query against every part, 2·cos − r(q) − r(j), from its cosines; r(q) leaves out `self`. */
+  hubCorrected(cosine: ArrayLike<number>, self?: number): Float64Array {
+    const r = this.neighbourhoodMeans();
+    const inLibrary = self !== undefined && self >= 0 && self < this.count;
+    const rq = inLibrary ? r[self] : meanOfTop(cosine, HUB_NEIGHBOURS);
+    return Float64Array.from({ length: this.count }, (_, j) => 2 * cosine[j] - rq - r[j]);
+  }
+
+  /** The library's neighbour graph over hub-corrected scores, built on first use (2n score scans) and kept. */
   diffusionGraph(options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
     if (!this.graph || this.graph.options !== options) {
+      const r = this.neighbourhoodMeans();
       // build() asks row by row, so one row of scores is kept at a time (not n² of them).
       let row = -1;
       const scores = new Float32Array(this.count);
       this.graph = DiffusionGraph.build(this.count, (i, j) => {
         if (i !== row) { this.scores(this.vector(i), scores); row = i; }
-        return scores[j];
+        return 2 * scores[j] - r[i] - r[j];
       }, options);
     }
     return this.graph;
   }
 
   /**
-   * The k best parts ordered by diffusion from the query, the most similar part first (see `rankingKeys`); each
-   * hit's score is still its cosine similarity. A library part queries from its own node (pass it as `filter.exclude`); any other
-   * vector first joins the graph as one more node.
+   * The k best parts ordered through the library: by diffusion from the query over the hub-corrected graph, the
+   * part with the highest hub-corrected score first (see `rankingKeys`); each hit's score is still its cosine
+   * similarity. A library part queries from its own node (pass it as `filter.exclude`); any other vector first
+   * joins the graph as one more node.
    */
   queryDiffused(query: ArrayLike<number>, k: number, filter: QueryFilter = {}, options: DiffusionOptions = DIFFUSION_DEFAULTS): Hit[] {
     if (query.length !== this.dim) throw new RangeError(`query has ${query.length} values, the index ${this.dim}`);
     const cosine = this.scores(query);
     const graph = this.diffusionGraph(options);
     const inLibrary = filter.exclude !== undefined && filter.exclude >= 0 && filter.exclude < this.count;
-    const f = inLibrary ? graph.scoresFrom(filter.exclude!) : graph.withQuery(cosine).scoresFrom(this.count);
+    const corrected = this.hubCorrected(cosine, inLibrary ? filter.exclude : undefined);
+    const f = inLibrary ? graph.scoresFrom(filter.exclude!) : graph.withQuery(corrected).scoresFrom(this.count);
     const accept = this.filterOf(filter);
-    const hits = topK(rankingKeys(f, cosine, this.count, accept), Math.min(k, this.count), accept);
+    const hits = topK(rankingKeys(f, corrected, this.count, accept), Math.min(k, this.count), accept);
     return hits.map((h) => ({ index: h.index, score: cosine[h.index] }));
   }
 

@@ -1,8 +1,7 @@
 // Descriptors for a library under each retrieval method: the learned encoder, the same encoder untrained
 // (random weights), and the D2 shape distribution. Every method yields vectors plus a similarity.
 
-import type { Encoder } from '../model/encoder';
-import { embedForRetrieval, type ModelPart, type Pose } from '../model/embed';
+import { embedForRetrieval, type Encoders, type ModelPart, type Pose } from '../model/embed';
 import { createRng, hashString } from '../rng';
 import { cosineSimilarity } from './metrics';
 import { d2Histogram, l1 } from './d2';
@@ -17,7 +16,7 @@ export interface Descriptors {
   readonly similarity: (i: number, j: number) => number;
 }
 
-export function encoderDescriptors(method: 'learned' | 'untrained', encoder: Encoder, parts: readonly ModelPart[], points: number, pose: Pose): Descriptors {
+export function encoderDescriptors(method: 'learned' | 'untrained', encoder: Encoders, parts: readonly ModelPart[], points: number, pose: Pose): Descriptors {
   const vectors = embedForRetrieval(encoder, parts, points, pose);
   const dim = vectors.length / Math.max(1, parts.length);
   return { method, vectors, dim, similarity: cosineSimilarity(vectors, dim) };

@@ -2,8 +2,7 @@
 // with each method, and measure whether the part is still recognised — as itself and as its family —
 // how similar the view stays to the original, and how far the points moved (Chamfer).
 
-import type { Encoder } from '../model/encoder';
-import { embedForRetrieval, type ModelPart, type Pose } from '../model/embed';
+import { embedForRetrieval, type Encoders, type ModelPart, type Pose } from '../model/embed';
 import { AUGMENT_KINDS, augment, type AugmentKind, type UpAxis } from '../points/augment';
 import { makeCloud } from '../points/cloud';
 import { chamferDistance } from '../points/distance';
@@ -32,7 +31,7 @@ export interface StudyInput {
   readonly labels: readonly string[];
   readonly points: number;
   readonly pose: Pose;
-  readonly encoders: Partial<Record<'learned' | 'untrained', Encoder>>;
+  readonly encoders: Partial<Record<'learned' | 'untrained', Encoders>>;
   readonly kinds?: readonly AugmentKind[];
   readonly strengths?: readonly number[];
   readonly upAxis?: UpAxis;

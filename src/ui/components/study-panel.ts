@@ -68,7 +68,7 @@ export class SkStudyPanel extends LitElement {
           <tr><th>method (${r.parts} parts, ${r.labels} folders)</th><th>NN</th><th>1st tier</th><th>2nd tier</th><th>DCG</th><th>mAP</th><th>P@5</th></tr>
           ${Object.entries(r.methods).map(([m, v]) => html`<tr><td>${m.replace('+diffusion', ', ordered through the library')}</td>${[v.nn, v.first_tier, v.second_tier, v.dcg, v.map, v.p_at_5].map((x) => html`<td>${x.toFixed(3)}</td>`)}</tr>`)}
         </table>
-        <div class="small">Labels are the folders; each part queries all the others (leave-one-out). "Ordered through the library": results ranked by diffusion over the library's neighbour graph, as the search does by default.</div>` : null}
+        <div class="small">Labels are the folders; each part queries all the others (leave-one-out). "Ordered through the library": as the search orders results by default — similarities corrected for parts that are near everything, then spread over the library's neighbour graph.</div>` : null}
       ${this.rows.length ? html`
         <div class="bar"><label>measure <select @change=${(e: Event) => (this.measure = (e.target as HTMLSelectElement).value as SkStudyPanel['measure'])}>
           <option value="instance_top1">recognised as itself</option><option value="label_top1">nearest other part in the same folder</option><option value="mean_similarity">similarity to the original</option>

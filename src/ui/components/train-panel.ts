@@ -7,7 +7,7 @@ import { DEFAULT_CLASS_PRIOR, LOSS_NAMES, type LossName } from '../../core/model
 import type { TrainConfig, TrainProgress, HeldOutCheck } from '../../core/model/train';
 import { PRESETS } from '../../core/points/augment';
 import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../../core/model/encoder';
-import { POSE_LABELS, POSES } from '../../core/model/embed';
+import { memberPoses, POSE_LABELS, POSES } from '../../core/model/embed';
 import type { TrainStatusView } from '../status';
 import './loss-chart';
 
@@ -83,6 +83,8 @@ export class SkTrainPanel extends LitElement {
     const busy = s.kind === 'running' || s.kind === 'paused' || s.kind === 'starting';
     const p = this.progress;
     const stepsPerEpoch = Math.max(1, Math.floor(this.partCount / Math.max(2, Math.min(c.batchSize, this.partCount))));
+    const members = memberPoses(c.pose).length;
+    const chartTotal = p?.totalSteps ?? this.savedTotal;
     return html`<div class="grid">
       <div>
         <form @submit=${(e: Event) => e.preventDefault()} aria-label="training settings">
@@ -110,7 +112,7 @@ export class SkTrainPanel extends LitElement {
           </select>
           <label for="seed">seed</label><input id="seed" type="number" min="0" step="1" .value=${String(c.seed)} ?disabled=${busy} @change=${(e: Event) => this.set('seed', this.num(e))} />
           <label for="held">held out</label><input id="held" type="number" min="0" max="0.5" step="0.05" .value=${String(c.heldOutFraction)} ?disabled=${busy} @change=${(e: Event) => this.set('heldOutFraction', this.num(e))} />
-          <div class="note">${this.partCount} parts → ${stepsPerEpoch} steps an epoch, ${stepsPerEpoch * c.epochs} steps. Labels are never needed, except by the supervised-contrastive loss.${this.inputsNote ? html`<br />Default inputs for this library: ${this.inputsNote}.` : null}${this.poseNote ? html`<br />Default pose: ${this.poseNote}.` : null}</div>
+          <div class="note">${this.partCount} parts → ${stepsPerEpoch} steps an epoch, ${members > 1 ? `${stepsPerEpoch * c.epochs} steps for each of ${members} encoders, ${members * stepsPerEpoch * c.epochs} in all` : `${stepsPerEpoch * c.epochs} steps`}. Labels are never needed, except by the supervised-contrastive loss.${this.inputsNote ? html`<br />Default inputs for this library: ${this.inputsNote}.` : null}${this.poseNote ? html`<br />Default pose: ${this.poseNote}.` : null}</div>
         </form>
         <div class="buttons">
           <button class="primary" ?disabled=${busy || this.partCount < 2} @click=${() => this.emit('train-start', c)}>Start training</button>
@@ -123,11 +125,12 @@ export class SkTrainPanel extends LitElement {
       <div>
         <progress max=${p?.totalSteps ?? 1} value=${p?.step ?? 0} aria-label="training progress"></progress>
         <div class="stats" data-testid="train-stats">
-          ${statusLine(s)}${p ? html` · step ${p.step} of ${p.totalSteps} · loss ${p.loss.toFixed(4)} · ${p.samplesPerSec.toFixed(1)} parts/s · ${p.msPerStep.toFixed(0)} ms a step · ${formatEta(p.etaSec)} left · lr ${p.learningRate.toExponential(1)}` : ''}
+          ${statusLine(s)}${p ? html` · step ${p.step} of ${p.totalSteps}${p.members > 1 ? ` (encoder ${p.member + 1} of ${p.members}: ${POSE_LABELS[memberPoses(c.pose)[p.member] ?? c.pose]})` : ''} · loss ${p.loss.toFixed(4)} · ${p.samplesPerSec.toFixed(1)} parts/s · ${p.msPerStep.toFixed(0)} ms a step · ${formatEta(p.etaSec)} left · lr ${p.learningRate.toExponential(1)}` : ''}
           ${this.backend ? html` · backend ${this.backend}` : ''}
         </div>
         ${s.kind === 'failed' ? html`<div class="error" role="alert">${s.message}</div>` : null}
-        <sk-loss-chart .history=${this.history} .checks=${this.checks} .totalSteps=${p?.totalSteps ?? this.savedTotal}></sk-loss-chart>
+        <sk-loss-chart .history=${this.history} .checks=${this.checks} .totalSteps=${chartTotal}
+          .starts=${chartTotal > 0 ? memberPoses(c.pose).slice(1).map((pose, m) => ({ step: ((m + 1) * chartTotal) / members, label: `${POSE_LABELS[pose]} encoder from here` })) : []}></sk-loss-chart>
       </div>
     </div>`;
   }

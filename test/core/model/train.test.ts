@@ -1,9 +1,5 @@
 import * as tf from '@tensorflow/tfjs';
-import { readFileSync, readdirSync, statSync } from 'node:fs';
-import { join } from 'node:path';
-import { fileURLToPath } from 'node:url';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { loadPart } from '../../../src/core/library';
 import { Adam, cosineWithWarmup } from '../../../src/core/model/adam';
 import { encoderFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../../../src/core/model/checkpoint';
 import { DEFAULT_STEP_BUDGET, DEFAULT_TRAIN, defaultEpochs, defaultInputs, defaultPose, defaultTrainFor, FILE_FRAME_FIT, inputsReason, MIN_DEFAULT_EPOCHS, poseReason } from '../../../src/core/model/defaults';
@@ -12,19 +8,12 @@ import { getWeights, Trainer, type TrainConfig } from '../../../src/core/model/t
 import { PRESETS } from '../../../src/core/points/augment';
 import { expectClose } from '../../helpers';
 import { useBackend } from '../../tf-helpers';
+import { demoModelParts } from '../../meshes';
 
 let demo: ModelPart[] = [];
 beforeAll(async () => {
   await useBackend('wasm');
-  const root = fileURLToPath(new URL('../../../demo-shapes/', import.meta.url));
-  const files: string[] = [];
-  const walk = (d: string) => readdirSync(d).forEach((n) => { const p = join(d, n); if (statSync(p).isDirectory()) walk(p); else files.push(p); });
-  walk(root);
-  demo = files.filter((f) => !f.includes('/broken/') && /\.(stl|obj|ply|off)$/.test(f)).sort().map((f) => {
-    const b = readFileSync(f);
-    const part = loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.length), f.slice(root.length), { points: 512, seed: 0 });
-    return { points: part.points, normals: part.normals };
-  });
+  demo = demoModelParts(512);
 });
 
 const small: TrainConfig = {
@@ -244,14 +233,14 @@ describe('default inputs follow the library', () => {
 describe('default pose follows how square the parts sit in their files', () => {
   // The thresholds are our own, from measurements (docs/results.md: both real furniture sets, 96 % and 90 % of
   // parts square, retrieve better in their files' frame; the demo library, 66 %, keeps principal axes).
-  it('keeps the files\' frame from 80 % of parts within 5 % of their principal box, principal axes below', () => {
+  it('uses the files\' frame (beside principal axes) from 80 % of parts within 5 % of their principal box, principal axes alone below', () => {
     const lib = (square: number, turned: number) => [...Array(square).fill(0.9), ...Array(turned).fill(2)];
-    expect(defaultPose(lib(8, 2))).toBe('file-axes');
+    expect(defaultPose(lib(8, 2))).toBe('file-and-principal');
     expect(defaultPose(lib(7, 3))).toBe('principal-axes');
     expect(defaultPose([FILE_FRAME_FIT, FILE_FRAME_FIT + 1e-9])).toBe('principal-axes'); // one of two square
     expect(defaultPose([])).toBe(DEFAULT_TRAIN.pose);
-    expect(defaultTrainFor({ closed: [true, true], boxRatios: [1, 1] }).pose).toBe('file-axes');
-    expect(poseReason(lib(146, 6))).toMatch(/files' own axes: 146 of 152/);
+    expect(defaultTrainFor({ closed: [true, true], boxRatios: [1, 1] }).pose).toBe('file-and-principal');
+    expect(poseReason(lib(146, 6))).toMatch(/files' own axes and principal axes, one encoder each: 146 of 152/);
     expect(poseReason(lib(74, 38))).toMatch(/principal axes: only 74 of 112/);
   });
 });

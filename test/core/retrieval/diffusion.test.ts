@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { Matrix, inverse } from 'ml-matrix';
 import { DIFFUSION_DEFAULTS, DiffusionGraph, diffusedSimilarity, rankingKeys, validateDiffusion, type DiffusionOptions } from '../../../src/core/retrieval/diffusion';
+import { throughLibrary } from '../../../src/core/retrieval/hubness';
 import { EmbeddingIndex } from '../../../src/core/retrieval/index';
 import { createRng } from '../../../src/core/rng';
 import { expectClose } from '../../helpers';
@@ -106,14 +107,20 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
     expect(byDiffusion).toEqual([2, 3, 1, 4, 5, 6]); // the twin third by diffusion alone
     const keys = rankingKeys(f, s[0], P.length, (j) => j !== 0);
     expect([1, 2, 3, 4, 5, 6].sort((a, b) => keys[b] - keys[a])).toEqual([1, 2, 3, 4, 5, 6]);
-    // The same through the index, and in leave-one-out scoring.
-    const index = new EmbeddingIndex(Float32Array.from(P.flat()), 2, P.map((_, i) => ({ name: `p${i}`, label: i === 1 ? 'twin' : 'family', diagonal: 1 })));
-    expect(index.queryDiffused(index.vector(0), 6, { exclude: 0 }, { k: 3, alpha: 0.9, gamma: 3, iterations: 400 }).map((h) => h.index)).toEqual([1, 2, 3, 4, 5, 6]);
-    const loo = diffusedSimilarity(P.length, (i, j) => s[i][j], { k: 3, alpha: 0.9, gamma: 3, iterations: 400 });
+    // The same in leave-one-out scoring by diffusion alone.
+    const opts = { k: 3, alpha: 0.9, gamma: 3, iterations: 400 };
+    const loo = diffusedSimilarity(P.length, (i, j) => s[i][j], opts);
     expect([1, 2, 3, 4, 5, 6].sort((a, b) => loo(0, b) - loo(0, a))).toEqual([1, 2, 3, 4, 5, 6]);
-    // A filter that leaves the twin out lifts the nearest part it keeps instead (6°, also diffusion's first).
-    const kept = index.queryDiffused(index.vector(0), 5, { exclude: 0, labels: ['family'] }, { k: 3, alpha: 0.9, gamma: 3, iterations: 400 });
-    expect(kept.map((h) => h.index)).toEqual([2, 3, 4, 5, 6]);
+    // The index orders through the library, hub-corrected before diffusion: the twin still comes first, and the
+    // order is the leave-one-out one from the same steps.
+    const index = new EmbeddingIndex(Float32Array.from(P.flat()), 2, P.map((_, i) => ({ name: `p${i}`, label: i === 1 ? 'twin' : 'family', diagonal: 1 })));
+    const through = throughLibrary(P.length, (i, j) => s[i][j], opts);
+    const wanted = [1, 2, 3, 4, 5, 6].sort((a, b) => through(0, b) - through(0, a) || a - b);
+    expect(wanted[0]).toBe(1);
+    expect(index.queryDiffused(index.vector(0), 6, { exclude: 0 }, opts).map((h) => h.index)).toEqual(wanted);
+    // A filter that leaves the twin out lifts the nearest part it keeps instead (6°).
+    const kept = index.queryDiffused(index.vector(0), 5, { exclude: 0, labels: ['family'] }, opts);
+    expect(kept.map((h) => h.index)).toEqual([2, ...wanted.filter((j) => j !== 1 && j !== 2)]);
   });
 
   it('refuses options outside their ranges, naming the option', () => {
@@ -123,23 +130,23 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
     expect(() => DiffusionGraph.build(3, () => 0, options).withQuery([1, 2])).toThrow(/2 similarities for 3 parts/);
   });
 
-  it('the index orders hits by diffusion and reports their cosine; leave-one-out keys come from the same graph', () => {
+  it('the index orders hits through the library (hub-corrected, diffused) and reports their cosine; leave-one-out keys come from the same graph', () => {
     const flat = Float32Array.from(V.flat());
     const index = new EmbeddingIndex(flat, 6, V.map((_, i) => ({ name: `p${i}`, label: 'x', diagonal: 1 })));
     const graph = index.diffusionGraph();
     expect(index.diffusionGraph()).toBe(graph); // built once
     const fromPart = index.queryDiffused(index.vector(4), 29, { exclude: 4 });
-    const keys = rankingKeys(graph.scoresFrom(4), index.scores(index.vector(4)), V.length, (j) => j !== 4);
+    const keys = rankingKeys(graph.scoresFrom(4), index.hubCorrected(index.scores(index.vector(4)), 4), V.length, (j) => j !== 4);
     expect(fromPart.map((h) => h.index)).toEqual([...keys.keys()].filter((j) => j !== 4).sort((a, b) => keys[b] - keys[a] || a - b));
     fromPart.forEach((h) => expectClose(h.score, dot(V[4], V[h.index]), { atol: 1e-6 }));
-    const loo = diffusedSimilarity(V.length, (i, j) => sim[i][j], DIFFUSION_DEFAULTS);
+    const loo = throughLibrary(V.length, (i, j) => sim[i][j], DIFFUSION_DEFAULTS);
     const viaLoo = [...Array(V.length).keys()].filter((j) => j !== 4).sort((a, b) => loo(4, b) - loo(4, a) || a - b);
     expect(viaLoo).toEqual(fromPart.map((h) => h.index));
     // A vector from outside the library ranks as its node in the joined graph.
     const [q] = unitVectors(1, 6, 3);
     const outside = index.queryDiffused(q, 5);
-    const cos = index.scores(q);
-    const joinedKeys = rankingKeys(graph.withQuery(cos).scoresFrom(V.length), cos, V.length, (j) => j < V.length);
+    const cos = index.scores(q), corrected = index.hubCorrected(cos);
+    const joinedKeys = rankingKeys(graph.withQuery(corrected).scoresFrom(V.length), corrected, V.length, (j) => j < V.length);
     expect(outside.map((h) => h.index)).toEqual([...joinedKeys.keys()].sort((a, b) => joinedKeys[b] - joinedKeys[a] || a - b).slice(0, 5));
     expect(index.ranked('cosine', q, 5)).toEqual(index.query(q, 5));
   });
