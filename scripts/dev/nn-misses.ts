@@ -1,15 +1,19 @@
-// Diagnostic: which parts' first hit is from another class, over several saved runs of one library (e.g. the
-// three seeds), and what they are taken for; a miss in every run is a look-alike, not a seed's accident.
+// Diagnostic: which parts' first hit (as the search orders through the library: the highest hub-corrected score)
+// is from another class, over several saved runs of one library (e.g. the seeds), and what they are taken for;
+// a miss in every run is a look-alike, not a seed's accident.
 //   npx tsx scripts/dev/nn-misses.ts <library-dir> <run-dir>...
-import { embedForRetrieval } from '../../src/core/model/embed';
+import { disposeEncoders, embedForRetrieval } from '../../src/core/model/embed';
+import { encodersFromCheckpoint } from '../../src/core/model/checkpoint';
+import { hubCorrected } from '../../src/core/retrieval/hubness';
 import { cosineSimilarity } from '../../src/core/retrieval/metrics';
 import { openSavedRun } from './saved-run';
 const [libDir, ...runs] = process.argv.slice(2);
 const fails = new Map<string, string[]>();
 for (const run of runs) {
-  const { lib, parts, enc, cfg } = await openSavedRun(libDir, run);
-  const v = embedForRetrieval(enc, parts, cfg.points, cfg.pose); enc.dispose();
-  const N = parts.length, sim = cosineSimilarity(v, v.length / N);
+  const { lib, parts, ckpt, cfg } = await openSavedRun(libDir, run, false);
+  const enc = encodersFromCheckpoint(ckpt);
+  const v = embedForRetrieval(enc, parts, cfg.points, cfg.pose); disposeEncoders(enc);
+  const N = parts.length, sim = hubCorrected(N, cosineSimilarity(v, v.length / N));
   for (let i = 0; i < N; i++) {
     let best = -1, bs = -Infinity;
     for (let j = 0; j < N; j++) { const s = j === i ? -Infinity : sim(i, j); if (s > bs) { bs = s; best = j; } }

@@ -61,7 +61,7 @@ export const POSE_LABELS: Record<Pose, string> = {
   'principal-axes': 'principal axes',
   'file-axes': "the files' axes, signs open",
   'as-is': 'exactly as in the files',
-  'file-and-principal': "the files' axes and principal axes (two encoders)",
+  'file-and-principal': "two encoders: the files' axes and principal axes",
 };
 
 /** The pose each encoder of a model reads, in the order they are trained and stored. */

@@ -48,7 +48,7 @@ export class SkLossChart extends LitElement {
       ${svg`<text x=${L - 4} y=${T + 8} text-anchor="end">${hi.toFixed(2)}</text><text x=${L - 4} y=${H - B} text-anchor="end">${lo.toFixed(2)}</text>`}
       ${svg`<text x=${W - R} y=${H - 8} text-anchor="end">step ${total}</text><text x=${L} y=${H - 8}>loss each step (light), smoothed (teal)</text>`}
       ${h.length > 1 ? svg`<polyline class="raw" points=${h.map((p) => `${x(p.step).toFixed(1)},${y(p.loss).toFixed(1)}`).join(' ')}></polyline><polyline class="smooth" points=${smooth.join(' ')}></polyline>` : null}
-      ${this.starts.map((s) => svg`<line class="start" x1=${x(s.step)} y1=${T} x2=${x(s.step)} y2=${H - B}></line><text x=${x(s.step) + 4} y=${T + 8}>${s.label}</text>`)}
+      ${this.starts.map((s) => svg`<line class="start" x1=${x(s.step)} y1=${T} x2=${x(s.step)} y2=${H - B}></line><text x=${x(s.step) + 4} y=${H - B - 6}>${s.label}</text>`)}
       ${this.checks.map((c) => svg`<circle class="check" cx=${x(c.step)} cy=${yCheck(c.instanceTop1)} r="4"><title>held-out recognition ${(c.instanceTop1 * 100).toFixed(0)}% at step ${c.step}</title></circle>`)}
       ${this.checks.length ? svg`<text x=${W - R + 4} y=${T + 8}>100%</text><text x=${W - R + 4} y=${H - B}>0%</text><text x=${W - R} y=${T + 22} text-anchor="end" style="fill:#c2571a">held-out recognition (dots)</text>` : null}
     </svg>`;
