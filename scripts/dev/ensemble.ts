@@ -6,7 +6,7 @@ import { POOL_POINTS } from '../../src/core/model/defaults';
 import { loadLibrary } from '../../src/cli/library-dir';
 import { loadRun } from '../../src/cli/run-dir';
 import { encoderFromCheckpoint } from '../../src/core/model/checkpoint';
-import { embedForRetrieval } from '../../src/core/model/embed';
+import { embedForRetrieval, sideBySide } from '../../src/core/model/embed';
 import { embeddingReadings } from './saved-run';
 
 await initBackend();
@@ -23,7 +23,5 @@ for (const dir of runs) {
   all.push(v);
   console.log(dir.padEnd(28), embeddingReadings(lib.labels, v));
 }
-const D = all.reduce((s, v) => s + v.length / N, 0);
-const cat = new Float32Array(N * D);
-for (let i = 0, o = 0; i < N; i++) for (const v of all) { const d = v.length / N; for (let k = 0; k < d; k++) cat[o++] = v[i * d + k] / Math.sqrt(all.length); }
+const cat = sideBySide(all, N);
 console.log('concatenated'.padEnd(28), embeddingReadings(lib.labels, cat));

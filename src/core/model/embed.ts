@@ -120,13 +120,20 @@ export function embedForRetrieval(encoders: Encoders, parts: readonly ModelPart[
   const list = encoderList(encoders), poses = memberPoses(pose);
   if (list.length !== poses.length) throw new RangeError(`embedForRetrieval: the pose "${pose}" needs ${poses.length} encoder(s), got ${list.length}`);
   if (list.length === 1) return embedInPose(list[0], parts, n, poses[0], resamplings);
-  const each = list.map((e, m) => embedInPose(e, parts, n, poses[m], resamplings));
-  const count = parts.length, dims = each.map((v) => v.length / Math.max(1, count));
-  const D = dims.reduce((a, b) => a + b, 0), scale = 1 / Math.sqrt(list.length);
+  return sideBySide(list.map((e, m) => embedInPose(e, parts, n, poses[m], resamplings)), parts.length);
+}
+
+/**
+ * Unit-row embeddings of the same `count` parts (count × D_m each, row-major) set side by side, each scaled by
+ * 1/√m: the rows stay unit length and their cosine is the mean of the m cosines.
+ */
+export function sideBySide(embeddings: readonly Float32Array[], count: number): Float32Array {
+  const dims = embeddings.map((v) => v.length / Math.max(1, count));
+  const D = dims.reduce((a, b) => a + b, 0), scale = 1 / Math.sqrt(embeddings.length);
   const out = new Float32Array(count * D);
   for (let i = 0; i < count; i++) {
     let o = i * D;
-    each.forEach((v, m) => { for (let d = 0; d < dims[m]; d++) out[o++] = v[i * dims[m] + d] * scale; });
+    embeddings.forEach((v, m) => { for (let d = 0; d < dims[m]; d++) out[o++] = v[i * dims[m] + d] * scale; });
   }
   return out;
 }

@@ -335,8 +335,9 @@ export class Trainer {
   /** Held-out instance recognition: views of held-out parts against their clean embeddings. */
   heldOutCheck(): HeldOutCheck | null {
     if (this.heldIdx.length < 2) return null;
-    const held = this.heldIdx.map((i) => this.memberParts[this.memberOf(Math.max(0, this.step - 1)).member][i]);
-    const encoder = this.encoders[this.memberOf(Math.max(0, this.step - 1)).member];
+    const { member } = this.memberOf(Math.max(0, this.step - 1)); // the encoder the last step trained
+    const held = this.heldIdx.map((i) => this.memberParts[member][i]);
+    const encoder = this.encoders[member];
     const clean = embedParts(encoder, held, this.config.points);
     const rng = createRng(hashString('check', this.config.seed));
     const views = held.map((p) => {

@@ -3,7 +3,7 @@
 
 import { topK, type Hit } from './topk';
 import { DIFFUSION_DEFAULTS, DiffusionGraph, rankingKeys, type DiffusionOptions } from './diffusion';
-import { HUB_NEIGHBOURS, meanOfTop } from './hubness';
+import { HUB_NEIGHBOURS, meanOfTop, neighbourhoodMeans } from './hubness';
 
 /**
  * How results are ordered: by cosine similarity to the query, or through the library: hub-corrected (CSLS,
@@ -80,15 +80,22 @@ export class EmbeddingIndex {
   private graph: DiffusionGraph | null = null;
   private hubs: Float64Array | null = null;
 
+  /**
+   * Cosine between library parts for callers that ask row by row (i, then every j): one row of scores is kept at a
+   * time (not n² of them), so a full pass costs n score scans.
+   */
+  private rowByRow(): (i: number, j: number) => number {
+    let row = -1;
+    const scores = new Float32Array(this.count);
+    return (i, j) => {
+      if (i !== row) { this.scores(this.vector(i), scores); row = i; }
+      return scores[j];
+    };
+  }
+
   /** r(j) of every part (hubness.ts): the mean cosine to its HUB_NEIGHBOURS nearest other parts; n score scans, kept. */
   neighbourhoodMeans(): Float64Array {
-    if (!this.hubs) {
-      const r = new Float64Array(this.count);
-      const scores = new Float32Array(this.count);
-      for (let i = 0; i < this.count; i++) { this.scores(this.vector(i), scores); r[i] = meanOfTop(scores, HUB_NEIGHBOURS, (j) => j !== i); }
-      this.hubs = r;
-    }
-    return this.hubs;
+    return (this.hubs ??= neighbourhoodMeans(this.count, this.rowByRow(), HUB_NEIGHBOURS));
   }
 
   /** Hub-corrected scores of a query against every part, 2·cos − r(q) − r(j), from its cosines; r(q) leaves out `self`. */
@@ -103,13 +110,8 @@ export class EmbeddingIndex {
   diffusionGraph(options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
     if (!this.graph || this.graph.options !== options) {
       const r = this.neighbourhoodMeans();
-      // build() asks row by row, so one row of scores is kept at a time (not n² of them).
-      let row = -1;
-      const scores = new Float32Array(this.count);
-      this.graph = DiffusionGraph.build(this.count, (i, j) => {
-        if (i !== row) { this.scores(this.vector(i), scores); row = i; }
-        return 2 * scores[j] - r[i] - r[j];
-      }, options);
+      const cosine = this.rowByRow(); // build() asks row by row
+      this.graph = DiffusionGraph.build(this.count, (i, j) => 2 * cosine(i, j) - r[i] - r[j], options);
     }
     return this.graph;
   }
