@@ -1,69 +1,100 @@
-// Wavefront OBJ through three.js's OBJLoader (n-gons, groups, negative indices), plus an index pre-check
-// the loader does not make: an out-of-range index there silently becomes a NaN vertex.
+// Wavefront OBJ geometry, read by hand after the format's description (Wavefront "Object Files (.obj)",
+// Advanced Visualizer manual, appendix B1): "v x y z [w]" vertices, "f" faces of vertex references
+// ("i", "i/t", "i//n", "i/t/n"; negative ones count back from the latest vertex), fan-triangulated; lines
+// may be indented and continued with a trailing backslash. Everything else (groups, materials, texture
+// coordinates, normals, lines, curves) carries no surface and is skipped. Memory grows with the vertices
+// and face corners the file really has, in typed arrays, whatever else the file repeats.
 
-import { Mesh as ThreeMesh, Points as ThreePoints, type BufferGeometry } from 'three';
-import { OBJLoader } from 'three/examples/jsm/loaders/OBJLoader.js';
 import { finishMesh } from './geometry';
 import { MeshImportError, type ImportedMesh } from './types';
 
-function checkObjIndices(text: string, file: string): { vertices: number; faces: number } {
+/** A Float32Array or Uint32Array that doubles as it fills. */
+class Growable<T extends Float32Array | Uint32Array> {
+  length = 0;
+  constructor(private data: T, private readonly make: (n: number) => T) {}
+  push(v: number): void {
+    if (this.length === this.data.length) {
+      const bigger = this.make(this.data.length * 2);
+      bigger.set(this.data);
+      this.data = bigger;
+    }
+    this.data[this.length++] = v;
+  }
+  view(): T {
+    return this.data.subarray(0, this.length) as T;
+  }
+}
+
+const isBlank = (c: number) => c === 32 || c === 9 || c === 11 || c === 12 || c === 13;
+
+export function parseObj(text: string, file: string, fileBytes: number): ImportedMesh {
+  const positions = new Growable(new Float32Array(3 * 1024), (n) => new Float32Array(n));
+  const indices = new Growable(new Uint32Array(3 * 1024), (n) => new Uint32Array(n));
+  const corners: number[] = [];
   let vertices = 0;
-  let faces = 0;
   let lineNo = 0;
   let start = 0;
   while (start < text.length) {
+    // One logical line: physical lines joined where one ends in a backslash.
     let end = text.indexOf('\n', start);
     if (end < 0) end = text.length;
     lineNo++;
-    const c0 = text.charCodeAt(start);
-    const c1 = text.charCodeAt(start + 1);
-    if (c0 === 118 /* v */ && (c1 === 32 || c1 === 9)) vertices++;
-    else if (c0 === 102 /* f */ && (c1 === 32 || c1 === 9)) {
-      faces++;
-      const tokens = text.slice(start + 2, end).trim().split(/\s+/);
-      for (const token of tokens) {
-        const k = parseInt(token, 10);
-        if (Number.isNaN(k)) continue;
+    const firstLine = lineNo;
+    let line = text.slice(start, end);
+    start = end + 1;
+    while (/\\\s*$/.test(line) && start < text.length) {
+      end = text.indexOf('\n', start);
+      if (end < 0) end = text.length;
+      lineNo++;
+      line = line.replace(/\\\s*$/, ' ') + text.slice(start, end);
+      start = end + 1;
+    }
+    let i = 0;
+    while (i < line.length && isBlank(line.charCodeAt(i))) i++;
+    const c0 = line.charCodeAt(i);
+    const c1 = line.charCodeAt(i + 1);
+    if (!(isBlank(c1) || Number.isNaN(c1))) continue; // vt, vn, usemtl, …: not geometry
+    if (c0 === 118 /* v */) {
+      const words = line.slice(i + 2).trim().split(/\s+/);
+      if (words.length < 3 || words[0] === '') {
+        throw new MeshImportError(file, 'parse-failed', `line ${firstLine}: a vertex needs x y z, got "${line.trim().slice(0, 40)}"`);
+      }
+      for (let k = 0; k < 3; k++) {
+        const v = Number(words[k]);
+        if (Number.isNaN(v) && !/^[+-]?nan$/i.test(words[k])) {
+          throw new MeshImportError(file, 'parse-failed', `line ${firstLine}: "${words[k].slice(0, 20)}" is not a number`);
+        }
+        positions.push(v);
+      }
+      vertices++;
+    } else if (c0 === 102 /* f */) {
+      const words = line.slice(i + 2).trim().split(/\s+/);
+      corners.length = 0;
+      for (const word of words) {
+        if (word === '') continue;
+        const slash = word.indexOf('/');
+        const ref = slash < 0 ? word : word.slice(0, slash);
+        const k = Number(ref);
+        if (!Number.isInteger(k) || ref === '') {
+          throw new MeshImportError(file, 'parse-failed', `line ${firstLine}: "${word.slice(0, 20)}" is not a vertex reference`);
+        }
         const absolute = k < 0 ? vertices + k : k - 1;
         if (k === 0 || absolute < 0 || absolute >= vertices) {
           throw new MeshImportError(file, 'index-out-of-range',
-            `line ${lineNo}: face refers to vertex ${k}, but only ${vertices} vertices are defined before it`);
+            `line ${firstLine}: face refers to vertex ${k}, but only ${vertices} vertices are defined before it`);
         }
+        corners.push(absolute);
+      }
+      if (corners.length < 3) {
+        throw new MeshImportError(file, 'parse-failed', `line ${firstLine}: a face needs at least 3 vertices, got ${corners.length}`);
+      }
+      for (let k = 1; k < corners.length - 1; k++) {
+        indices.push(corners[0]); indices.push(corners[k]); indices.push(corners[k + 1]);
       }
     }
-    start = end + 1;
   }
-  return { vertices, faces };
-}
-
-export function parseObj(text: string, file: string, fileBytes: number): ImportedMesh {
-  const counts = checkObjIndices(text, file);
-  if (counts.vertices === 0) throw new MeshImportError(file, 'unrecognised', 'not an OBJ file: no "v x y z" vertex lines');
-  let group;
-  try {
-    // Polyline records ("l …") carry no surface, and OBJLoader turns a whole object containing one into
-    // line segments, losing its faces (seen in real exports): drop them before parsing.
-    const surfaces = /^l[ \t]/m.test(text) ? text.replace(/^l[ \t][^\n]*$/gm, '') : text;
-    group = new OBJLoader().parse(surfaces);
-  } catch (err) {
-    throw new MeshImportError(file, 'parse-failed', `OBJ could not be parsed (${(err as Error).message})`);
-  }
-  const triangles: BufferGeometry[] = [];
-  const points: BufferGeometry[] = [];
-  group.traverse((child) => {
-    if (child instanceof ThreeMesh) triangles.push(child.geometry as BufferGeometry);
-    else if (child instanceof ThreePoints) points.push(child.geometry as BufferGeometry);
-  });
-  const parts = triangles.length > 0 ? triangles : points;
-  let total = 0;
-  for (const g of parts) total += g.getAttribute('position').array.length;
-  const positions = new Float32Array(total);
-  let offset = 0;
-  for (const g of parts) {
-    const a = g.getAttribute('position').array as Float32Array;
-    positions.set(a, offset);
-    offset += a.length;
-  }
-  const soup = triangles.length > 0;
-  return finishMesh(file, 'obj', { positions, indices: null, soup }, fileBytes);
+  if (vertices === 0) throw new MeshImportError(file, 'unrecognised', 'not an OBJ file: no "v x y z" vertex lines');
+  // Without faces the vertices are a point set (a scan saved as OBJ).
+  const faceIndices = indices.length > 0 ? indices.view() : null;
+  return finishMesh(file, 'obj', { positions: positions.view(), indices: faceIndices }, fileBytes);
 }

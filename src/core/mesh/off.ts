@@ -41,7 +41,12 @@ export function parseOff(text: string, file: string, fileBytes: number): Importe
   const positions = new Float32Array(vertexCount * 3);
   for (let v = 0; v < vertexCount; v++) {
     const parts = lines[line++].split(/\s+/);
-    if (parts.length < 3) throw new MeshImportError(file, 'parse-failed', `OFF vertex ${v} has ${parts.length} values, expected 3`);
+    if (parts.length < 3) throw new MeshImportError(file, 'parse-failed', `OFF vertex ${v} has ${parts.length} values, expected 3: the counts in the header may not match the data`);
+    for (let k = 0; k < 3; k++) {
+      if (Number.isNaN(Number(parts[k])) && !/^[+-]?nan$/i.test(parts[k])) {
+        throw new MeshImportError(file, 'parse-failed', `OFF vertex ${v}: "${parts[k].slice(0, 20)}" is not a number`);
+      }
+    }
     positions[v * 3] = Number(parts[0]);
     positions[v * 3 + 1] = Number(parts[1]);
     positions[v * 3 + 2] = Number(parts[2]);
@@ -55,9 +60,13 @@ export function parseOff(text: string, file: string, fileBytes: number): Importe
     const parts = lines[line++].split(/\s+/).map(Number);
     const n = parts[0];
     if (!Number.isInteger(n) || n < 3 || parts.length < n + 1) {
-      throw new MeshImportError(file, 'parse-failed', `OFF face ${f} is malformed ("${parts.slice(0, 6).join(' ')}")`);
+      throw new MeshImportError(file, 'parse-failed', `OFF face ${f} is malformed ("${parts.slice(0, 6).join(' ')}"): the counts in the header may not match the data`);
     }
     for (let k = 1; k < n - 1; k++) indices.push(parts[1], parts[1 + k], parts[2 + k]);
+  }
+  if (line < lines.length) {
+    throw new MeshImportError(file, 'parse-failed',
+      `OFF header declares ${vertexCount} vertices and ${faceCount} faces, but ${lines.length - line} more lines follow them: the counts do not match the data`);
   }
   const raw = faceCount === 0 ? { positions, indices: null } : { positions, indices: Uint32Array.from(indices.map((i) => (i < 0 || !Number.isInteger(i) ? 0xffffffff : i))) };
   return finishMesh(file, 'off', raw, fileBytes);
