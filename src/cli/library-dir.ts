@@ -5,7 +5,8 @@ import { readFileSync, readdirSync, statSync, existsSync } from 'node:fs';
 import { join, relative, sep } from 'node:path';
 import { failureOf, labelFromPath, loadPart, type LibraryPart } from '../core/library';
 import type { ImportFailure } from '../core/mesh/import';
-import { isSupportedFile } from '../core/mesh/import';
+import { DEFAULT_MAX_BYTES, isSupportedFile } from '../core/mesh/import';
+import { MeshImportError } from '../core/mesh/types';
 import { POOL_POINTS } from '../core/model/defaults';
 import { Progress } from './progress';
 import { CliError } from './errors';
@@ -50,7 +51,7 @@ export function readLabelsCsv(root: string): Map<string, string> | null {
   return map;
 }
 
-export function loadLibrary(root: string, options: { quiet?: boolean; seed?: number; points?: number } = {}): LoadedLibrary {
+export function loadLibrary(root: string, options: { quiet?: boolean; seed?: number; points?: number; maxBytes?: number } = {}): LoadedLibrary {
   const files = listFiles(root);
   if (files.length === 0) throw new CliError(`no mesh or point files (STL, OBJ, PLY, OFF, XYZ) under ${root}`);
   const csv = readLabelsCsv(root);
@@ -60,9 +61,13 @@ export function loadLibrary(root: string, options: { quiet?: boolean; seed?: num
   files.forEach((path, i) => {
     const name = relative(root, path).split(sep).join('/');
     try {
+      // The size cap is checked before the file is read, so a huge file costs no memory.
+      const size = statSync(path).size;
+      const cap = options.maxBytes ?? DEFAULT_MAX_BYTES;
+      if (size > cap) throw new MeshImportError(name, 'too-large', `the file is ${size} bytes, over the ${cap}-byte limit (raise it with --max-file-mb)`);
       const bytes = readFileSync(path);
       const buffer = bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer;
-      parts.push(loadPart(buffer, name, { points: options.points ?? POOL_POINTS, seed: options.seed ?? 0 }));
+      parts.push(loadPart(buffer, name, { points: options.points ?? POOL_POINTS, seed: options.seed ?? 0 }, options.maxBytes));
     } catch (err) {
       failures.push(failureOf(name, err));
     }

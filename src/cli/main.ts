@@ -20,10 +20,11 @@ import { cosineSimilarity } from '../core/retrieval/metrics';
 import { writeNpyFloat32 } from '../core/retrieval/npy';
 import { runStudy } from '../core/retrieval/study';
 import { loadPart, type LibraryPart } from '../core/library';
+import { DEFAULT_MAX_BYTES } from '../core/mesh/import';
 import { readFileSync, existsSync } from 'node:fs';
 import { CliError } from './errors';
-import { loadLibrary, reportFailures } from './library-dir';
-import { duration, Progress } from './progress';
+import { loadLibrary, reportFailures, type LoadedLibrary } from './library-dir';
+import { duration, Progress, setProgressMode } from './progress';
 import { loadRun, saveRun } from './run-dir';
 
 const CAUTION = 'Caution: geometric similarity is not interchangeability. Before substituting a part, a qualified person must check material, tolerances, loads and standards, following local codes and your engineering sign-off.';
@@ -40,13 +41,16 @@ usage:
                  (default: file-and-principal, two encoders trained one after the other, when most parts sit square in
                  their files' axes; principal-axes otherwise)
                  (as-is also keeps each axis's sign; its augmentations default to file-pose)
-  shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy>
+  shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy> [--json]
   shapekin query <mesh-file> --model <run-dir> --library <library-dir> [-k 10] [--size-ratio R] [--order diffusion|cosine] [--json]
                  (diffusion: through the library — scores corrected for parts near everything, then diffused over its neighbour graph; cosine: by similarity to the query alone)
   shapekin eval <library-dir> [--model <run-dir>] [--json]
   shapekin study <library-dir> --model <run-dir> [--augmentations a,b,…] [--strengths 0,0.5,1] [--json]
   shapekin duplicates <library-dir> --model <run-dir> [--threshold 0.97] [--json]
 
+every command: [--json] one JSON document on stdout and nothing else there (bad files under "failures")
+               [--progress bar|json|none] progress on stderr: a bar on a terminal (default), JSON lines, or none
+               [--max-file-mb N] refuse files larger than N MiB (default ${DEFAULT_MAX_BYTES / 2 ** 20})
 presets for --augment: ${Object.keys(PRESETS).join(', ')}
 `;
 
@@ -56,18 +60,28 @@ const OPTIONS = {
   batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' }, 'class-prior': { type: 'string' },
   k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, order: { type: 'string' }, threshold: { type: 'string' },
   json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
-  backend: { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, neighbours: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
+  backend: { type: 'string' }, progress: { type: 'string' }, 'max-file-mb': { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, neighbours: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
 } as const;
 
 type Values = { [K in keyof typeof OPTIONS]?: (typeof OPTIONS)[K]['type'] extends 'boolean' ? boolean : string };
 
-function num(values: Values, key: keyof Values, fallback: number, integer = true): number {
+/** A numeric option, checked to be a number (whole when `integer`) within [min, max]. */
+function num(values: Values, key: keyof Values, fallback: number, integer = true, min = -Infinity, max = Infinity): number {
   const raw = values[key];
   if (raw === undefined) return fallback;
   const v = Number(raw);
-  if (!Number.isFinite(v) || (integer && !Number.isInteger(v))) throw new CliError(`--${key} must be ${integer ? 'a whole number' : 'a number'}, got "${raw}"`, 2);
+  const range = min > -Infinity && max < Infinity ? ` from ${min} to ${max}` : min > -Infinity ? ` of at least ${min}` : '';
+  if (raw === '' || !Number.isFinite(v) || (integer && !Number.isInteger(v)) || v < min || v > max) {
+    throw new CliError(`--${key} must be ${integer ? 'a whole number' : 'a number'}${range}, got "${raw}"`, 2);
+  }
   return v;
 }
+
+/** The JSON list of files that could not be read, for every --json document. */
+const failuresJson = (library: LoadedLibrary) => library.failures.map((f) => ({ file: f.file, reason: f.reason }));
+
+/** The per-file size cap the user set (--max-file-mb), in bytes. */
+const maxBytes = (values: Values): number => Math.floor(num(values, 'max-file-mb', DEFAULT_MAX_BYTES / 2 ** 20, false, 0.001) * 2 ** 20);
 
 function need(values: Values, key: 'out' | 'model' | 'library', command: string): string {
   const v = values[key];
@@ -86,43 +100,62 @@ function pipelineFrom(arg: string | undefined): Pipeline {
   }
 }
 
+/** How often a training run is saved after its first step. */
+const CHECKPOINT_EVERY_MS = 30_000;
+
+/** A remark for the person at the terminal: stderr, never in --json mode's stdout. */
+function notice(values: Values, text: string): void {
+  if (!values.quiet) process.stderr.write(`${text}\n`);
+}
+
 const asModelParts = (parts: readonly LibraryPart[]): ModelPart[] => parts.map((p) => ({ points: p.points, normals: p.normals }));
+
+/** train's numeric options: whole or not, and the range each must lie in. */
+const TRAIN_NUMBERS: Record<'epochs' | 'seed' | 'points' | 'batch' | 'lr' | 'temperature' | 'class-prior' | 'neighbours', [integer: boolean, min: number, max: number]> = {
+  epochs: [true, 1, Infinity], seed: [true, -Infinity, Infinity], points: [true, 16, POOL_POINTS], batch: [true, 2, Infinity],
+  lr: [false, 1e-9, 1], temperature: [false, 1e-3, 100], 'class-prior': [false, 0, 0.999], neighbours: [true, 0, 64],
+};
 
 async function train(lib: string, values: Values): Promise<void> {
   const out = need(values, 'out', 'train');
   const loss = (values.loss ?? DEFAULT_TRAIN.loss.name) as LossName;
   if (values['class-prior'] !== undefined && loss !== 'debiased-nt-xent') throw new CliError('--class-prior applies only to --loss debiased-nt-xent', 2);
   if (!LOSS_NAMES.includes(loss)) throw new CliError(`--loss must be one of ${LOSS_NAMES.join(', ')}, got "${loss}"`, 2);
+  // Every option is checked before the library is read, so a typo costs no wait.
+  const trainNum = (key: keyof typeof TRAIN_NUMBERS, fallback: number) => num(values, key, fallback, ...TRAIN_NUMBERS[key]);
+  for (const key of Object.keys(TRAIN_NUMBERS) as (keyof typeof TRAIN_NUMBERS)[]) trainNum(key, 0);
+  if (values.inputs !== undefined && !INPUT_FEATURES.includes(values.inputs as InputFeatures)) throw new CliError(`--inputs must be one of ${INPUT_FEATURES.join(', ')}, got "${values.inputs}"`, 2);
+  if (values.pose !== undefined && !POSES.includes(values.pose as TrainConfig['pose'])) throw new CliError(`--pose must be one of ${POSES.join(', ')}, got "${values.pose}"`, 2);
+  const pipeline = values.augment ? pipelineFrom(values.augment) : null;
+  maxBytes(values);
   const backend = await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
-  const library = loadLibrary(lib, { quiet: values.quiet || values.json, points: POOL_POINTS });
+  const library = loadLibrary(lib, { maxBytes: maxBytes(values), points: POOL_POINTS });
   reportFailures(library.failures, Boolean(values.json));
   const traits = libraryTraits(library.parts);
   const closed = traits.closed;
   const base = defaultTrainFor(traits);
   const inputs = (values.inputs ?? base.encoder.inputFeatures) as InputFeatures;
-  if (!INPUT_FEATURES.includes(inputs)) throw new CliError(`--inputs must be one of ${INPUT_FEATURES.join(', ')}, got "${inputs}"`, 2);
   const pose = (values.pose ?? base.pose) as TrainConfig['pose'];
-  if (!POSES.includes(pose)) throw new CliError(`--pose must be one of ${POSES.join(', ')}, got "${pose}"`, 2);
-  const neighbours = num(values, 'neighbours', base.encoder.edge?.k ?? 0);
-  if (neighbours < 0 || neighbours > 64) throw new CliError(`--neighbours must be 0 (off) to 64, got ${neighbours}`, 2);
+  const neighbours = trainNum('neighbours', base.encoder.edge?.k ?? 0);
   const { edge: _edge, ...plainEncoder } = base.encoder;
   const config: TrainConfig = {
     ...base,
     pose,
     encoder: { ...plainEncoder, inputFeatures: inputs, ...(neighbours > 0 ? { edge: { k: neighbours, width: base.encoder.edge?.width ?? EDGE_WIDTH } } : {}) },
-    epochs: num(values, 'epochs', base.epochs),
-    seed: num(values, 'seed', DEFAULT_TRAIN.seed),
-    points: num(values, 'points', DEFAULT_TRAIN.points),
-    batchSize: num(values, 'batch', DEFAULT_TRAIN.batchSize),
-    learningRate: num(values, 'lr', DEFAULT_TRAIN.learningRate, false),
-    loss: { ...base.loss, name: loss, temperature: num(values, 'temperature', base.loss.temperature, false), ...(values['class-prior'] !== undefined ? { classPrior: num(values, 'class-prior', DEFAULT_CLASS_PRIOR, false) } : {}) },
+    epochs: trainNum('epochs', base.epochs),
+    seed: trainNum('seed', DEFAULT_TRAIN.seed),
+    points: trainNum('points', DEFAULT_TRAIN.points),
+    batchSize: trainNum('batch', DEFAULT_TRAIN.batchSize),
+    learningRate: trainNum('lr', DEFAULT_TRAIN.learningRate),
+    loss: { ...base.loss, name: loss, temperature: trainNum('temperature', base.loss.temperature), ...(values['class-prior'] !== undefined ? { classPrior: trainNum('class-prior', DEFAULT_CLASS_PRIOR) } : {}) },
     // Without --augment, a pose kept exactly as in the files (signs included) gets the preset that does not turn the parts.
-    pipeline: values.augment || pose !== 'as-is' ? pipelineFrom(values.augment) : PRESETS['file-pose'],
+    pipeline: pipeline ?? (pose !== 'as-is' ? DEFAULT_TRAIN.pipeline : PRESETS['file-pose']),
   };
   const labelNames = [...new Set(library.labels)].sort();
   const labelIds = library.labels.map((l) => labelNames.indexOf(l));
   let resume: Checkpoint | null = null;
   if (values.resume && existsSync(`${out}/model.json`)) resume = await loadRun(out);
+  else if (values.resume) notice(values, `--resume: nothing has been saved in ${out} yet, so training starts from step 0`);
   const trainer = new Trainer(asModelParts(library.parts), resume ? resume.manifest.config : config, {
     labels: loss === 'supervised-contrastive' ? labelIds : null,
     ...(resume ? { initialWeights: resume.weights, resume: { step: resume.manifest.step, adam: resume.adam!, history: resume.manifest.history, checks: resume.manifest.checks } } : {}),
@@ -133,29 +166,32 @@ async function train(lib: string, values: Values): Promise<void> {
     process.stderr.write(`inputs: ${values.inputs || resume ? INPUT_LABELS[cfg.encoder.inputFeatures] + (resume ? ' (from the saved run)' : ' (--inputs)') : inputsReason(closed)}\n`);
     process.stderr.write(`pose: ${values.pose || resume ? `${POSE_LABELS[cfg.pose]}${resume ? ' (from the saved run)' : ' (--pose)'}` : poseReason(traits.boxRatios)}\n`);
   }
-  const progress = new Progress('training', trainer.totalSteps, values.quiet || values.json);
+  const progress = new Progress('training', trainer.totalSteps);
   const checkpoint = (status: Checkpoint['manifest']['status']) => saveRun(out, {
     manifest: { format: 'shapekin-encoder', version: 1, config: cfg, sampling: { points: POOL_POINTS, seed: 0 }, step: trainer.step, totalSteps: trainer.totalSteps, status, backend, history: trainer.history, checks: trainer.checks, labelNames },
     weights: trainer.weights(),
     adam: trainer.adamState(),
   });
-  let lastSave = Date.now();
+  // The first checkpoint follows the first step, then one every CHECKPOINT_EVERY_MS: a kill loses at most that.
+  let lastSave = -Infinity;
   const t0 = Date.now();
   const stop = () => trainer.cancel();
   process.once('SIGINT', stop);
+  process.once('SIGTERM', stop);
   const result = await trainer.run({
     yieldEvery: 1,
     onProgress: (p) => {
       progress.update(p.step, `${p.members > 1 ? `encoder ${p.member + 1} of ${p.members} · ` : ''}loss ${p.loss.toFixed(3)} · ${p.samplesPerSec.toFixed(0)} parts/s · ${duration(p.etaSec)} left`);
-      if (Date.now() - lastSave > 60_000) { void checkpoint('running'); lastSave = Date.now(); }
+      if (Date.now() - lastSave > CHECKPOINT_EVERY_MS) { void checkpoint('running'); lastSave = Date.now(); }
     },
   });
   process.off('SIGINT', stop);
+  process.off('SIGTERM', stop);
   progress.done();
   await checkpoint(result.status);
   trainer.dispose();
-  const summary = { status: result.status, steps: result.steps, final_loss: result.finalLoss, seconds: (Date.now() - t0) / 1000, backend, out, ...(result.message ? { message: result.message } : {}) };
-  if (values.json) console.log(JSON.stringify(summary));
+  const summary = { status: result.status, steps: result.steps, final_loss: result.finalLoss, seconds: (Date.now() - t0) / 1000, backend, out, resumed_from: resume ? resume.manifest.step : null, ...(result.message ? { message: result.message } : {}), failures: failuresJson(library) };
+  if (values.json) emit(summary);
   else console.log(`${result.status}: ${result.steps} steps in ${duration(summary.seconds)}, final loss ${result.finalLoss.toFixed(4)} → ${out}${result.message ? ` (${result.message})` : ''}`);
   if (result.status === 'failed') throw new CliError(result.message ?? 'training failed');
 }
@@ -172,8 +208,8 @@ async function embed(lib: string, values: Values): Promise<void> {
   const ext = extname(out).toLowerCase();
   if (!['.csv', '.json', '.npy'].includes(ext)) throw new CliError(`--out must end in .csv, .json or .npy, got "${out}"`, 2);
   await withModel(values, 'embed', (enc, ckpt) => {
-    const library = loadLibrary(lib, { quiet: values.quiet, points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
-    reportFailures(library.failures, false);
+    const library = loadLibrary(lib, { maxBytes: maxBytes(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
+    reportFailures(library.failures, Boolean(values.json));
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), ckpt.manifest.config.points, ckpt.manifest.config.pose);
     const D = vectors.length / library.parts.length;
     if (ext === '.npy') writeFileSync(out, writeNpyFloat32(vectors, library.parts.length, D));
@@ -183,7 +219,8 @@ async function embed(lib: string, values: Values): Promise<void> {
       const rows = library.parts.map((p, i) => [csvField(p.name), csvField(library.labels[i]), ...p.info.extents.map((v) => v.toPrecision(6)), ...Array.from(vectors.subarray(i * D, (i + 1) * D), (v) => v.toPrecision(6))].join(','));
       writeFileSync(out, [head, ...rows].join('\n') + '\n');
     }
-    console.error(`${library.parts.length} embeddings of ${D} values → ${out}`);
+    if (values.json) emit({ out, parts: library.parts.length, dim: D, failures: failuresJson(library) });
+    else console.error(`${library.parts.length} embeddings of ${D} values → ${out}`);
   });
 }
 
@@ -193,7 +230,8 @@ function csvField(s: string): string {
 
 async function query(file: string, values: Values): Promise<void> {
   const lib = need(values, 'library', 'query');
-  const k = num(values, 'k', 10);
+  const k = num(values, 'k', 10, true, 1);
+  const ratio = values['size-ratio'] !== undefined ? num(values, 'size-ratio', 2, false, 1) : undefined;
   if (!existsSync(file)) throw new CliError(`query file not found: ${file}`, 2);
   const ranking = (values.order ?? 'diffusion') as Ranking;
   if (ranking !== 'diffusion' && ranking !== 'cosine') throw new CliError(`--order must be diffusion or cosine, got "${values.order}"`, 2);
@@ -201,18 +239,18 @@ async function query(file: string, values: Values): Promise<void> {
     const bytes = readFileSync(file);
     let q: LibraryPart;
     try {
-      q = loadPart(bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer, file, ckpt.manifest.sampling);
+      q = loadPart(bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer, file, ckpt.manifest.sampling, maxBytes(values));
     } catch (err) {
       throw new CliError((err as Error).message);
     }
-    const library = loadLibrary(lib, { quiet: values.quiet || values.json, points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
+    const library = loadLibrary(lib, { maxBytes: maxBytes(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
     reportFailures(library.failures, Boolean(values.json));
     const points = ckpt.manifest.config.points;
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), points, ckpt.manifest.config.pose);
     const D = vectors.length / library.parts.length;
     const index = new TensorIndex(vectors, D, library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal })));
     const qv = embedForRetrieval(enc, [{ points: q.points, normals: q.normals }], points, ckpt.manifest.config.pose);
-    const ratio = values['size-ratio'] !== undefined ? num(values, 'size-ratio', 2, false) : undefined;
+    if (!qv.every(Number.isFinite)) { index.dispose(); throw new CliError(`the model gives no usable embedding for ${file} (non-finite values)`); }
     const order: Ranking = ranking === 'diffusion' && !index.diffusionApplies() ? 'cosine' : ranking; // ranked() falls back the same way
     const hits = index.ranked(order, qv, k, ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal } : {});
     index.dispose();
@@ -220,7 +258,7 @@ async function query(file: string, values: Values): Promise<void> {
       const p = library.parts[h.index];
       return { rank: r + 1, score: h.score, file: p.name, label: library.labels[h.index], extents: p.info.extents, size_ratio: p.diagonal / q.diagonal };
     });
-    if (values.json) { console.log(JSON.stringify({ query: file, query_extents: q.info.extents, order, mean_pair_cosine: index.meanPairCosine(), results: rows, caution: CAUTION })); return; }
+    if (values.json) { emit({ query: file, query_extents: q.info.extents, order, mean_pair_cosine: index.meanPairCosine(), results: rows, failures: failuresJson(library), caution: CAUTION }); return; }
     const fmt = (e: readonly number[]) => e.map((v) => v.toPrecision(4)).join(' × ');
     console.log(`query ${file}  (${fmt(q.info.extents)} file units)`);
     if (order !== ranking) console.log(`ordered by cosine similarity: this model's embedding is too concentrated (mean pair cosine ${index.meanPairCosine().toFixed(2)}) to order through the library`);
@@ -235,13 +273,13 @@ async function evaluate(lib: string, values: Values): Promise<void> {
   await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
   const ckpt = values.model ? await loadRun(values.model) : null;
   const sampling = ckpt?.manifest.sampling ?? { points: POOL_POINTS, seed: 0 };
-  const library = loadLibrary(lib, { quiet: values.quiet || values.json, ...sampling });
+  const library = loadLibrary(lib, { maxBytes: maxBytes(values), ...sampling });
   reportFailures(library.failures, Boolean(values.json));
   const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
   const config = ckpt?.manifest.config ?? defaultTrainFor(libraryTraits(library.parts));
   const report = evaluateMethods({ parts: asModelParts(library.parts), labels: library.labels, points: config.points, pose: config.pose, ...(learned ? { learned } : {}), untrainedConfig: config.encoder, seed: config.seed, diffusion: DIFFUSION_DEFAULTS });
   if (learned) disposeEncoders(learned);
-  if (values.json) { console.log(JSON.stringify(report)); return; }
+  if (values.json) { emit({ ...report, failures: failuresJson(library) }); return; }
   console.log(`${report.parts} parts, ${report.labels} labels (leave-one-out; "+diffusion": ordered through the library, as queries are by default: scores corrected for parts near everything, then diffused over the neighbour graph)`);
   console.log('method              NN     1st tier  2nd tier  DCG    mAP    P@5');
   for (const [m, r] of Object.entries(report.methods)) {
@@ -251,31 +289,31 @@ async function evaluate(lib: string, values: Values): Promise<void> {
 
 async function study(lib: string, values: Values): Promise<void> {
   await withModel(values, 'study', (enc, ckpt) => {
-    const library = loadLibrary(lib, { quiet: values.quiet || values.json, ...ckpt.manifest.sampling });
+    const library = loadLibrary(lib, { maxBytes: maxBytes(values), ...ckpt.manifest.sampling });
     reportFailures(library.failures, Boolean(values.json));
     const kinds = values.augmentations ? values.augmentations.split(',').map((k) => k.trim()) : undefined;
     for (const k of kinds ?? []) if (!(AUGMENT_KINDS as readonly string[]).includes(k)) throw new CliError(`--augmentations: unknown "${k}" (one of ${AUGMENT_KINDS.join(', ')})`, 2);
     const strengths = values.strengths ? values.strengths.split(',').map(Number) : undefined;
     if (strengths?.some((s) => !(s >= 0 && s <= 1))) throw new CliError(`--strengths must be numbers in [0, 1], got "${values.strengths}"`, 2);
     const untrained = untrainedEncoders(ckpt.manifest.config.encoder, ckpt.manifest.config.pose, ckpt.manifest.config.seed);
-    const progress = new Progress('study', 1, values.quiet || values.json);
+    const progress = new Progress('study', 1);
     const rows = runStudy({
       parts: asModelParts(library.parts), labels: library.labels, points: ckpt.manifest.config.points, pose: ckpt.manifest.config.pose,
       encoders: { learned: enc, untrained }, ...(kinds ? { kinds: kinds as AugmentKind[] } : {}), ...(strengths ? { strengths } : {}), upAxis: ckpt.manifest.config.pipeline.upAxis, seed: ckpt.manifest.config.seed,
-      onProgress: (done, total, what) => { (progress as unknown as { total: number }).total = total; progress.update(done, what); },
+      onProgress: (done, total, what) => { progress.total = total; progress.update(done, what); },
     });
     progress.done();
     disposeEncoders(untrained);
-    if (values.json) { console.log(JSON.stringify({ parts: library.parts.length, rows })); return; }
+    if (values.json) { emit({ parts: library.parts.length, rows, failures: failuresJson(library) }); return; }
     console.log('augmentation   strength  method     instance  label   similarity  chamfer');
     for (const r of rows) console.log(`${r.augmentation.padEnd(14)} ${r.strength.toFixed(2).padStart(8)}  ${r.method.padEnd(9)}  ${r.instance_top1.toFixed(3).padStart(8)}  ${r.label_top1.toFixed(3)}   ${r.mean_similarity.toFixed(3).padStart(10)}  ${r.mean_chamfer.toFixed(4)}`);
   });
 }
 
 async function duplicates(lib: string, values: Values): Promise<void> {
-  const threshold = num(values, 'threshold', 0.97, false);
+  const threshold = num(values, 'threshold', 0.97, false, -1, 1);
   await withModel(values, 'duplicates', (enc, ckpt) => {
-    const library = loadLibrary(lib, { quiet: values.quiet || values.json, ...ckpt.manifest.sampling });
+    const library = loadLibrary(lib, { maxBytes: maxBytes(values), ...ckpt.manifest.sampling });
     reportFailures(library.failures, Boolean(values.json));
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), ckpt.manifest.config.points, ckpt.manifest.config.pose);
     const D = vectors.length / library.parts.length;
@@ -284,7 +322,7 @@ async function duplicates(lib: string, values: Values): Promise<void> {
       parts: g.members.map((i) => ({ file: library.parts[i].name, label: library.labels[i], extents: library.parts[i].info.extents, diagonal: library.parts[i].diagonal })),
       closest: Math.max(...g.pairs.map((p) => p.similarity)),
     }));
-    if (values.json) { console.log(JSON.stringify({ threshold, groups: described, caution: CAUTION })); return; }
+    if (values.json) { emit({ threshold, groups: described, failures: failuresJson(library), caution: CAUTION }); return; }
     console.log(`${groups.length} groups of look-alike parts at similarity ≥ ${threshold}`);
     described.forEach((g, n) => {
       console.log(`\ngroup ${n + 1} (closest pair ${g.closest.toFixed(3)})`);
@@ -293,6 +331,9 @@ async function duplicates(lib: string, values: Values): Promise<void> {
     console.log(`\n${CAUTION}`);
   });
 }
+
+/** Writes the one JSON document of a --json run to stdout; set per run by main. */
+let emit: (doc: unknown) => void = () => { throw new Error('emit called outside main'); };
 
 export async function main(argv: string[]): Promise<number> {
   let parsed;
@@ -307,15 +348,37 @@ export async function main(argv: string[]): Promise<number> {
   if (values.help || !command) { process.stdout.write(USAGE); return command || values.help ? 0 : 2; }
   const commands: Record<string, (t: string, v: Values) => Promise<void>> = { train, embed, query, eval: evaluate, study, duplicates };
   const run = commands[command];
+  // With --json, stdout carries exactly one JSON document: the command's result, or {"error"} when it fails.
+  // Anything else that would print there (a library's warning) goes to stderr, and only on a terminal.
+  const json = Boolean(values.json);
+  const consoleWas = { log: console.log, info: console.info, warn: console.warn, debug: console.debug };
+  let emitted = false;
+  emit = (doc) => {
+    if (emitted) throw new Error('a second JSON document');
+    emitted = true;
+    consoleWas.log(JSON.stringify(doc));
+  };
+  if (json) {
+    const aside = (...a: unknown[]) => { if (process.stderr.isTTY) process.stderr.write(`${a.map(String).join(' ')}\n`); };
+    console.log = console.info = console.warn = console.debug = aside;
+  }
   try {
+    if (values.progress !== undefined && !['bar', 'json', 'none'].includes(values.progress)) throw new CliError(`--progress must be bar, json or none, got "${values.progress}"`, 2);
+    setProgressMode((values.progress as 'bar' | 'json' | 'none' | undefined) ?? (values.quiet || json ? 'none' : 'bar'));
     if (!run) throw new CliError(`unknown command "${command}" (one of ${Object.keys(commands).join(', ')})`, 2);
     if (!target) throw new CliError(`${command} needs a ${command === 'query' ? 'mesh file' : 'library folder'}`, 2);
     if (extra.length) throw new CliError(`unexpected argument "${extra[0]}"`, 2);
     await run(target, values);
     return 0;
   } catch (err) {
-    if (err instanceof CliError) { process.stderr.write(`shapekin: ${err.message}\n`); return err.exitCode; }
-    process.stderr.write(`shapekin: ${(err as Error).stack ?? err}\n`);
-    return 1;
+    const known = err instanceof CliError;
+    const message = known ? err.message : `internal error: ${(err as Error)?.message ?? String(err)}`;
+    const code = known ? err.exitCode : 1;
+    process.stderr.write(`shapekin: ${message}\n`);
+    if (!known && process.env.SHAPEKIN_DEBUG) process.stderr.write(`${(err as Error)?.stack ?? ''}\n`);
+    if (json && !emitted) emit({ error: message, exit_code: code });
+    return code;
+  } finally {
+    Object.assign(console, consoleWas);
   }
 }

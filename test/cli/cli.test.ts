@@ -1,6 +1,7 @@
 // The command line end to end on the demo library: a tiny training run, then every command on its output.
 
 import { existsSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { zlibSync } from './zlib-crc';
 import { CylinderGeometry, PlaneGeometry } from 'three';
 import { DIFFUSION_MAX_MEAN_COSINE } from '../../src/core/retrieval/index';
 import { writeObj } from '../../src/core/mesh/write';
@@ -8,6 +9,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
 import { main } from '../../src/cli/main';
+import { crc32 } from '../../src/core/checksum';
+import { cpSync } from 'node:fs';
 
 const DEMO = 'demo-shapes';
 let run = '';
@@ -174,3 +177,106 @@ describe('bad arguments and unreadable files: one clear line and a non-zero exit
     expect(err.join('')).toMatch(/skipped broken\/empty-export\.stl: the file is empty/);
   }, 120_000);
 });
+
+describe('the --json contract: exactly one JSON document on stdout, bad files listed under "failures"', () => {
+  it('eval lists the demo\'s broken files with their reasons, and stdout is one document', async () => {
+    capture();
+    expect(await main(['eval', DEMO, '--json'])).toBe(0);
+    expect(out.length).toBe(1);
+    const r = JSON.parse(out[0]);
+    expect(r.failures.map((f: { file: string }) => f.file).sort()).toEqual([
+      'broken/bad-coordinates.obj', 'broken/empty-export.stl', 'broken/missing-vertices.off', 'broken/quote-saved-as-stl.stl', 'broken/upload-cut-short.stl',
+    ]);
+    for (const f of r.failures) expect(f.reason.length).toBeGreaterThan(10);
+  }, 120_000);
+  it('embed --json reports what it wrote; a failing command prints {"error"} and exits non-zero', async () => {
+    capture();
+    expect(await main(['embed', DEMO, '--model', run, '--out', join(run, 'x.npy'), '--json'])).toBe(0);
+    expect(JSON.parse(out.join('\n'))).toMatchObject({ parts: 112, dim: 128, failures: expect.any(Array) });
+    capture();
+    expect(await main(['embed', DEMO, '--model', 'no/such/run', '--out', 'x.npy', '--json'])).toBe(1);
+    expect(out.length).toBe(1);
+    expect(JSON.parse(out[0])).toEqual({ error: expect.stringMatching(/no model in no\/such\/run/), exit_code: 1 });
+  }, 120_000);
+  it('--progress json writes progress as JSON lines on stderr and leaves stdout alone', async () => {
+    capture();
+    expect(await main(['eval', DEMO, '--json', '--progress', 'json'])).toBe(0);
+    const lines = err.join('').trim().split('\n').map((l) => JSON.parse(l));
+    expect(lines.some((l) => l.event === 'progress' && l.stage === 'reading' && l.done === l.total)).toBe(true);
+    expect(out.length).toBe(1);
+  }, 120_000);
+  it('--max-file-mb refuses larger files before reading them and says how to raise the cap', async () => {
+    capture();
+    expect(await main(['eval', DEMO, '--json', '--max-file-mb', '0.02'])).toBe(0);
+    const big = JSON.parse(out[0]).failures.filter((f: { reason: string }) => /over the 20971-byte limit \(raise it with --max-file-mb\)/.test(f.reason));
+    expect(big.length).toBeGreaterThan(10);
+  }, 120_000);
+});
+
+describe('numbers out of range, and models that cannot be trusted', () => {
+  it.each([
+    [['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '-k', '0'], /--k must be a whole number of at least 1, got "0"/],
+    [['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '--k=-5'], /--k must be a whole number of at least 1, got "-5"/],
+    [['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '--size-ratio', '0.5'], /--size-ratio must be a number of at least 1/],
+    [['duplicates', DEMO, '--model', 'x', '--threshold', '2'], /--threshold must be a number from -1 to 1, got "2"/],
+    [['train', DEMO, '--out', 'x', '--epochs', '0'], /--epochs must be a whole number of at least 1/],
+    [['eval', DEMO, '--progress', 'loud'], /--progress must be bar, json or none/],
+  ] as const)('%j', async (args, message) => {
+    capture();
+    expect(await main([...args])).toBe(2);
+    expect(err.join('')).toMatch(message);
+    expect(err.join('').trim().split('\n').length).toBe(1); // one line, no stack trace
+  });
+  it('weights from another save, or NaN weights of the right size, are refused on load', async () => {
+    const copy = mkdtempSync(join(tmpdir(), 'shapekin-torn-'));
+    cpSync(run, copy, { recursive: true });
+    const weights = readFileSync(join(copy, 'weights.bin'));
+    const other = new Float32Array(weights.buffer.slice(weights.byteOffset, weights.byteOffset + weights.byteLength));
+    other[0] += 0.25; // a later save of the same run: same size, other values
+    writeFileSync(join(copy, 'weights.bin'), new Uint8Array(other.buffer));
+    capture();
+    expect(await main(['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', copy, '--library', DEMO, '--json'])).toBe(1);
+    expect(JSON.parse(out[0]).error).toMatch(/weights file does not belong to this model\.json/);
+    // NaN values with a manifest that matches them: refused for what they are.
+    other.fill(NaN, 0, 10);
+    writeFileSync(join(copy, 'weights.bin'), new Uint8Array(other.buffer));
+    const model = JSON.parse(readFileSync(join(copy, 'model.json'), 'utf8'));
+    model.userDefinedMetadata.weightsCrc32 = crc32(new Uint8Array(other.buffer));
+    writeFileSync(join(copy, 'model.json'), JSON.stringify(model));
+    capture();
+    expect(await main(['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', copy, '--library', DEMO, '--json'])).toBe(1);
+    expect(JSON.parse(out[0]).error).toMatch(/NaN or infinite/);
+  }, 120_000);
+  it('the saved checksum is the standard CRC-32 of weights.bin (zlib\'s crc32 as the reference)', () => {
+    const model = JSON.parse(readFileSync(join(run, 'model.json'), 'utf8'));
+    expect(model.userDefinedMetadata.weightsCrc32).toBe(zlibSync(readFileSync(join(run, 'weights.bin'))));
+  });
+});
+
+describe('training saves early and says what --resume found', () => {
+  it('--resume with nothing saved says so and starts from step 0', async () => {
+    const fresh = join(mkdtempSync(join(tmpdir(), 'shapekin-fresh-')), 'run');
+    capture();
+    expect(await main(['train', DEMO, '--out', fresh, '--epochs', '1', '--points', '64', '--resume'])).toBe(0);
+    expect(err.join('')).toMatch(/--resume: nothing has been saved in .* yet, so training starts from step 0/);
+  }, 120_000);
+  it('the first checkpoint is written right after the first step, while training goes on', async () => {
+    const fresh = join(mkdtempSync(join(tmpdir(), 'shapekin-early-')), 'run');
+    capture();
+    const seen: { step: number; status: string }[] = [];
+    const poll = setInterval(() => {
+      if (!existsSync(join(fresh, 'model.json'))) return;
+      const m = JSON.parse(readFileSync(join(fresh, 'model.json'), 'utf8')).modelTopology.shapekin;
+      if (!seen.some((x) => x.step === m.step)) seen.push({ step: m.step, status: m.status });
+    }, 5);
+    try {
+      expect(await main(['train', DEMO, '--out', fresh, '--epochs', '3', '--points', '64', '--json'])).toBe(0);
+    } finally {
+      clearInterval(poll);
+    }
+    expect(seen[0]).toEqual({ step: 1, status: 'running' });
+    const last = JSON.parse(readFileSync(join(fresh, 'model.json'), 'utf8')).modelTopology.shapekin;
+    expect([last.step, last.status]).toEqual([9, 'done']);
+  }, 120_000);
+});
+

@@ -147,8 +147,9 @@ export function orientClosed(indices: Uint32Array, vertexCount: number): { close
       const a = indices[t * 3 + e], b = indices[t * 3 + ((e + 1) % 3)];
       const key = a < b ? a * vertexCount + b : b * vertexCount + a;
       const list = edgeFaces.get(key);
-      if (list) list.push(t);
-      else edgeFaces.set(key, [t]);
+      if (!list) edgeFaces.set(key, [t]);
+      else if (list.length === 2) return { closed: false, oriented: null }; // a third face on one edge: not a closed 2-manifold
+      else list.push(t);
     }
   }
   for (const faces of edgeFaces.values()) if (faces.length !== 2) return { closed: false, oriented: null };

@@ -3,6 +3,8 @@
 // file-system handler in Node and to IndexedDB in the browser, so a model trained by either loads in both.
 
 import type * as tf from '@tensorflow/tfjs';
+import { crc32 } from '../checksum';
+import { checkWeightData } from './weights-check';
 import { createRng } from '../rng';
 import type { AdamState } from './adam';
 import { Encoder, inputChannels, validateEncoderConfig } from './encoder';
@@ -89,9 +91,10 @@ export function toArtifacts(ckpt: Checkpoint): tf.io.ModelArtifacts {
     convertedBy: null,
     weightSpecs: specs,
     weightData: data.buffer,
-    userDefinedMetadata: { adamStep: ckpt.adam?.step ?? 0 },
+    userDefinedMetadata: { adamStep: ckpt.adam?.step ?? 0, weightsCrc32: crc32(new Uint8Array(data.buffer)) },
   };
 }
+
 
 export function fromArtifacts(artifacts: tf.io.ModelArtifacts, where = 'checkpoint'): Checkpoint {
   if (artifacts.format !== CHECKPOINT_FORMAT) throw new RangeError(`${where}: not a Shapekin model (format "${artifacts.format ?? 'none'}")`);
@@ -103,6 +106,7 @@ export function fromArtifacts(artifacts: tf.io.ModelArtifacts, where = 'checkpoi
   const raw = artifacts.weightData;
   const buffer = raw instanceof ArrayBuffer ? raw : Array.isArray(raw) ? concat(raw) : null;
   if (!buffer) throw new RangeError(`${where}: no weight data`);
+  checkWeightData(buffer, artifacts.userDefinedMetadata, where);
   const byName = new Map<string, Float32Array>();
   let offset = 0;
   for (const spec of specs) {

@@ -27,6 +27,8 @@ import './study-panel';
 import type { EvaluationReport } from '../../core/retrieval/evaluate';
 import type { StudyRow } from '../../core/retrieval/study';
 import { writeNpyFloat32 } from '../../core/retrieval/npy';
+import { crc32 } from '../../core/checksum';
+import { checkWeightData } from '../../core/model/weights-check';
 
 type Panel = 'library' | 'augment' | 'train' | 'search' | 'map' | 'study';
 
@@ -351,9 +353,11 @@ export class SkApp extends LitElement {
       const json = JSON.parse(await jsonFile.text());
       const manifest = json?.modelTopology?.shapekin;
       if (json?.format !== 'shapekin-encoder' || !manifest) throw new Error(`${jsonFile.name} is not a Shapekin model`);
+      const weightData = await binFile.arrayBuffer();
+      checkWeightData(weightData, json.userDefinedMetadata, binFile.name);
       const ckpt: CheckpointMessage = {
         manifest, weightSpecs: json.weightsManifest.flatMap((g: { weights: unknown[] }) => g.weights),
-        weightData: await binFile.arrayBuffer(), adamStep: Number(json.userDefinedMetadata?.adamStep ?? 0),
+        weightData, adamStep: Number(json.userDefinedMetadata?.adamStep ?? 0),
       };
       await this.trainer.save(ckpt);
       this.model = ckpt;
@@ -369,7 +373,7 @@ export class SkApp extends LitElement {
   private exportModel(): void {
     const m = this.model;
     if (!m) return;
-    const json = { format: 'shapekin-encoder', generatedBy: 'Shapekin', convertedBy: null, modelTopology: { shapekin: m.manifest }, userDefinedMetadata: { adamStep: m.adamStep }, weightsManifest: [{ paths: ['weights.bin'], weights: m.weightSpecs }] };
+    const json = { format: 'shapekin-encoder', generatedBy: 'Shapekin', convertedBy: null, modelTopology: { shapekin: m.manifest }, userDefinedMetadata: { adamStep: m.adamStep, weightsCrc32: crc32(new Uint8Array(m.weightData)) }, weightsManifest: [{ paths: ['weights.bin'], weights: m.weightSpecs }] };
     download(new Blob([JSON.stringify(json)], { type: 'application/json' }), 'model.json');
     download(new Blob([m.weightData.slice(0)]), 'weights.bin');
   }
