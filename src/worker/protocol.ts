@@ -23,7 +23,8 @@ export type LibraryRequest = {
 };
 
 export type LibraryReply =
-  | { readonly type: 'progress'; readonly id: number; readonly done: number; readonly total: number; readonly file: string }
+  /** The worker has begun reading the request's files (a file's time limit runs from here, not from start-up). */
+  | { readonly type: 'reading'; readonly id: number }
   | { readonly type: 'part'; readonly id: number; readonly part: LibraryPart }
   | { readonly type: 'failed'; readonly id: number; readonly failure: ImportFailure }
   | { readonly type: 'done'; readonly id: number; readonly ms: number };

@@ -127,6 +127,13 @@ function roles(element: Element): { x: number; y: number; z: number; faceList: n
   };
 }
 
+/** Keeps vertex e's property p if it is x, y or z. */
+function storeCoordinate(sink: Sink, r: { x: number; y: number; z: number }, e: number, p: number, v: number): void {
+  if (p === r.x) sink.positions[e * 3] = v;
+  else if (p === r.y) sink.positions[e * 3 + 1] = v;
+  else if (p === r.z) sink.positions[e * 3 + 2] = v;
+}
+
 function pushFan(sink: Sink, polygon: number[], file: string, face: number): void {
   if (polygon.length < 3) throw new MeshImportError(file, 'parse-failed', `PLY face ${face} has ${polygon.length} vertices, expected at least 3`);
   for (let k = 1; k < polygon.length - 1; k++) sink.indices!.push(polygon[0], polygon[k], polygon[k + 1]);
@@ -162,11 +169,7 @@ function readBinary(bytes: Uint8Array, header: Header, file: string, sink: Sink)
         if (prop.countType === null) {
           if (o + BYTES[prop.type] > bytes.length) truncatedIn(file, element, e);
           const v = read(prop.type);
-          if (isVertex) {
-            if (p === r.x) sink.positions[e * 3] = v;
-            else if (p === r.y) sink.positions[e * 3 + 1] = v;
-            else if (p === r.z) sink.positions[e * 3 + 2] = v;
-          }
+          if (isVertex) storeCoordinate(sink, r, e, p, v);
           continue;
         }
         if (o + BYTES[prop.countType] > bytes.length) truncatedIn(file, element, e);
@@ -232,11 +235,7 @@ function readAscii(bytes: Uint8Array, header: Header, file: string, sink: Sink):
         const prop = element.properties[p];
         if (prop.countType === null) {
           const v = next(prop.type);
-          if (isVertex) {
-            if (p === r.x) sink.positions[e * 3] = v;
-            else if (p === r.y) sink.positions[e * 3 + 1] = v;
-            else if (p === r.z) sink.positions[e * 3 + 2] = v;
-          }
+          if (isVertex) storeCoordinate(sink, r, e, p, v);
           continue;
         }
         const n = next(prop.countType);

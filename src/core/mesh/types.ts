@@ -45,7 +45,9 @@ export type ImportErrorCode =
   | 'index-out-of-range'
   | 'zero-area'
   | 'no-geometry'
-  | 'parse-failed';
+  | 'parse-failed'
+  /** Reading did not finish within its time limit and was stopped (the workbench's import worker). */
+  | 'timed-out';
 
 /** A file that could not be imported: names the file and the reason; a batch carries on without it. */
 export class MeshImportError extends Error {

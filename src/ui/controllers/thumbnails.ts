@@ -6,6 +6,9 @@ import type { LibraryPart } from '../../core/library';
 import { disposeObject, litScene, meshObject, pointsObject } from './scene';
 
 const SIZE = { w: 176, h: 132 };
+/** Above this many triangles a thumbnail shows the part's sampled points: a 176-pixel picture gains nothing
+ * from more, and a software renderer (no GPU) would hold the page for seconds. */
+const MAX_THUMBNAIL_TRIANGLES = 200_000;
 let renderer: WebGLRenderer | null | undefined;
 
 function getRenderer(): WebGLRenderer | null {
@@ -23,7 +26,7 @@ export function thumbnail(part: LibraryPart): string {
   const r = getRenderer();
   if (!r) return pointsThumbnail(part.points);
   const scene = litScene();
-  const object = part.meshIndices.length > 0
+  const object = part.meshIndices.length > 0 && part.meshIndices.length / 3 <= MAX_THUMBNAIL_TRIANGLES
     ? meshObject(part.meshPositions, part.meshIndices, part.centre, part.radius)
     : pointsObject(part.points, 0.04);
   scene.add(object);
