@@ -24,7 +24,7 @@ const [lib, overridesText = '{}'] = process.argv.slice(2).filter((a, i, all) => 
 const embedPointsArg = process.argv.indexOf('--embed-points');
 const overrides = JSON.parse(overridesText) as Partial<TrainConfig> & { preset?: keyof typeof PRESETS };
 const backend = await initBackend();
-const library = loadLibrary(lib, { quiet: true, points: POOL_POINTS });
+const library = await loadLibrary(lib, { quiet: true, points: POOL_POINTS });
 // The library's own defaults (inputs follow its share of closed meshes, pose how square its parts sit in their files), then the overrides.
 const DEFAULT_TRAIN = defaultTrainFor(libraryTraits(library.parts));
 const config: TrainConfig = {

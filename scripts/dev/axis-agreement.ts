@@ -7,7 +7,7 @@ import { loadLibrary } from '../../src/cli/library-dir';
 import { boundingBox } from '../../src/core/mesh/geometry';
 import { fileFrameBoxRatio } from '../../src/core/points/pca';
 import { d2Descriptors } from '../../src/core/retrieval/methods';
-const lib = loadLibrary(process.argv[2], { quiet: true, points: POOL_POINTS });
+const lib = await loadLibrary(process.argv[2], { quiet: true, points: POOL_POINTS });
 // Each part's extents along its file's axes, as fractions of the longest.
 const ext = lib.parts.map((p) => {
   const { min, max } = boundingBox(p.points);

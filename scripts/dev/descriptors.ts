@@ -9,7 +9,7 @@ import { untrainedEncoder } from '../../src/core/retrieval/evaluate';
 import { posed } from '../../src/core/model/embed';
 
 await initBackend();
-const lib = loadLibrary(process.argv[2], { quiet: true, points: POOL_POINTS });
+const lib = await loadLibrary(process.argv[2], { quiet: true, points: POOL_POINTS });
 const parts = lib.parts.map((p) => ({ points: p.points, normals: p.normals }));
 const r = (m: { nn: number; first_tier: number; map: number }) => `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
 const unit = (v: Float32Array, dim: number) => { for (let i = 0; i < v.length; i += dim) { let s = 0; for (let d = 0; d < dim; d++) s += v[i + d] ** 2; s = Math.sqrt(s) || 1; for (let d = 0; d < dim; d++) v[i + d] /= s; } return v; };

@@ -15,7 +15,7 @@ import { untrainedEncoder } from '../../src/core/retrieval/evaluate';
 
 await initBackend();
 const [libDir, runDir, out] = process.argv.slice(2);
-const lib = loadLibrary(libDir, { quiet: true, points: POOL_POINTS });
+const lib = await loadLibrary(libDir, { quiet: true, points: POOL_POINTS });
 const parts = lib.parts.map((p) => ({ points: p.points, normals: p.normals }));
 const ckpt = await loadRun(runDir);
 const cfg = ckpt.manifest.config;

@@ -11,7 +11,7 @@ import { embeddingReadings } from './saved-run';
 
 await initBackend();
 const [libDir, ...runs] = process.argv.slice(2);
-const lib = loadLibrary(libDir, { quiet: true, points: POOL_POINTS });
+const lib = await loadLibrary(libDir, { quiet: true, points: POOL_POINTS });
 const parts = lib.parts.map((p) => ({ points: p.points, normals: p.normals }));
 const N = parts.length;
 const all: Float32Array[] = [];

@@ -8,7 +8,7 @@ import { encoderFromCheckpoint } from '../../src/core/model/checkpoint';
 import { embedForRetrieval } from '../../src/core/model/embed';
 import { queryMetrics } from '../../src/core/retrieval/metrics';
 await initBackend();
-const lib = loadLibrary(process.argv[2], { quiet: true, points: POOL_POINTS });
+const lib = await loadLibrary(process.argv[2], { quiet: true, points: POOL_POINTS });
 const parts = lib.parts.map((p) => ({ points: p.points, normals: p.normals }));
 const ck = await loadRun(process.argv[3]);
 const enc = encoderFromCheckpoint(ck);

@@ -1,7 +1,7 @@
 // Which principal axis the file's up axis lands on, per part, and how close the eigenvalues are.
 import { loadLibrary } from '../../src/cli/library-dir';
 import { principalFrame, symmetricEigen3 } from '../../src/core/points/pca';
-const lib = loadLibrary(process.argv[2], { quiet: true, points: 2048 });
+const lib = await loadLibrary(process.argv[2], { quiet: true, points: 2048 });
 const up = Number(process.argv[3] ?? 1);
 const rows: Record<string, string[]> = {};
 lib.parts.forEach((p, i) => {

@@ -11,7 +11,7 @@ import { embedForRetrieval } from '../../src/core/model/embed';
 import { evaluateRetrieval, cosineSimilarity } from '../../src/core/retrieval/metrics';
 import { createRng } from '../../src/core/rng';
 await initBackend();
-const lib = loadLibrary(process.argv[2], { quiet: true, points: POOL_POINTS });
+const lib = await loadLibrary(process.argv[2], { quiet: true, points: POOL_POINTS });
 const parts = lib.parts.map((p) => ({ points: p.points, normals: p.normals }));
 for (const dir of process.argv.slice(3)) {
   const ck = await loadRun(dir);

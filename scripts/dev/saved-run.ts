@@ -11,11 +11,11 @@ import { throughLibrary } from '../../src/core/retrieval/hubness';
 import { cosineSimilarity, evaluateRetrieval } from '../../src/core/retrieval/metrics';
 
 /** A library and a saved run over it; with `oneEncoder` (the default) its encoder too, which a two-encoder run refuses. */
-export async function openSavedRun(libDir: string, runDir: string): Promise<{ lib: ReturnType<typeof loadLibrary>; parts: ModelPart[]; ckpt: Checkpoint; enc: Encoder; cfg: TrainConfig }>;
-export async function openSavedRun(libDir: string, runDir: string, oneEncoder: false): Promise<{ lib: ReturnType<typeof loadLibrary>; parts: ModelPart[]; ckpt: Checkpoint; cfg: TrainConfig }>;
+export async function openSavedRun(libDir: string, runDir: string): Promise<{ lib: Awaited<ReturnType<typeof loadLibrary>>; parts: ModelPart[]; ckpt: Checkpoint; enc: Encoder; cfg: TrainConfig }>;
+export async function openSavedRun(libDir: string, runDir: string, oneEncoder: false): Promise<{ lib: Awaited<ReturnType<typeof loadLibrary>>; parts: ModelPart[]; ckpt: Checkpoint; cfg: TrainConfig }>;
 export async function openSavedRun(libDir: string, runDir: string, oneEncoder = true) {
   await initBackend();
-  const lib = loadLibrary(libDir, { quiet: true, points: POOL_POINTS });
+  const lib = await loadLibrary(libDir, { quiet: true, points: POOL_POINTS });
   const parts: ModelPart[] = lib.parts.map((p) => ({ points: p.points, normals: p.normals }));
   const ckpt = await loadRun(runDir);
   return { lib, parts, ckpt, cfg: ckpt.manifest.config, ...(oneEncoder ? { enc: encoderFromCheckpoint(ckpt) } : {}) };

@@ -5,7 +5,9 @@ import { readFileSync, readdirSync, statSync, existsSync } from 'node:fs';
 import { join, relative, sep } from 'node:path';
 import { failureOf, labelFromPath, loadPart, type LibraryPart } from '../core/library';
 import type { ImportFailure } from '../core/mesh/import';
-import { DEFAULT_MAX_BYTES, isSupportedFile } from '../core/mesh/import';
+import { DEFAULT_MAX_BYTES, isSupportedFile, needsCadReader } from '../core/mesh/import';
+import { loadCadReader } from '../core/mesh/occt';
+import { FORMAT_NAMES } from '../core/mesh/formats';
 import { MeshImportError } from '../core/mesh/types';
 import { POOL_POINTS } from '../core/model/defaults';
 import { Progress } from './progress';
@@ -51,20 +53,21 @@ export function readLabelsCsv(root: string): Map<string, string> | null {
   return map;
 }
 
-export function loadLibrary(root: string, options: { quiet?: boolean; seed?: number; points?: number; maxBytes?: number } = {}): LoadedLibrary {
+export async function loadLibrary(root: string, options: { quiet?: boolean; seed?: number; points?: number; maxBytes?: number } = {}): Promise<LoadedLibrary> {
   const files = listFiles(root);
-  if (files.length === 0) throw new CliError(`no mesh or point files (STL, OBJ, PLY, OFF, XYZ) under ${root}`);
+  if (files.length === 0) throw new CliError(`no part files (${FORMAT_NAMES}) under ${root}`);
   const csv = readLabelsCsv(root);
   const progress = new Progress('reading', files.length, options.quiet);
   const parts: LibraryPart[] = [];
   const failures: ImportFailure[] = [];
-  files.forEach((path, i) => {
+  for (const [i, path] of files.entries()) {
     const name = relative(root, path).split(sep).join('/');
     try {
       // The size cap is checked before the file is read, so a huge file costs no memory.
       const size = statSync(path).size;
       const cap = options.maxBytes ?? DEFAULT_MAX_BYTES;
       if (size > cap) throw new MeshImportError(name, 'too-large', `the file is ${size} bytes, over the ${cap}-byte limit (raise it with --max-file-mb)`);
+      if (needsCadReader(name)) await loadCadReader(); // loaded once; again only after it trapped
       const bytes = readFileSync(path);
       const buffer = bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer;
       parts.push(loadPart(buffer, name, { points: options.points ?? POOL_POINTS, seed: options.seed ?? 0 }, options.maxBytes));
@@ -72,7 +75,7 @@ export function loadLibrary(root: string, options: { quiet?: boolean; seed?: num
       failures.push(failureOf(name, err));
     }
     progress.update(i + 1, name);
-  });
+  }
   progress.done();
   const labels = parts.map((p) => csv?.get(p.name) ?? labelFromPath(p.name));
   return { root, parts, labels, failures };

@@ -129,7 +129,7 @@ async function train(lib: string, values: Values): Promise<void> {
   const pipeline = values.augment ? pipelineFrom(values.augment) : null;
   maxBytes(values);
   const backend = await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
-  const library = loadLibrary(lib, { maxBytes: maxBytes(values), points: POOL_POINTS });
+  const library = await loadLibrary(lib, { maxBytes: maxBytes(values), points: POOL_POINTS });
   reportFailures(library.failures, Boolean(values.json));
   const traits = libraryTraits(library.parts);
   const closed = traits.closed;
@@ -207,8 +207,8 @@ async function embed(lib: string, values: Values): Promise<void> {
   const out = need(values, 'out', 'embed');
   const ext = extname(out).toLowerCase();
   if (!['.csv', '.json', '.npy'].includes(ext)) throw new CliError(`--out must end in .csv, .json or .npy, got "${out}"`, 2);
-  await withModel(values, 'embed', (enc, ckpt) => {
-    const library = loadLibrary(lib, { maxBytes: maxBytes(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
+  await withModel(values, 'embed', async (enc, ckpt) => {
+    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
     reportFailures(library.failures, Boolean(values.json));
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), ckpt.manifest.config.points, ckpt.manifest.config.pose);
     const D = vectors.length / library.parts.length;
@@ -235,7 +235,7 @@ async function query(file: string, values: Values): Promise<void> {
   if (!existsSync(file)) throw new CliError(`query file not found: ${file}`, 2);
   const ranking = (values.order ?? 'diffusion') as Ranking;
   if (ranking !== 'diffusion' && ranking !== 'cosine') throw new CliError(`--order must be diffusion or cosine, got "${values.order}"`, 2);
-  await withModel(values, 'query', (enc, ckpt) => {
+  await withModel(values, 'query', async (enc, ckpt) => {
     const bytes = readFileSync(file);
     let q: LibraryPart;
     try {
@@ -243,7 +243,7 @@ async function query(file: string, values: Values): Promise<void> {
     } catch (err) {
       throw new CliError((err as Error).message);
     }
-    const library = loadLibrary(lib, { maxBytes: maxBytes(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
+    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
     reportFailures(library.failures, Boolean(values.json));
     const points = ckpt.manifest.config.points;
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), points, ckpt.manifest.config.pose);
@@ -273,7 +273,7 @@ async function evaluate(lib: string, values: Values): Promise<void> {
   await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
   const ckpt = values.model ? await loadRun(values.model) : null;
   const sampling = ckpt?.manifest.sampling ?? { points: POOL_POINTS, seed: 0 };
-  const library = loadLibrary(lib, { maxBytes: maxBytes(values), ...sampling });
+  const library = await loadLibrary(lib, { maxBytes: maxBytes(values), ...sampling });
   reportFailures(library.failures, Boolean(values.json));
   const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
   const config = ckpt?.manifest.config ?? defaultTrainFor(libraryTraits(library.parts));
@@ -288,8 +288,8 @@ async function evaluate(lib: string, values: Values): Promise<void> {
 }
 
 async function study(lib: string, values: Values): Promise<void> {
-  await withModel(values, 'study', (enc, ckpt) => {
-    const library = loadLibrary(lib, { maxBytes: maxBytes(values), ...ckpt.manifest.sampling });
+  await withModel(values, 'study', async (enc, ckpt) => {
+    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), ...ckpt.manifest.sampling });
     reportFailures(library.failures, Boolean(values.json));
     const kinds = values.augmentations ? values.augmentations.split(',').map((k) => k.trim()) : undefined;
     for (const k of kinds ?? []) if (!(AUGMENT_KINDS as readonly string[]).includes(k)) throw new CliError(`--augmentations: unknown "${k}" (one of ${AUGMENT_KINDS.join(', ')})`, 2);
@@ -312,8 +312,8 @@ async function study(lib: string, values: Values): Promise<void> {
 
 async function duplicates(lib: string, values: Values): Promise<void> {
   const threshold = num(values, 'threshold', 0.97, false, -1, 1);
-  await withModel(values, 'duplicates', (enc, ckpt) => {
-    const library = loadLibrary(lib, { maxBytes: maxBytes(values), ...ckpt.manifest.sampling });
+  await withModel(values, 'duplicates', async (enc, ckpt) => {
+    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), ...ckpt.manifest.sampling });
     reportFailures(library.failures, Boolean(values.json));
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), ckpt.manifest.config.points, ckpt.manifest.config.pose);
     const D = vectors.length / library.parts.length;

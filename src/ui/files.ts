@@ -1,6 +1,6 @@
 // Reading user files: picked files keep their folder path (webkitRelativePath), dropped folders are walked.
 
-import { isSupportedFile } from '../core/mesh/import';
+import { formatOf } from '../core/mesh/formats';
 import type { FileInput } from '../worker/protocol';
 
 export interface NamedFile {
@@ -40,7 +40,7 @@ export async function readFiles(files: readonly NamedFile[]): Promise<{ inputs: 
   const inputs: FileInput[] = [];
   const skipped: string[] = [];
   for (const f of files) {
-    if (!isSupportedFile(f.name)) { skipped.push(f.name); continue; }
+    if (!formatOf(f.name)) { skipped.push(f.name); continue; }
     inputs.push({ name: f.name, buffer: await f.file.arrayBuffer() });
   }
   return { inputs, skipped };

@@ -81,7 +81,8 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         });
         trainerId = req.id;
         const t = trainer;
-        let lastSave = performance.now();
+        // Kept after the first step, then every 20 s: a closed tab or a crash loses at most that.
+        let lastSave = -Infinity;
         const result = await t.run({
           onProgress: (progress) => {
             post({ type: 'progress', id: req.id, progress });

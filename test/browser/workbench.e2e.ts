@@ -166,6 +166,22 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     expect(Math.max(0, ...longTasks)).toBeLessThan(500);
   }, 120_000);
 
+  it('STEP and VRML files import in the page, STEP sizes in millimetres (KiCad models, test/fixtures/kicad)', async () => {
+    await page.evaluate(() => {
+      (document.querySelector('sk-app') as unknown as { library: { timeLimits: unknown } }).library.timeLimits = { baseMs: 30_000, perMiBMs: 2_000 };
+    });
+    await page.locator('sk-library-panel input[type=file][multiple]').setInputFiles([
+      'test/fixtures/kicad/Battery_CR1225.step', 'test/fixtures/kicad/Battery_CR1225.wrl', 'test/fixtures/kicad/TO-92Mini-2.step',
+    ]);
+    await expect.poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 60_000 }).toMatch(/115 parts in 15 folders/);
+    const card = page.locator('sk-library-panel button.card', { hasText: 'Battery_CR1225.step' });
+    expect(await card.textContent()).toMatch(/12\.5 × 12\.5 × 2\.50 mm/);
+    expect(await page.locator('sk-library-panel button.card', { hasText: 'Battery_CR1225.wrl' }).textContent()).toMatch(/4\.92 × 4\.92 × 0\.98 file units/);
+    await page.getByPlaceholder('Filter by name or folder').fill('Battery');
+    await page.screenshot({ path: `${ARTIFACTS}/cad-import.png` });
+    await page.getByPlaceholder('Filter by name or folder').fill('');
+  }, 120_000);
+
   it('shows no page errors or console errors', () => {
     expect(errors).toEqual([]);
   });

@@ -295,5 +295,7 @@ function makeInfo(
     closed,
     volume,
     fileBytes,
+    bodies: null,
+    units: format === 'step' || format === 'iges' ? 'mm' : 'file',
   };
 }

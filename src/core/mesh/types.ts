@@ -2,7 +2,7 @@
 
 export type Vec3 = readonly [number, number, number];
 
-export type MeshFormat = 'stl-binary' | 'stl-ascii' | 'obj' | 'ply' | 'off' | 'xyz';
+export type MeshFormat = 'stl-binary' | 'stl-ascii' | 'obj' | 'ply' | 'off' | 'xyz' | 'step' | 'iges' | 'vrml';
 
 /** Welded geometry in file units. `indices === null` means a point set (a scan with no faces). */
 export interface Mesh {
@@ -27,6 +27,10 @@ export interface MeshInfo {
   /** Enclosed volume (divergence theorem) when closed, else null. */
   readonly volume: number | null;
   readonly fileBytes: number;
+  /** Separate bodies the file declares (STEP/IGES solids, VRML shapes); null where a format does not say. */
+  readonly bodies: number | null;
+  /** What the coordinates measure: millimetres where the format says so (STEP, IGES), else the file's own units. */
+  readonly units: 'mm' | 'file';
 }
 
 export interface ImportedMesh {
@@ -61,4 +65,9 @@ export class MeshImportError extends Error {
     this.code = code;
     this.reason = reason;
   }
+}
+
+/** How a part's sizes are labelled on screen and in reports. */
+export function unitsLabel(info: Pick<MeshInfo, 'units'>): string {
+  return info.units === 'mm' ? 'mm' : 'file units';
 }

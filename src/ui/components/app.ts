@@ -1,6 +1,7 @@
 // <sk-app>: the workbench shell. Owns the state (library, model, embeddings, training status), hands it to
 // the panels and reacts to their events; workers do the heavy work.
 
+import { FORMAT_NAMES } from '../../core/mesh/formats';
 import { LitElement, css, html } from 'lit';
 import { DEFAULT_SAMPLING, type LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
@@ -221,7 +222,7 @@ export class SkApp extends LitElement {
 
   private async addNamed(named: NamedFile[]): Promise<void> {
     const { inputs, skipped } = await readFiles(named);
-    await this.importInputs(inputs, skipped.map((file) => ({ file, code: 'unsupported-type', reason: 'not a mesh or point file Shapekin reads (STL, OBJ, PLY, OFF, XYZ/CSV)' })), 'user');
+    await this.importInputs(inputs, skipped.map((file) => ({ file, code: 'unsupported-type', reason: `not a file Shapekin reads (${FORMAT_NAMES})` })), 'user');
   }
 
   private async importInputs(inputs: FileInput[], extraFailures: ImportFailure[], source: 'demo' | 'user'): Promise<void> {

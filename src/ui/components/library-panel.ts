@@ -2,6 +2,8 @@
 // Renders from properties and sends events up: 'add-files' (File[]), 'reload-demo', 'select-part' (name).
 
 import { LitElement, css, html } from 'lit';
+import { unitsLabel } from '../../core/mesh/types';
+import { ACCEPT, FORMAT_NAMES } from '../../core/mesh/formats';
 import type { LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
 import type { ImportStatus } from '../status';
@@ -81,13 +83,13 @@ export class SkLibraryPanel extends LitElement {
     const families = new Set(this.parts.map((p) => p.label)).size;
     return html`
       <div class="bar">
-        <label class="button">Add files…<input type="file" multiple accept=".stl,.obj,.ply,.off,.xyz,.csv,.pts,.txt" @change=${this.onFiles} /></label>
+        <label class="button">Add files…<input type="file" multiple accept=${ACCEPT} @change=${this.onFiles} /></label>
         <label class="button">Add a folder…<input type="file" webkitdirectory @change=${this.onFiles} /></label>
         <button @click=${() => this.emit('reload-demo')}>Reload the demo library</button>
         <button @click=${() => this.emit('clear-library')}>Empty the library</button>
         <div class="drop" @dragover=${(e: DragEvent) => { e.preventDefault(); (e.currentTarget as HTMLElement).classList.add('over'); }}
              @dragleave=${(e: DragEvent) => (e.currentTarget as HTMLElement).classList.remove('over')} @drop=${this.onDrop}>
-          Drop mesh files or whole folders here (STL, OBJ, PLY, OFF, XYZ)
+          Drop part files or whole folders here (${FORMAT_NAMES})
         </div>
       </div>
       ${s.kind === 'importing' ? html`<progress max=${s.total} value=${s.done} aria-label="import progress"></progress>
@@ -110,7 +112,7 @@ export class SkLibraryPanel extends LitElement {
             ${thumb ? html`<img src=${thumb} alt="" />` : html`<div class="ph"></div>`}
             <div class="name">${p.name.split('/').pop()}</div>
             <div class="meta"><span class="tag">${p.label || '(top level)'}</span>${p.info.format}</div>
-            <div class="meta">${fmt(x)} × ${fmt(y)} × ${fmt(z)} file units</div>
+            <div class="meta">${fmt(x)} × ${fmt(y)} × ${fmt(z)} ${unitsLabel(p.info)}</div>
             <div class="meta">${p.info.triangleCount ? `${p.info.triangleCount} triangles` : `${p.info.vertexCount} points`}
               ${p.info.triangleCount ? (p.info.closed ? html`· closed` : html`· <span class="tag open">open</span>`) : ''}</div>
           </button>`;

@@ -1,6 +1,7 @@
 // <sk-map-panel>: every part as a dot at its embedding's two leading principal components, coloured by
 // folder; hover names the part and shows its thumbnail, a click searches from it ('search-query').
 
+import { unitsLabel } from '../../core/mesh/types';
 import { LitElement, css, html, svg } from 'lit';
 import type { LibraryPart } from '../../core/library';
 import type { EmbeddingIndex } from '../../core/retrieval/index';
@@ -65,7 +66,7 @@ export class SkMapPanel extends LitElement {
       <div>
         <div class="legend">${families.map((f, i) => html`<div><span class="swatch" style="background:${familyColour(i)}"></span>${f || '(top level)'}</div>`)}</div>
         ${h ? html`<div class="card">${this.thumbnails.get(h.name) ? html`<img src=${this.thumbnails.get(h.name)} alt="" />` : null}
-          <div><strong>${h.name}</strong></div><div>${h.info.extents.map((v) => v.toPrecision(3)).join(' × ')} file units</div><div>click to find its look-alikes</div></div>` : html`<div class="card">Point at a dot to see the part; click it to search from it. Axes are the embedding's two main directions of spread.</div>`}
+          <div><strong>${h.name}</strong></div><div>${h.info.extents.map((v) => v.toPrecision(3)).join(' × ')} ${unitsLabel(h.info)}</div><div>click to find its look-alikes</div></div>` : html`<div class="card">Point at a dot to see the part; click it to search from it. Axes are the embedding's two main directions of spread.</div>`}
       </div>`;
   }
 }

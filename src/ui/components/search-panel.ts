@@ -2,6 +2,8 @@
 // scores and real sizes; choosing a result shows it beside the query in linked 3-D views.
 // Sends 'search-query' (part name), 'search-file' (File), 'search-filters' upward.
 
+import { unitsLabel } from '../../core/mesh/types';
+import { ACCEPT } from '../../core/mesh/formats';
 import { LitElement, css, html } from 'lit';
 import type { Object3D } from 'three';
 import type { LibraryPart } from '../../core/library';
@@ -103,7 +105,7 @@ export class SkSearchPanel extends LitElement {
             ${q && !this.parts.some((p) => p.name === q.name) ? html`<option selected>${q.name} (dropped file)</option>` : null}
             ${this.parts.map((p) => html`<option value=${p.name} ?selected=${q?.name === p.name}>${p.name}</option>`)}
           </select></label>
-        <label class="button">…or a new file<input type="file" accept=".stl,.obj,.ply,.off,.xyz,.csv" @change=${(e: Event) => { const file = (e.target as HTMLInputElement).files?.[0]; if (file) this.emit('search-file', file); }} /></label>
+        <label class="button">…or a new file<input type="file" accept=${ACCEPT} @change=${(e: Event) => { const file = (e.target as HTMLInputElement).files?.[0]; if (file) this.emit('search-file', file); }} /></label>
         <span class="drop" @dragover=${(e: DragEvent) => { e.preventDefault(); (e.currentTarget as HTMLElement).classList.add('over'); }}
           @dragleave=${(e: DragEvent) => (e.currentTarget as HTMLElement).classList.remove('over')}
           @drop=${(e: DragEvent) => { e.preventDefault(); (e.currentTarget as HTMLElement).classList.remove('over'); const file = e.dataTransfer?.files?.[0]; if (file) this.emit('search-file', file); }}>or drop one here</span>
@@ -135,7 +137,7 @@ export class SkSearchPanel extends LitElement {
               <span><span class="score" title="cosine similarity to the query">${h.score.toFixed(3)}</span> <span class="small">${p.label}</span>
                 <div class="bar-score" style="width:${Math.max(2, Math.round(Math.max(0, h.score) * 100))}%"></div>
                 <div class="small">${p.name.split('/').pop()}</div>
-                <div class="small">${p.info.extents.map((v) => v.toPrecision(3)).join(' × ')} · size ×${ratio.toFixed(2)}</div></span>
+                <div class="small">${p.info.extents.map((v) => v.toPrecision(3)).join(' × ')} ${unitsLabel(p.info)} · size ×${ratio.toFixed(2)}</div></span>
             </button></li>`;
           })}
           ${this.hits.length === 0 ? html`<li class="empty">No part passes the filters.</li>` : null}

@@ -1,0 +1,91 @@
+// STEP through OpenCascade (occt-import-js) and VRML through three's VRMLLoader, checked against the world:
+// KiCad ships each component model twice, as STEP in millimetres and as VRML in its own unit of 0.1 inch
+// (2.54 mm; KiCad's convention, common practice, no published source). 22 pairs from Debian's
+// kicad-packages3d (CC-BY-SA 4.0 with the KiCad library exception; test/fixtures/kicad/SOURCES.md).
+
+import { readdirSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import { initBackend } from '../../../src/core/model/backend';
+import { defaultTrainFor, libraryTraits, POOL_POINTS } from '../../../src/core/model/defaults';
+import { disposeEncoders, embedForRetrieval } from '../../../src/core/model/embed';
+import { loadPart, type LibraryPart } from '../../../src/core/library';
+import { importMesh } from '../../../src/core/mesh/import';
+import { loadCadReader } from '../../../src/core/mesh/occt';
+import { MeshImportError } from '../../../src/core/mesh/types';
+import { untrainedEncoders } from '../../../src/core/retrieval/evaluate';
+import { cosineSimilarity } from '../../../src/core/retrieval/metrics';
+import { fixture, textBuffer } from '../../meshes';
+import { RAW_JS } from './reasons';
+
+const DIR = fileURLToPath(new URL('../../fixtures/kicad/', import.meta.url));
+const NAMES = readdirSync(DIR).filter((f) => f.endsWith('.step')).map((f) => f.slice(0, -5)).sort();
+const KICAD_VRML_UNIT_MM = 2.54;
+
+let printed: string[] = [];
+beforeAll(async () => {
+  await loadCadReader();
+  const keep = (...a: unknown[]) => { printed.push(a.map(String).join(' ').slice(0, 200)); return true; };
+  for (const m of ['log', 'warn', 'error', 'info'] as const) vi.spyOn(console, m).mockImplementation(keep);
+  vi.spyOn(process.stdout, 'write').mockImplementation(keep);
+}, 60_000);
+afterAll(() => vi.restoreAllMocks());
+
+describe(`the same ${NAMES.length} KiCad components as STEP and as VRML`, () => {
+  it('has at least 20 pairs', () => expect(NAMES.length).toBeGreaterThanOrEqual(20));
+  it('STEP sizes are in millimetres and equal 2.54 × the VRML sizes within 1 %', () => {
+    for (const name of NAMES) {
+      const step = importMesh(fixture(`kicad/${name}.step`), `${name}.step`);
+      const vrml = importMesh(fixture(`kicad/${name}.wrl`), `${name}.wrl`);
+      expect([step.info.format, step.info.units, vrml.info.format, vrml.info.units]).toEqual(['step', 'mm', 'vrml', 'file']);
+      expect(step.info.bodies).toBeGreaterThanOrEqual(1);
+      step.info.extents.forEach((e, k) => {
+        const ratio = e / (vrml.info.extents[k] * KICAD_VRML_UNIT_MM);
+        expect(Math.abs(ratio - 1), `${name} axis ${k}: ${e} mm vs ${vrml.info.extents[k]} × 2.54`).toBeLessThan(0.01);
+      });
+    }
+    expect(printed).toEqual([]);
+  }, 120_000);
+  it('each STEP and its VRML find each other as nearest other part, with the untrained encoder', async () => {
+    await initBackend({ prefer: 'wasm' });
+    const parts: LibraryPart[] = [];
+    for (const name of NAMES) for (const ext of ['step', 'wrl']) parts.push(loadPart(fixture(`kicad/${name}.${ext}`), `${name}.${ext}`, { points: POOL_POINTS, seed: 0 }));
+    // The settings the library would get by default (its parts sit square in their files' axes: two encoders).
+    const config = defaultTrainFor(libraryTraits(parts));
+    expect(config.pose).toBe('file-and-principal');
+    const enc = untrainedEncoders(config.encoder, config.pose, 0);
+    const vectors = embedForRetrieval(enc, parts.map((p) => ({ points: p.points, normals: p.normals })), config.points, config.pose);
+    disposeEncoders(enc);
+    const sim = cosineSimilarity(vectors, vectors.length / parts.length);
+    const missed: string[] = [];
+    parts.forEach((p, i) => {
+      let best = -1, bestSim = -Infinity;
+      parts.forEach((_, j) => { if (j !== i && sim(i, j) > bestSim) { bestSim = sim(i, j); best = j; } });
+      if (Math.floor(best / 2) !== Math.floor(i / 2)) missed.push(`${p.name} → ${parts[best].name}`);
+    });
+    expect(missed).toEqual([]);
+  }, 120_000);
+});
+
+describe('CAD files that cannot be read', () => {
+  it('a file that is not STEP, a STEP that is cut short, and VRML 1.0 get reasons in our words; nothing is printed', () => {
+    const step = new TextDecoder().decode(new Uint8Array(fixture(`kicad/${NAMES[0]}.step`)));
+    const cases: [ArrayBuffer, string, RegExp][] = [
+      [textBuffer('solid nothing\nendsolid\n'), 'drawing.step', /not a STEP file/],
+      [textBuffer(step.slice(0, Math.floor(step.length / 3))), 'cut.stp', /could not be read by OpenCascade|holds no solid/],
+      [textBuffer('#VRML V1.0 ascii\nSeparator {}\n'), 'old.wrl', /VRML 1\.0 is not read/],
+      [textBuffer('#VRML V2.0 utf8\nShape { geometry IndexedFaceSet { coord Coordinate { point [ 0 0 0, 1 0 ] } coordIndex [ 0 1 2 -1 ] } }\n'), 'broken.wrl', /non-finite|VRML/],
+    ];
+    for (const [buffer, name, reason] of cases) {
+      try {
+        importMesh(buffer, name);
+        throw new Error(`${name} imported`);
+      } catch (err) {
+        expect(err, name).toBeInstanceOf(MeshImportError);
+        expect((err as MeshImportError).reason, name).toMatch(reason);
+        expect((err as MeshImportError).reason, name).not.toMatch(RAW_JS);
+      }
+    }
+    expect(printed).toEqual([]);
+  }, 60_000);
+});
