@@ -1,7 +1,7 @@
 // The `shapekin` command line: a thin shell over the core for batch work on a parts library.
 
 import { writeFileSync } from 'node:fs';
-import { extname } from 'node:path';
+import { extname, relative, sep } from 'node:path';
 import { parseArgs } from 'node:util';
 import { initBackend } from '../core/model/backend';
 import { encodersFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
@@ -19,11 +19,14 @@ import type { Ranking } from '../core/retrieval/index';
 import { cosineSimilarity } from '../core/retrieval/metrics';
 import { writeNpyFloat32 } from '../core/retrieval/npy';
 import { runStudy } from '../core/retrieval/study';
-import { loadPart, type LibraryPart } from '../core/library';
-import { DEFAULT_MAX_BYTES } from '../core/mesh/import';
-import { readFileSync, existsSync } from 'node:fs';
+import { failureOf, loadPart, type LibraryPart } from '../core/library';
+import { DEFAULT_MAX_BYTES, importMesh, needsCadReader } from '../core/mesh/import';
+import { FORMAT_NAMES } from '../core/mesh/formats';
+import { loadCadReader } from '../core/mesh/occt';
+import { MeshImportError, type MeshInfo } from '../core/mesh/types';
+import { readFileSync, existsSync, statSync } from 'node:fs';
 import { CliError } from './errors';
-import { loadLibrary, reportFailures, type LoadedLibrary } from './library-dir';
+import { listFiles, loadLibrary, reportFailures, type LoadedLibrary } from './library-dir';
 import { duration, Progress, setProgressMode } from './progress';
 import { loadRun, saveRun } from './run-dir';
 
@@ -47,10 +50,13 @@ usage:
   shapekin eval <library-dir> [--model <run-dir>] [--json]
   shapekin study <library-dir> --model <run-dir> [--augmentations a,b,…] [--strengths 0,0.5,1] [--json]
   shapekin duplicates <library-dir> --model <run-dir> [--threshold 0.97] [--json]
+  shapekin inspect <file-or-folder> [--json]   (format, bodies, triangles, closed, size and units of each file, or why it cannot be read)
 
 every command: [--json] one JSON document on stdout and nothing else there (bad files under "failures")
                [--progress bar|json|none] progress on stderr: a bar on a terminal (default), JSON lines, or none
                [--max-file-mb N] refuse files larger than N MiB (default ${DEFAULT_MAX_BYTES / 2 ** 20})
+               [--units mm|cm|m|inch|<factor>] what one unit of files without units (STL, OBJ, PLY, OFF, VRML, point
+               lists) measures; sizes are then shown in mm (STEP and IGES are always mm)
 presets for --augment: ${Object.keys(PRESETS).join(', ')}
 `;
 
@@ -60,7 +66,7 @@ const OPTIONS = {
   batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' }, 'class-prior': { type: 'string' },
   k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, order: { type: 'string' }, threshold: { type: 'string' },
   json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
-  backend: { type: 'string' }, progress: { type: 'string' }, 'max-file-mb': { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, neighbours: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
+  backend: { type: 'string' }, progress: { type: 'string' }, 'max-file-mb': { type: 'string' }, units: { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, neighbours: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
 } as const;
 
 type Values = { [K in keyof typeof OPTIONS]?: (typeof OPTIONS)[K]['type'] extends 'boolean' ? boolean : string };
@@ -231,6 +237,7 @@ function csvField(s: string): string {
 async function query(file: string, values: Values): Promise<void> {
   const lib = need(values, 'library', 'query');
   const k = num(values, 'k', 10, true, 1);
+  const mmPerUnit = unitsOption(values);
   const ratio = values['size-ratio'] !== undefined ? num(values, 'size-ratio', 2, false, 1) : undefined;
   if (!existsSync(file)) throw new CliError(`query file not found: ${file}`, 2);
   const ranking = (values.order ?? 'diffusion') as Ranking;
@@ -248,23 +255,26 @@ async function query(file: string, values: Values): Promise<void> {
     const points = ckpt.manifest.config.points;
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), points, ckpt.manifest.config.pose);
     const D = vectors.length / library.parts.length;
-    const index = new TensorIndex(vectors, D, library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal })));
+    // Sizes compare in mm where units are known (STEP/IGES, or --units), so a part exported in inches still passes the size filter.
+    const sizes = library.parts.map((p) => sizeOf(p.info, mmPerUnit));
+    const qSize = sizeOf(q.info, mmPerUnit);
+    const index = new TensorIndex(vectors, D, library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal * sizes[i].scale })));
     const qv = embedForRetrieval(enc, [{ points: q.points, normals: q.normals }], points, ckpt.manifest.config.pose);
     if (!qv.every(Number.isFinite)) { index.dispose(); throw new CliError(`the model gives no usable embedding for ${file} (non-finite values)`); }
     const order: Ranking = ranking === 'diffusion' && !index.diffusionApplies() ? 'cosine' : ranking; // ranked() falls back the same way
-    const hits = index.ranked(order, qv, k, ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal } : {});
+    const hits = index.ranked(order, qv, k, ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal * qSize.scale } : {});
     index.dispose();
     const rows = hits.map((h, r) => {
       const p = library.parts[h.index];
-      return { rank: r + 1, score: h.score, file: p.name, label: library.labels[h.index], extents: p.info.extents, size_ratio: p.diagonal / q.diagonal };
+      const size = sizes[h.index];
+      return { rank: r + 1, score: h.score, file: p.name, label: library.labels[h.index], extents: size.size, units: size.units, size_ratio: (p.diagonal * size.scale) / (q.diagonal * qSize.scale) };
     });
-    if (values.json) { emit({ query: file, query_extents: q.info.extents, order, mean_pair_cosine: index.meanPairCosine(), results: rows, failures: failuresJson(library), caution: CAUTION }); return; }
-    const fmt = (e: readonly number[]) => e.map((v) => v.toPrecision(4)).join(' × ');
-    console.log(`query ${file}  (${fmt(q.info.extents)} file units)`);
+    if (values.json) { emit({ query: file, query_extents: qSize.size, query_units: qSize.units, order, mean_pair_cosine: index.meanPairCosine(), results: rows, failures: failuresJson(library), caution: CAUTION }); return; }
+    console.log(`query ${file}  (${fmtSize(qSize)})`);
     if (order !== ranking) console.log(`ordered by cosine similarity: this model's embedding is too concentrated (mean pair cosine ${index.meanPairCosine().toFixed(2)}) to order through the library`);
     else console.log(order === 'diffusion' ? 'ordered through the library (scores corrected for parts near everything, then diffused over its neighbour graph); score: cosine similarity to the query' : 'ordered by cosine similarity to the query');
     console.log('rank  score   size×   folder            file');
-    for (const r of rows) console.log(`${String(r.rank).padStart(4)}  ${r.score.toFixed(3)}  ${r.size_ratio.toFixed(2).padStart(5)}   ${r.label.padEnd(17)} ${r.file}  (${fmt(r.extents)})`);
+    for (const r of rows) console.log(`${String(r.rank).padStart(4)}  ${r.score.toFixed(3)}  ${r.size_ratio.toFixed(2).padStart(5)}   ${r.label.padEnd(17)} ${r.file}  (${fmtSize({ size: r.extents, units: r.units })})`);
     console.log(`\n${CAUTION}`);
   });
 }
@@ -310,6 +320,61 @@ async function study(lib: string, values: Values): Promise<void> {
   });
 }
 
+/** Millimetres per unit of files whose format has no units, from --units (null when not given). */
+function unitsOption(values: Values): number | null {
+  const raw = values.units;
+  if (raw === undefined) return null;
+  const named: Record<string, number> = { mm: 1, cm: 10, m: 1000, inch: 25.4, in: 25.4 };
+  const factor = named[raw.toLowerCase()] ?? Number(raw);
+  if (!(factor > 0) || !Number.isFinite(factor)) throw new CliError(`--units must be mm, cm, m, inch or a positive number of mm per unit, got "${raw}"`, 2);
+  return factor;
+}
+
+/** A part's size in mm where its units are known (the format's own, or --units), else in file units. */
+function sizeOf(info: MeshInfo, mmPerUnit: number | null): { size: number[]; units: 'mm' | 'file units'; scale: number } {
+  const scale = info.units === 'mm' ? 1 : mmPerUnit;
+  if (scale === null) return { size: [...info.extents], units: 'file units', scale: 1 };
+  return { size: info.extents.map((v) => v * scale), units: 'mm', scale };
+}
+
+const fmtSize = (s: { size: readonly number[]; units: string }) => `${s.size.map((v) => v.toPrecision(4)).join(' × ')} ${s.units}`;
+
+async function inspect(target: string, values: Values): Promise<void> {
+  const mmPerUnit = unitsOption(values);
+  const cap = maxBytes(values);
+  if (!existsSync(target)) throw new CliError(`not found: ${target}`, 2);
+  const single = !statSync(target).isDirectory();
+  const files = single ? [target] : listFiles(target);
+  if (files.length === 0) throw new CliError(`no part files (${FORMAT_NAMES}) under ${target}`);
+  const progress = new Progress('inspecting', files.length);
+  const rows: ({ file: string; format: string; bodies: number | null; triangles: number; closed: boolean; size: number[]; units: string } | { file: string; error: string })[] = [];
+  const t0 = performance.now();
+  for (const [i, path] of files.entries()) {
+    const name = single ? path : relative(target, path).split(sep).join('/');
+    try {
+      const bytes = statSync(path).size;
+      if (bytes > cap) throw new MeshImportError(name, 'too-large', `the file is ${bytes} bytes, over the ${cap}-byte limit (raise it with --max-file-mb)`);
+      if (needsCadReader(path)) await loadCadReader();
+      const b = readFileSync(path);
+      const m = importMesh(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer, name, { maxBytes: cap });
+      const s = sizeOf(m.info, mmPerUnit);
+      rows.push({ file: name, format: m.info.format, bodies: m.info.bodies, triangles: m.info.triangleCount, closed: m.info.closed, size: s.size, units: s.units });
+    } catch (err) {
+      rows.push({ file: name, error: failureOf(name, err).reason });
+    }
+    progress.update(i + 1, name);
+  }
+  progress.done();
+  const seconds = (performance.now() - t0) / 1000;
+  if (values.json) { emit(rows); return; }
+  for (const r of rows) {
+    if ('error' in r) console.log(`${r.file}: cannot be read: ${r.error}`);
+    else console.log(`${r.file}: ${r.format}${r.bodies !== null ? `, ${r.bodies} ${r.bodies === 1 ? 'body' : 'bodies'}` : ''}, ${r.triangles} triangles, ${r.closed ? 'closed' : 'open'}, ${fmtSize(r)}`);
+  }
+  const bad = rows.filter((r) => 'error' in r).length;
+  process.stderr.write(`${rows.length} files in ${duration(seconds)} (${(rows.length / Math.max(seconds, 1e-9)).toFixed(1)} files/s): ${rows.length - bad} readable, ${bad} not\n`);
+}
+
 async function duplicates(lib: string, values: Values): Promise<void> {
   const threshold = num(values, 'threshold', 0.97, false, -1, 1);
   await withModel(values, 'duplicates', async (enc, ckpt) => {
@@ -346,7 +411,7 @@ export async function main(argv: string[]): Promise<number> {
   const values = parsed.values as Values;
   const [command, target, ...extra] = parsed.positionals;
   if (values.help || !command) { process.stdout.write(USAGE); return command || values.help ? 0 : 2; }
-  const commands: Record<string, (t: string, v: Values) => Promise<void>> = { train, embed, query, eval: evaluate, study, duplicates };
+  const commands: Record<string, (t: string, v: Values) => Promise<void>> = { train, embed, query, eval: evaluate, study, duplicates, inspect };
   const run = commands[command];
   // With --json, stdout carries exactly one JSON document: the command's result, or {"error"} when it fails.
   // Anything else that would print there (a library's warning) goes to stderr, and only on a terminal.
@@ -366,7 +431,7 @@ export async function main(argv: string[]): Promise<number> {
     if (values.progress !== undefined && !['bar', 'json', 'none'].includes(values.progress)) throw new CliError(`--progress must be bar, json or none, got "${values.progress}"`, 2);
     setProgressMode((values.progress as 'bar' | 'json' | 'none' | undefined) ?? (values.quiet || json ? 'none' : 'bar'));
     if (!run) throw new CliError(`unknown command "${command}" (one of ${Object.keys(commands).join(', ')})`, 2);
-    if (!target) throw new CliError(`${command} needs a ${command === 'query' ? 'mesh file' : 'library folder'}`, 2);
+    if (!target) throw new CliError(`${command} needs a ${command === 'query' ? 'part file' : command === 'inspect' ? 'file or folder' : 'library folder'}`, 2);
     if (extra.length) throw new CliError(`unexpected argument "${extra[0]}"`, 2);
     await run(target, values);
     return 0;

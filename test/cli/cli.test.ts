@@ -280,3 +280,30 @@ describe('training saves early and says what --resume found', () => {
   }, 120_000);
 });
 
+
+describe('shapekin inspect', () => {
+  it('lists format, bodies, triangles, closedness and size with units, or the reason, as one JSON array', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'shapekin-inspect-'));
+    cpSync('test/fixtures/kicad/Battery_CR1225.step', join(dir, 'cell.step'));
+    cpSync('test/fixtures/kicad/Battery_CR1225.wrl', join(dir, 'cell.wrl'));
+    writeFileSync(join(dir, 'empty.stl'), '');
+    capture();
+    expect(await main(['inspect', dir, '--json'])).toBe(0);
+    expect(out.length).toBe(1);
+    const rows = JSON.parse(out[0]);
+    expect(rows.map((r: { file: string }) => r.file)).toEqual(['cell.step', 'cell.wrl', 'empty.stl']);
+    expect(rows[0]).toMatchObject({ format: 'step', bodies: 1, closed: true, units: 'mm' });
+    // A CR1225 lithium coin cell is 12.5 mm across and 2.5 mm thick (IEC 60086 designation; value from memory).
+    expect(rows[0].size[0]).toBeCloseTo(12.5, 1);
+    expect(rows[0].size[2]).toBeCloseTo(2.5, 1);
+    expect(rows[1]).toMatchObject({ format: 'vrml', units: 'file units' });
+    expect(rows[2]).toEqual({ file: 'empty.stl', error: 'the file is empty (0 bytes)' });
+    // KiCad's VRML unit is 0.1 inch: with --units 2.54 both files measure the same.
+    capture();
+    expect(await main(['inspect', dir, '--json', '--units', '2.54'])).toBe(0);
+    const scaled = JSON.parse(out[0]);
+    expect(scaled[1].units).toBe('mm');
+    scaled[1].size.forEach((v: number, k: number) => expect(Math.abs(v / scaled[0].size[k] - 1)).toBeLessThan(0.01));
+    expect(await main(['inspect', dir, '--units', 'furlong'])).toBe(2);
+  }, 60_000);
+});
