@@ -1,7 +1,7 @@
 // The one list of file formats Shapekin reads: every picker, drop zone, folder walk, message and the
 // command line's help read it from here.
 
-export type FormatId = 'stl' | 'obj' | 'ply' | 'off' | 'points' | 'step' | 'iges' | 'vrml';
+export type FormatId = 'stl' | 'obj' | 'ply' | 'off' | 'points' | 'step' | 'iges' | 'vrml' | 'gltf' | '3mf';
 
 export interface FileFormat {
   readonly id: FormatId;
@@ -12,13 +12,16 @@ export interface FileFormat {
   readonly text: boolean;
   /** CAD formats (B-rep) are tessellated by OpenCascade, loaded on first use. */
   readonly cad: boolean;
-  /** What the file's numbers measure: millimetres when the format says so, else the file's own units. */
+  /** What the file's numbers measure: millimetres when the format says so (3MF and glTF are converted from
+   * their stated unit and metres), else the file's own units. */
   readonly units: 'mm' | 'file';
 }
 
 export const FORMATS: readonly FileFormat[] = [
   { id: 'step', label: 'STEP', extensions: ['step', 'stp'], text: false, cad: true, units: 'mm' },
   { id: 'iges', label: 'IGES', extensions: ['iges', 'igs'], text: false, cad: true, units: 'mm' },
+  { id: '3mf', label: '3MF', extensions: ['3mf'], text: false, cad: false, units: 'mm' },
+  { id: 'gltf', label: 'glTF', extensions: ['gltf', 'glb'], text: false, cad: false, units: 'mm' },
   { id: 'stl', label: 'STL', extensions: ['stl'], text: false, cad: false, units: 'file' },
   { id: 'obj', label: 'OBJ', extensions: ['obj'], text: true, cad: false, units: 'file' },
   { id: 'ply', label: 'PLY', extensions: ['ply'], text: false, cad: false, units: 'file' },

@@ -296,6 +296,6 @@ function makeInfo(
     volume,
     fileBytes,
     bodies: null,
-    units: format === 'step' || format === 'iges' ? 'mm' : 'file',
+    units: format === 'step' || format === 'iges' || format === 'gltf' || format === '3mf' ? 'mm' : 'file',
   };
 }

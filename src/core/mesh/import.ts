@@ -3,7 +3,9 @@
 
 import { parseCad, type OcctModule } from './cad';
 import { ACCEPT, FORMAT_NAMES, SUPPORTED_EXTENSIONS, extensionOf, formatOf } from './formats';
+import { parseGltf } from './gltf';
 import { parseObj } from './obj';
+import { parse3mf } from './threemf';
 import { cadReader, occtHost } from './occt';
 import { parseOff } from './off';
 import { parsePly } from './ply';
@@ -51,6 +53,8 @@ export function importMesh(buffer: ArrayBuffer, file: string, options: ImportOpt
       return parseCad(buffer, file, format.id as 'step' | 'iges', occt, occtHost);
     }
     if (format.id === 'stl') return parseStl(buffer, file);
+    if (format.id === 'gltf') return parseGltf(buffer, file);
+    if (format.id === '3mf') return parse3mf(buffer, file);
     if (format.id === 'ply') return parsePly(buffer, file);
     if (!looksLikeText(new Uint8Array(buffer))) {
       throw new MeshImportError(file, 'unrecognised', `${format.label} files are text, but this one holds binary data`);

@@ -10,6 +10,7 @@ import { loadCadReader } from '../../../src/core/mesh/occt';
 import { MeshImportError } from '../../../src/core/mesh/types';
 import { asciiStl, cubeTriangles, fixture, textBuffer, writeBinaryStl } from '../../meshes';
 import { RAW_JS } from './reasons';
+import { cubeObject, write3mf, writeGltf } from '../../format-writers';
 
 const MUTATIONS_PER_FILE = Number(process.env.FUZZ_MUTATIONS ?? 250);
 /** Far above any small file's import time here (a few ms): it only catches a loop that runs away. */
@@ -40,6 +41,9 @@ const SEEDS: [string, () => ArrayBuffer][] = [
   ['cube.off', () => fixture('real-meshes/cube.off')],
   ['points.xyz', () => textBuffer('# scan\n0 0 0\n1 0 0 0 0 1\n0 1 0\n0 0 1\n0.5 0.5 0.5\n')],
   ['points.csv', () => textBuffer('x;y;z\n0;0;0\n1,5;0;0\n0;1;0\n0;0;1\n')],
+  ['box.glb', () => writeGltf({ translation: [0, 1, 2] }, true)],
+  ['box.gltf', () => writeGltf({ scale: [1, 2, 3] }, false)],
+  ['cube.3mf', () => write3mf(`<?xml version="1.0"?><model unit="inch" xmlns="http://schemas.microsoft.com/3dmanufacturing/core/2015/02"><resources>${cubeObject(1)}</resources><build><item objectid="1"/></build></model>`)],
   ['led.wrl', () => fixture('kicad/LED_01005_0402Metric.wrl')],
   ['led.step', () => fixture('kicad/LED_01005_0402Metric.step')],
 ];
