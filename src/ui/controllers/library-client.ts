@@ -1,7 +1,8 @@
-// Talks to the library worker: sends files one at a time, hands back parts, failures and progress as they
-// arrive. A file whose reading outlasts its time limit (a parser stuck on a pathological file) is ended by
-// terminating the worker; the file is reported and the rest go on in a fresh worker. A newer import
-// supersedes an older one: replies to a stale id are dropped.
+// Talks to the library workers: a small pool (one per core, up to four) takes the files one at a time; parts,
+// failures and progress come back in file order whichever worker finished first, so a library reads the same
+// on any machine. A file whose reading outlasts its time limit (a parser stuck on a pathological file) is ended
+// by terminating its worker; the file is reported and that slot goes on with a fresh worker. A newer import
+// supersedes an older one: its replies are dropped.
 
 import type { LibraryPart, SamplingSettings } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
@@ -13,79 +14,116 @@ export interface ImportCallbacks {
   onProgress(done: number, total: number, file: string): void;
 }
 
-/** How long one file may take to read and sample: a base plus a share per MiB (common practice: generous,
- * so that only a reader that does not finish is stopped). */
-export function fileTimeLimitMs(bytes: number, limits: TimeLimits = DEFAULT_TIME_LIMITS): number {
-  return limits.baseMs + (limits.perMiBMs * bytes) / 2 ** 20;
-}
-
 export interface TimeLimits {
   readonly baseMs: number;
   readonly perMiBMs: number;
 }
 
-/** About 25× the time the readers take here on large files (12 MB/s measured in Chromium for OBJ). */
+/** About 25× the time the readers take here on large files (12 MB/s measured in Chromium for OBJ), plus a
+ * base for OpenCascade's slowest STEP files (common practice: generous, so only a reader that never finishes
+ * is stopped). */
 export const DEFAULT_TIME_LIMITS: TimeLimits = { baseMs: 30_000, perMiBMs: 2_000 };
 
-type Outcome = { kind: 'finished' } | { kind: 'timed-out' } | { kind: 'superseded' };
+/** How long one file may take to read and sample, from the moment its worker starts on it. */
+export function fileTimeLimitMs(bytes: number, limits: TimeLimits = DEFAULT_TIME_LIMITS): number {
+  return limits.baseMs + (limits.perMiBMs * bytes) / 2 ** 20;
+}
+
+type Outcome =
+  | { kind: 'finished'; part: LibraryPart | null; failure: ImportFailure | null }
+  | { kind: 'timed-out'; limitMs: number }
+  | { kind: 'superseded' };
+
+const MAX_WORKERS = 4;
 
 export class LibraryClient {
-  private worker: Worker | null = null;
+  private workers: (Worker | null)[];
   private nextId = 1;
   private current = 0;
   /** Each file's time limit (a test sets it low). */
   timeLimits: TimeLimits = DEFAULT_TIME_LIMITS;
 
-  private ensureWorker(): Worker {
-    if (!this.worker) this.worker = new Worker(new URL('../../worker/library.worker.ts', import.meta.url), { type: 'module' });
-    return this.worker;
+  constructor(workers = Math.max(1, Math.min(MAX_WORKERS, globalThis.navigator?.hardwareConcurrency ?? 1))) {
+    this.workers = new Array<Worker | null>(workers).fill(null);
+  }
+
+  get poolSize(): number {
+    return this.workers.length;
+  }
+
+  private worker(slot: number): Worker {
+    return (this.workers[slot] ??= new Worker(new URL('../../worker/library.worker.ts', import.meta.url), { type: 'module' }));
+  }
+
+  private endWorker(slot: number): void {
+    this.workers[slot]?.terminate();
+    this.workers[slot] = null;
   }
 
   async importFiles(files: FileInput[], sampling: SamplingSettings, callbacks: ImportCallbacks): Promise<number> {
     const batch = this.nextId++;
     this.current = batch;
     const t0 = performance.now();
-    for (let i = 0; i < files.length; i++) {
-      const file = files[i];
-      const limitMs = fileTimeLimitMs(file.buffer.byteLength, this.timeLimits);
-      const outcome = await this.importOne(file, sampling, limitMs, batch, callbacks);
-      if (outcome.kind === 'superseded') throw new Error('superseded');
-      if (outcome.kind === 'timed-out') {
-        callbacks.onFailure({ file: file.name, code: 'timed-out', reason: `reading took longer than ${limitMs < 10_000 ? (limitMs / 1000).toFixed(1) : Math.round(limitMs / 1000)} s and was stopped; the rest of the library carries on` });
+    const outcomes = new Array<Outcome | undefined>(files.length);
+    let next = 0, delivered = 0;
+    // Hand results on in file order as soon as the ones before them are in.
+    const deliver = () => {
+      while (delivered < files.length && outcomes[delivered] && this.current === batch) {
+        const o = outcomes[delivered]!;
+        const file = files[delivered];
+        if (o.kind === 'finished') {
+          if (o.part) callbacks.onPart(o.part);
+          if (o.failure) callbacks.onFailure(o.failure);
+        } else if (o.kind === 'timed-out') {
+          const s = o.limitMs < 10_000 ? (o.limitMs / 1000).toFixed(1) : String(Math.round(o.limitMs / 1000));
+          callbacks.onFailure({ file: file.name, code: 'timed-out', reason: `reading took longer than ${s} s and was stopped; the rest of the library carries on` });
+        }
+        delivered++;
+        callbacks.onProgress(delivered, files.length, file.name);
       }
-      callbacks.onProgress(i + 1, files.length, file.name);
-    }
+    };
+    const run = async (slot: number) => {
+      while (next < files.length && this.current === batch) {
+        const i = next++;
+        const limitMs = fileTimeLimitMs(files[i].buffer.byteLength, this.timeLimits);
+        outcomes[i] = await this.importOne(slot, files[i], sampling, limitMs, batch);
+        deliver();
+      }
+    };
+    await Promise.all(this.workers.slice(0, Math.max(1, Math.min(this.workers.length, files.length))).map((_, slot) => run(slot)));
+    if (this.current !== batch) throw new Error('superseded');
     return performance.now() - t0;
   }
 
-  private importOne(file: FileInput, sampling: SamplingSettings, limitMs: number, batch: number, callbacks: ImportCallbacks): Promise<Outcome> {
-    const worker = this.ensureWorker();
+  private importOne(slot: number, file: FileInput, sampling: SamplingSettings, limitMs: number, batch: number): Promise<Outcome> {
+    const worker = this.worker(slot);
     const id = this.nextId++;
     return new Promise((resolve, reject) => {
+      let timer: ReturnType<typeof setTimeout> | undefined;
+      let part: LibraryPart | null = null, failure: ImportFailure | null = null;
       const finish = (outcome: Outcome) => {
         clearTimeout(timer);
         worker.removeEventListener('message', onMessage);
         worker.removeEventListener('error', onError);
         resolve(outcome);
       };
-      let timer: ReturnType<typeof setTimeout> | undefined;
       const onMessage = (event: MessageEvent<LibraryReply>) => {
         const msg = event.data;
         if (msg.id !== id) return;
         if (this.current !== batch) { finish({ kind: 'superseded' }); return; }
         if (msg.type === 'reading') {
           timer = setTimeout(() => {
-            // The worker is busy inside a parser and cannot be interrupted: end it; the next file gets a new one.
-            this.dispose();
-            finish({ kind: 'timed-out' });
+            // The worker is busy inside a parser and cannot be interrupted: end it; the slot gets a new one.
+            this.endWorker(slot);
+            finish({ kind: 'timed-out', limitMs });
           }, limitMs);
-        } else if (msg.type === 'part') callbacks.onPart(msg.part);
-        else if (msg.type === 'failed') callbacks.onFailure(msg.failure);
-        else if (msg.type === 'done') finish({ kind: 'finished' });
+        } else if (msg.type === 'part') part = msg.part;
+        else if (msg.type === 'failed') failure = msg.failure;
+        else if (msg.type === 'done') finish({ kind: 'finished', part, failure });
       };
       const onError = (e: ErrorEvent) => {
         clearTimeout(timer);
-        this.dispose();
+        this.endWorker(slot);
         reject(new Error(`library worker: ${e.message}`));
       };
       worker.addEventListener('message', onMessage);
@@ -95,7 +133,6 @@ export class LibraryClient {
   }
 
   dispose(): void {
-    this.worker?.terminate();
-    this.worker = null;
+    for (let slot = 0; slot < this.workers.length; slot++) this.endWorker(slot);
   }
 }
