@@ -12,6 +12,7 @@ import { MeshImportError } from '../core/mesh/types';
 import { POOL_POINTS } from '../core/model/defaults';
 import { Progress } from './progress';
 import { CliError } from './errors';
+import { parseCsv } from '../core/csv';
 
 export interface LoadedLibrary {
   readonly root: string;
@@ -40,14 +41,14 @@ export function listFiles(root: string): string[] {
 export function readLabelsCsv(root: string): Map<string, string> | null {
   const path = join(root, 'labels.csv');
   if (!existsSync(path)) return null;
-  const rows = readFileSync(path, 'utf8').split(/\r?\n/).filter((l) => l.trim());
-  const head = rows[0].split(',').map((h) => h.trim().toLowerCase());
+  const rows = parseCsv(readFileSync(path, 'utf8'));
+  if (rows.length === 0) return null;
+  const head = rows[0].map((h) => h.trim().toLowerCase());
   const fi = head.indexOf('file');
   const li = head.indexOf('family') >= 0 ? head.indexOf('family') : head.indexOf('label');
   if (fi < 0 || li < 0) return null;
   const map = new Map<string, string>();
-  for (const row of rows.slice(1)) {
-    const cols = row.split(',');
+  for (const cols of rows.slice(1)) {
     if (cols[fi] && cols[li]) map.set(cols[fi].trim().split('\\').join('/'), cols[li].trim());
   }
   return map;
