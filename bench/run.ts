@@ -8,6 +8,7 @@ const sections: Record<string, () => void | Promise<void>> = {
   points: benchPoints,
   retrieval: benchRetrieval,
   model: async () => (await import('./model')).benchModel(),
+  cad: async () => (await import('./cad')).benchCad(),
 };
 const wanted = process.argv.slice(2);
 console.log(`Shapekin benchmarks — node ${process.version}, ${new Date().toISOString()}`);
