@@ -3,7 +3,7 @@
 // (2.54 mm; KiCad's convention, common practice, no published source). 22 pairs from Debian's
 // kicad-packages3d (CC-BY-SA 4.0 with the KiCad library exception; test/fixtures/kicad/SOURCES.md).
 
-import { readdirSync } from 'node:fs';
+import { readdirSync, readFileSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { initBackend } from '../../../src/core/model/backend';
@@ -17,6 +17,7 @@ import { untrainedEncoders } from '../../../src/core/retrieval/evaluate';
 import { cosineSimilarity } from '../../../src/core/retrieval/metrics';
 import { fixture, textBuffer } from '../../meshes';
 import { RAW_JS } from './reasons';
+import { expectClose } from '../../helpers';
 
 const DIR = fileURLToPath(new URL('../../fixtures/kicad/', import.meta.url));
 const NAMES = readdirSync(DIR).filter((f) => f.endsWith('.step')).map((f) => f.slice(0, -5)).sort();
@@ -65,6 +66,25 @@ describe(`the same ${NAMES.length} KiCad components as STEP and as VRML`, () => 
     });
     expect(missed).toEqual([]);
   }, 120_000);
+});
+
+describe('files that ship with occt-import-js (its test folder, installed with the package)', () => {
+  const dir = fileURLToPath(new URL('../../../node_modules/occt-import-js/test/testfiles/', import.meta.url));
+  const read = (path: string) => { const b = readFileSync(dir + path); return importMesh(b.buffer.slice(b.byteOffset, b.byteOffset + b.length) as ArrayBuffer, path); };
+  it('the same 10 mm cube as IGES, STEP and STL: 10 mm across, volume 1000 mm³, closed, in all three', () => {
+    for (const f of ['cube-10x10mm/Cube 10x10.igs', 'cube-10x10mm/Cube 10x10.stp', 'cube-10x10mm/Cube 10x10.stl']) {
+      const part = read(f);
+      expect(part.info.closed, f).toBe(true);
+      expectClose(part.info.extents, [10, 10, 10], { rtol: 1e-6 });
+      expectClose(part.info.volume!, 1000, { rtol: 1e-6 });
+    }
+    expect(read('cube-10x10mm/Cube 10x10.igs').info.format).toBe('iges');
+  });
+  it('a 1 m cube saved with metre, millimetre and inch units reads 1000 mm across in every file (the package\'s own expectation)', () => {
+    for (const f of ['cube-units/cube-m.step', 'cube-units/cube-mm.step', 'cube-units/cube-in.step']) {
+      expectClose(read(f).info.extents, [1000, 1000, 1000], { rtol: 1e-6 });
+    }
+  });
 });
 
 describe('CAD files that cannot be read', () => {
