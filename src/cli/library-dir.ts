@@ -12,6 +12,7 @@ import { MeshImportError } from '../core/mesh/types';
 import { POOL_POINTS } from '../core/model/defaults';
 import { Progress } from './progress';
 import { CliError } from './errors';
+import { importInThreads } from './import-pool';
 import { parseCsv } from '../core/csv';
 
 export interface LoadedLibrary {
@@ -54,28 +55,39 @@ export function readLabelsCsv(root: string): Map<string, string> | null {
   return map;
 }
 
-export async function loadLibrary(root: string, options: { quiet?: boolean; seed?: number; points?: number; maxBytes?: number } = {}): Promise<LoadedLibrary> {
+/** Below this many files the pool's start-up (a thread loads the readers) costs more than it saves. */
+const POOL_MIN_FILES = 16;
+
+export async function loadLibrary(root: string, options: { quiet?: boolean; seed?: number; points?: number; maxBytes?: number; threads?: number } = {}): Promise<LoadedLibrary> {
   const files = listFiles(root);
   if (files.length === 0) throw new CliError(`no part files (${FORMAT_NAMES}) under ${root}`);
   const csv = readLabelsCsv(root);
   const progress = new Progress('reading', files.length, options.quiet);
+  const sampling = { points: options.points ?? POOL_POINTS, seed: options.seed ?? 0 };
+  const cap = options.maxBytes ?? DEFAULT_MAX_BYTES;
+  const named = files.map((path) => ({ path, name: relative(root, path).split(sep).join('/'), bytes: statSync(path).size }));
   const parts: LibraryPart[] = [];
   const failures: ImportFailure[] = [];
-  for (const [i, path] of files.entries()) {
-    const name = relative(root, path).split(sep).join('/');
-    try {
-      // The size cap is checked before the file is read, so a huge file costs no memory.
-      const size = statSync(path).size;
-      const cap = options.maxBytes ?? DEFAULT_MAX_BYTES;
-      if (size > cap) throw new MeshImportError(name, 'too-large', `the file is ${size} bytes, over the ${cap}-byte limit (raise it with --max-file-mb)`);
-      if (needsCadReader(name)) await loadCadReader(); // loaded once; again only after it trapped
-      const bytes = readFileSync(path);
-      const buffer = bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer;
-      parts.push(loadPart(buffer, name, { points: options.points ?? POOL_POINTS, seed: options.seed ?? 0 }, options.maxBytes));
-    } catch (err) {
-      failures.push(failureOf(name, err));
+  const threads = options.threads ?? 1;
+  if (threads > 1 && files.length >= POOL_MIN_FILES) {
+    await importInThreads(named, { threads, sampling, maxBytes: cap }, (i, r) => {
+      if (r.kind === 'part') parts.push(r.part);
+      else failures.push(r.failure);
+      progress.update(i + 1, named[i].name);
+    });
+  } else {
+    for (const [i, { path, name, bytes }] of named.entries()) {
+      try {
+        // The size cap is checked before the file is read, so a huge file costs no memory.
+        if (bytes > cap) throw new MeshImportError(name, 'too-large', `the file is ${bytes} bytes, over the ${cap}-byte limit (raise it with --max-file-mb)`);
+        if (needsCadReader(name)) await loadCadReader(); // loaded once; again only after it trapped
+        const b = readFileSync(path);
+        parts.push(loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer, name, sampling, cap));
+      } catch (err) {
+        failures.push(failureOf(name, err));
+      }
+      progress.update(i + 1, name);
     }
-    progress.update(i + 1, name);
   }
   progress.done();
   const labels = parts.map((p) => csv?.get(p.name) ?? labelFromPath(p.name));

@@ -2,6 +2,7 @@
 
 import { writeFileSync } from 'node:fs';
 import { extname, relative, sep } from 'node:path';
+import { availableParallelism } from 'node:os';
 import { parseArgs } from 'node:util';
 import { initBackend } from '../core/model/backend';
 import { encodersFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
@@ -27,6 +28,7 @@ import { MeshImportError, type MeshInfo } from '../core/mesh/types';
 import { readFileSync, existsSync, statSync } from 'node:fs';
 import { CliError } from './errors';
 import { listFiles, loadLibrary, reportFailures, type LoadedLibrary } from './library-dir';
+import { importInThreads } from './import-pool';
 import { duration, Progress, setProgressMode } from './progress';
 import { loadRun, saveRun } from './run-dir';
 
@@ -54,6 +56,7 @@ usage:
 
 every command: [--json] one JSON document on stdout and nothing else there (bad files under "failures")
                [--progress bar|json|none] progress on stderr: a bar on a terminal (default), JSON lines, or none
+               [--threads N] read and sample files on N threads (default: one per core)
                [--max-file-mb N] refuse files larger than N MiB (default ${DEFAULT_MAX_BYTES / 2 ** 20})
                [--units mm|cm|m|inch|<factor>] what one unit of files without units (STL, OBJ, PLY, OFF, VRML, point
                lists) measures; sizes are then shown in mm (STEP and IGES are always mm)
@@ -66,7 +69,7 @@ const OPTIONS = {
   batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' }, 'class-prior': { type: 'string' },
   k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, order: { type: 'string' }, threshold: { type: 'string' },
   json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
-  backend: { type: 'string' }, progress: { type: 'string' }, 'max-file-mb': { type: 'string' }, units: { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, neighbours: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
+  backend: { type: 'string' }, progress: { type: 'string' }, 'max-file-mb': { type: 'string' }, threads: { type: 'string' }, units: { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, neighbours: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
 } as const;
 
 type Values = { [K in keyof typeof OPTIONS]?: (typeof OPTIONS)[K]['type'] extends 'boolean' ? boolean : string };
@@ -85,6 +88,9 @@ function num(values: Values, key: keyof Values, fallback: number, integer = true
 
 /** The JSON list of files that could not be read, for every --json document. */
 const failuresJson = (library: LoadedLibrary) => library.failures.map((f) => ({ file: f.file, reason: f.reason }));
+
+/** Import threads (--threads; default one per core). */
+const threads = (values: Values): number => num(values, 'threads', availableParallelism(), true, 1, 64);
 
 /** The per-file size cap the user set (--max-file-mb), in bytes. */
 const maxBytes = (values: Values): number => Math.floor(num(values, 'max-file-mb', DEFAULT_MAX_BYTES / 2 ** 20, false, 0.001) * 2 ** 20);
@@ -135,7 +141,7 @@ async function train(lib: string, values: Values): Promise<void> {
   const pipeline = values.augment ? pipelineFrom(values.augment) : null;
   maxBytes(values);
   const backend = await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
-  const library = await loadLibrary(lib, { maxBytes: maxBytes(values), points: POOL_POINTS });
+  const library = await loadLibrary(lib, { maxBytes: maxBytes(values), threads: threads(values), points: POOL_POINTS });
   reportFailures(library.failures, Boolean(values.json));
   const traits = libraryTraits(library.parts);
   const closed = traits.closed;
@@ -214,7 +220,7 @@ async function embed(lib: string, values: Values): Promise<void> {
   const ext = extname(out).toLowerCase();
   if (!['.csv', '.json', '.npy'].includes(ext)) throw new CliError(`--out must end in .csv, .json or .npy, got "${out}"`, 2);
   await withModel(values, 'embed', async (enc, ckpt) => {
-    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
+    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), threads: threads(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
     reportFailures(library.failures, Boolean(values.json));
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), ckpt.manifest.config.points, ckpt.manifest.config.pose);
     const D = vectors.length / library.parts.length;
@@ -250,7 +256,7 @@ async function query(file: string, values: Values): Promise<void> {
     } catch (err) {
       throw new CliError((err as Error).message);
     }
-    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
+    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), threads: threads(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
     reportFailures(library.failures, Boolean(values.json));
     const points = ckpt.manifest.config.points;
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), points, ckpt.manifest.config.pose);
@@ -283,7 +289,7 @@ async function evaluate(lib: string, values: Values): Promise<void> {
   await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
   const ckpt = values.model ? await loadRun(values.model) : null;
   const sampling = ckpt?.manifest.sampling ?? { points: POOL_POINTS, seed: 0 };
-  const library = await loadLibrary(lib, { maxBytes: maxBytes(values), ...sampling });
+  const library = await loadLibrary(lib, { maxBytes: maxBytes(values), threads: threads(values), ...sampling });
   reportFailures(library.failures, Boolean(values.json));
   const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
   const config = ckpt?.manifest.config ?? defaultTrainFor(libraryTraits(library.parts));
@@ -299,7 +305,7 @@ async function evaluate(lib: string, values: Values): Promise<void> {
 
 async function study(lib: string, values: Values): Promise<void> {
   await withModel(values, 'study', async (enc, ckpt) => {
-    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), ...ckpt.manifest.sampling });
+    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), threads: threads(values), ...ckpt.manifest.sampling });
     reportFailures(library.failures, Boolean(values.json));
     const kinds = values.augmentations ? values.augmentations.split(',').map((k) => k.trim()) : undefined;
     for (const k of kinds ?? []) if (!(AUGMENT_KINDS as readonly string[]).includes(k)) throw new CliError(`--augmentations: unknown "${k}" (one of ${AUGMENT_KINDS.join(', ')})`, 2);
@@ -347,22 +353,33 @@ async function inspect(target: string, values: Values): Promise<void> {
   const files = single ? [target] : listFiles(target);
   if (files.length === 0) throw new CliError(`no part files (${FORMAT_NAMES}) under ${target}`);
   const progress = new Progress('inspecting', files.length);
-  const rows: ({ file: string; format: string; bodies: number | null; triangles: number; closed: boolean; size: number[]; units: string } | { file: string; error: string })[] = [];
+  type Row = { file: string; format: string; bodies: number | null; triangles: number; closed: boolean; size: number[]; units: string } | { file: string; error: string };
+  const rows: Row[] = [];
+  const rowOf = (name: string, info: MeshInfo): Row => {
+    const s = sizeOf(info, mmPerUnit);
+    return { file: name, format: info.format, bodies: info.bodies, triangles: info.triangleCount, closed: info.closed, size: s.size, units: s.units };
+  };
   const t0 = performance.now();
-  for (const [i, path] of files.entries()) {
-    const name = single ? path : relative(target, path).split(sep).join('/');
-    try {
-      const bytes = statSync(path).size;
-      if (bytes > cap) throw new MeshImportError(name, 'too-large', `the file is ${bytes} bytes, over the ${cap}-byte limit (raise it with --max-file-mb)`);
-      if (needsCadReader(path)) await loadCadReader();
-      const b = readFileSync(path);
-      const m = importMesh(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer, name, { maxBytes: cap });
-      const s = sizeOf(m.info, mmPerUnit);
-      rows.push({ file: name, format: m.info.format, bodies: m.info.bodies, triangles: m.info.triangleCount, closed: m.info.closed, size: s.size, units: s.units });
-    } catch (err) {
-      rows.push({ file: name, error: failureOf(name, err).reason });
+  const named = files.map((path) => ({ path, name: single ? path : relative(target, path).split(sep).join('/'), bytes: statSync(path).size }));
+  const pool = threads(values);
+  if (pool > 1 && files.length >= 16) {
+    // The threads also sample each part (as a library import does): a little more work, the same measurements.
+    await importInThreads(named, { threads: pool, sampling: { points: 64, seed: 0 }, maxBytes: cap }, (i, r) => {
+      rows.push(r.kind === 'part' ? rowOf(named[i].name, r.part.info) : { file: named[i].name, error: r.failure.reason });
+      progress.update(i + 1, named[i].name);
+    });
+  } else {
+    for (const [i, { path, name, bytes }] of named.entries()) {
+      try {
+        if (bytes > cap) throw new MeshImportError(name, 'too-large', `the file is ${bytes} bytes, over the ${cap}-byte limit (raise it with --max-file-mb)`);
+        if (needsCadReader(path)) await loadCadReader();
+        const b = readFileSync(path);
+        rows.push(rowOf(name, importMesh(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer, name, { maxBytes: cap }).info));
+      } catch (err) {
+        rows.push({ file: name, error: failureOf(name, err).reason });
+      }
+      progress.update(i + 1, name);
     }
-    progress.update(i + 1, name);
   }
   progress.done();
   const seconds = (performance.now() - t0) / 1000;
@@ -378,7 +395,7 @@ async function inspect(target: string, values: Values): Promise<void> {
 async function duplicates(lib: string, values: Values): Promise<void> {
   const threshold = num(values, 'threshold', 0.97, false, -1, 1);
   await withModel(values, 'duplicates', async (enc, ckpt) => {
-    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), ...ckpt.manifest.sampling });
+    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), threads: threads(values), ...ckpt.manifest.sampling });
     reportFailures(library.failures, Boolean(values.json));
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), ckpt.manifest.config.points, ckpt.manifest.config.pose);
     const D = vectors.length / library.parts.length;

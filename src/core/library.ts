@@ -63,3 +63,8 @@ export function failureOf(name: string, err: unknown): ImportFailure {
   if (err instanceof MeshImportError) return { file: err.file, code: err.code, reason: err.reason };
   return { file: name, code: 'parse-failed', reason: String((err as Error)?.message ?? err) };
 }
+
+/** The typed arrays of a part, to move (not copy) to another thread. */
+export function partTransfers(part: LibraryPart): ArrayBuffer[] {
+  return [part.points.buffer, part.normals.buffer, part.meshPositions.buffer, part.meshIndices.buffer] as ArrayBuffer[];
+}

@@ -29,10 +29,7 @@ export type LibraryReply =
   | { readonly type: 'failed'; readonly id: number; readonly failure: ImportFailure }
   | { readonly type: 'done'; readonly id: number; readonly ms: number };
 
-/** The typed arrays of a part, to move (not copy) across the boundary. */
-export function partTransfers(part: LibraryPart): ArrayBuffer[] {
-  return [part.points.buffer, part.normals.buffer, part.meshPositions.buffer, part.meshIndices.buffer] as ArrayBuffer[];
-}
+export { partTransfers } from '../core/library';
 
 // ---- training worker ----
 

@@ -307,3 +307,14 @@ describe('shapekin inspect', () => {
     expect(await main(['inspect', dir, '--units', 'furlong'])).toBe(2);
   }, 60_000);
 });
+
+describe('import threads', () => {
+  it('a library read on two threads embeds to the same bytes as on one', async () => {
+    const one = join(run, 'threads-1.npy'), two = join(run, 'threads-2.npy');
+    capture();
+    expect(await main(['embed', DEMO, '--model', run, '--out', one, '--threads', '1'])).toBe(0);
+    expect(await main(['embed', DEMO, '--model', run, '--out', two, '--threads', '2'])).toBe(0);
+    expect(Buffer.compare(readFileSync(one), readFileSync(two))).toBe(0);
+    expect(await main(['embed', DEMO, '--model', run, '--out', two, '--threads', '0'])).toBe(2);
+  }, 120_000);
+});
