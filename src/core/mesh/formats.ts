@@ -1,5 +1,5 @@
 // The one list of file formats Shapekin reads: every picker, drop zone, folder walk, message and the
-// command line's help read it from here.
+// command line's help read it from here. (Each reader sets the units it reports: see `MeshInfo.units`.)
 
 export type FormatId = 'stl' | 'obj' | 'ply' | 'off' | 'points' | 'step' | 'iges' | 'vrml' | 'gltf' | '3mf';
 
@@ -12,22 +12,19 @@ export interface FileFormat {
   readonly text: boolean;
   /** CAD formats (B-rep) are tessellated by OpenCascade, loaded on first use. */
   readonly cad: boolean;
-  /** What the file's numbers measure: millimetres when the format says so (3MF and glTF are converted from
-   * their stated unit and metres), else the file's own units. */
-  readonly units: 'mm' | 'file';
 }
 
 export const FORMATS: readonly FileFormat[] = [
-  { id: 'step', label: 'STEP', extensions: ['step', 'stp'], text: false, cad: true, units: 'mm' },
-  { id: 'iges', label: 'IGES', extensions: ['iges', 'igs'], text: false, cad: true, units: 'mm' },
-  { id: '3mf', label: '3MF', extensions: ['3mf'], text: false, cad: false, units: 'mm' },
-  { id: 'gltf', label: 'glTF', extensions: ['gltf', 'glb'], text: false, cad: false, units: 'mm' },
-  { id: 'stl', label: 'STL', extensions: ['stl'], text: false, cad: false, units: 'file' },
-  { id: 'obj', label: 'OBJ', extensions: ['obj'], text: true, cad: false, units: 'file' },
-  { id: 'ply', label: 'PLY', extensions: ['ply'], text: false, cad: false, units: 'file' },
-  { id: 'off', label: 'OFF', extensions: ['off'], text: true, cad: false, units: 'file' },
-  { id: 'vrml', label: 'VRML', extensions: ['wrl', 'vrml'], text: true, cad: false, units: 'file' },
-  { id: 'points', label: 'XYZ/CSV point lists', extensions: ['xyz', 'csv', 'pts', 'txt'], text: true, cad: false, units: 'file' },
+  { id: 'step', label: 'STEP', extensions: ['step', 'stp'], text: false, cad: true },
+  { id: 'iges', label: 'IGES', extensions: ['iges', 'igs'], text: false, cad: true },
+  { id: '3mf', label: '3MF', extensions: ['3mf'], text: false, cad: false },
+  { id: 'gltf', label: 'glTF', extensions: ['gltf', 'glb'], text: false, cad: false },
+  { id: 'stl', label: 'STL', extensions: ['stl'], text: false, cad: false },
+  { id: 'obj', label: 'OBJ', extensions: ['obj'], text: true, cad: false },
+  { id: 'ply', label: 'PLY', extensions: ['ply'], text: false, cad: false },
+  { id: 'off', label: 'OFF', extensions: ['off'], text: true, cad: false },
+  { id: 'vrml', label: 'VRML', extensions: ['wrl', 'vrml'], text: true, cad: false },
+  { id: 'points', label: 'XYZ/CSV point lists', extensions: ['xyz', 'csv', 'pts', 'txt'], text: true, cad: false },
 ];
 
 const BY_EXTENSION = new Map(FORMATS.flatMap((f) => f.extensions.map((e) => [e, f] as const)));

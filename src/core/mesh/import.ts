@@ -56,7 +56,7 @@ export function importMesh(buffer: ArrayBuffer, file: string, options: ImportOpt
     if (format.id === 'gltf') return parseGltf(buffer, file);
     if (format.id === '3mf') return parse3mf(buffer, file);
     if (format.id === 'ply') return parsePly(buffer, file);
-    if (!looksLikeText(new Uint8Array(buffer))) {
+    if (format.text && !looksLikeText(new Uint8Array(buffer))) {
       throw new MeshImportError(file, 'unrecognised', `${format.label} files are text, but this one holds binary data`);
     }
     const text = decodeText(buffer);
