@@ -5,14 +5,13 @@ import { readFileSync, readdirSync, statSync, existsSync } from 'node:fs';
 import { join, relative, sep } from 'node:path';
 import { failureOf, labelFromPath, loadPart, type LibraryPart } from '../core/library';
 import type { ImportFailure } from '../core/mesh/import';
-import { DEFAULT_MAX_BYTES, isSupportedFile, needsCadReader } from '../core/mesh/import';
-import { loadCadReader } from '../core/mesh/occt';
+import { DEFAULT_MAX_BYTES, isSupportedFile } from '../core/mesh/import';
 import { FORMAT_NAMES } from '../core/mesh/formats';
-import { MeshImportError } from '../core/mesh/types';
 import { POOL_POINTS } from '../core/model/defaults';
 import { Progress } from './progress';
 import { CliError } from './errors';
 import { importInThreads } from './import-pool';
+import { prepareToRead, readBytes } from './read-file';
 import { parseCsv } from '../core/csv';
 
 export interface LoadedLibrary {
@@ -76,13 +75,10 @@ export async function loadLibrary(root: string, options: { quiet?: boolean; seed
       progress.update(i + 1, named[i].name);
     });
   } else {
-    for (const [i, { path, name, bytes }] of named.entries()) {
+    for (const [i, { path, name }] of named.entries()) {
       try {
-        // The size cap is checked before the file is read, so a huge file costs no memory.
-        if (bytes > cap) throw new MeshImportError(name, 'too-large', `the file is ${bytes} bytes, over the ${cap}-byte limit (raise it with --max-file-mb)`);
-        if (needsCadReader(name)) await loadCadReader(); // loaded once; again only after it trapped
-        const b = readFileSync(path);
-        parts.push(loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer, name, sampling, cap));
+        await prepareToRead(path, name, cap);
+        parts.push(loadPart(readBytes(path), name, sampling, cap));
       } catch (err) {
         failures.push(failureOf(name, err));
       }

@@ -21,14 +21,14 @@ import { cosineSimilarity } from '../core/retrieval/metrics';
 import { writeNpyFloat32 } from '../core/retrieval/npy';
 import { runStudy } from '../core/retrieval/study';
 import { failureOf, loadPart, type LibraryPart } from '../core/library';
-import { DEFAULT_MAX_BYTES, importMesh, needsCadReader } from '../core/mesh/import';
+import { DEFAULT_MAX_BYTES, importMesh } from '../core/mesh/import';
 import { FORMAT_NAMES } from '../core/mesh/formats';
-import { loadCadReader } from '../core/mesh/occt';
-import { MeshImportError, type MeshInfo } from '../core/mesh/types';
+import type { MeshInfo } from '../core/mesh/types';
 import { readFileSync, existsSync, statSync } from 'node:fs';
 import { CliError } from './errors';
 import { listFiles, loadLibrary, reportFailures, type LoadedLibrary } from './library-dir';
 import { importInThreads } from './import-pool';
+import { prepareToRead, readBytes } from './read-file';
 import { duration, Progress, setProgressMode } from './progress';
 import { loadRun, saveRun } from './run-dir';
 
@@ -249,10 +249,10 @@ async function query(file: string, values: Values): Promise<void> {
   const ranking = (values.order ?? 'diffusion') as Ranking;
   if (ranking !== 'diffusion' && ranking !== 'cosine') throw new CliError(`--order must be diffusion or cosine, got "${values.order}"`, 2);
   await withModel(values, 'query', async (enc, ckpt) => {
-    const bytes = readFileSync(file);
     let q: LibraryPart;
     try {
-      q = loadPart(bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer, file, ckpt.manifest.sampling, maxBytes(values));
+      await prepareToRead(file, file, maxBytes(values));
+      q = loadPart(readBytes(file), file, ckpt.manifest.sampling, maxBytes(values));
     } catch (err) {
       throw new CliError((err as Error).message);
     }
@@ -369,12 +369,10 @@ async function inspect(target: string, values: Values): Promise<void> {
       progress.update(i + 1, named[i].name);
     });
   } else {
-    for (const [i, { path, name, bytes }] of named.entries()) {
+    for (const [i, { path, name }] of named.entries()) {
       try {
-        if (bytes > cap) throw new MeshImportError(name, 'too-large', `the file is ${bytes} bytes, over the ${cap}-byte limit (raise it with --max-file-mb)`);
-        if (needsCadReader(path)) await loadCadReader();
-        const b = readFileSync(path);
-        rows.push(rowOf(name, importMesh(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer, name, { maxBytes: cap }).info));
+        await prepareToRead(path, name, cap);
+        rows.push(rowOf(name, importMesh(readBytes(path), name, { maxBytes: cap }).info));
       } catch (err) {
         rows.push({ file: name, error: failureOf(name, err).reason });
       }

@@ -281,6 +281,17 @@ describe('training saves early and says what --resume found', () => {
 });
 
 
+describe('a CAD file as the query', () => {
+  // First in this file to read a CAD file, so it also checks that query loads OpenCascade itself.
+  it('a STEP file can be the query (OpenCascade is loaded for it), its size shown in mm', async () => {
+    capture();
+    expect(await main(['query', 'test/fixtures/kicad/Battery_CR1225.step', '--model', run, '--library', DEMO, '-k', '3', '--json'])).toBe(0);
+    const r = JSON.parse(out[0]);
+    expect(r.query_units).toBe('mm');
+    expect(r.results.length).toBe(3);
+  }, 120_000);
+});
+
 describe('shapekin inspect', () => {
   it('lists format, bodies, triangles, closedness and size with units, or the reason, as one JSON array', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'shapekin-inspect-'));
