@@ -2,9 +2,10 @@
 // reference configuration (B = 32 pairs, N = 512, widths 64-128-256, projection 256-128, NT-Xent, Adam).
 
 import { initBackend, type BackendName } from '../src/core/model/backend';
-import { DEFAULT_ENCODER, Encoder } from '../src/core/model/encoder';
+import { DEFAULT_ENCODER } from '../src/core/model/encoder-config';
+import { Encoder } from '../src/core/model/encoder';
 import { embedForRetrieval, embedParts, RETRIEVAL_RESAMPLINGS } from '../src/core/model/embed';
-import { REFERENCE_ENCODER, stepFlops, timeStep } from '../src/core/model/speed';
+import { REFERENCE_ENCODER, stepFlops, timeStep } from './speed';
 import { createRng } from '../src/core/rng';
 import { fmt, report } from './timing';
 

@@ -5,9 +5,9 @@
 import { execFileSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { initBackend } from '../src/core/model/backend';
-import { REFERENCE_ENCODER, timeStep } from '../src/core/model/speed';
+import { REFERENCE_ENCODER, timeStep } from './speed';
 import { chromiumAvailable, launch } from '../test/browser/chromium';
-import { startPreview } from '../test/browser/server';
+import { build, preview } from 'vite';
 import { fmt, report } from './timing';
 
 const python = '/usr/bin/python3';
@@ -25,12 +25,16 @@ const node = timeStep(REFERENCE_ENCODER, 32, 512, 9);
 
 let browser: { msPerStep: number; backend: string } | null = null;
 if (chromiumAvailable()) {
-  if (!existsSync('dist/index.html')) execFileSync('npx', ['vite', 'build'], { stdio: 'ignore' });
-  const server = await startPreview();
+  // The benchmark page is built on its own (bench/browser), production-minified like the workbench.
+  const configFile = 'bench/browser/vite.config.ts';
+  await build({ configFile });
+  const server = await preview({ configFile });
+  const url = server.resolvedUrls?.local[0];
   const ctx = await launch();
   try {
+    if (!url) throw new Error('the preview server reported no URL');
     const page = await ctx.newPage();
-    await page.goto(`${server.url}?bench`);
+    await page.goto(`${url}step.html`);
     browser = await page.evaluate(() => (window as unknown as { shapekinBenchStep: (r: number) => Promise<{ msPerStep: number; backend: string }> }).shapekinBenchStep(9));
   } finally {
     await ctx.close();

@@ -7,7 +7,7 @@ import { readFileSync, readdirSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { loadPart } from '../src/core/library';
-import type { ModelPart } from '../src/core/model/embed';
+import type { ModelPart } from '../src/core/model/views';
 
 export function fixture(relative: string): ArrayBuffer {
   const bytes = readFileSync(fileURLToPath(new URL(`./fixtures/${relative}`, import.meta.url)));

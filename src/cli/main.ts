@@ -7,19 +7,22 @@ import { parseArgs } from 'node:util';
 import { initBackend } from '../core/model/backend';
 import { encodersFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
 import { DEFAULT_TRAIN, POOL_POINTS, defaultTrainFor, inputsReason, libraryTraits, poseReason } from '../core/model/defaults';
-import { disposeEncoders, embedForRetrieval, POSE_LABELS, POSES, type Encoders, type ModelPart } from '../core/model/embed';
-import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../core/model/encoder';
-import { DEFAULT_CLASS_PRIOR, LOSS_NAMES, type LossName } from '../core/model/losses';
-import { Trainer, type TrainConfig } from '../core/model/train';
+import { disposeEncoders, embedForRetrieval, type Encoders } from '../core/model/embed';
+import { POSE_LABELS, POSES } from '../core/model/train-config';
+import { type ModelPart } from '../core/model/views';
+import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../core/model/encoder-config';
+import { LOSS_NAMES, type LossName } from '../core/model/losses/names';
+import { Trainer } from '../core/model/trainer';
+import { type TrainConfig } from '../core/model/train-config';
 import { AUGMENT_KINDS, pipelineFromJson, PRESETS, type AugmentKind, type Pipeline } from '../core/points/augment';
 import { duplicateGroups } from '../core/retrieval/duplicates';
-import { evaluateMethods, untrainedEncoders } from '../core/retrieval/evaluate';
+import { evaluateMethods, untrainedEncoders } from '../core/quality/evaluate';
 import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
 import { TensorIndex } from '../core/retrieval/tensor-index';
 import type { Ranking } from '../core/retrieval/index';
 import { cosineSimilarity } from '../core/retrieval/metrics';
 import { writeNpyFloat32 } from '../core/retrieval/npy';
-import { runStudy } from '../core/retrieval/study';
+import { runStudy } from '../core/quality/study';
 import { failureOf, loadPart, type LibraryPart } from '../core/library';
 import { DEFAULT_MAX_BYTES, importMesh } from '../core/mesh/import';
 import { FORMAT_NAMES } from '../core/mesh/formats';
@@ -39,7 +42,7 @@ const USAGE = `shapekin — find parts that look like a given part
 usage:
   shapekin train <library-dir> --out <run-dir> [--epochs N] [--seed S] [--points N] [--augment <preset|file.json>]
                  (default epochs: 160, fewer on a large library so that training stays near 640 steps)
-                 [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--class-prior P] [--resume]
+                 [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--resume]
                  [--inputs ${INPUT_FEATURES.join('|')}]   (default: normals only if most meshes are closed)
                  [--neighbours K]   (a first layer over each point's K nearest neighbours, EdgeConv; 0: off)
                  [--pose principal-axes|file-axes|as-is|file-and-principal]
@@ -66,7 +69,7 @@ presets for --augment: ${Object.keys(PRESETS).join(', ')}
 const OPTIONS = {
   out: { type: 'string' }, model: { type: 'string' }, library: { type: 'string' },
   epochs: { type: 'string' }, seed: { type: 'string' }, points: { type: 'string' }, augment: { type: 'string' },
-  batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' }, 'class-prior': { type: 'string' },
+  batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' },
   k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, order: { type: 'string' }, threshold: { type: 'string' },
   json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
   backend: { type: 'string' }, progress: { type: 'string' }, 'max-file-mb': { type: 'string' }, threads: { type: 'string' }, units: { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, neighbours: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
@@ -123,15 +126,14 @@ function notice(values: Values, text: string): void {
 const asModelParts = (parts: readonly LibraryPart[]): ModelPart[] => parts.map((p) => ({ points: p.points, normals: p.normals }));
 
 /** train's numeric options: whole or not, and the range each must lie in. */
-const TRAIN_NUMBERS: Record<'epochs' | 'seed' | 'points' | 'batch' | 'lr' | 'temperature' | 'class-prior' | 'neighbours', [integer: boolean, min: number, max: number]> = {
+const TRAIN_NUMBERS: Record<'epochs' | 'seed' | 'points' | 'batch' | 'lr' | 'temperature' | 'neighbours', [integer: boolean, min: number, max: number]> = {
   epochs: [true, 1, Infinity], seed: [true, -Infinity, Infinity], points: [true, 16, POOL_POINTS], batch: [true, 2, Infinity],
-  lr: [false, 1e-9, 1], temperature: [false, 1e-3, 100], 'class-prior': [false, 0, 0.999], neighbours: [true, 0, 64],
+  lr: [false, 1e-9, 1], temperature: [false, 1e-3, 100], neighbours: [true, 0, 64],
 };
 
 async function train(lib: string, values: Values): Promise<void> {
   const out = need(values, 'out', 'train');
   const loss = (values.loss ?? DEFAULT_TRAIN.loss.name) as LossName;
-  if (values['class-prior'] !== undefined && loss !== 'debiased-nt-xent') throw new CliError('--class-prior applies only to --loss debiased-nt-xent', 2);
   if (!LOSS_NAMES.includes(loss)) throw new CliError(`--loss must be one of ${LOSS_NAMES.join(', ')}, got "${loss}"`, 2);
   // Every option is checked before the library is read, so a typo costs no wait.
   const trainNum = (key: keyof typeof TRAIN_NUMBERS, fallback: number) => num(values, key, fallback, ...TRAIN_NUMBERS[key]);
@@ -159,7 +161,7 @@ async function train(lib: string, values: Values): Promise<void> {
     points: trainNum('points', DEFAULT_TRAIN.points),
     batchSize: trainNum('batch', DEFAULT_TRAIN.batchSize),
     learningRate: trainNum('lr', DEFAULT_TRAIN.learningRate),
-    loss: { ...base.loss, name: loss, temperature: trainNum('temperature', base.loss.temperature), ...(values['class-prior'] !== undefined ? { classPrior: trainNum('class-prior', DEFAULT_CLASS_PRIOR) } : {}) },
+    loss: { ...base.loss, name: loss, temperature: trainNum('temperature', base.loss.temperature) },
     // Without --augment, a pose kept exactly as in the files (signs included) gets the preset that does not turn the parts.
     pipeline: pipeline ?? (pose !== 'as-is' ? DEFAULT_TRAIN.pipeline : PRESETS['file-pose']),
   };

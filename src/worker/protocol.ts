@@ -4,10 +4,10 @@
 import type { LibraryPart, SamplingSettings } from '../core/library';
 import type { ImportFailure } from '../core/mesh/import';
 import type { RunManifest } from '../core/model/checkpoint';
-import type { EvaluationReport } from '../core/retrieval/evaluate';
-import type { StudyRow } from '../core/retrieval/study';
+import type { EvaluationReport } from '../core/quality/evaluate';
+import type { StudyRow } from '../core/quality/study';
 import type { AugmentKind } from '../core/points/augment';
-import type { TrainConfig, TrainProgress, HeldOutCheck, TrainResult } from '../core/model/train';
+import type { TrainConfig, TrainProgress, HeldOutCheck, TrainResult } from '../core/model/train-config';
 
 export interface FileInput {
   readonly name: string;
@@ -57,8 +57,6 @@ export type TrainRequest =
   | { readonly type: 'load-saved'; readonly id: number }
   /** Keep this checkpoint (e.g. a model trained by the command line) as the current one. */
   | { readonly type: 'save'; readonly id: number; readonly checkpoint: CheckpointMessage }
-  /** Time the reference training step in this worker (for the speed comparison). */
-  | { readonly type: 'bench'; readonly id: number; readonly repeats: number }
   /** Leave-one-out retrieval quality of the model and the two baselines (needs labels). */
   | { readonly type: 'evaluate'; readonly id: number; readonly parts: readonly PartArrays[]; readonly labels: readonly string[]; readonly checkpoint: CheckpointMessage | null; readonly config: TrainConfig }
   /** The augmentation study over the library. */
@@ -73,7 +71,6 @@ export type TrainReply =
   | { readonly type: 'done'; readonly id: number; readonly result: Omit<TrainResult, 'history'> & { history: TrainResult['history'] } }
   | { readonly type: 'embeddings'; readonly id: number; readonly vectors: Float32Array; readonly dim: number; readonly learned: boolean }
   | { readonly type: 'saved'; readonly id: number; readonly checkpoint: CheckpointMessage | null }
-  | { readonly type: 'bench'; readonly id: number; readonly msPerStep: number; readonly backend: string }
   | { readonly type: 'evaluation'; readonly id: number; readonly report: EvaluationReport }
   | { readonly type: 'study-progress'; readonly id: number; readonly done: number; readonly total: number; readonly what: string }
   | { readonly type: 'study'; readonly id: number; readonly rows: StudyRow[] }

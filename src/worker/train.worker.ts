@@ -8,11 +8,10 @@ import wasmThreaded from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm-t
 import { initBackend } from '../core/model/backend';
 import { encodersFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../core/model/checkpoint';
 import { disposeEncoders, embedForRetrieval } from '../core/model/embed';
-import { Trainer } from '../core/model/train';
-import { REFERENCE_ENCODER, timeStep } from '../core/model/speed';
-import { evaluateMethods, untrainedEncoders } from '../core/retrieval/evaluate';
+import { Trainer } from '../core/model/trainer';
+import { evaluateMethods, untrainedEncoders } from '../core/quality/evaluate';
 import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
-import { runStudy } from '../core/retrieval/study';
+import { runStudy } from '../core/quality/study';
 import type { CheckpointMessage, TrainReply, TrainRequest } from './protocol';
 
 /** Where the current model lives in the browser: tfjs's own IndexedDB handler. */
@@ -105,10 +104,6 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
       case 'pause': if (trainer && req.id === trainerId) { trainer.pause(); post({ type: 'status', id: req.id, status: 'paused' }); } return;
       case 'resume': if (trainer && req.id === trainerId) { trainer.resume(); post({ type: 'status', id: req.id, status: 'running' }); } return;
       case 'cancel': if (trainer && req.id === trainerId) trainer.cancel(); return;
-      case 'bench': {
-        post({ type: 'bench', id: req.id, msPerStep: timeStep(REFERENCE_ENCODER, 32, 512, req.repeats), backend: name });
-        return;
-      }
       case 'evaluate': {
         const ckpt = req.checkpoint ? fromMessage(req.checkpoint) : null;
         const cfg = ckpt ? ckpt.manifest.config : req.config;

@@ -162,7 +162,6 @@ describe('bad arguments and unreadable files: one clear line and a non-zero exit
     [['embed', DEMO, '--model', 'x', '--out', 'x.txt'], 2, /--out must end in .csv, .json or .npy/],
     [['train', DEMO, '--out', 'x', '--epochs', 'ten'], 2, /--epochs must be a whole number/],
     [['train', DEMO, '--out', 'x', '--pose', 'upright'], 2, /--pose must be one of principal-axes, file-axes, as-is, file-and-principal, got "upright"/],
-    [['train', DEMO, '--out', 'x', '--loss', 'triplet-hard', '--class-prior', '0.1'], 2, /--class-prior applies only to --loss debiased-nt-xent/],
     [['query', 'missing.stl', '--model', 'x', '--library', DEMO], 2, /query file not found/],
     [['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '--order', 'best'], 2, /--order must be diffusion or cosine, got "best"/],
     [['eval', DEMO, '--bogus'], 2, /Unknown option '--bogus'/],

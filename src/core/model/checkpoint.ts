@@ -7,9 +7,11 @@ import { crc32 } from '../checksum';
 import { checkWeightData } from './weights-check';
 import { createRng } from '../rng';
 import type { AdamState } from './adam';
-import { Encoder, inputChannels, validateEncoderConfig } from './encoder';
-import { disposeEncoders, memberPoses, type Encoders } from './embed';
-import { setWeights, type HeldOutCheck, type TrainConfig, type TrainStatus } from './train';
+import { Encoder } from './encoder';
+import { inputChannels, validateEncoderConfig } from './encoder-config';
+import { disposeEncoders, type Encoders } from './embed';
+import { setWeights } from './trainer';
+import { memberPoses, type HeldOutCheck, type TrainConfig, type TrainStatus } from './train-config';
 import type { SamplingSettings } from '../library';
 
 export const CHECKPOINT_FORMAT = 'shapekin-encoder';
@@ -28,8 +30,6 @@ export interface RunManifest {
   readonly history: readonly { step: number; loss: number; lr: number }[];
   readonly checks: readonly HeldOutCheck[];
   readonly labelNames?: readonly string[];
-  /** Set on an encoder pre-trained by scripts/pretrain.ts: what it was trained on. */
-  readonly pretraining?: { readonly corpus: string; readonly parts: number; readonly loss: string; readonly classes: number; readonly corpusSeed: number; readonly seconds: number };
 }
 
 export interface Checkpoint {
@@ -57,7 +57,6 @@ function encoderShapes(config: TrainConfig): { names: string[]; shapes: number[]
   const edge = config.encoder.edge;
   if (edge) {
     names.push('edge/w', 'edge/b'); shapes.push([c + 3, edge.width], [edge.width]); c = edge.width;
-    for (let i = 1; i < (edge.layers ?? 1); i++) { names.push(`edge${i}/w`, `edge${i}/b`); shapes.push([2 * c, c], [c]); }
   }
   config.encoder.widths.forEach((w, i) => { names.push(`point${i}/w`, `point${i}/b`); shapes.push([c, w], [w]); c = w; });
   c = config.encoder.widths[config.encoder.widths.length - 1] * (config.encoder.pooling === 'max+mean' ? 2 : 1);

@@ -3,10 +3,10 @@
 // trustworthy) and the training length from its size (a step budget). Measured in docs/results.md.
 
 import { PRESETS } from '../points/augment';
-import { DEFAULT_ENCODER, type InputFeatures } from './encoder';
-import type { Pose } from './embed';
+import { DEFAULT_ENCODER, type InputFeatures } from './encoder-config';
+import type { Pose } from './train-config';
 import { fileFrameBoxRatio } from '../points/pca';
-import { stepsPerEpoch, type TrainConfig } from './train';
+import { stepsPerEpoch, type TrainConfig } from './train-config';
 
 export const DEFAULT_TRAIN: TrainConfig = {
   encoder: DEFAULT_ENCODER,

@@ -1,6 +1,7 @@
 // The embedding index: unit-length vectors in one contiguous Float32Array, exact cosine top-k, filters on real
 // size and on folder, and results ordered through the library (hub-corrected scores diffused over its graph).
 
+import { normaliseRows } from '../vectors';
 import { topK, type Hit } from './topk';
 import { DIFFUSION_DEFAULTS, DiffusionGraph, rankingKeys, type DiffusionOptions } from './diffusion';
 import { HUB_NEIGHBOURS, meanOfTop, neighbourhoodMeans } from './hubness';
@@ -188,15 +189,4 @@ export function dot4(v: ArrayLike<number>, o: number, q: ArrayLike<number>, D: n
   }
   for (; d < D; d++) s0 += v[o + d] * q[d];
   return s0 + s1 + s2 + s3;
-}
-
-export function normaliseRows(v: Float32Array, dim: number): Float32Array {
-  const out = new Float32Array(v.length);
-  for (let o = 0; o < v.length; o += dim) {
-    let s = 0;
-    for (let d = 0; d < dim; d++) s += v[o + d] * v[o + d];
-    const inv = s > 0 ? 1 / Math.sqrt(s) : 0;
-    for (let d = 0; d < dim; d++) out[o + d] = v[o + d] * inv;
-  }
-  return out;
 }

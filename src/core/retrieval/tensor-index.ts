@@ -3,7 +3,8 @@
 // up to float32 rounding; top-k selection is the same partial selection.
 
 import * as tf from '@tensorflow/tfjs';
-import { EmbeddingIndex, normaliseRows, type IndexEntry } from './index';
+import { normaliseRows } from '../vectors';
+import { EmbeddingIndex, type IndexEntry } from './index';
 
 export class TensorIndex extends EmbeddingIndex {
   private readonly matrixT: tf.Tensor2D; // (dim, count): the unit rows as columns

@@ -9,7 +9,7 @@ import { makeCloud } from '../../core/points/cloud';
 import { cloudDistances } from '../../core/points/distance';
 import { createRng } from '../../core/rng';
 import { alignToPrincipalAxes } from '../../core/points/pca';
-import type { Pose } from '../../core/model/embed';
+import type { Pose } from '../../core/model/train-config';
 import { pointsObject } from '../controllers/scene';
 import { CameraLink } from '../controllers/viewer';
 import './viewer';

@@ -3,8 +3,8 @@
 // Sends 'run-evaluation', 'run-study' and 'export-study' upward.
 
 import { LitElement, css, html, svg } from 'lit';
-import type { EvaluationReport } from '../../core/retrieval/evaluate';
-import type { StudyRow } from '../../core/retrieval/study';
+import type { EvaluationReport } from '../../core/quality/evaluate';
+import type { StudyRow } from '../../core/quality/study';
 
 const METHOD_COLOUR: Record<string, string> = { learned: '#c2571a', untrained: '#2f6f73', d2: '#7a6a55' };
 

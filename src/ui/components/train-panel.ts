@@ -3,11 +3,11 @@
 // 'train-stop' and 'train-continue' (resume a saved run) upward.
 
 import { LitElement, css, html } from 'lit';
-import { DEFAULT_CLASS_PRIOR, LOSS_NAMES, type LossName } from '../../core/model/losses';
-import type { TrainConfig, TrainProgress, HeldOutCheck } from '../../core/model/train';
+import { LOSS_NAMES, type LossName } from '../../core/model/losses/names';
+import type { TrainConfig, TrainProgress, HeldOutCheck } from '../../core/model/train-config';
 import { PRESETS } from '../../core/points/augment';
-import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../../core/model/encoder';
-import { memberPoses, POSE_LABELS, POSES } from '../../core/model/embed';
+import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../../core/model/encoder-config';
+import { memberPoses, POSE_LABELS, POSES } from '../../core/model/train-config';
 import type { TrainStatusView } from '../status';
 import './loss-chart';
 
@@ -95,7 +95,6 @@ export class SkTrainPanel extends LitElement {
             ${LOSS_NAMES.map((n) => html`<option value=${n} ?selected=${c.loss.name === n} ?disabled=${n === 'supervised-contrastive' && !this.hasLabels}>${n}</option>`)}
           </select>
           <label for="temp">temperature</label><input id="temp" type="number" min="0.01" max="2" step="0.01" .value=${String(c.loss.temperature)} ?disabled=${busy} @change=${(e: Event) => this.set('loss', { ...c.loss, temperature: this.num(e) })} />
-          <label for="prior" title="debiased NT-Xent only: the share of look-alikes expected among the other parts">class prior τ⁺</label><input id="prior" type="number" min="0" max="0.5" step="0.01" .value=${String(c.loss.classPrior ?? DEFAULT_CLASS_PRIOR)} ?disabled=${busy || c.loss.name !== 'debiased-nt-xent'} @change=${(e: Event) => this.set('loss', { ...c.loss, classPrior: this.num(e) })} />
           <label for="lr">learning rate</label><input id="lr" type="number" min="0.00001" max="0.1" step="0.0001" .value=${String(c.learningRate)} ?disabled=${busy} @change=${(e: Event) => this.set('learningRate', this.num(e))} />
           <label for="aug">augmentations</label><select id="aug" ?disabled=${busy} @change=${(e: Event) => this.set('pipeline', PRESETS[(e.target as HTMLSelectElement).value as keyof typeof PRESETS])}>
             ${Object.entries(PRESETS).map(([n, pipe]) => html`<option value=${n} ?selected=${JSON.stringify(pipe) === JSON.stringify(c.pipeline)}>${n}</option>`)}

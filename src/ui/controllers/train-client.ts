@@ -1,9 +1,9 @@
 // The page's side of the training worker: start/pause/resume/stop, embeddings, the saved model.
 // Replies for a superseded request id are dropped.
 
-import type { TrainConfig } from '../../core/model/train';
-import type { EvaluationReport } from '../../core/retrieval/evaluate';
-import type { StudyRow } from '../../core/retrieval/study';
+import type { TrainConfig } from '../../core/model/train-config';
+import type { EvaluationReport } from '../../core/quality/evaluate';
+import type { StudyRow } from '../../core/quality/study';
 import type { CheckpointMessage, PartArrays, TrainReply, TrainRequest } from '../../worker/protocol';
 
 type Listener = (msg: TrainReply) => void;
@@ -89,11 +89,6 @@ export class TrainClient {
   }
 
   /** Median ms of the reference step timed inside the worker. */
-  async benchStep(repeats = 7): Promise<{ msPerStep: number; backend: string }> {
-    const r = await this.request({ type: 'bench', id: this.nextId++, repeats }, 'bench');
-    return { msPerStep: r.msPerStep, backend: r.backend };
-  }
-
   dispose(): void {
     this.worker?.terminate();
     this.worker = null;

@@ -13,7 +13,7 @@ import { loadPart, type LibraryPart } from '../../../src/core/library';
 import { importMesh } from '../../../src/core/mesh/import';
 import { loadCadReader } from '../../../src/core/mesh/occt';
 import { MeshImportError } from '../../../src/core/mesh/types';
-import { untrainedEncoders } from '../../../src/core/retrieval/evaluate';
+import { untrainedEncoders } from '../../../src/core/quality/evaluate';
 import { cosineSimilarity } from '../../../src/core/retrieval/metrics';
 import { fixture, textBuffer } from '../../meshes';
 import { RAW_JS } from './reasons';

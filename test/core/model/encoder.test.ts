@@ -1,8 +1,11 @@
 import * as tf from '@tensorflow/tfjs';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { edgeFeatures, Encoder, featureNeighbourIndex, neighbourIndex, type EncoderConfig } from '../../../src/core/model/encoder';
+import { edgeFeatures, neighbourIndex } from '../../../src/core/points/neighbours';
+import { Encoder } from '../../../src/core/model/encoder';
+import { type EncoderConfig } from '../../../src/core/model/encoder-config';
 import { PointIndex } from '../../../src/core/points/kdtree';
-import { embedParts, fillSlot } from '../../../src/core/model/embed';
+import { embedParts } from '../../../src/core/model/embed';
+import { fillSlot } from '../../../src/core/model/views';
 import { axisAngle, transformPoints } from '../../../src/core/points/rotation';
 import { createRng } from '../../../src/core/rng';
 import { expectClose } from '../../helpers';
@@ -244,61 +247,6 @@ describe('EdgeConv first layer (Wang et al. 2019, eq. 8, on the input points)', 
         expect(Array.from(got.subarray((b * N + i) * k, (b * N + i + 1) * k))).toEqual(ref);
       }
     }
-  });
-  it('feature-space neighbours (dynamic graph) are the k nearest rows by exact distance, the point itself first', () => {
-    const B = 2, N = 25, C = 5, k = 6;
-    const data = cloudBatch(B, N, 41, C);
-    const h = tf.tensor2d(data, [B * N, C]);
-    const got = featureNeighbourIndex(h, B, N, k);
-    h.dispose();
-    for (let b = 0; b < B; b++) for (const i of [0, 9, 24]) {
-      const row = b * N + i;
-      const dist = (j: number) => { let d = 0; for (let c = 0; c < C; c++) d += (data[row * C + c] - data[(b * N + j) * C + c]) ** 2; return d; };
-      const ref = Array.from({ length: N }, (_, j) => j).sort((p, q) => dist(p) - dist(q)).slice(0, k).map((j) => b * N + j);
-      const mine = Array.from(got.subarray(row * k, row * k + k));
-      expect(mine[0]).toBe(row);
-      expect([...mine].sort((p, q) => p - q)).toEqual([...ref].sort((p, q) => p - q));
-    }
-  });
-  it.each([false, true])('a second layer (dynamic graph: %s) is EdgeConv on [h_i, h_j − h_i], its gradients those of tfjs autodiff', async (dynamic) => {
-    const enc = new Encoder({ ...tiny, edge: { k: 4, width: 6, layers: 2, dynamic } }, createRng(31));
-    expect(enc.weightNames.slice(0, 4)).toEqual(['edge/w', 'edge/b', 'edge1/w', 'edge1/b']);
-    expect(enc.edgeStack[0].w.shape).toEqual([12, 6]);
-    await expectNoLeak(() => {
-      const B = 2, N = 14, k = 4;
-      const data = cloudBatch(B, N, 32);
-      const x = tf.tensor3d(data, [B, N, 3]);
-      const edges = tf.tensor2d(edgeFeatures(data, B, N, 3, k), [B * N * k, 6]);
-      const edgeMax = (e: tf.Tensor2D, l: { w: tf.Variable; b: tf.Variable }, W: number) =>
-        tf.max(tf.reshape(tf.relu(tf.add(tf.matMul(e, l.w), l.b)), [B * N, k, W]), 1) as tf.Tensor2D;
-      // Row selections as one-hot matrices (P·k, P), so that tfjs differentiates the gathers as matMuls.
-      const rows = neighbourIndex(data, B, N, 3, k);
-      const pick = (row: (e: number) => number) => tf.tensor2d(Float32Array.from({ length: B * N * k * B * N }, (_, i) => (row(Math.floor(i / (B * N))) === i % (B * N) ? 1 : 0)), [B * N * k, B * N]);
-      const self = pick((e) => Math.floor(e / k));
-      let nbr = pick((e) => rows[e]);
-      if (dynamic) { // the second layer's graph: neighbours of the first layer's output (computed by the reference)
-        const h1 = tf.tidy(() => edgeMax(edges, enc.edge!, 6));
-        const second = featureNeighbourIndex(h1, B, N, k);
-        h1.dispose();
-        expect(Array.from(second)).not.toEqual(Array.from(rows));
-        nbr.dispose();
-        nbr = pick((e) => second[e]);
-      }
-      const naive = () => {
-        const h1 = edgeMax(edges, enc.edge!, 6);
-        const hi = tf.matMul(self, h1), hj = tf.matMul(nbr, h1);
-        return edgeMax(tf.concat([hi, tf.sub(hj, hi)], 1) as tf.Tensor2D, enc.edgeStack[0], 6);
-      };
-      const target = tf.randomNormal([B * N, 6], 0, 1, 'float32', 33);
-      const objective = (f: () => tf.Tensor2D) => () => tf.sum(tf.mul(f(), target)) as tf.Scalar;
-      const vars = [enc.edge!.w, enc.edge!.b, enc.edgeStack[0].w, enc.edgeStack[0].b];
-      const fast = tf.variableGrads(objective(() => enc.edgeOutput(x)), vars);
-      const slow = tf.variableGrads(objective(naive), vars);
-      expectClose(fast.value.dataSync(), slow.value.dataSync(), { rtol: 1e-5, atol: 1e-5 });
-      for (const v of vars) expectClose(fast.grads[v.name].dataSync(), slow.grads[v.name].dataSync(), { rtol: 1e-4, atol: 1e-5 });
-      tf.dispose([x, edges, nbr, self, target, fast.value, slow.value, ...Object.values(fast.grads), ...Object.values(slow.grads)]);
-    });
-    enc.dispose();
   });
   it('keeps the embedding the same when the points are shuffled, and refuses a bad k', () => {
     const cfg: EncoderConfig = { ...tiny, edge: { k: 4, width: 8 } };

@@ -1,7 +1,9 @@
 import * as tf from '@tensorflow/tfjs';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { iMixLoss, mixTargets } from '../../../src/core/model/losses/imix';
-import { debiasedNtXentLoss, marginContrastiveLoss, ntXentLoss, supConLoss, tripletLoss } from '../../../src/core/model/losses';
+import { marginContrastiveLoss } from '../../../src/core/model/losses/margin';
+import { ntXentLoss } from '../../../src/core/model/losses/ntxent';
+import { supConLoss } from '../../../src/core/model/losses/supcon';
+import { tripletLoss } from '../../../src/core/model/losses/triplet';
 import { multiViewSupConLoss } from '../../../src/core/model/losses/supcon';
 import { expectClose } from '../../helpers';
 import { expectNoLeak, useBackend } from '../../tf-helpers';
@@ -44,56 +46,6 @@ describe('NT-Xent (Chen et al. 2020, eq. 1)', () => {
     expect(() => ntXentLoss(tf.ones([1, 3]), tf.ones([1, 3]), 0.1)).toThrow(/at least 2 parts/);
     expect(() => ntXentLoss(tf.ones([2, 3]), tf.ones([2, 3]), 0)).toThrow(/temperature must be > 0/);
     expect(() => ntXentLoss(tf.ones([2, 3]), tf.ones([3, 3]), 0.1)).toThrow(/shapes/);
-  });
-});
-
-describe('debiased NT-Xent (Chuang et al. 2020, eq. 6 with M = 1)', () => {
-  it('with τ⁺ = 0 equals NT-Xent (hand-worked 0.464236 above)', () => {
-    const [za, zb] = worked();
-    expectClose(tf.tidy(() => debiasedNtXentLoss(za, zb, 0.5, 0).dataSync()[0]), 0.464236, { atol: 1e-5 });
-    za.dispose(); zb.dispose();
-  });
-  it('matches a hand-worked example at τ = 0.5, τ⁺ = 0.1, where one anchor hits the floor N·e^{−1/t}', async () => {
-    // N = 2 negatives. a1: Σneg = e^{−2} + e^{−1} = 0.503215, e^{pos} = e^{1}; (0.503215 − 0.1·2·e)/0.9 < 0, so
-    //   N_g = 2e^{−2} = 0.270671 and ℓ = ln(e + 0.270671) − 1 = 0.094923 (a2 the same by symmetry).
-    // b1: Σneg = e^{−1} + e^{1} = 3.086161; N_g = (3.086161 − 0.543656)/0.9 = 2.825005; ℓ = ln(5.543287) − 1 = 0.712588.
-    // L = (2·0.094923 + 2·0.712588)/4 = 0.403756
-    const [za, zb] = worked();
-    const loss = await expectNoLeak(() => tf.tidy(() => debiasedNtXentLoss(za, zb, 0.5, 0.1).dataSync()[0]));
-    expectClose(loss, 0.403756, { atol: 1e-5 });
-    za.dispose(); zb.dispose();
-  });
-  it('stays finite at a low temperature and refuses a prior outside [0, 1)', () => {
-    const za = tf.randomNormal([8, 5], 0, 1, 'float32', 4) as tf.Tensor2D, zb = tf.randomNormal([8, 5], 0, 1, 'float32', 5) as tf.Tensor2D;
-    expect(Number.isFinite(tf.tidy(() => debiasedNtXentLoss(za, zb, 0.02, 0.1).dataSync()[0]))).toBe(true);
-    expect(() => debiasedNtXentLoss(za, zb, 0.1, 1)).toThrow(/class prior/);
-    tf.dispose([za, zb]);
-  });
-});
-
-describe('i-Mix, N-pair form (Lee et al. 2021, eq. 3)', () => {
-  it('hand-worked at τ = 0.5: unmixed (λ = 1) and mixed with the other part (λ = 0.25)', async () => {
-    // Anchors a1 = 0°, a2 = 180°, positives b1 = 60°, b2 = 120°: logits a1 → (1, −1), a2 → (−1, 1); ln(e + 1/e) = 1.126928.
-    // λ = 1: ℓ = 1.126928 − 1 = 0.126928 for both.  λ = 0.25, partners swapped: ℓ = 0.25·0.126928 + 0.75·2.126928 = 1.626928.
-    const [za, zb] = worked();
-    const at = (lambda: number) => tf.tidy(() => iMixLoss(za, zb, tf.tensor2d(mixTargets(lambda, [1, 0]), [2, 2]), 0.5).dataSync()[0]);
-    expectClose(await expectNoLeak(() => at(1)), 0.126928, { atol: 1e-5 });
-    expectClose(at(0.25), 1.626928, { atol: 1e-5 });
-    za.dispose(); zb.dispose();
-  });
-  it('equals tf.losses.softmaxCrossEntropy with the mixture as soft labels', () => {
-    const za = tf.randomNormal([6, 5], 0, 1, 'float32', 7) as tf.Tensor2D, zb = tf.randomNormal([6, 5], 0, 1, 'float32', 8) as tf.Tensor2D;
-    const targets = tf.tensor2d(mixTargets(0.7, [3, 0, 5, 1, 2, 4]), [6, 6]);
-    const reference = tf.tidy(() => {
-      const n = (z: tf.Tensor2D) => tf.div(z, tf.norm(z, 'euclidean', 1, true));
-      return tf.losses.softmaxCrossEntropy(targets, tf.div(tf.matMul(n(za), n(zb), false, true), 0.2)).dataSync()[0];
-    });
-    expectClose(tf.tidy(() => iMixLoss(za, zb, targets, 0.2).dataSync()[0]), reference, { rtol: 1e-5 });
-    tf.dispose([za, zb, targets]);
-  });
-  it('mixture targets: λ on the part itself, 1 − λ on its partner, rows summing to 1', () => {
-    expect([...mixTargets(0.25, [1, 0])]).toEqual([0.25, 0.75, 0.75, 0.25]);
-    expect([...mixTargets(0.5, [0, 1])]).toEqual([1, 0, 0, 1]); // a part mixed with itself is not mixed
   });
 });
 

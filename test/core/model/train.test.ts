@@ -3,8 +3,10 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { Adam, cosineWithWarmup } from '../../../src/core/model/adam';
 import { encoderFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../../../src/core/model/checkpoint';
 import { DEFAULT_STEP_BUDGET, DEFAULT_TRAIN, defaultEpochs, defaultInputs, defaultPose, defaultTrainFor, FILE_FRAME_FIT, inputsReason, MIN_DEFAULT_EPOCHS, poseReason } from '../../../src/core/model/defaults';
-import { embedParts, type ModelPart } from '../../../src/core/model/embed';
-import { getWeights, Trainer, type TrainConfig } from '../../../src/core/model/train';
+import { embedParts } from '../../../src/core/model/embed';
+import { type ModelPart } from '../../../src/core/model/views';
+import { getWeights, Trainer } from '../../../src/core/model/trainer';
+import { type TrainConfig } from '../../../src/core/model/train-config';
 import { PRESETS } from '../../../src/core/points/augment';
 import { expectClose } from '../../helpers';
 import { useBackend } from '../../tf-helpers';
@@ -59,50 +61,6 @@ describe('training on the demo library', () => {
     t.trainStep();
     const after1 = tf.memory().numTensors;
     for (let i = 0; i < 4; i++) t.trainStep();
-    expect(tf.memory().numTensors).toBe(after1);
-    t.dispose();
-  });
-  it('keeps the tensor count flat with i-Mix anchors too, and each mixed anchor is its partner after λ·n points', () => {
-    const t = new Trainer(demo, { ...small, mixing: 'i-mix' });
-    const plain = new Trainer(demo, small);
-    // The same step draws the same views; i-Mix then replaces each anchor's tail by its partner's.
-    const { x: mixedX, mix } = (t as unknown as { batchFor(k: number): { x: Float32Array; mix: { lambda: number; partner: number[] } } }).batchFor(0);
-    const x = (plain as unknown as { batchFor(k: number): { x: Float32Array } }).batchFor(0).x.slice();
-    const row = small.points * 3, keep = Math.round(mix.lambda * row / 3) * 3;
-    expect(keep > 0 && keep < row).toBe(true); // this step really mixes (seeded)
-    expect(mix.partner[0] !== 0 && mix.partner[5] !== 5).toBe(true);
-    for (const i of [0, 5]) {
-      expect(mixedX.subarray(i * row, i * row + keep)).toEqual(x.subarray(i * row, i * row + keep));
-      expect(mixedX.subarray(i * row + keep, (i + 1) * row)).toEqual(x.subarray(mix.partner[i] * row + keep, (mix.partner[i] + 1) * row));
-    }
-    t.trainStep();
-    const after1 = tf.memory().numTensors;
-    for (let i = 0; i < 3; i++) t.trainStep();
-    expect(tf.memory().numTensors).toBe(after1);
-    t.dispose(); plain.dispose();
-  });
-  it('local views: each is one region of its part (the share nearest one pool point), and the tensor count stays flat', () => {
-    const localViews = { count: 2, points: 32, share: 0.25 };
-    const cfg: TrainConfig = { ...small, pose: 'as-is', pipeline: { version: 1, upAxis: 'z', steps: [] }, localViews };
-    const t = new Trainer(demo, cfg);
-    const { parts, x, local } = (t as unknown as { batchFor(k: number): { parts: number[]; x: Float32Array; local: Float32Array } }).batchFor(0);
-    const B = parts.length, region = Math.round(localViews.share * 512);
-    // Brute force over every pool point as a centre: does some centre's `region` nearest pool points hold them all?
-    const oneRegion = (pool: Float32Array, pts: Float32Array) => Array.from({ length: 512 }, (_, c) => c).some((c) => {
-      const d = Array.from({ length: 512 }, (_, j) => [(pool[3 * j] - pool[3 * c]) ** 2 + (pool[3 * j + 1] - pool[3 * c + 1]) ** 2 + (pool[3 * j + 2] - pool[3 * c + 2]) ** 2, j]);
-      d.sort((a, b) => a[0] - b[0] || a[1] - b[1]);
-      const near = new Set(d.slice(0, region).map(([, j]) => `${pool[3 * j]},${pool[3 * j + 1]},${pool[3 * j + 2]}`));
-      for (let i = 0; i < pts.length / 3; i++) if (!near.has(`${pts[3 * i]},${pts[3 * i + 1]},${pts[3 * i + 2]}`)) return false;
-      return true;
-    });
-    for (const [view, slot] of [[0, 0], [1, 0], [1, B - 1]]) {
-      expect(oneRegion(demo[parts[slot]].points, local.subarray((view * B + slot) * 32 * 3, (view * B + slot + 1) * 32 * 3))).toBe(true);
-    }
-    // A whole view of the same part (its first 32 points) is not one such region: the check can fail.
-    expect(oneRegion(demo[parts[0]].points, x.subarray(0, 32 * 3))).toBe(false);
-    t.trainStep();
-    const after1 = tf.memory().numTensors;
-    for (let i = 0; i < 3; i++) t.trainStep();
     expect(tf.memory().numTensors).toBe(after1);
     t.dispose();
   });
@@ -184,13 +142,6 @@ describe('bad input and failures end cleanly', () => {
     expect(() => new Trainer(demo, { ...small, batchSize: 1 })).toThrow(/batch size/);
     expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'hinge' as 'nt-xent' } })).toThrow(/unknown loss "hinge"/);
     expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'supervised-contrastive' } })).toThrow(/needs labels/);
-    expect(() => new Trainer(demo, { ...small, mixing: 'cutmix' as 'i-mix' })).toThrow(/mixing must be none or i-mix/);
-    expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'debiased-nt-xent', classPrior: 1 } })).toThrow(/class prior τ⁺ must be in \[0, 1\)/);
-    const lv = { count: 2, points: 32, share: 0.4 };
-    expect(() => new Trainer(demo, { ...small, localViews: { ...lv, share: 0 } })).toThrow(/local view's share of the part must be in \(0, 1\]/);
-    expect(() => new Trainer(demo, { ...small, localViews: { ...lv, points: 8 } })).toThrow(/points per local view/);
-    expect(() => new Trainer(demo, { ...small, localViews: lv, loss: { ...small.loss, name: 'triplet-hard' } })).toThrow(/local views need the nt-xent/);
-    expect(() => new Trainer(demo, { ...small, localViews: lv, mixing: 'i-mix' })).toThrow(/do not combine/);
   });
   it('a NaN loss stops the run with status failed and a message, not a hang', async () => {
     const t = new Trainer(demo, small);

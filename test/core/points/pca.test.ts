@@ -1,6 +1,8 @@
 import { beforeAll, describe, expect, it } from 'vitest';
-import { Encoder, DEFAULT_ENCODER } from '../../../src/core/model/encoder';
-import { embedForRetrieval, embedParts, resampled, RETRIEVAL_RESAMPLINGS } from '../../../src/core/model/embed';
+import { Encoder } from '../../../src/core/model/encoder';
+import { DEFAULT_ENCODER } from '../../../src/core/model/encoder-config';
+import { embedForRetrieval, embedParts, RETRIEVAL_RESAMPLINGS } from '../../../src/core/model/embed';
+import { resampled } from '../../../src/core/model/views';
 import { makeCloud } from '../../../src/core/points/cloud';
 import { defaultPose } from '../../../src/core/model/defaults';
 import { alignToPrincipalAxes, boxVolume, fileFrameBoxRatio, principalFrame, symmetricEigen3 } from '../../../src/core/points/pca';

@@ -1,0 +1,105 @@
+// The augmentation study: for each augmentation and strength, augment every part once, describe the view
+// with each method, and measure whether the part is still recognised — as itself and as its family —
+// how similar the view stays to the original, and how far the points moved (Chamfer).
+
+import { embedForRetrieval, type Encoders } from '../model/embed';
+import { type ModelPart } from '../model/views';
+import { type Pose } from '../model/train-config';
+import { AUGMENT_KINDS, augment, type AugmentKind, type UpAxis } from '../points/augment';
+import { makeCloud } from '../points/cloud';
+import { chamferDistance } from '../points/distance';
+import { createRng, hashString } from '../rng';
+import { d2Histogram, l1 } from '../retrieval/d2';
+import type { MethodName } from './methods';
+
+export const STUDY_STRENGTHS = [0, 0.25, 0.5, 0.75, 1] as const;
+
+export interface StudyRow {
+  readonly augmentation: AugmentKind;
+  readonly strength: number;
+  readonly method: MethodName;
+  /** The source part is the top-1 neighbour of its augmented view. */
+  readonly instance_top1: number;
+  /** The top-1 neighbour other than the source part has the source's label. */
+  readonly label_top1: number;
+  /** Mean similarity of view and original (cosine; for D2, 1 − L1/2). */
+  readonly mean_similarity: number;
+  /** Mean Chamfer distance the augmentation moved the points (unit-sphere units²). */
+  readonly mean_chamfer: number;
+}
+
+export interface StudyInput {
+  readonly parts: readonly ModelPart[];
+  readonly labels: readonly string[];
+  readonly points: number;
+  readonly pose: Pose;
+  readonly encoders: Partial<Record<'learned' | 'untrained', Encoders>>;
+  readonly kinds?: readonly AugmentKind[];
+  readonly strengths?: readonly number[];
+  readonly upAxis?: UpAxis;
+  readonly seed?: number;
+  readonly onProgress?: (done: number, total: number, what: string) => void;
+}
+
+type Describe = (parts: readonly ModelPart[]) => { vectors: Float32Array; dim: number };
+
+function nearestTwo(q: Float32Array, qo: number, lib: Float32Array, dim: number, n: number, sim: (a: Float32Array, ao: number, b: Float32Array, bo: number) => number, self: number) {
+  let best = -Infinity, bestI = -1, other = -Infinity, otherI = -1;
+  for (let j = 0; j < n; j++) {
+    const s = sim(q, qo, lib, j * dim);
+    if (s > best) { best = s; bestI = j; }
+    if (j !== self && s > other) { other = s; otherI = j; }
+  }
+  return { bestI, otherI };
+}
+
+export function runStudy(input: StudyInput): StudyRow[] {
+  const { parts, labels, points } = input;
+  const kinds = input.kinds ?? AUGMENT_KINDS;
+  const strengths = input.strengths ?? STUDY_STRENGTHS;
+  const seed = input.seed ?? 0;
+  const methods: [MethodName, Describe, (a: Float32Array, ao: number, b: Float32Array, bo: number, dim: number) => number][] = [];
+  const cosine = (a: Float32Array, ao: number, b: Float32Array, bo: number, dim: number) => { let s = 0; for (let d = 0; d < dim; d++) s += a[ao + d] * b[bo + d]; return s; };
+  for (const name of ['learned', 'untrained'] as const) {
+    const enc = input.encoders[name];
+    if (enc) methods.push([name, (ps) => { const v = embedForRetrieval(enc, ps, points, input.pose); return { vectors: v, dim: v.length / ps.length }; }, cosine]);
+  }
+  methods.push(['d2', (ps) => {
+    const dim = 64;
+    const v = new Float32Array(ps.length * dim);
+    ps.forEach((p, i) => v.set(d2Histogram(p.points, createRng(hashString(`d2:${i}`, seed))), i * dim));
+    return { vectors: v, dim };
+  }, (a, ao, b, bo, dim) => 1 - l1(a, b, ao, bo, dim) / 2]);
+
+  const clean = methods.map(([, describe]) => describe(parts));
+  const rows: StudyRow[] = [];
+  const total = kinds.length * strengths.length;
+  let done = 0;
+  for (const kind of kinds) {
+    for (const strength of strengths) {
+      const pipeline = { version: 1 as const, upAxis: input.upAxis ?? 'z', steps: [{ kind, strength, probability: 1 }] };
+      const rng = createRng(hashString(`study:${kind}:${strength}`, seed));
+      let chamfer = 0;
+      const views: ModelPart[] = parts.map((p) => {
+        const src = makeCloud(p.points, p.normals);
+        const v = augment(src, pipeline, rng);
+        chamfer += chamferDistance(src, v);
+        return { points: v.positions, normals: v.normals ?? p.normals };
+      });
+      methods.forEach(([method, describe, sim], m) => {
+        const { vectors, dim } = describe(views);
+        const lib = clean[m].vectors;
+        let inst = 0, lab = 0, simSum = 0;
+        for (let i = 0; i < parts.length; i++) {
+          const { bestI, otherI } = nearestTwo(vectors, i * dim, lib, dim, parts.length, (a, ao, b, bo) => sim(a, ao, b, bo, dim), i);
+          if (bestI === i) inst++;
+          if (otherI >= 0 && labels[otherI] === labels[i]) lab++;
+          simSum += sim(vectors, i * dim, lib, i * dim, dim);
+        }
+        rows.push({ augmentation: kind, strength, method, instance_top1: inst / parts.length, label_top1: lab / parts.length, mean_similarity: simSum / parts.length, mean_chamfer: chamfer / parts.length });
+      });
+      input.onProgress?.(++done, total, `${kind} at ${strength}`);
+    }
+  }
+  return rows;
+}
