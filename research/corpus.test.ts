@@ -1,7 +1,7 @@
 // The procedural pre-training corpus: deterministic, varied, outward-wound, and readable by the importer.
 
 import { describe, expect, it } from 'vitest';
-import { BoxGeometry, CylinderGeometry, LatheGeometry, TorusGeometry, Vector2 } from 'three';
+import { BoxGeometry, CylinderGeometry, LatheGeometry, TorusGeometry } from 'three';
 import { importMesh } from '../src/core/mesh/import';
 import { writeStlBinary } from '../src/core/mesh/write';
 import { signedVolume } from '../src/core/mesh/geometry';

@@ -21,6 +21,7 @@ import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
 import { TensorIndex } from '../core/retrieval/tensor-index';
 import type { Ranking } from '../core/retrieval/index';
 import { cosineSimilarity } from '../core/retrieval/metrics';
+import { embeddingsCsv, embeddingsJson } from '../core/retrieval/export';
 import { writeNpyFloat32 } from '../core/retrieval/npy';
 import { runStudy } from '../core/quality/study';
 import { failureOf, loadPart, type LibraryPart } from '../core/library';
@@ -226,20 +227,12 @@ async function embed(lib: string, values: Values): Promise<void> {
     reportFailures(library.failures, Boolean(values.json));
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), ckpt.manifest.config.points, ckpt.manifest.config.pose);
     const D = vectors.length / library.parts.length;
+    const rows = library.parts.map((p, i) => ({ file: p.name, label: library.labels[i], extents: p.info.extents, diagonal: p.diagonal, units: p.info.units }));
     if (ext === '.npy') writeFileSync(out, writeNpyFloat32(vectors, library.parts.length, D));
-    else if (ext === '.json') writeFileSync(out, JSON.stringify({ dim: D, parts: library.parts.map((p, i) => ({ file: p.name, label: library.labels[i], extents: p.info.extents, diagonal: p.diagonal, embedding: Array.from(vectors.subarray(i * D, (i + 1) * D)) })) }));
-    else {
-      const head = ['file', 'label', 'extent_x', 'extent_y', 'extent_z', ...Array.from({ length: D }, (_, d) => `e${d}`)].join(',');
-      const rows = library.parts.map((p, i) => [csvField(p.name), csvField(library.labels[i]), ...p.info.extents.map((v) => v.toPrecision(6)), ...Array.from(vectors.subarray(i * D, (i + 1) * D), (v) => v.toPrecision(6))].join(','));
-      writeFileSync(out, [head, ...rows].join('\n') + '\n');
-    }
+    else writeFileSync(out, ext === '.json' ? embeddingsJson(rows, vectors, D) : embeddingsCsv(rows, vectors, D));
     if (values.json) emit({ out, parts: library.parts.length, dim: D, failures: failuresJson(library) });
     else console.error(`${library.parts.length} embeddings of ${D} values → ${out}`);
   });
-}
-
-function csvField(s: string): string {
-  return /[",\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
 }
 
 async function query(file: string, values: Values): Promise<void> {

@@ -5,22 +5,21 @@
 import { existsSync, mkdirSync, readFileSync, renameSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type * as tf from '@tensorflow/tfjs';
-import { artifactsFromModelJson, fromArtifacts, toArtifacts, type Checkpoint, type ModelJson } from '../core/model/checkpoint';
+import { artifactsFromModelJson, fromArtifacts, toArtifacts, type Checkpoint } from '../core/model/checkpoint';
+import { modelJsonFor, WEIGHTS_FILE, type ModelJson, type RunManifest, type WeightSpec } from '../core/model/model-json';
 import { CliError } from './errors';
 
 const MODEL = 'model.json';
-const WEIGHTS = 'weights.bin';
+const WEIGHTS = WEIGHTS_FILE;
 
 /** tf.io.IOHandler over a folder: save() writes model.json + weights.bin atomically, load() reads them. */
 export function fileSystemHandler(dir: string): Required<Pick<tf.io.IOHandler, 'save' | 'load'>> {
   return {
     async save(art: tf.io.ModelArtifacts): Promise<tf.io.SaveResult> {
       mkdirSync(dir, { recursive: true });
-      const json = {
-        format: art.format, generatedBy: art.generatedBy, convertedBy: art.convertedBy ?? null,
-        modelTopology: art.modelTopology, userDefinedMetadata: art.userDefinedMetadata,
-        weightsManifest: [{ paths: [WEIGHTS], weights: art.weightSpecs }],
-      };
+      const manifest = (art.modelTopology as unknown as { shapekin: RunManifest }).shapekin;
+      const adamStep = Number((art.userDefinedMetadata as { adamStep?: number } | undefined)?.adamStep ?? 0);
+      const json = modelJsonFor(manifest, (art.weightSpecs ?? []) as WeightSpec[], art.weightData as ArrayBuffer, adamStep);
       const tmpW = join(dir, `.${WEIGHTS}.tmp`), tmpM = join(dir, `.${MODEL}.tmp`);
       writeFileSync(tmpW, new Uint8Array(art.weightData as ArrayBuffer));
       writeFileSync(tmpM, JSON.stringify(json));

@@ -24,3 +24,8 @@ export function parseCsv(text: string): string[][] {
   if (field !== '' || record.length > 0) endRecord();
   return records;
 }
+
+/** One field as RFC 4180 writes it: quoted (quotes doubled) when it holds a comma, a quote or a line break. */
+export function csvField(s: string): string {
+  return /[",\r\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
+}

@@ -3,7 +3,7 @@
 
 import type { LibraryPart, SamplingSettings } from '../core/library';
 import type { ImportFailure } from '../core/mesh/import';
-import type { RunManifest } from '../core/model/checkpoint';
+import type { RunManifest, WeightSpec } from '../core/model/model-json';
 import type { EvaluationReport } from '../core/quality/evaluate';
 import type { StudyRow } from '../core/quality/study';
 import type { AugmentKind } from '../core/points/augment';
@@ -42,7 +42,7 @@ export interface PartArrays {
 /** A checkpoint as it crosses the boundary: the manifest as JSON and the weights as one transferable buffer. */
 export interface CheckpointMessage {
   readonly manifest: RunManifest;
-  readonly weightSpecs: { name: string; shape: number[]; dtype: 'float32' }[];
+  readonly weightSpecs: WeightSpec[];
   readonly weightData: ArrayBuffer;
   readonly adamStep: number;
 }

@@ -80,8 +80,8 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await expect.poll(async () => (await stats.textContent()) ?? '', { timeout: 120_000 }).toMatch(/step [2-9] of 9 · loss \d/);
     expect((await stats.textContent()) ?? '').toMatch(/parts\/s .* left/);
     await page.screenshot({ path: `${ARTIFACTS}/training.png` });
-    await expect.poll(async () => (await stats.textContent()) ?? '', { timeout: 120_000 }).toMatch(/finished \(done\)/);
-    const losses = await page.evaluate(() => (document.querySelector('sk-app') as unknown as { history: { loss: number }[] }).history.map((h) => h.loss));
+    await expect.poll(async () => (await stats.textContent()) ?? '', { timeout: 120_000 }).toMatch(/finished · step/);
+    const losses = await page.evaluate(() => (document.querySelector('sk-app') as unknown as { state: { training: { history: { loss: number }[] } } }).state.training.history.map((h) => h.loss));
     expect(losses.length).toBe(9);
     expect((losses[7] + losses[8]) / 2).toBeLessThan((losses[0] + losses[1]) / 2);
     const longTasks = await page.evaluate(() => (window as unknown as { longTasks: number[] }).longTasks);

@@ -111,7 +111,7 @@ describe('shapekin embed, query, duplicates, study', () => {
     expect(b.subarray(1, 6).toString()).toBe('NUMPY');
     expect(b.subarray(10, 10 + b.readUInt16LE(8)).toString()).toContain("'shape': (112, 128)"); // the default projection head's output width
     const rows = readFileSync(csv, 'utf8').trim().split('\n');
-    expect(rows[0].split(',').slice(0, 6)).toEqual(['file', 'label', 'extent_x', 'extent_y', 'extent_z', 'e0']);
+    expect(rows[0].split(',').slice(0, 7)).toEqual(['file', 'label', 'extent_x', 'extent_y', 'extent_z', 'units', 'e0']);
     expect(rows.length).toBe(113);
     expect(JSON.parse(readFileSync(json, 'utf8')).parts[0].embedding.length).toBe(128);
   }, 120_000);

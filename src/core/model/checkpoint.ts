@@ -11,26 +11,8 @@ import { Encoder } from './encoder';
 import { inputChannels, validateEncoderConfig } from './encoder-config';
 import { disposeEncoders, type Encoders } from './embed';
 import { setWeights } from './trainer';
-import { memberPoses, type HeldOutCheck, type TrainConfig, type TrainStatus } from './train-config';
-import type { SamplingSettings } from '../library';
-
-export const CHECKPOINT_FORMAT = 'shapekin-encoder';
-export const CHECKPOINT_VERSION = 1;
-
-export interface RunManifest {
-  readonly format: typeof CHECKPOINT_FORMAT;
-  readonly version: typeof CHECKPOINT_VERSION;
-  readonly config: TrainConfig;
-  /** How library parts were sampled into clouds, so embeddings can be reproduced. */
-  readonly sampling: SamplingSettings;
-  readonly step: number;
-  readonly totalSteps: number;
-  readonly status: TrainStatus;
-  readonly backend: string;
-  readonly history: readonly { step: number; loss: number; lr: number }[];
-  readonly checks: readonly HeldOutCheck[];
-  readonly labelNames?: readonly string[];
-}
+import { memberPoses, type TrainConfig } from './train-config';
+import { CHECKPOINT_FORMAT, CHECKPOINT_VERSION, type ModelJson, type RunManifest } from './model-json';
 
 export interface Checkpoint {
   readonly manifest: RunManifest;
@@ -125,16 +107,6 @@ export function fromArtifacts(artifacts: tf.io.ModelArtifacts, where = 'checkpoi
   const step = Number((artifacts.userDefinedMetadata as { adamStep?: number } | undefined)?.adamStep ?? 0);
   const adam = hasAdam ? { step, m: names.map((n) => byName.get(`adam/m/${n}`)!), v: names.map((n) => byName.get(`adam/v/${n}`)!) } : null;
   return { manifest, weights, adam };
-}
-
-/** The JSON of a run folder's model.json (tfjs's model format). */
-export interface ModelJson {
-  readonly format?: string;
-  readonly generatedBy?: string;
-  readonly convertedBy?: string | null;
-  readonly modelTopology?: unknown;
-  readonly userDefinedMetadata?: unknown;
-  readonly weightsManifest?: readonly { readonly paths: readonly string[]; readonly weights: readonly tf.io.WeightsManifestEntry[] }[];
 }
 
 /** Artifacts from a parsed model.json and the bytes of the weight files it names, in order. */

@@ -74,7 +74,7 @@ export function pipelineFromJson(text: string): Pipeline {
   try {
     parsed = JSON.parse(text);
   } catch (err) {
-    throw new RangeError(`augmentation pipeline: not valid JSON (${(err as Error).message})`);
+    throw new RangeError(`augmentation pipeline: not valid JSON (${(err as Error).message})`, { cause: err });
   }
   const p = parsed as Pipeline;
   return validatePipeline({ version: p?.version, upAxis: p?.upAxis, steps: (p?.steps ?? []).map((s) => ({ kind: s.kind, strength: s.strength, probability: s.probability })) } as Pipeline);

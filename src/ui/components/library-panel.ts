@@ -6,7 +6,7 @@ import { unitsLabel } from '../../core/mesh/types';
 import { ACCEPT, FORMAT_NAMES } from '../../core/mesh/formats';
 import type { LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
-import type { ImportStatus } from '../status';
+import type { LibraryState } from '../state';
 
 export class SkLibraryPanel extends LitElement {
   static override properties = {
@@ -20,7 +20,7 @@ export class SkLibraryPanel extends LitElement {
 
   declare parts: readonly LibraryPart[];
   declare failures: readonly ImportFailure[];
-  declare status: ImportStatus;
+  declare status: LibraryState['status'];
   declare thumbnails: ReadonlyMap<string, string>;
   declare selected: string;
   declare filter: string;
@@ -92,12 +92,12 @@ export class SkLibraryPanel extends LitElement {
           Drop part files or whole folders here (${FORMAT_NAMES})
         </div>
       </div>
-      ${s.kind === 'importing' ? html`<progress max=${s.total} value=${s.done} aria-label="import progress"></progress>
-        <div class="summary">Reading ${s.done} of ${s.total}: ${s.file}</div>` : null}
+      ${s.kind === 'running' && s.progress ? html`<progress max=${s.progress.total} value=${s.progress.done} aria-label="import progress"></progress>
+        <div class="summary">Reading ${s.progress.done} of ${s.progress.total}: ${s.progress.what}</div>` : null}
       ${s.kind === 'failed' ? html`<div class="failures" role="alert">${s.message}</div>` : null}
       <div class="summary" data-testid="library-summary">
         ${this.parts.length} parts in ${families} folders${this.failures.length ? html`, <strong>${this.failures.length} files could not be read</strong>` : ''}
-        ${s.kind === 'ready' ? html` · read in ${(s.ms / 1000).toFixed(1)} s` : ''}
+        ${s.kind === 'done' && s.ms > 0 ? html` · read in ${(s.ms / 1000).toFixed(1)} s` : ''}
         <input type="search" placeholder="Filter by name or folder" aria-label="Filter parts" .value=${this.filter} @input=${(e: Event) => (this.filter = (e.target as HTMLInputElement).value)} />
       </div>
       ${this.failures.length ? html`<div class="failures" data-testid="failures">

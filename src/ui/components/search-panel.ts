@@ -7,26 +7,16 @@ import { ACCEPT } from '../../core/mesh/formats';
 import { LitElement, css, html } from 'lit';
 import type { Object3D } from 'three';
 import type { LibraryPart } from '../../core/library';
-import type { Ranking } from '../../core/retrieval/index';
+import { DEFAULT_FILTERS, type SearchFilters } from '../state';
 import type { Hit } from '../../core/retrieval/topk';
 import { meshObject, pointsObject, PALETTE } from '../controllers/scene';
 import { CameraLink } from '../controllers/viewer';
 import './viewer';
 
-export interface SearchFilters {
-  readonly k: number;
-  readonly sizeRatio: number | null;
-  readonly family: string;
-  /** Order: diffusion over the library's neighbour graph, or plain cosine similarity. */
-  readonly ranking: Ranking;
-}
-
-export const DEFAULT_FILTERS: SearchFilters = { k: 10, sizeRatio: null, family: '', ranking: 'diffusion' };
-
 export class SkSearchPanel extends LitElement {
   static override properties = {
     parts: { attribute: false }, query: { attribute: false }, hits: { attribute: false }, thumbnails: { attribute: false },
-    filters: { attribute: false }, families: { attribute: false }, source: { type: String }, chosen: { state: true }, busy: { type: Boolean }, diffusionApplies: { type: Boolean },
+    filters: { attribute: false }, families: { attribute: false }, source: { type: String }, chosen: { state: true }, busy: { type: Boolean }, failure: { type: String }, diffusionApplies: { type: Boolean },
   };
   declare parts: readonly LibraryPart[];
   declare query: LibraryPart | null;
@@ -37,6 +27,8 @@ export class SkSearchPanel extends LitElement {
   declare source: string;
   declare chosen: number;
   declare busy: boolean;
+  /** Why the library could not be embedded ('' : it could). */
+  declare failure: string;
   /** The embedding is spread out enough to order results through the library (else they follow cosine). */
   declare diffusionApplies: boolean;
   private readonly link = new CameraLink();
@@ -53,11 +45,13 @@ export class SkSearchPanel extends LitElement {
     this.source = '';
     this.chosen = 0;
     this.busy = false;
+    this.failure = '';
     this.diffusionApplies = true;
   }
 
   static override styles = css`
     :host { display: block; }
+    .error { color: #9b2c1f; }
     .bar { display: flex; gap: 12px; align-items: center; flex-wrap: wrap; margin-bottom: 10px; }
     select, input { font: inherit; padding: 4px 6px; border: 1px solid #b7ab96; border-radius: 4px; }
     label.button { font: inherit; padding: 5px 12px; border: 1px solid #1d2b33; background: #fff; border-radius: 4px; cursor: pointer; }
@@ -120,11 +114,12 @@ export class SkSearchPanel extends LitElement {
             ${this.families.map((fam) => html`<option value=${fam} ?selected=${f.family === fam}>${fam}</option>`)}
           </select></label>
         <label title="through the library: parts reached by chains of close neighbours come first (diffusion); or by similarity to the query alone">order
-          <select aria-label="Result order" @change=${(e: Event) => this.emit('search-filters', { ...f, ranking: (e.target as HTMLSelectElement).value as Ranking })}>
+          <select aria-label="Result order" @change=${(e: Event) => this.emit('search-filters', { ...f, ranking: (e.target as HTMLSelectElement).value as SearchFilters['ranking'] })}>
             ${([['diffusion', 'through the library'], ['cosine', 'by similarity alone']] as const).map(([v, t]) => html`<option value=${v} ?selected=${f.ranking === v}>${t}</option>`)}
           </select></label>
         ${f.ranking === 'diffusion' && !this.diffusionApplies ? html`<span class="small" data-testid="order-note">ordered by similarity: this embedding is too concentrated to order through the library (train a model)</span>` : null}
-        <span class="small">${this.busy ? 'embedding…' : this.source}</span>
+        <span class="small">${this.busy ? 'embedding the library…' : this.source}</span>
+        ${this.failure ? html`<span class="small error" role="alert">${this.failure}</span>` : null}
       </div>
       ${q ? html`<div class="main">
         <ol data-testid="search-results" aria-label="most similar parts">

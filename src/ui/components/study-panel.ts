@@ -10,12 +10,16 @@ const METHOD_COLOUR: Record<string, string> = { learned: '#c2571a', untrained: '
 
 export class SkStudyPanel extends LitElement {
   static override properties = {
-    report: { attribute: false }, rows: { attribute: false }, progress: { attribute: false }, busy: { type: Boolean }, hasModel: { type: Boolean }, measure: { state: true },
+    report: { attribute: false }, rows: { attribute: false }, progress: { attribute: false }, busy: { type: Boolean }, measuring: { type: Boolean }, failure: { type: String }, hasModel: { type: Boolean }, measure: { state: true },
   };
   declare report: EvaluationReport | null;
   declare rows: readonly StudyRow[];
   declare progress: { done: number; total: number; what: string } | null;
   declare busy: boolean;
+  /** The quality measurement is running (it reports no progress of its own). */
+  declare measuring: boolean;
+  /** Why the last measurement or study failed ('' : it did not). */
+  declare failure: string;
   declare hasModel: boolean;
   declare measure: 'instance_top1' | 'label_top1' | 'mean_similarity';
 
@@ -25,6 +29,8 @@ export class SkStudyPanel extends LitElement {
     this.rows = [];
     this.progress = null;
     this.busy = false;
+    this.measuring = false;
+    this.failure = '';
     this.hasModel = false;
     this.measure = 'instance_top1';
   }
@@ -45,6 +51,7 @@ export class SkStudyPanel extends LitElement {
     .key span { display: inline-flex; align-items: center; gap: 4px; margin-right: 12px; font-size: 13px; }
     .key i { width: 14px; height: 3px; display: inline-block; }
     progress { width: 260px; }
+    .error { color: #9b2c1f; margin: 0 0 10px; }
     .small { font-size: 12px; color: #5a6870; }
   `;
 
@@ -62,8 +69,10 @@ export class SkStudyPanel extends LitElement {
         <button ?disabled=${this.busy} @click=${() => this.emit('run-study')}>Run the augmentation study</button>
         <button ?disabled=${this.rows.length === 0} @click=${() => this.emit('export-study')}>Export the study table (CSV)</button>
         ${this.progress ? html`<progress max=${this.progress.total} value=${this.progress.done}></progress><span class="small">${this.progress.what}</span>` : null}
+        ${this.measuring ? html`<span class="small" role="status">Measuring retrieval quality: every part against every other, for each method…</span>` : null}
         ${this.hasModel ? null : html`<span class="small">No trained model yet: only the baselines are measured.</span>`}
       </div>
+      ${this.failure ? html`<div class="error" role="alert">${this.failure}</div>` : null}
       ${r ? html`<table data-testid="metrics-table" aria-label="retrieval quality, leave-one-out">
           <tr><th>method (${r.parts} parts, ${r.labels} folders)</th><th>NN</th><th>1st tier</th><th>2nd tier</th><th>DCG</th><th>mAP</th><th>P@5</th></tr>
           ${Object.entries(r.methods).map(([m, v]) => html`<tr><td>${m.replace('+diffusion', ', ordered through the library')}</td>${[v.nn, v.first_tier, v.second_tier, v.dcg, v.map, v.p_at_5].map((x) => html`<td>${x.toFixed(3)}</td>`)}</tr>`)}

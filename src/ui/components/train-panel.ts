@@ -8,7 +8,7 @@ import type { TrainConfig, TrainProgress, HeldOutCheck } from '../../core/model/
 import { PRESETS } from '../../core/points/augment';
 import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../../core/model/encoder-config';
 import { memberPoses, POSE_LABELS, POSES } from '../../core/model/train-config';
-import type { TrainStatusView } from '../status';
+import { isBusy, type TrainingState } from '../state';
 import './loss-chart';
 
 export class SkTrainPanel extends LitElement {
@@ -20,7 +20,7 @@ export class SkTrainPanel extends LitElement {
     poseNote: { type: String },
   };
   declare config: TrainConfig;
-  declare status: TrainStatusView;
+  declare status: TrainingState['status'];
   declare progress: TrainProgress | null;
   declare history: readonly { step: number; loss: number }[];
   declare checks: readonly HeldOutCheck[];
@@ -80,7 +80,7 @@ export class SkTrainPanel extends LitElement {
   protected override render() {
     const c = this.config;
     const s = this.status;
-    const busy = s.kind === 'running' || s.kind === 'paused' || s.kind === 'starting';
+    const busy = isBusy(s);
     const p = this.progress;
     const stepsPerEpoch = Math.max(1, Math.floor(this.partCount / Math.max(2, Math.min(c.batchSize, this.partCount))));
     const members = memberPoses(c.pose).length;
@@ -124,7 +124,7 @@ export class SkTrainPanel extends LitElement {
       <div>
         <progress max=${p?.totalSteps ?? 1} value=${p?.step ?? 0} aria-label="training progress"></progress>
         <div class="stats" data-testid="train-stats">
-          ${statusLine(s)}${p ? html` · step ${p.step} of ${p.totalSteps}${p.members > 1 ? ` (encoder ${p.member + 1} of ${p.members}: ${POSE_LABELS[memberPoses(c.pose)[p.member] ?? c.pose]})` : ''} · loss ${p.loss.toFixed(4)} · ${p.samplesPerSec.toFixed(1)} parts/s · ${p.msPerStep.toFixed(0)} ms a step · ${formatEta(p.etaSec)} left · lr ${p.learningRate.toExponential(1)}` : ''}
+          ${statusLine(s, p !== null)}${p ? html` · step ${p.step} of ${p.totalSteps}${p.members > 1 ? ` (encoder ${p.member + 1} of ${p.members}: ${POSE_LABELS[memberPoses(c.pose)[p.member] ?? c.pose]})` : ''} · loss ${p.loss.toFixed(4)} · ${p.samplesPerSec.toFixed(1)} parts/s · ${p.msPerStep.toFixed(0)} ms a step · ${formatEta(p.etaSec)} left · lr ${p.learningRate.toExponential(1)}` : ''}
           ${this.backend ? html` · backend ${this.backend}` : ''}
         </div>
         ${s.kind === 'failed' ? html`<div class="error" role="alert">${s.message}</div>` : null}
@@ -135,13 +135,13 @@ export class SkTrainPanel extends LitElement {
   }
 }
 
-function statusLine(s: TrainStatusView): string {
+function statusLine(s: TrainingState['status'], stepped: boolean): string {
   switch (s.kind) {
     case 'idle': return 'not started';
-    case 'starting': return 'starting the worker…';
-    case 'running': return 'training';
+    case 'running': return s.progress || stepped ? 'training' : 'starting the worker…';
     case 'paused': return 'paused';
-    case 'done': return `finished (${s.result})`;
+    case 'done': return s.early ? 'finished early: the held-out check stopped improving' : 'finished';
+    case 'cancelled': return 'stopped';
     case 'failed': return 'stopped with an error';
   }
 }

@@ -88,7 +88,6 @@ export class TrainClient {
     }
   }
 
-  /** Median ms of the reference step timed inside the worker. */
   dispose(): void {
     this.worker?.terminate();
     this.worker = null;

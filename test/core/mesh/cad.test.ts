@@ -23,7 +23,7 @@ const DIR = fileURLToPath(new URL('../../fixtures/kicad/', import.meta.url));
 const NAMES = readdirSync(DIR).filter((f) => f.endsWith('.step')).map((f) => f.slice(0, -5)).sort();
 const KICAD_VRML_UNIT_MM = 2.54;
 
-let printed: string[] = [];
+const printed: string[] = [];
 beforeAll(async () => {
   await loadCadReader();
   const keep = (...a: unknown[]) => { printed.push(a.map(String).join(' ').slice(0, 200)); return true; };

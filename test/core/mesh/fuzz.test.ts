@@ -105,7 +105,7 @@ describe(`mutation fuzzing: up to ${MUTATIONS_PER_FILE} seeded mutations of each
         for (const v of part.points) expect(Number.isFinite(v)).toBe(true);
         outcomes.imported++;
       } catch (err) {
-        if (!(err instanceof MeshImportError)) throw new Error(`mutation ${i} of ${name} threw ${String(err)} (bytes: ${Buffer.from(input).toString('base64')})`);
+        if (!(err instanceof MeshImportError)) throw new Error(`mutation ${i} of ${name} threw ${String(err)} (bytes: ${Buffer.from(input).toString('base64')})`, { cause: err });
         expect(err.file).toBe(name);
         expect(err.reason, `mutation ${i}: ${err.reason}`).not.toMatch(RAW_JS);
         outcomes.refused++;

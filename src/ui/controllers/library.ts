@@ -1,0 +1,150 @@
+// The library job: restore the saved library or load the demo, import files through the import workers,
+// keep the result in IndexedDB, and draw thumbnails a few at a time between frames.
+
+import { FORMAT_NAMES } from '../../core/mesh/formats';
+import { DEFAULT_SAMPLING, type LibraryPart } from '../../core/library';
+import type { ImportFailure } from '../../core/mesh/import';
+import { POOL_POINTS } from '../../core/model/defaults';
+import type { FileInput } from '../../worker/protocol';
+import { fetchDemoLibrary } from '../demo-library';
+import { readFiles, type NamedFile } from '../files';
+import { IDLE, type AppState, type Store } from '../state';
+import { LibraryClient, type TimeLimits } from './library-client';
+import { loadLibrary as loadStoredLibrary, saveLibrary } from './library-db';
+import { thumbnail } from './thumbnails';
+
+/** How library parts are sampled: the pool views draw from, and the seed. */
+export const SAMPLING = { ...DEFAULT_SAMPLING, points: POOL_POINTS };
+
+export interface LibraryEvents {
+  /** The set of parts changed (an import ended, the library was emptied or restored). */
+  onChanged(): void;
+}
+
+export class LibraryController {
+  private readonly client = new LibraryClient();
+  private thumbQueue: LibraryPart[] = [];
+  private thumbTimer = 0;
+
+  constructor(
+    private readonly store: Store<AppState>,
+    private readonly events: LibraryEvents,
+  ) {}
+
+  /** How long one file may take to read before its worker is stopped (tests shorten it). */
+  set timeLimits(limits: TimeLimits) {
+    this.client.timeLimits = limits;
+  }
+
+  private get state() {
+    return this.store.value.library;
+  }
+
+  /** The saved library, or the demo library on first start. */
+  async restore(): Promise<void> {
+    const stored = await loadStoredLibrary();
+    if (!stored || stored.parts.length === 0) return this.loadDemo();
+    this.store.patch('library', { parts: stored.parts, failures: stored.failures, selected: stored.parts[0].name, status: { kind: 'done', ms: 0 } });
+    stored.parts.forEach((p) => this.queueThumbnail(p));
+    this.events.onChanged();
+  }
+
+  async loadDemo(): Promise<void> {
+    this.store.patch('library', { parts: [], failures: [], thumbnails: new Map(), status: { kind: 'running', progress: { done: 0, total: 1, what: 'fetching the demo library' } } });
+    try {
+      await this.importInputs(await fetchDemoLibrary(), [], 'demo');
+    } catch (err) {
+      this.store.patch('library', { status: { kind: 'failed', message: `The demo library could not be loaded: ${(err as Error).message}` } });
+    }
+  }
+
+  async add(named: NamedFile[]): Promise<void> {
+    const { inputs, skipped } = await readFiles(named);
+    const refused = skipped.map((file): ImportFailure => ({ file, code: 'unsupported-type', reason: `not a file Shapekin reads (${FORMAT_NAMES})` }));
+    await this.importInputs(inputs, refused, 'user');
+  }
+
+  clear(): void {
+    this.store.patch('library', { parts: [], failures: [], thumbnails: new Map(), selected: '', status: IDLE });
+    void saveLibrary({ parts: [], failures: [], source: 'user' });
+    this.events.onChanged();
+  }
+
+  select(name: string): LibraryPart | null {
+    this.store.patch('library', { selected: name });
+    return this.state.parts.find((p) => p.name === name) ?? null;
+  }
+
+  /** Samples one file that is not added to the library (a query from elsewhere); its failure goes to `onFailure`. */
+  async readOne(file: File, onFailure: (f: ImportFailure) => void): Promise<LibraryPart | null> {
+    let found: LibraryPart | null = null;
+    await this.client.importFiles([{ name: file.name, buffer: await file.arrayBuffer() }], SAMPLING, {
+      onPart: (p) => (found = p),
+      onFailure,
+      onProgress: () => {},
+    });
+    if (found) this.queueThumbnail(found);
+    return found;
+  }
+
+  private async importInputs(inputs: FileInput[], refused: ImportFailure[], source: 'demo' | 'user'): Promise<void> {
+    const incoming = new Set(inputs.map((f) => f.name));
+    // Parts arrive one by one; they are collected here and handed to the store in batches, so a library of
+    // thousands does not copy its list once per part.
+    const parts = this.state.parts.filter((p) => !incoming.has(p.name));
+    const failures = [...this.state.failures.filter((f) => !incoming.has(f.file)), ...refused];
+    this.store.patch('library', { parts: [...parts], failures: [...failures] });
+    if (inputs.length === 0) {
+      this.store.patch('library', { status: { kind: 'done', ms: 0 } });
+      return;
+    }
+    this.store.patch('library', { status: { kind: 'running', progress: { done: 0, total: inputs.length, what: inputs[0].name } } });
+    let flushAt = 0;
+    const flush = (progress: { done: number; total: number; what: string } | null) => {
+      flushAt = performance.now();
+      const selected = this.state.selected || parts[0]?.name || '';
+      this.store.patch('library', { parts: [...parts], failures: [...failures], selected, ...(progress ? { status: { kind: 'running', progress } } : {}) });
+    };
+    try {
+      const ms = await this.client.importFiles(inputs, SAMPLING, {
+        onPart: (part) => {
+          parts.push(part);
+          this.queueThumbnail(part);
+        },
+        onFailure: (failure) => failures.push(failure),
+        onProgress: (done, total, what) => {
+          if (performance.now() - flushAt > 100 || done === total) flush({ done, total, what });
+        },
+      });
+      flush(null);
+      this.store.patch('library', { status: { kind: 'done', ms } });
+      await saveLibrary({ parts, failures, source });
+      this.events.onChanged();
+    } catch (err) {
+      if ((err as Error).message !== 'superseded') this.store.patch('library', { status: { kind: 'failed', message: (err as Error).message } });
+    }
+  }
+
+  private queueThumbnail(part: LibraryPart): void {
+    this.thumbQueue.push(part);
+    if (this.thumbTimer) return;
+    // A few thumbnails per task (about 30 ms of drawing), then one update: the page stays responsive and the
+    // map of thumbnails is copied once per batch, not once per part.
+    const step = () => {
+      const t0 = performance.now();
+      const drawn = new Map(this.state.thumbnails);
+      while (this.thumbQueue.length && performance.now() - t0 < 30) {
+        const next = this.thumbQueue.shift()!;
+        drawn.set(next.name, thumbnail(next));
+      }
+      this.store.patch('library', { thumbnails: drawn });
+      this.thumbTimer = this.thumbQueue.length ? window.setTimeout(step, 0) : 0;
+    };
+    this.thumbTimer = window.setTimeout(step, 0);
+  }
+
+  dispose(): void {
+    this.client.dispose();
+    clearTimeout(this.thumbTimer);
+  }
+}

@@ -1,0 +1,54 @@
+// The measurement jobs: retrieval quality against the baselines, and the augmentation study, both in the
+// training worker; and the study's CSV export.
+
+import { csvField } from '../../core/csv';
+import { STARTED, type AppState, type MeasureState, type Store } from '../state';
+import { download } from './download';
+import type { TrainingController } from './training';
+
+/** Three strengths keep the browser study to a few minutes; `shapekin study` runs five. */
+const STUDY_STRENGTHS = [0, 0.5, 1];
+
+export class MeasureController {
+  constructor(
+    private readonly store: Store<AppState>,
+    private readonly training: TrainingController,
+  ) {}
+
+  private patch(p: Partial<MeasureState>): void {
+    this.store.patch('measure', p);
+  }
+
+  private inputs() {
+    const parts = this.store.value.library.parts;
+    return { parts: parts.map((p) => ({ points: p.points, normals: p.normals })), labels: parts.map((p) => p.label), ...this.training.state };
+  }
+
+  async measureQuality(): Promise<void> {
+    this.patch({ status: STARTED });
+    try {
+      const { parts, labels, model, config } = this.inputs();
+      this.patch({ report: await this.training.client.evaluate(parts, labels, model, config), status: { kind: 'done' } });
+    } catch (err) {
+      this.patch({ status: { kind: 'failed', message: `Quality not measured: ${(err as Error).message}` } });
+    }
+  }
+
+  async runStudy(): Promise<void> {
+    this.patch({ study: { kind: 'running', progress: { done: 0, total: 1, what: 'starting' } } });
+    try {
+      const { parts, labels, model, config } = this.inputs();
+      const rows = await this.training.client.study(parts, labels, model, config, (done, total, what) => this.patch({ study: { kind: 'running', progress: { done, total, what } } }), STUDY_STRENGTHS);
+      this.patch({ rows, study: { kind: 'done' } });
+    } catch (err) {
+      this.patch({ study: { kind: 'failed', message: `Study not run: ${(err as Error).message}` } });
+    }
+  }
+
+  exportStudy(): void {
+    const keys = ['augmentation', 'strength', 'method', 'instance_top1', 'label_top1', 'mean_similarity', 'mean_chamfer'] as const;
+    const rows = this.store.value.measure.rows;
+    const lines = [keys.join(','), ...rows.map((r) => keys.map((k) => csvField(String(r[k]))).join(','))];
+    download(new Blob([lines.join('\n') + '\n'], { type: 'text/csv' }), 'augmentation-study.csv');
+  }
+}

@@ -1,0 +1,111 @@
+// The look-alike job: embeddings of the whole library with the current model (or the untrained encoder before
+// any training), kept in IndexedDB and reused after a reload when model and parts are unchanged; the index over
+// them; and the ranked results for a query from the library or from a file.
+
+import type { LibraryPart } from '../../core/library';
+import { EmbeddingIndex } from '../../core/retrieval/index';
+import { IDLE, STARTED, type AppState, type SearchFilters, type SearchState, type Store } from '../state';
+import { loadEmbeddings, saveEmbeddings } from './library-db';
+import type { LibraryController } from './library';
+import type { TrainingController } from './training';
+
+export class SearchController {
+  private version = 0;
+  private last: { vector: ArrayLike<number>; exclude: number } | null = null;
+
+  constructor(
+    private readonly store: Store<AppState>,
+    private readonly training: TrainingController,
+    private readonly library: LibraryController,
+  ) {}
+
+  private get state(): SearchState {
+    return this.store.value.search;
+  }
+
+  private patch(p: Partial<SearchState>): void {
+    this.store.patch('search', p);
+  }
+
+  private modelKey(): string {
+    const { model, config } = this.training.state;
+    const m = model?.manifest;
+    return m ? `run ${m.step}/${m.totalSteps} ${m.status} loss ${m.history[m.history.length - 1]?.loss ?? ''}` : `untrained ${JSON.stringify(config.encoder)} ${config.seed}`;
+  }
+
+  /** Re-embed the library (or reuse the stored embeddings), then repeat the current search. */
+  async refresh(): Promise<void> {
+    const parts = this.store.value.library.parts;
+    const version = ++this.version;
+    if (parts.length === 0) {
+      this.patch({ index: null, hits: [], query: null, status: IDLE });
+      return;
+    }
+    this.patch({ status: STARTED });
+    try {
+      const key = this.modelKey();
+      const stored = await loadEmbeddings();
+      let vectors: Float32Array, dim: number;
+      if (stored && stored.model === key && stored.names.length === parts.length && stored.names.every((n, i) => n === parts[i].name)) {
+        ({ vectors, dim } = stored);
+      } else {
+        const { model, config } = this.training.state;
+        ({ vectors, dim } = await this.training.client.embed(parts.map((p) => ({ points: p.points, normals: p.normals })), model, config));
+        if (version === this.version) await saveEmbeddings({ model: key, names: parts.map((p) => p.name), vectors, dim });
+      }
+      if (version !== this.version) return;
+      const index = new EmbeddingIndex(vectors, dim, parts.map((p) => ({ name: p.name, label: p.label, diagonal: p.diagonal })));
+      const selected = this.store.value.library.selected;
+      const query = this.state.query ?? parts.find((p) => p.name === selected) ?? parts[0];
+      this.patch({ index, query, status: { kind: 'done' } });
+      this.searchLibraryPart(query);
+    } catch (err) {
+      if (version === this.version) this.patch({ status: { kind: 'failed', message: `Embedding failed: ${(err as Error).message}` } });
+    }
+  }
+
+  /** Results for a part: from the library (its stored embedding) or from elsewhere (embedded now). */
+  async searchFor(part: LibraryPart): Promise<void> {
+    this.patch({ query: part });
+    const parts = this.store.value.library.parts;
+    if (parts.some((p) => p.name === part.name)) return this.searchLibraryPart(part);
+    if (!this.state.index) return;
+    const { model, config } = this.training.state;
+    const { vectors } = await this.training.client.embed([{ points: part.points, normals: part.normals }], model, config);
+    this.rank(vectors, -1);
+  }
+
+  /** A file from outside the library as the query; a file that cannot be read says why in the notice. */
+  async searchFile(file: File): Promise<void> {
+    const part = await this.library.readOne(file, (f) => this.store.set({ notice: `${f.file}: ${f.reason}` }));
+    if (part) {
+      this.store.set({ notice: '' });
+      await this.searchFor(part);
+    }
+  }
+
+  setFilters(filters: SearchFilters): void {
+    this.patch({ filters });
+    if (this.last) this.rank(this.last.vector, this.last.exclude);
+  }
+
+  private searchLibraryPart(part: LibraryPart): void {
+    const index = this.state.index;
+    if (!index) return;
+    const i = this.store.value.library.parts.findIndex((p) => p.name === part.name);
+    if (i >= 0) this.rank(index.vector(i), i);
+  }
+
+  private rank(vector: ArrayLike<number>, exclude: number): void {
+    const { index, query, filters: f } = this.state;
+    if (!index || !query) return;
+    this.last = { vector: Array.from(vector), exclude };
+    // ranked() orders by cosine instead where the embedding is too concentrated for diffusion (e.g. untrained).
+    const hits = index.ranked(f.ranking, vector, f.k, {
+      exclude,
+      ...(f.sizeRatio ? { sizeRatio: f.sizeRatio, queryDiagonal: query.diagonal } : {}),
+      ...(f.family ? { labels: [f.family] } : {}),
+    });
+    this.patch({ hits });
+  }
+}

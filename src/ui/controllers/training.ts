@@ -1,0 +1,172 @@
+// The training job: settings that follow the library until the user picks them, start / pause / resume / stop /
+// continue in the training worker, progress, and the saved model (restore, import, export). The worker client
+// is shared with the embedding and measurement jobs, which run in the same worker between training runs.
+
+import { defaultEpochs, defaultInputs, defaultPose, libraryTraits, type LibraryTraits } from '../../core/model/defaults';
+import { modelJsonFor, readModelJson, WEIGHTS_FILE, type ModelJson } from '../../core/model/model-json';
+import type { TrainConfig } from '../../core/model/train-config';
+import type { LibraryPart } from '../../core/library';
+import type { CheckpointMessage } from '../../worker/protocol';
+import { STARTED, type AppState, type Store, type TrainingState } from '../state';
+import { download } from './download';
+import { SAMPLING } from './library';
+import { TrainClient } from './train-client';
+
+export interface TrainingEvents {
+  /** The model changed (a run ended, a model was imported): embeddings must follow. */
+  onModelChanged(): void;
+}
+
+export class TrainingController {
+  readonly client = new TrainClient();
+  private chosen = { inputs: false, epochs: false, pose: false };
+  private traitsMemo: { parts: readonly LibraryPart[]; traits: LibraryTraits } | null = null;
+
+  constructor(
+    private readonly store: Store<AppState>,
+    private readonly events: TrainingEvents,
+  ) {
+    this.client.on((msg) => {
+      if (msg.id !== this.client.runId) return;
+      const t = this.state;
+      if (msg.type === 'backend') this.patch({ backend: msg.backend });
+      else if (msg.type === 'progress') {
+        this.patch({ progress: msg.progress, status: { kind: 'running', progress: { done: msg.progress.step, total: msg.progress.totalSteps, what: 'training' } }, history: [...t.history, { step: msg.progress.step, loss: msg.progress.loss }] });
+      } else if (msg.type === 'check') this.patch({ checks: [...t.checks, msg.check] });
+      else if (msg.type === 'status') this.patch({ status: msg.status === 'paused' ? { kind: 'paused' } : { kind: 'running', progress: null } });
+      else if (msg.type === 'checkpoint') this.patch({ model: msg.checkpoint });
+      else if (msg.type === 'done') {
+        const r = msg.result;
+        this.patch({
+          status: r.status === 'failed' ? { kind: 'failed', message: r.message ?? 'training failed' } : r.status === 'cancelled' ? { kind: 'cancelled' } : { kind: 'done', early: r.status === 'stopped-early' },
+        });
+        this.events.onModelChanged();
+      } else if (msg.type === 'error') this.patch({ status: { kind: 'failed', message: msg.message } });
+    });
+  }
+
+  get state(): TrainingState {
+    return this.store.value.training;
+  }
+
+  private patch(p: Partial<TrainingState>): void {
+    this.store.patch('training', p);
+  }
+
+  /** What the defaults read from the library (closed meshes, how square parts sit in their files), once per library. */
+  traits(): LibraryTraits {
+    const parts = this.store.value.library.parts;
+    if (this.traitsMemo?.parts !== parts) this.traitsMemo = { parts, traits: libraryTraits(parts) };
+    return this.traitsMemo.traits;
+  }
+
+  /** The model the worker kept (IndexedDB), if any; a notice says what was restored. */
+  async restore(): Promise<void> {
+    try {
+      const saved = await this.client.loadSaved();
+      if (!saved) return;
+      const m = saved.manifest;
+      this.patch({ model: saved, config: m.config, pipeline: m.config.pipeline, history: m.history.map((h) => ({ step: h.step, loss: h.loss })), checks: [...m.checks] });
+      const unfinished = m.step < m.totalSteps && m.status !== 'done' && m.status !== 'stopped-early';
+      this.store.set({
+        notice: unfinished
+          ? `Restored the saved model: training stopped at step ${m.step} of ${m.totalSteps}. Continue it on the Training tab.`
+          : `Restored the saved model (${m.step} training steps).`,
+      });
+    } catch (err) {
+      this.store.set({ notice: `The saved model could not be read: ${(err as Error).message}` });
+    }
+  }
+
+  /**
+   * Until a model exists or the user picks them, inputs, pose and epochs follow the library: normals only if mostly
+   * closed, the files' own frame if most parts sit square in it, and fewer epochs on a large library (a step budget).
+   */
+  followLibrary(): void {
+    const parts = this.store.value.library.parts;
+    if (this.state.model || parts.length === 0) return;
+    const traits = this.traits();
+    let config = this.state.config;
+    const inputFeatures = defaultInputs(traits.closed);
+    const pose = defaultPose(traits.boxRatios);
+    if (!this.chosen.pose && pose !== config.pose) config = { ...config, pose };
+    if (!this.chosen.inputs && inputFeatures !== config.encoder.inputFeatures) config = { ...config, encoder: { ...config.encoder, inputFeatures } };
+    const epochs = defaultEpochs(parts.length, config.batchSize);
+    if (!this.chosen.epochs && epochs !== config.epochs) config = { ...config, epochs };
+    if (config !== this.state.config) this.patch({ config });
+  }
+
+  /** The user changed the settings: what they set no longer follows the library. */
+  configure(config: TrainConfig): void {
+    const old = this.state.config;
+    if (config.encoder.inputFeatures !== old.encoder.inputFeatures) this.chosen.inputs = true;
+    if (config.epochs !== old.epochs) this.chosen.epochs = true;
+    if (config.pose !== old.pose) this.chosen.pose = true;
+    this.patch({ config, pipeline: config.pipeline });
+  }
+
+  start(config: TrainConfig, resume?: CheckpointMessage): void {
+    const parts = this.store.value.library.parts;
+    this.patch({ config, status: STARTED, progress: null, ...(resume ? {} : { history: [], checks: [] }) });
+    this.store.set({ notice: '' });
+    const labels = config.loss.name === 'supervised-contrastive' ? labelIds(parts) : null;
+    this.client.start(parts.map((p) => ({ points: p.points, normals: p.normals })), labels, config, SAMPLING, resume);
+  }
+
+  continueSaved(): void {
+    const m = this.state.model;
+    if (m) this.start(m.manifest.config, m);
+  }
+
+  pause(): void {
+    this.client.pause();
+  }
+  resume(): void {
+    this.client.resume();
+  }
+  stop(): void {
+    this.client.cancel();
+  }
+
+  /** A model exported elsewhere (model.json + weights.bin), checked, kept as the current model. */
+  async importModel(files: File[]): Promise<void> {
+    try {
+      const jsonFile = files.find((f) => f.name.endsWith('.json'));
+      const binFile = files.find((f) => f.name.endsWith('.bin'));
+      if (!jsonFile || !binFile) throw new Error('choose both model.json and weights.bin from a run folder');
+      let json: ModelJson;
+      try {
+        json = JSON.parse(await jsonFile.text());
+      } catch (err) {
+        throw new Error(`${jsonFile.name} is not valid JSON (${(err as Error).message})`, { cause: err });
+      }
+      const weightData = await binFile.arrayBuffer();
+      const { manifest, weightSpecs, adamStep } = readModelJson(json, weightData, jsonFile.name);
+      const ckpt: CheckpointMessage = { manifest, weightSpecs, weightData, adamStep };
+      await this.client.save(ckpt);
+      this.patch({ model: ckpt, config: manifest.config, pipeline: manifest.config.pipeline, history: manifest.history.map((h) => ({ step: h.step, loss: h.loss })), checks: [...manifest.checks] });
+      this.store.set({ notice: `Imported a model trained elsewhere (${manifest.step} steps, backend ${manifest.backend}).` });
+      this.events.onModelChanged();
+    } catch (err) {
+      this.store.set({ notice: `Model not imported: ${(err as Error).message}` });
+    }
+  }
+
+  exportModel(): void {
+    const m = this.state.model;
+    if (!m) return;
+    const json = modelJsonFor(m.manifest, m.weightSpecs, m.weightData, m.adamStep);
+    download(new Blob([JSON.stringify(json)], { type: 'application/json' }), 'model.json');
+    download(new Blob([m.weightData.slice(0)]), WEIGHTS_FILE);
+  }
+
+  dispose(): void {
+    this.client.dispose();
+  }
+}
+
+/** Folder labels as small whole numbers (sorted names), for the supervised loss. */
+function labelIds(parts: readonly LibraryPart[]): number[] {
+  const names = [...new Set(parts.map((p) => p.label))].sort();
+  return parts.map((p) => names.indexOf(p.label));
+}

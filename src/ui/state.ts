@@ -1,0 +1,127 @@
+// The workbench's state: one store that controllers write and the shell reads, and a closed status per long
+// job (import, training, embedding, measurement, study), so a panel can only show what is true.
+
+import type { LibraryPart } from '../core/library';
+import type { ImportFailure } from '../core/mesh/import';
+import type { TrainConfig, HeldOutCheck, TrainProgress } from '../core/model/train-config';
+import type { Pipeline } from '../core/points/augment';
+import type { EvaluationReport } from '../core/quality/evaluate';
+import type { StudyRow } from '../core/quality/study';
+import type { EmbeddingIndex, Ranking } from '../core/retrieval/index';
+import type { Hit } from '../core/retrieval/topk';
+import type { CheckpointMessage } from '../worker/protocol';
+
+export interface Progress {
+  readonly done: number;
+  readonly total: number;
+  /** What is being worked on, in plain words (a file name, an augmentation). */
+  readonly what: string;
+}
+
+/**
+ * Where a long job is. `running` without progress: started, nothing reported yet. `done` carries what the job
+ * wants to say about its end (e.g. how long an import took).
+ */
+export type JobStatus<Done extends object = object> =
+  | { readonly kind: 'idle' }
+  | { readonly kind: 'running'; readonly progress: Progress | null }
+  | { readonly kind: 'paused' }
+  | ({ readonly kind: 'done' } & Done)
+  | { readonly kind: 'failed'; readonly message: string }
+  | { readonly kind: 'cancelled' };
+
+export const IDLE = { kind: 'idle' } as const;
+export const STARTED = { kind: 'running', progress: null } as const;
+
+export function isBusy(s: JobStatus): boolean {
+  return s.kind === 'running' || s.kind === 'paused';
+}
+
+export type Panel = 'library' | 'augment' | 'train' | 'search' | 'map' | 'study';
+
+export interface SearchFilters {
+  readonly k: number;
+  /** Keep results whose size is within this factor of the query's (null: any size). */
+  readonly sizeRatio: number | null;
+  /** Keep results from this folder only ('' : all folders). */
+  readonly family: string;
+  readonly ranking: Ranking;
+}
+
+export const DEFAULT_FILTERS: SearchFilters = { k: 10, sizeRatio: null, family: '', ranking: 'diffusion' };
+
+export interface LibraryState {
+  readonly parts: readonly LibraryPart[];
+  readonly failures: readonly ImportFailure[];
+  readonly status: JobStatus<{ readonly ms: number }>;
+  readonly thumbnails: ReadonlyMap<string, string>;
+  readonly selected: string;
+}
+
+export interface TrainingState {
+  readonly config: TrainConfig;
+  readonly pipeline: Pipeline;
+  /** `early`: stopped by the held-out check rather than at the last step. */
+  readonly status: JobStatus<{ readonly early: boolean }>;
+  readonly progress: TrainProgress | null;
+  readonly history: readonly { step: number; loss: number }[];
+  readonly checks: readonly HeldOutCheck[];
+  readonly backend: string;
+  /** The saved model (the worker keeps it in IndexedDB), or null before any training. */
+  readonly model: CheckpointMessage | null;
+}
+
+export interface SearchState {
+  readonly index: EmbeddingIndex | null;
+  readonly query: LibraryPart | null;
+  readonly hits: readonly Hit[];
+  readonly filters: SearchFilters;
+  /** Embedding the library with the current model. */
+  readonly status: JobStatus;
+}
+
+export interface MeasureState {
+  readonly report: EvaluationReport | null;
+  readonly status: JobStatus;
+  readonly rows: readonly StudyRow[];
+  readonly study: JobStatus;
+}
+
+export interface AppState {
+  readonly panel: Panel;
+  /** One line for the user (a restored model, an import that failed); '' for none. */
+  readonly notice: string;
+  readonly library: LibraryState;
+  readonly training: TrainingState;
+  readonly search: SearchState;
+  readonly measure: MeasureState;
+}
+
+type Listener<S> = (state: S) => void;
+
+/** A value replaced (never mutated) slice by slice; listeners hear every change. */
+export class Store<S extends object> {
+  private listeners = new Set<Listener<S>>();
+
+  constructor(private state: S) {}
+
+  get value(): S {
+    return this.state;
+  }
+
+  /** Replace top-level fields of the state. */
+  set(patch: Partial<S>): void {
+    this.state = { ...this.state, ...patch };
+    for (const l of this.listeners) l(this.state);
+  }
+
+  /** Replace fields of one slice (an object-valued field). */
+  patch<K extends keyof S>(key: K, patch: Partial<S[K]>): void {
+    this.set({ [key]: { ...this.state[key], ...patch } } as unknown as Partial<S>);
+  }
+
+  subscribe(listener: Listener<S>): () => void {
+    this.listeners.add(listener);
+    return () => this.listeners.delete(listener);
+  }
+}
