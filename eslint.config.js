@@ -5,7 +5,10 @@ import js from '@eslint/js';
 import globals from 'globals';
 import tseslint from 'typescript-eslint';
 
-const noResearch = { group: ['**/research/**'], message: 'research/ is the lab: the product and its tests do not import it.' };
+const noResearch = {
+  group: ['**/research/**'],
+  message: 'research/ is the lab: the product and its tests do not import it.',
+};
 
 /** Core modules that import @tensorflow/tfjs (directly or through another): the page may import their types only. */
 const TFJS_CORE = [
@@ -28,9 +31,15 @@ const TFJS_CORE = [
 
 /** What no core module imports. */
 const CORE = [
-  { group: ['**/ui/**', '**/worker/**', '**/cli/**'], message: 'core is used by ui, worker and cli; it does not import them.' },
+  {
+    group: ['**/ui/**', '**/worker/**', '**/cli/**'],
+    message: 'core is used by ui, worker and cli; it does not import them.',
+  },
   { group: ['lit', 'lit/*'], message: 'core has no UI.' },
-  { group: ['node:*'], message: 'core runs in the browser too: no Node modules (the cli reads files and hands core bytes).' },
+  {
+    group: ['node:*'],
+    message: 'core runs in the browser too: no Node modules (the cli reads files and hands core bytes).',
+  },
 ];
 
 const restrict = (...patterns) => ['error', { patterns: [noResearch, ...patterns] }];
@@ -43,7 +52,10 @@ export default tseslint.config(
     languageOptions: { globals: { ...globals.browser, ...globals.node, ...globals.worker } },
     rules: {
       // `_name` marks a value left unused on purpose (e.g. a field dropped by destructuring).
-      '@typescript-eslint/no-unused-vars': ['error', { argsIgnorePattern: '^_', varsIgnorePattern: '^_', caughtErrors: 'none' }],
+      '@typescript-eslint/no-unused-vars': [
+        'error',
+        { argsIgnorePattern: '^_', varsIgnorePattern: '^_', caughtErrors: 'none' },
+      ],
       '@typescript-eslint/no-restricted-imports': restrict(),
     },
   },
@@ -69,9 +81,20 @@ export default tseslint.config(
     files: ['src/ui/**/*.ts'],
     rules: {
       '@typescript-eslint/no-restricted-imports': restrict(
-        { group: ['@tensorflow/*'], message: 'the page never loads tfjs: training and embedding run in the training worker.' },
-        { group: TFJS_CORE, allowTypeImports: true, message: 'this core module loads tfjs: the page may import its types only (import type).' },
-        { regex: 'core/model/losses$', allowTypeImports: true, message: 'the loss registry loads tfjs: the page reads losses/names.' },
+        {
+          group: ['@tensorflow/*'],
+          message: 'the page never loads tfjs: training and embedding run in the training worker.',
+        },
+        {
+          group: TFJS_CORE,
+          allowTypeImports: true,
+          message: 'this core module loads tfjs: the page may import its types only (import type).',
+        },
+        {
+          regex: 'core/model/losses$',
+          allowTypeImports: true,
+          message: 'the loss registry loads tfjs: the page reads losses/names.',
+        },
         { group: ['**/cli/**', 'node:*'], message: 'the page does not use the command line or Node.' },
       ),
     },
@@ -79,13 +102,19 @@ export default tseslint.config(
   {
     files: ['src/worker/**/*.ts'],
     rules: {
-      '@typescript-eslint/no-restricted-imports': restrict({ group: ['**/ui/**', '**/cli/**', 'lit', 'lit/*'], message: 'workers do heavy work for the page; they import core only.' }),
+      '@typescript-eslint/no-restricted-imports': restrict({
+        group: ['**/ui/**', '**/cli/**', 'lit', 'lit/*'],
+        message: 'workers do heavy work for the page; they import core only.',
+      }),
     },
   },
   {
     files: ['src/cli/**/*.ts'],
     rules: {
-      '@typescript-eslint/no-restricted-imports': restrict({ group: ['**/ui/**', '**/worker/**', 'lit', 'lit/*'], message: 'the command line uses core, not the workbench.' }),
+      '@typescript-eslint/no-restricted-imports': restrict({
+        group: ['**/ui/**', '**/worker/**', 'lit', 'lit/*'],
+        message: 'the command line uses core, not the workbench.',
+      }),
     },
   },
   {

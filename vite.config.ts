@@ -14,7 +14,9 @@ export default defineConfig({
   preview: { port: 4173, strictPort: false, headers: isolation },
   worker: { format: 'es' },
   // Pre-bundle what the workers import too, so the first start does not re-optimise and reload the page.
-  optimizeDeps: { include: ['@tensorflow/tfjs', '@tensorflow/tfjs-backend-wasm', 'three', 'lit', 'kd-tree-javascript'] },
+  optimizeDeps: {
+    include: ['@tensorflow/tfjs', '@tensorflow/tfjs-backend-wasm', 'three', 'lit', 'kd-tree-javascript'],
+  },
   build: {
     outDir: 'dist',
     target: 'es2022',

@@ -11,10 +11,12 @@ import { POOL_POINTS } from '../src/core/model/defaults';
 import { fmt, report } from './timing';
 
 function filesUnder(dir: string): string[] {
-  return readdirSync(dir).sort().flatMap((n) => {
-    const p = join(dir, n);
-    return statSync(p).isDirectory() ? filesUnder(p) : formatOf(n) ? [p] : [];
-  });
+  return readdirSync(dir)
+    .sort()
+    .flatMap((n) => {
+      const p = join(dir, n);
+      return statSync(p).isDirectory() ? filesUnder(p) : formatOf(n) ? [p] : [];
+    });
 }
 
 export async function benchCad(): Promise<void> {
@@ -29,7 +31,10 @@ export async function benchCad(): Promise<void> {
     const row = byFormat.get(format) ?? { files: 0, ms: 0, triangles: 0, failed: 0 };
     const t = performance.now();
     try {
-      row.triangles += loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.length) as ArrayBuffer, path, { points: POOL_POINTS, seed: 0 }).info.triangleCount;
+      row.triangles += loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.length) as ArrayBuffer, path, {
+        points: POOL_POINTS,
+        seed: 0,
+      }).info.triangleCount;
     } catch {
       row.failed++;
     }
@@ -39,6 +44,9 @@ export async function benchCad(): Promise<void> {
   }
   report(`reading and sampling real files, one core (${dir})`, [
     ['OpenCascade module load (first CAD file only)', `${fmt(loadMs, 0)} ms`],
-    ...[...byFormat].map(([format, r]): [string, string] => [`${format}: ${r.files} files`, `${fmt(r.files / (r.ms / 1000))} parts/s  (${fmt(r.ms / r.files, 0)} ms a part, ${fmt(r.triangles / r.files, 0)} triangles a part, ${r.failed} failed)`]),
+    ...[...byFormat].map(([format, r]): [string, string] => [
+      `${format}: ${r.files} files`,
+      `${fmt(r.files / (r.ms / 1000))} parts/s  (${fmt(r.ms / r.files, 0)} ms a part, ${fmt(r.triangles / r.files, 0)} triangles a part, ${r.failed} failed)`,
+    ]),
   ]);
 }

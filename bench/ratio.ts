@@ -14,10 +14,15 @@ const python = '/usr/bin/python3';
 let torch: { ms_per_step: number; min_ms: number; threads: number; torch: string } | null = null;
 if (existsSync(python)) {
   try {
-    const out = execFileSync(python, ['bench/torch_step.py', '2'], { env: { ...process.env, OPENBLAS_NUM_THREADS: '2' }, encoding: 'utf8' });
+    const out = execFileSync(python, ['bench/torch_step.py', '2'], {
+      env: { ...process.env, OPENBLAS_NUM_THREADS: '2' },
+      encoding: 'utf8',
+    });
     torch = JSON.parse(out.trim().split('\n').pop()!);
   } catch (err) {
-    console.warn(`PyTorch reference not run (${(err as Error).message.split('\n')[0]}); install it with: apt-get install -y python3-torch libopenblas0-pthread`);
+    console.warn(
+      `PyTorch reference not run (${(err as Error).message.split('\n')[0]}); install it with: apt-get install -y python3-torch libopenblas0-pthread`,
+    );
   }
 }
 await initBackend({ prefer: 'wasm' });
@@ -35,7 +40,11 @@ if (chromiumAvailable()) {
     if (!url) throw new Error('the preview server reported no URL');
     const page = await ctx.newPage();
     await page.goto(`${url}step.html`);
-    browser = await page.evaluate(() => (window as unknown as { shapekinBenchStep: (r: number) => Promise<{ msPerStep: number; backend: string }> }).shapekinBenchStep(9));
+    browser = await page.evaluate(() =>
+      (
+        window as unknown as { shapekinBenchStep: (r: number) => Promise<{ msPerStep: number; backend: string }> }
+      ).shapekinBenchStep(9),
+    );
   } finally {
     await ctx.close();
     await server.close();
@@ -43,9 +52,13 @@ if (chromiumAvailable()) {
 } else console.warn('browser worker not measured: no Chromium at /usr/bin/chromium');
 
 const rows: [string, string][] = [['tfjs-wasm in Node (1 thread)', `${fmt(node, 0)} ms a step`]];
-if (browser) rows.push([`tfjs-${browser.backend} in a Chromium worker (1 thread)`, `${fmt(browser.msPerStep, 0)} ms a step`]);
+if (browser)
+  rows.push([`tfjs-${browser.backend} in a Chromium worker (1 thread)`, `${fmt(browser.msPerStep, 0)} ms a step`]);
 if (torch) {
-  rows.push([`PyTorch ${torch.torch} + OpenBLAS, ${torch.threads} threads`, `${fmt(torch.ms_per_step, 0)} ms a step (min ${fmt(torch.min_ms, 0)})`]);
+  rows.push([
+    `PyTorch ${torch.torch} + OpenBLAS, ${torch.threads} threads`,
+    `${fmt(torch.ms_per_step, 0)} ms a step (min ${fmt(torch.min_ms, 0)})`,
+  ]);
   rows.push(['ratio Node tfjs / PyTorch', fmt(node / torch.ms_per_step, 2)]);
   if (browser) rows.push(['ratio browser worker / PyTorch', fmt(browser.msPerStep / torch.ms_per_step, 2)]);
 }

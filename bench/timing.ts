@@ -24,4 +24,5 @@ export function report(section: string, rows: [string, string][]): void {
   for (const [k, v] of rows) console.log(`  ${k.padEnd(width)}  ${v}`);
 }
 
-export const fmt = (x: number, digits = 1): string => x.toLocaleString('en-GB', { maximumFractionDigits: digits, minimumFractionDigits: digits });
+export const fmt = (x: number, digits = 1): string =>
+  x.toLocaleString('en-GB', { maximumFractionDigits: digits, minimumFractionDigits: digits });

@@ -21,7 +21,9 @@ import { evaluateRetrieval } from '../src/core/retrieval/metrics';
 import { encoderDescriptors } from '../src/core/quality/methods';
 
 const valueFlags = new Set(['--embed-points', '--init', '--save']);
-const [lib, overridesText = '{}'] = process.argv.slice(2).filter((a, i, all) => !a.startsWith('--') && !valueFlags.has(all[i - 1]));
+const [lib, overridesText = '{}'] = process.argv
+  .slice(2)
+  .filter((a, i, all) => !a.startsWith('--') && !valueFlags.has(all[i - 1]));
 const embedPointsArg = process.argv.indexOf('--embed-points');
 const overrides = JSON.parse(overridesText) as Partial<TrainConfig> & { preset?: keyof typeof PRESETS };
 const backend = await initBackend();
@@ -33,7 +35,7 @@ const config: TrainConfig = {
   ...overrides,
   encoder: { ...DEFAULT_TRAIN.encoder, ...(overrides.encoder ?? {}) },
   loss: { ...DEFAULT_TRAIN.loss, ...(overrides.loss ?? {}) },
-  pipeline: overrides.preset ? PRESETS[overrides.preset] : overrides.pipeline ?? DEFAULT_TRAIN.pipeline,
+  pipeline: overrides.preset ? PRESETS[overrides.preset] : (overrides.pipeline ?? DEFAULT_TRAIN.pipeline),
 };
 const parts = library.parts.map((p) => ({ points: p.points, normals: p.normals }));
 const initArg = process.argv.indexOf('--init');
@@ -41,7 +43,10 @@ const init = initArg > 0 ? await loadRun(process.argv[initArg + 1]) : null;
 let start: Record<string, number> | null = null;
 if (init) {
   const enc = encoderFromCheckpoint(init);
-  const m = evaluateRetrieval(library.labels, encoderDescriptors('learned', enc, parts, config.points, config.pose).similarity);
+  const m = evaluateRetrieval(
+    library.labels,
+    encoderDescriptors('learned', enc, parts, config.points, config.pose).similarity,
+  );
   start = { nn: m.nn, first_tier: m.first_tier, map: m.map };
   console.error('before fine-tuning', JSON.stringify(start));
   enc.dispose();
@@ -54,15 +59,68 @@ const trainer = new Trainer(parts, config, { labels, ...(init ? { initialWeights
 const result = await trainer.run({ yieldEvery: 1000 });
 const seconds = (Date.now() - t0) / 1000;
 const points = embedPointsArg > 0 ? Number(process.argv[embedPointsArg + 1]) : config.points;
-const report = evaluateMethods({ parts, labels: library.labels, points, pose: config.pose, learned: trainer.encoders, untrainedConfig: config.encoder, seed: config.seed, diffusion: DIFFUSION_DEFAULTS });
+const report = evaluateMethods({
+  parts,
+  labels: library.labels,
+  points,
+  pose: config.pose,
+  learned: trainer.encoders,
+  untrainedConfig: config.encoder,
+  seed: config.seed,
+  diffusion: DIFFUSION_DEFAULTS,
+});
 // How spread out the learned embedding is (diffusion applies below DIFFUSION_MAX_MEAN_COSINE; see EmbeddingIndex.diffusionApplies).
 const learnedVectors = embedForRetrieval(trainer.encoders, parts, points, config.pose);
-const meanPairCosine = new EmbeddingIndex(learnedVectors, learnedVectors.length / parts.length, parts.map(() => ({ name: '', label: '', diagonal: 1 }))).meanPairCosine();
+const meanPairCosine = new EmbeddingIndex(
+  learnedVectors,
+  learnedVectors.length / parts.length,
+  parts.map(() => ({ name: '', label: '', diagonal: 1 })),
+).meanPairCosine();
 const saveArg = process.argv.indexOf('--save');
-if (saveArg > 0) await saveRun(process.argv[saveArg + 1], {
-  manifest: { format: 'shapekin-encoder', version: 1, config, sampling: { points: POOL_POINTS, seed: 0 }, step: trainer.step, totalSteps: trainer.totalSteps, status: result.status, backend, history: trainer.history, checks: trainer.checks },
-  weights: trainer.weights(), adam: null,
-});
+if (saveArg > 0)
+  await saveRun(process.argv[saveArg + 1], {
+    manifest: {
+      format: 'shapekin-encoder',
+      version: 1,
+      config,
+      sampling: { points: POOL_POINTS, seed: 0 },
+      step: trainer.step,
+      totalSteps: trainer.totalSteps,
+      status: result.status,
+      backend,
+      history: trainer.history,
+      checks: trainer.checks,
+    },
+    weights: trainer.weights(),
+    adam: null,
+  });
 trainer.dispose();
-const round = (m: Record<string, number>) => Object.fromEntries(Object.entries(m).map(([k, v]) => [k, Math.round(v * 1000) / 1000]));
-console.log(JSON.stringify({ overrides, inputs: config.encoder.inputFeatures, pose: config.pose, embedPoints: points, backend, steps: result.steps, seconds: Math.round(seconds), finalLoss: Math.round(result.finalLoss * 1000) / 1000, ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}), retrieval: config.encoder.retrieval ?? 'pooled', edge: config.encoder.edge?.k ?? 0, scale: config.pipeline.steps.find((s) => s.kind === 'scale')?.strength ?? 0, diffusionOrder: 'nearest first', resamplings: RETRIEVAL_RESAMPLINGS, learned: round(report.methods.learned!), untrained: round(report.methods.untrained!), d2: round(report.methods.d2!), meanPairCosine: Math.round(meanPairCosine * 1000) / 1000, diffused: { learned: round(report.methods['learned+diffusion']!), untrained: round(report.methods['untrained+diffusion']!), d2: round(report.methods['d2+diffusion']!) } }));
+const round = (m: Record<string, number>) =>
+  Object.fromEntries(Object.entries(m).map(([k, v]) => [k, Math.round(v * 1000) / 1000]));
+console.log(
+  JSON.stringify({
+    overrides,
+    inputs: config.encoder.inputFeatures,
+    pose: config.pose,
+    embedPoints: points,
+    backend,
+    steps: result.steps,
+    seconds: Math.round(seconds),
+    finalLoss: Math.round(result.finalLoss * 1000) / 1000,
+    ...(start ? { init: process.argv[initArg + 1], beforeFineTune: round(start) } : {}),
+    retrieval: config.encoder.retrieval ?? 'pooled',
+    edge: config.encoder.edge?.k ?? 0,
+    scale: config.pipeline.steps.find((s) => s.kind === 'scale')?.strength ?? 0,
+    diffusionOrder: 'nearest first',
+    resamplings: RETRIEVAL_RESAMPLINGS,
+    learned: round(report.methods.learned!),
+    untrained: round(report.methods.untrained!),
+    d2: round(report.methods.d2!),
+    meanPairCosine: Math.round(meanPairCosine * 1000) / 1000,
+    diffused: {
+      learned: round(report.methods['learned+diffusion']!),
+      untrained: round(report.methods['untrained+diffusion']!),
+      d2: round(report.methods['d2+diffusion']!),
+    },
+  }),
+);

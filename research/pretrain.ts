@@ -16,9 +16,16 @@ import { saveRun } from '../src/cli/run-dir';
 
 const { values, positionals } = parseArgs({
   allowPositionals: true,
-  options: { parts: { type: 'string', default: '3000' }, epochs: { type: 'string', default: '12' }, seed: { type: 'string', default: '0' }, out: { type: 'string', default: 'src/core/model/pretrained' }, supervised: { type: 'boolean' } },
+  options: {
+    parts: { type: 'string', default: '3000' },
+    epochs: { type: 'string', default: '12' },
+    seed: { type: 'string', default: '0' },
+    out: { type: 'string', default: 'src/core/model/pretrained' },
+    supervised: { type: 'boolean' },
+  },
 });
-const count = Number(values.parts), seed = Number(values.seed);
+const count = Number(values.parts),
+  seed = Number(values.seed);
 const overrides = JSON.parse(positionals[0] ?? '{}') as Partial<TrainConfig>;
 const backend = await initBackend();
 const rng = createRng(seed + 7919);
@@ -33,26 +40,61 @@ for (let i = 0; i < count; i++) {
   parts.push({ points: p.points, normals: p.normals });
 }
 console.error(`corpus: ${count} parts in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
-const config: TrainConfig = { ...DEFAULT_TRAIN, ...overrides, epochs: Number(values.epochs), seed, initialWeights: undefined } as TrainConfig;
+const config: TrainConfig = {
+  ...DEFAULT_TRAIN,
+  ...overrides,
+  epochs: Number(values.epochs),
+  seed,
+  initialWeights: undefined,
+} as TrainConfig;
 // --supervised: supervised contrastive loss on the generator's structural classes (not on any user data).
 const names = [...new Set(labelOf)].sort();
 if (values.supervised) console.error(`${names.length} generator classes`);
-const trainer = new Trainer(parts, values.supervised ? { ...config, loss: { ...config.loss, name: 'supervised-contrastive' } } : config,
-  values.supervised ? { labels: labelOf.map((l) => names.indexOf(l)) } : {});
+const trainer = new Trainer(
+  parts,
+  values.supervised ? { ...config, loss: { ...config.loss, name: 'supervised-contrastive' } } : config,
+  values.supervised ? { labels: labelOf.map((l) => names.indexOf(l)) } : {},
+);
 const t1 = Date.now();
 const result = await trainer.run({
   yieldEvery: 1000,
-  onProgress: (p) => { if (p.step % 50 === 0) console.error(`step ${p.step}/${p.totalSteps} loss ${p.loss.toFixed(3)} ${p.msPerStep.toFixed(0)} ms/step eta ${Math.round(p.etaSec)} s`); },
+  onProgress: (p) => {
+    if (p.step % 50 === 0)
+      console.error(
+        `step ${p.step}/${p.totalSteps} loss ${p.loss.toFixed(3)} ${p.msPerStep.toFixed(0)} ms/step eta ${Math.round(p.etaSec)} s`,
+      );
+  },
 });
 const { initialWeights: _drop, ...cleanConfig } = config as TrainConfig & { initialWeights?: unknown };
 await saveRun(values.out!, {
   manifest: {
-    format: 'shapekin-encoder', version: 1, config: { ...(cleanConfig as TrainConfig), loss: DEFAULT_TRAIN.loss }, sampling: { points: POOL_POINTS, seed: 0 },
-    step: trainer.step, totalSteps: trainer.totalSteps, status: result.status, backend,
-    history: trainer.history.filter((_, i) => i % 10 === 9), checks: [],
-    pretraining: { corpus: 'src/gen/corpus.ts', parts: count, loss: trainer.config.loss.name, classes: values.supervised ? names.length : 0, corpusSeed: seed + 7919, seconds: Math.round((Date.now() - t1) / 1000) },
+    format: 'shapekin-encoder',
+    version: 1,
+    config: { ...(cleanConfig as TrainConfig), loss: DEFAULT_TRAIN.loss },
+    sampling: { points: POOL_POINTS, seed: 0 },
+    step: trainer.step,
+    totalSteps: trainer.totalSteps,
+    status: result.status,
+    backend,
+    history: trainer.history.filter((_, i) => i % 10 === 9),
+    checks: [],
+    pretraining: {
+      corpus: 'src/gen/corpus.ts',
+      parts: count,
+      loss: trainer.config.loss.name,
+      classes: values.supervised ? names.length : 0,
+      corpusSeed: seed + 7919,
+      seconds: Math.round((Date.now() - t1) / 1000),
+    },
   } as never,
   weights: trainer.encoder.variables.map((v) => v.dataSync().slice() as Float32Array),
   adam: null,
 });
-console.log(JSON.stringify({ parts: count, steps: result.steps, finalLoss: result.finalLoss, seconds: Math.round((Date.now() - t1) / 1000) }));
+console.log(
+  JSON.stringify({
+    parts: count,
+    steps: result.steps,
+    finalLoss: result.finalLoss,
+    seconds: Math.round((Date.now() - t1) / 1000),
+  }),
+);

@@ -27,7 +27,12 @@ interface Run {
   pose?: string;
 }
 
-const runs: Run[] = process.argv.slice(2).flatMap((f) => readFileSync(f, 'utf8').split('\n').filter((l) => l.startsWith('{')).map((l) => JSON.parse(l) as Run));
+const runs: Run[] = process.argv.slice(2).flatMap((f) =>
+  readFileSync(f, 'utf8')
+    .split('\n')
+    .filter((l) => l.startsWith('{'))
+    .map((l) => JSON.parse(l) as Run),
+);
 const groups = new Map<string, Run[]>();
 for (const r of runs) {
   const { seed: _seed, ...rest } = r.overrides;
@@ -41,11 +46,19 @@ const stat = (xs: number[]) => {
   const sd = xs.length > 1 ? Math.sqrt(xs.reduce((a, b) => a + (b - m) ** 2, 0) / (xs.length - 1)) : 0;
   return `${m.toFixed(3)} ± ${sd.toFixed(3)}`;
 };
-const cell = (rs: Run[], method: 'learned' | 'untrained' | 'd2') => ['nn', 'first_tier', 'map'].map((k) => stat(rs.map((r) => r[method][k]))).join(' / ');
-const diffusedCell = (rs: Run[]) => (rs.every((r) => r.diffused) ? ['nn', 'first_tier', 'map'].map((k) => stat(rs.map((r) => r.diffused!.learned[k]))).join(' / ') : '—');
-console.log('| overrides | seeds | learned NN / 1st tier / mAP | learned, through the library | untrained | D2 | seconds |');
+const cell = (rs: Run[], method: 'learned' | 'untrained' | 'd2') =>
+  ['nn', 'first_tier', 'map'].map((k) => stat(rs.map((r) => r[method][k]))).join(' / ');
+const diffusedCell = (rs: Run[]) =>
+  rs.every((r) => r.diffused)
+    ? ['nn', 'first_tier', 'map'].map((k) => stat(rs.map((r) => r.diffused!.learned[k]))).join(' / ')
+    : '—';
+console.log(
+  '| overrides | seeds | learned NN / 1st tier / mAP | learned, through the library | untrained | D2 | seconds |',
+);
 console.log('| --- | --- | --- | --- | --- | --- | --- |');
 for (const [key, rs] of groups) {
   const seeds = rs.map((r) => r.overrides.seed ?? 0).join(',');
-  console.log(`| \`${key}\` | ${seeds} | ${cell(rs, 'learned')} | ${diffusedCell(rs)} | ${cell(rs, 'untrained')} | ${cell(rs, 'd2')} | ${Math.round(rs.reduce((a, r) => a + r.seconds, 0) / rs.length)} |`);
+  console.log(
+    `| \`${key}\` | ${seeds} | ${cell(rs, 'learned')} | ${diffusedCell(rs)} | ${cell(rs, 'untrained')} | ${cell(rs, 'd2')} | ${Math.round(rs.reduce((a, r) => a + r.seconds, 0) / rs.length)} |`,
+  );
 }

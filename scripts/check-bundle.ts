@@ -43,8 +43,12 @@ for (const name of workers) {
   const tf = TFJS_MARKERS.some((m) => code.includes(m));
   console.log(`worker      ${name}  ${kb(name)} KiB${tf ? '  (tfjs)' : ''}`);
 }
-if (![...workers].some((name) => TFJS_MARKERS.some((m) => readFileSync(join(dist, 'assets', name), 'utf8').includes(m)))) {
-  console.error('no worker carries tfjs: the markers no longer match the tfjs build, so this check proves nothing; update TFJS_MARKERS');
+if (
+  ![...workers].some((name) => TFJS_MARKERS.some((m) => readFileSync(join(dist, 'assets', name), 'utf8').includes(m)))
+) {
+  console.error(
+    'no worker carries tfjs: the markers no longer match the tfjs build, so this check proves nothing; update TFJS_MARKERS',
+  );
   process.exit(1);
 }
 if (failed) {

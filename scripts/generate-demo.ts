@@ -25,4 +25,6 @@ for (const f of files) {
   writeFileSync(join(root, f.path), f.bytes);
   bytes += f.bytes.length;
 }
-console.log(`demo-shapes: ${entries.length} parts in ${new Set(entries.map((e) => e.family)).size} families, ${files.length} files, ${(bytes / 1e6).toFixed(2)} MB`);
+console.log(
+  `demo-shapes: ${entries.length} parts in ${new Set(entries.map((e) => e.family)).size} families, ${files.length} files, ${(bytes / 1e6).toFixed(2)} MB`,
+);

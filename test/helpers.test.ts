@@ -16,7 +16,7 @@ describe('closeness (the shared comparison helper can fail)', () => {
 });
 
 describe('distribution statistics', () => {
-  it("KS statistic of the midpoint grid (i + ½)/n against U(0,1) is exactly 1/(2n)", () => {
+  it('KS statistic of the midpoint grid (i + ½)/n against U(0,1) is exactly 1/(2n)', () => {
     const n = 100;
     const grid = Array.from({ length: n }, (_, i) => (i + 0.5) / n);
     expect(ksStatistic(grid, (x) => x)).toBeCloseTo(0.5 / n, 12);

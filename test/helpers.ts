@@ -8,7 +8,11 @@ export interface Tolerance {
 }
 
 /** |a − e| ≤ atol + rtol·|e| element-wise; fails on a length mismatch or any NaN. Returns the worst excess. */
-export function closeness(actual: ArrayLike<number> | number, expected: ArrayLike<number> | number, tol: Tolerance): string | null {
+export function closeness(
+  actual: ArrayLike<number> | number,
+  expected: ArrayLike<number> | number,
+  tol: Tolerance,
+): string | null {
   const a = typeof actual === 'number' ? [actual] : Array.from(actual);
   const e = typeof expected === 'number' ? [expected] : Array.from(expected);
   if (a.length !== e.length) return `length ${a.length} differs from expected length ${e.length}`;
@@ -24,7 +28,11 @@ export function closeness(actual: ArrayLike<number> | number, expected: ArrayLik
   return null;
 }
 
-export function expectClose(actual: ArrayLike<number> | number, expected: ArrayLike<number> | number, tol: Tolerance): void {
+export function expectClose(
+  actual: ArrayLike<number> | number,
+  expected: ArrayLike<number> | number,
+  tol: Tolerance,
+): void {
   const problem = closeness(actual, expected, tol);
   expect(problem, problem ?? '').toBeNull();
 }

@@ -39,12 +39,42 @@ export function writeBinaryStl(triangles: number[][], header = 'test'): ArrayBuf
 export function cubeTriangles(half = 1): number[][] {
   const h = half;
   const quads = [
-    [[-h, -h, -h], [-h, h, -h], [h, h, -h], [h, -h, -h]], // z = -h, normal -z
-    [[-h, -h, h], [h, -h, h], [h, h, h], [-h, h, h]], // z = +h
-    [[-h, -h, -h], [h, -h, -h], [h, -h, h], [-h, -h, h]], // y = -h
-    [[-h, h, -h], [-h, h, h], [h, h, h], [h, h, -h]], // y = +h
-    [[-h, -h, -h], [-h, -h, h], [-h, h, h], [-h, h, -h]], // x = -h
-    [[h, -h, -h], [h, h, -h], [h, h, h], [h, -h, h]], // x = +h
+    [
+      [-h, -h, -h],
+      [-h, h, -h],
+      [h, h, -h],
+      [h, -h, -h],
+    ], // z = -h, normal -z
+    [
+      [-h, -h, h],
+      [h, -h, h],
+      [h, h, h],
+      [-h, h, h],
+    ], // z = +h
+    [
+      [-h, -h, -h],
+      [h, -h, -h],
+      [h, -h, h],
+      [-h, -h, h],
+    ], // y = -h
+    [
+      [-h, h, -h],
+      [-h, h, h],
+      [h, h, h],
+      [h, h, -h],
+    ], // y = +h
+    [
+      [-h, -h, -h],
+      [-h, -h, h],
+      [-h, h, h],
+      [-h, h, -h],
+    ], // x = -h
+    [
+      [h, -h, -h],
+      [h, h, -h],
+      [h, h, h],
+      [h, -h, h],
+    ], // x = +h
   ];
   const tris: number[][] = [];
   for (const [a, b, c, d] of quads) {
@@ -75,11 +105,22 @@ export function fromThree(geometry: BufferGeometry, name: string): ImportedMesh 
 export function demoModelParts(points: number): ModelPart[] {
   const root = fileURLToPath(new URL('../demo-shapes/', import.meta.url));
   const files: string[] = [];
-  const walk = (d: string) => readdirSync(d).forEach((n) => { const p = join(d, n); if (statSync(p).isDirectory()) walk(p); else files.push(p); });
+  const walk = (d: string) =>
+    readdirSync(d).forEach((n) => {
+      const p = join(d, n);
+      if (statSync(p).isDirectory()) walk(p);
+      else files.push(p);
+    });
   walk(root);
-  return files.filter((f) => !f.includes('/broken/') && /\.(stl|obj|ply|off)$/.test(f)).sort().map((f) => {
-    const b = readFileSync(f);
-    const part = loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.length), f.slice(root.length), { points, seed: 0 });
-    return { points: part.points, normals: part.normals };
-  });
+  return files
+    .filter((f) => !f.includes('/broken/') && /\.(stl|obj|ply|off)$/.test(f))
+    .sort()
+    .map((f) => {
+      const b = readFileSync(f);
+      const part = loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.length), f.slice(root.length), {
+        points,
+        seed: 0,
+      });
+      return { points: part.points, normals: part.normals };
+    });
 }

@@ -3,7 +3,9 @@
 
 type StepResult = { msPerStep: number; backend: string };
 
-(window as unknown as { shapekinBenchStep: (repeats?: number) => Promise<StepResult> }).shapekinBenchStep = (repeats = 7) =>
+(window as unknown as { shapekinBenchStep: (repeats?: number) => Promise<StepResult> }).shapekinBenchStep = (
+  repeats = 7,
+) =>
   new Promise<StepResult>((resolve, reject) => {
     const worker = new Worker(new URL('./step.worker.ts', import.meta.url), { type: 'module' });
     worker.onmessage = (e: MessageEvent<StepResult | { error: string }>) => {

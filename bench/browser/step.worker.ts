@@ -10,7 +10,11 @@ self.onmessage = async (e: MessageEvent<{ repeats: number }>) => {
   try {
     const backend = await initBackend({
       prefer: 'wasm',
-      wasmPaths: { 'tfjs-backend-wasm.wasm': wasmPlain, 'tfjs-backend-wasm-simd.wasm': wasmSimd, 'tfjs-backend-wasm-threaded-simd.wasm': wasmThreaded },
+      wasmPaths: {
+        'tfjs-backend-wasm.wasm': wasmPlain,
+        'tfjs-backend-wasm-simd.wasm': wasmSimd,
+        'tfjs-backend-wasm-threaded-simd.wasm': wasmThreaded,
+      },
     });
     self.postMessage({ msPerStep: timeStep(REFERENCE_ENCODER, 32, 512, e.data.repeats), backend });
   } catch (err) {

@@ -9,6 +9,11 @@ export default defineConfig({
   base: './',
   logLevel: 'silent',
   worker: { format: 'es' },
-  build: { outDir: '/tmp/shapekin-bench-page', emptyOutDir: true, target: 'es2022', rollupOptions: { input: `${here}step.html` } },
+  build: {
+    outDir: '/tmp/shapekin-bench-page',
+    emptyOutDir: true,
+    target: 'es2022',
+    rollupOptions: { input: `${here}step.html` },
+  },
   preview: { port: 0, strictPort: false, open: false },
 });

@@ -15,7 +15,10 @@ await page.getByTestId('library-summary').filter({ hasText: '112 parts' }).waitF
 await page.getByRole('button', { name: 'Empty the library' }).click();
 await page.waitForTimeout(1000);
 await page.locator('sk-library-panel input[webkitdirectory]').setInputFiles(dir);
-await page.getByTestId('library-summary').filter({ hasText: new RegExp(`${count} parts`) }).waitFor({ timeout: 300000 });
+await page
+  .getByTestId('library-summary')
+  .filter({ hasText: new RegExp(`${count} parts`) })
+  .waitFor({ timeout: 300000 });
 console.log((await page.getByTestId('library-summary').innerText()).replace(/\s+/g, ' ').slice(0, 200));
 await page.getByRole('tab', { name: 'Training' }).click();
 await page.waitForTimeout(1000);
@@ -28,7 +31,10 @@ console.log('stats:', (await page.getByTestId('train-stats').innerText()).replac
 console.log(`training in the browser worker: ${Math.floor(secs / 60)} min ${Math.round(secs % 60)} s`);
 await page.screenshot({ path: '/tmp/shot-folder-trained.png' });
 await page.getByRole('tab', { name: 'Look-alikes' }).click();
-await page.getByText('embedding…').waitFor({ state: 'detached', timeout: 600000 }).catch(() => undefined);
+await page
+  .getByText('embedding…')
+  .waitFor({ state: 'detached', timeout: 600000 })
+  .catch(() => undefined);
 console.log(`re-embedded the library ${((Date.now() - t0) / 1000 - secs).toFixed(0)} s after training ended`);
 await page.screenshot({ path: '/tmp/shot-folder-search.png' });
 console.log('errors:', errors);

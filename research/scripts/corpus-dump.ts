@@ -9,7 +9,12 @@ const rng = createRng(7919);
 const rows: string[] = [];
 for (let i = 0; i < Number(process.argv[2]); i++) {
   const { mesh, kind } = corpusPart(rng);
-  const p = loadPart(writeStlBinary({ positions: mesh.positions, indices: mesh.indices! }, 'c').buffer as ArrayBuffer, `c/${i}.stl`, { points: 800, seed: 0 });
-  for (let k = 0; k < p.points.length; k += 3) rows.push(`${i} ${kind} ${p.points[k]} ${p.points[k + 1]} ${p.points[k + 2]}`);
+  const p = loadPart(
+    writeStlBinary({ positions: mesh.positions, indices: mesh.indices! }, 'c').buffer as ArrayBuffer,
+    `c/${i}.stl`,
+    { points: 800, seed: 0 },
+  );
+  for (let k = 0; k < p.points.length; k += 3)
+    rows.push(`${i} ${kind} ${p.points[k]} ${p.points[k + 1]} ${p.points[k + 2]}`);
 }
 writeFileSync(process.argv[3], rows.join('\n'));

@@ -23,11 +23,19 @@ const enc = encoderFromCheckpoint(ckpt);
 const pooledEnc = new Encoder({ ...cfg.encoder, retrieval: 'pooled' }, createRng(0));
 setWeights(pooledEnc, ckpt.weights);
 const un = untrainedEncoder(cfg.encoder, cfg.seed);
-const rows = (v: Float32Array) => { const d = v.length / parts.length; return Array.from({ length: parts.length }, (_, i) => Array.from(v.subarray(i * d, (i + 1) * d))); };
-writeFileSync(out, JSON.stringify({
-  labels: lib.labels,
-  head: rows(embedForRetrieval(enc, parts, cfg.points, cfg.pose)),
-  pooled: rows(embedForRetrieval(pooledEnc, parts, cfg.points, cfg.pose)),
-  untrained: rows(embedForRetrieval(un, parts, cfg.points, cfg.pose)),
-}));
-enc.dispose(); pooledEnc.dispose(); un.dispose();
+const rows = (v: Float32Array) => {
+  const d = v.length / parts.length;
+  return Array.from({ length: parts.length }, (_, i) => Array.from(v.subarray(i * d, (i + 1) * d)));
+};
+writeFileSync(
+  out,
+  JSON.stringify({
+    labels: lib.labels,
+    head: rows(embedForRetrieval(enc, parts, cfg.points, cfg.pose)),
+    pooled: rows(embedForRetrieval(pooledEnc, parts, cfg.points, cfg.pose)),
+    untrained: rows(embedForRetrieval(un, parts, cfg.points, cfg.pose)),
+  }),
+);
+enc.dispose();
+pooledEnc.dispose();
+un.dispose();

@@ -15,8 +15,11 @@ for (const run of runs) {
   const enc = encodersFromCheckpoint(ckpt);
   const v = embedForRetrieval(enc, parts, cfg.points, cfg.pose);
   disposeEncoders(enc);
-  const N = parts.length, cos = cosineSimilarity(v, v.length / N);
-  const both = (s: (i: number, j: number) => number) => `${threeMeasures(evaluateRetrieval(lib.labels, s))} · ${threeMeasures(evaluateRetrieval(lib.labels, diffusedSimilarity(N, s, DIFFUSION_DEFAULTS)))}`;
+  const N = parts.length,
+    cos = cosineSimilarity(v, v.length / N);
+  const both = (s: (i: number, j: number) => number) =>
+    `${threeMeasures(evaluateRetrieval(lib.labels, s))} · ${threeMeasures(evaluateRetrieval(lib.labels, diffusedSimilarity(N, s, DIFFUSION_DEFAULTS)))}`;
   console.log(run, 'no correction', both(cos));
-  for (const k of (process.env.KS ?? '10,20,30,40').split(',').map(Number)) console.log(run, `CSLS k=${String(k).padEnd(2)}   `, both(hubCorrected(N, cos, k)));
+  for (const k of (process.env.KS ?? '10,20,30,40').split(',').map(Number))
+    console.log(run, `CSLS k=${String(k).padEnd(2)}   `, both(hubCorrected(N, cos, k)));
 }

@@ -6,15 +6,24 @@ import { loadRun, saveRun } from '../../src/cli/run-dir';
 
 const [a, b, out] = process.argv.slice(2);
 if (!out) throw new Error('usage: join-runs.ts <file-axes-run> <principal-axes-run> <out-run>');
-const A = await loadRun(a), B = await loadRun(b);
-if (A.manifest.config.pose !== 'file-axes' || B.manifest.config.pose !== 'principal-axes') throw new Error('the first run must be in the files\' axes, the second in principal axes');
-if (JSON.stringify({ ...A.manifest.config, pose: null }) !== JSON.stringify({ ...B.manifest.config, pose: null })) throw new Error('the two runs differ in more than their pose');
+const A = await loadRun(a),
+  B = await loadRun(b);
+if (A.manifest.config.pose !== 'file-axes' || B.manifest.config.pose !== 'principal-axes')
+  throw new Error("the first run must be in the files' axes, the second in principal axes");
+if (JSON.stringify({ ...A.manifest.config, pose: null }) !== JSON.stringify({ ...B.manifest.config, pose: null }))
+  throw new Error('the two runs differ in more than their pose');
 await saveRun(out, {
   manifest: {
-    ...A.manifest, config: { ...A.manifest.config, pose: 'file-and-principal' },
-    step: A.manifest.step + B.manifest.step, totalSteps: A.manifest.totalSteps + B.manifest.totalSteps,
-    history: [...A.manifest.history, ...B.manifest.history.map((h) => ({ ...h, step: h.step + A.manifest.totalSteps }))],
+    ...A.manifest,
+    config: { ...A.manifest.config, pose: 'file-and-principal' },
+    step: A.manifest.step + B.manifest.step,
+    totalSteps: A.manifest.totalSteps + B.manifest.totalSteps,
+    history: [
+      ...A.manifest.history,
+      ...B.manifest.history.map((h) => ({ ...h, step: h.step + A.manifest.totalSteps })),
+    ],
   },
-  weights: [...A.weights, ...B.weights], adam: null,
+  weights: [...A.weights, ...B.weights],
+  adam: null,
 });
 console.log(`joined → ${out}`);

@@ -12,14 +12,30 @@ const fails = new Map<string, string[]>();
 for (const run of runs) {
   const { lib, parts, ckpt, cfg } = await openSavedRun(libDir, run, false);
   const enc = encodersFromCheckpoint(ckpt);
-  const v = embedForRetrieval(enc, parts, cfg.points, cfg.pose); disposeEncoders(enc);
-  const N = parts.length, sim = hubCorrected(N, cosineSimilarity(v, v.length / N));
+  const v = embedForRetrieval(enc, parts, cfg.points, cfg.pose);
+  disposeEncoders(enc);
+  const N = parts.length,
+    sim = hubCorrected(N, cosineSimilarity(v, v.length / N));
   for (let i = 0; i < N; i++) {
-    let best = -1, bs = -Infinity;
-    for (let j = 0; j < N; j++) { const s = j === i ? -Infinity : sim(i, j); if (s > bs) { bs = s; best = j; } }
-    if (lib.labels[best] !== lib.labels[i]) { const k = lib.parts[i].name; fails.set(k, [...(fails.get(k) ?? []), lib.parts[best].name]); }
+    let best = -1,
+      bs = -Infinity;
+    for (let j = 0; j < N; j++) {
+      const s = j === i ? -Infinity : sim(i, j);
+      if (s > bs) {
+        bs = s;
+        best = j;
+      }
+    }
+    if (lib.labels[best] !== lib.labels[i]) {
+      const k = lib.parts[i].name;
+      fails.set(k, [...(fails.get(k) ?? []), lib.parts[best].name]);
+    }
   }
 }
-const counts = Array.from({ length: runs.length }, (_, i) => [...fails.values()].filter((v) => v.length === i + 1).length);
+const counts = Array.from(
+  { length: runs.length },
+  (_, i) => [...fails.values()].filter((v) => v.length === i + 1).length,
+);
 console.log(`parts missed in 1…${runs.length} of ${runs.length} runs: ${counts.join(' / ')}`);
-for (const [k, v] of [...fails].sort((a, b) => b[1].length - a[1].length)) console.log(v.length, k.padEnd(40), v.join(', '));
+for (const [k, v] of [...fails].sort((a, b) => b[1].length - a[1].length))
+  console.log(v.length, k.padEnd(40), v.join(', '));

@@ -16,7 +16,14 @@ const { lib, parts, enc, cfg } = await openSavedRun(libDir, runDir);
 const ready = posed(parts, cfg.pose as SinglePose); // encoderFromCheckpoint above accepts one-encoder runs only
 const N = parts.length;
 // The six axis orders as proper turns: the identity, two cyclic shifts, three swaps with one axis negated.
-const orders: Mat3[] = [[0, 1, 2], [1, 2, 0], [2, 0, 1], [1, 0, 2], [0, 2, 1], [2, 1, 0]].map((perm, k) => {
+const orders: Mat3[] = [
+  [0, 1, 2],
+  [1, 2, 0],
+  [2, 0, 1],
+  [1, 0, 2],
+  [0, 2, 1],
+  [2, 1, 0],
+].map((perm, k) => {
   const m = new Float64Array(9);
   perm.forEach((col, row) => (m[row * 3 + col] = k >= 3 && row === 0 ? -1 : 1));
   return m;
@@ -24,21 +31,39 @@ const orders: Mat3[] = [[0, 1, 2], [1, 2, 0], [2, 0, 1], [1, 0, 2], [0, 2, 1], [
 function embedIn(turn: Mat3): Float32Array {
   let sum: Float32Array | null = null;
   for (const flip of SIGN_FLIPS) {
-    const t = ready.map((p) => ({ points: transformPoints(flip, transformPoints(turn, p.points)), normals: transformPoints(flip, transformPoints(turn, p.normals)) }));
+    const t = ready.map((p) => ({
+      points: transformPoints(flip, transformPoints(turn, p.points)),
+      normals: transformPoints(flip, transformPoints(turn, p.normals)),
+    }));
     const e = embedParts(enc, t, cfg.points);
-    if (!sum) sum = e; else for (let i = 0; i < e.length; i++) sum[i] += e[i];
+    if (!sum) sum = e;
+    else for (let i = 0; i < e.length; i++) sum[i] += e[i];
   }
   const D = sum!.length / N;
-  for (let o = 0; o < sum!.length; o += D) { let s = 0; for (let d = 0; d < D; d++) s += sum![o + d] ** 2; s = Math.sqrt(s) || 1; for (let d = 0; d < D; d++) sum![o + d] /= s; }
+  for (let o = 0; o < sum!.length; o += D) {
+    let s = 0;
+    for (let d = 0; d < D; d++) s += sum![o + d] ** 2;
+    s = Math.sqrt(s) || 1;
+    for (let d = 0; d < D; d++) sum![o + d] /= s;
+  }
   return sum!;
 }
 const E = orders.map(embedIn);
 const D = E[0].length / N;
-const r = (m: { nn: number; first_tier: number; map: number }) => `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
+const r = (m: { nn: number; first_tier: number; map: number }) =>
+  `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
 console.log('pose order only          ', r(evaluateRetrieval(lib.labels, cosineSimilarity(E[0], D))));
-const dot = (a: Float32Array, i: number, b: Float32Array, j: number) => { let s = 0; for (let d = 0; d < D; d++) s += a[i * D + d] * b[j * D + d]; return s; };
+const dot = (a: Float32Array, i: number, b: Float32Array, j: number) => {
+  let s = 0;
+  for (let d = 0; d < D; d++) s += a[i * D + d] * b[j * D + d];
+  return s;
+};
 for (const w of [0, 0.05, 0.1, 0.2]) {
-  const sim = (i: number, j: number) => { let best = dot(E[0], i, E[0], j); for (let o = 1; o < 6; o++) best = Math.max(best, dot(E[0], i, E[o], j) - w, dot(E[o], i, E[0], j) - w); return best; };
+  const sim = (i: number, j: number) => {
+    let best = dot(E[0], i, E[0], j);
+    for (let o = 1; o < 6; o++) best = Math.max(best, dot(E[0], i, E[o], j) - w, dot(E[o], i, E[0], j) - w);
+    return best;
+  };
   console.log(`best order, penalty ${w.toFixed(2)}  `, r(evaluateRetrieval(lib.labels, sim)));
 }
 enc.dispose();

@@ -14,4 +14,5 @@ for (const R of (rs.length ? rs : ['1', '2', '4', '8']).map(Number)) {
   });
   console.log(`R = ${R}: learned ${row[0]} | untrained ${row[1]}`);
 }
-enc.dispose(); untrained.dispose();
+enc.dispose();
+untrained.dispose();

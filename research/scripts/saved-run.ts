@@ -11,8 +11,21 @@ import { throughLibrary } from '../../src/core/retrieval/hubness';
 import { cosineSimilarity, evaluateRetrieval } from '../../src/core/retrieval/metrics';
 
 /** A library and a saved run over it; with `oneEncoder` (the default) its encoder too, which a two-encoder run refuses. */
-export async function openSavedRun(libDir: string, runDir: string): Promise<{ lib: Awaited<ReturnType<typeof loadLibrary>>; parts: ModelPart[]; ckpt: Checkpoint; enc: Encoder; cfg: TrainConfig }>;
-export async function openSavedRun(libDir: string, runDir: string, oneEncoder: false): Promise<{ lib: Awaited<ReturnType<typeof loadLibrary>>; parts: ModelPart[]; ckpt: Checkpoint; cfg: TrainConfig }>;
+export async function openSavedRun(
+  libDir: string,
+  runDir: string,
+): Promise<{
+  lib: Awaited<ReturnType<typeof loadLibrary>>;
+  parts: ModelPart[];
+  ckpt: Checkpoint;
+  enc: Encoder;
+  cfg: TrainConfig;
+}>;
+export async function openSavedRun(
+  libDir: string,
+  runDir: string,
+  oneEncoder: false,
+): Promise<{ lib: Awaited<ReturnType<typeof loadLibrary>>; parts: ModelPart[]; ckpt: Checkpoint; cfg: TrainConfig }>;
 export async function openSavedRun(libDir: string, runDir: string, oneEncoder = true) {
   await initBackend();
   const lib = await loadLibrary(libDir, { quiet: true, points: POOL_POINTS });
@@ -22,7 +35,8 @@ export async function openSavedRun(libDir: string, runDir: string, oneEncoder = 
 }
 
 /** NN / first tier / mAP, three decimals. */
-export const threeMeasures = (m: { nn: number; first_tier: number; map: number }) => `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
+export const threeMeasures = (m: { nn: number; first_tier: number; map: number }) =>
+  `${m.nn.toFixed(3)} / ${m.first_tier.toFixed(3)} / ${m.map.toFixed(3)}`;
 
 /** A similarity's leave-one-out measures by itself · through the library (hub correction and diffusion, as the search orders). */
 export function bothReadings(labels: readonly string[], similarity: (i: number, j: number) => number): string {
@@ -30,4 +44,5 @@ export function bothReadings(labels: readonly string[], similarity: (i: number, 
 }
 
 /** bothReadings of unit-length embeddings (count × D, row-major) compared by cosine. */
-export const embeddingReadings = (labels: readonly string[], vectors: Float32Array) => bothReadings(labels, cosineSimilarity(vectors, vectors.length / labels.length));
+export const embeddingReadings = (labels: readonly string[], vectors: Float32Array) =>
+  bothReadings(labels, cosineSimilarity(vectors, vectors.length / labels.length));

@@ -14,16 +14,26 @@ import { basename, join } from 'node:path';
 const PACKAGE_DIR = '/usr/share/sweethome3d/furniture';
 const MAX_BYTES = 2_500_000;
 const LICENCES: Record<string, string> = {
-  KatorLegaz: 'CC-BY-3.0-US', Reallusion: 'CC-BY-3.0-US', Scopia: 'CC-BY-3.0', 'BlendSwap-CC-BY': 'CC-BY-3.0', 'BlendSwap-CC-0': 'CC0-1.0',
+  KatorLegaz: 'CC-BY-3.0-US',
+  Reallusion: 'CC-BY-3.0-US',
+  Scopia: 'CC-BY-3.0',
+  'BlendSwap-CC-BY': 'CC-BY-3.0',
+  'BlendSwap-CC-0': 'CC0-1.0',
 };
 
 /** Class rules on the catalogue's English name (whole name, case-insensitive); the first that matches wins. */
 const CLASSES: [string, RegExp][] = [
   ['bed', /^(bed|baby bed|bunk bed|captain's bed|child bed|crib|day bed|hospital bed|iron bed|mezzanine bed)$/i],
-  ['car', /^(chevrolet|concept sedan 01|ford focus|peugeot 308 cc|renault scenic|suv|seat leon|smart car|vw new beetle|van)$/i],
+  [
+    'car',
+    /^(chevrolet|concept sedan 01|ford focus|peugeot 308 cc|renault scenic|suv|seat leon|smart car|vw new beetle|van)$/i,
+  ],
   ['standing_person', /^(male|female|mannequin female|mannequin male|boy|girl)$/i],
   ['seated_person', /^(sitting boy|sitting female|sitting girl|sitting male)$/i],
-  ['potted_plant', /^(plant|indoor plant|little plant|decorative plant|spider plant|succulent plant|yucca|orchids|cactus|bamboo|bonsai tree)$/i],
+  [
+    'potted_plant',
+    /^(plant|indoor plant|little plant|decorative plant|spider plant|succulent plant|yucca|orchids|cactus|bamboo|bonsai tree)$/i,
+  ],
   ['radiator', /^radiator$/i],
   ['stool', /^(stool|bar stool)$/i],
   ['vase', /^(vase|old jar|pottery)$/i],
@@ -35,7 +45,15 @@ const CLASSES: [string, RegExp][] = [
   ['railing', /^(iron railing|pedestrian railing|fence)$/i],
 ];
 
-interface Entry { collection: string; name: string; model: string; creator: string; width: string; depth: string; height: string }
+interface Entry {
+  collection: string;
+  name: string;
+  model: string;
+  creator: string;
+  width: string;
+  depth: string;
+  height: string;
+}
 
 function catalogue(file: string): Entry[] {
   const collection = basename(file, '.sh3f');
@@ -49,18 +67,28 @@ function catalogue(file: string): Entry[] {
     row[m[1]] = value;
     byIndex.set(Number(m[2]), row);
   }
-  return [...byIndex.values()].filter((r) => r.model?.endsWith('.obj')).map((r) => ({
-    collection, name: r.name ?? '', model: r.model.replace(/^\//, ''), creator: r.creator ?? '', width: r.width ?? '', depth: r.depth ?? '', height: r.height ?? '',
-  }));
+  return [...byIndex.values()]
+    .filter((r) => r.model?.endsWith('.obj'))
+    .map((r) => ({
+      collection,
+      name: r.name ?? '',
+      model: r.model.replace(/^\//, ''),
+      creator: r.creator ?? '',
+      width: r.width ?? '',
+      depth: r.depth ?? '',
+      height: r.height ?? '',
+    }));
 }
 
 /** Models the first set uses, as collection + file stem (its files are named <label>_NN_<stem>.obj). */
 function firstSetModels(dir: string): Set<string> {
   const rows = readFileSync(join(dir, 'labels.csv'), 'utf8').split(/\r?\n/).slice(1).filter(Boolean);
-  return new Set(rows.map((row) => {
-    const cols = row.split(',');
-    return `${cols[4]}/${basename(cols[0], '.obj').replace(/^[a-z_]+_\d\d_/, '')}`;
-  }));
+  return new Set(
+    rows.map((row) => {
+      const cols = row.split(',');
+      return `${cols[4]}/${basename(cols[0], '.obj').replace(/^[a-z_]+_\d\d_/, '')}`;
+    }),
+  );
 }
 
 const [out, firstSet = '../shared/data/furniture-validation'] = process.argv.slice(2);
@@ -70,7 +98,9 @@ const used = existsSync(join(firstSet, 'labels.csv')) ? firstSetModels(firstSet)
 if (used.size === 0) console.error(`warning: no first set at ${firstSet}; nothing is excluded`);
 const csv = ['file,label,name,creator,collection,licence,width_cm,depth_cm,height_cm'];
 const counts = new Map<string, number>();
-for (const file of readdirSync(PACKAGE_DIR).filter((f) => f.endsWith('.sh3f')).sort()) {
+for (const file of readdirSync(PACKAGE_DIR)
+  .filter((f) => f.endsWith('.sh3f'))
+  .sort()) {
   const path = join(PACKAGE_DIR, file);
   for (const e of catalogue(path).sort((a, b) => a.model.localeCompare(b.model))) {
     const stem = basename(e.model, '.obj');
@@ -84,8 +114,28 @@ for (const file of readdirSync(PACKAGE_DIR).filter((f) => f.endsWith('.sh3f')).s
     const name = `${label}/${label}_${String(n).padStart(2, '0')}_${stem}.obj`;
     mkdirSync(join(out, label), { recursive: true });
     writeFileSync(join(out, name), data);
-    csv.push([name, label, e.name, e.creator, e.collection, LICENCES[e.collection] ?? 'see the package copyright', e.width, e.depth, e.height].map((v) => v.replace(/,/g, ' ')).join(','));
+    csv.push(
+      [
+        name,
+        label,
+        e.name,
+        e.creator,
+        e.collection,
+        LICENCES[e.collection] ?? 'see the package copyright',
+        e.width,
+        e.depth,
+        e.height,
+      ]
+        .map((v) => v.replace(/,/g, ' '))
+        .join(','),
+    );
   }
 }
 writeFileSync(join(out, 'labels.csv'), csv.join('\n') + '\n');
-console.log([...counts].sort().map(([l, n]) => `${l} ${n}`).join(', '), `— ${csv.length - 1} files in ${out}`);
+console.log(
+  [...counts]
+    .sort()
+    .map(([l, n]) => `${l} ${n}`)
+    .join(', '),
+  `— ${csv.length - 1} files in ${out}`,
+);

@@ -22,7 +22,10 @@ const THREAD_URL = new URL('./import-thread.ts', import.meta.url).href;
 
 /** A thread that runs the TypeScript import thread through tsx (the command line's own runner). */
 function spawn(): Worker {
-  return new Worker(`import('tsx/esm/api').then((m) => { m.register(); return import(${JSON.stringify(THREAD_URL)}); })`, { eval: true });
+  return new Worker(
+    `import('tsx/esm/api').then((m) => { m.register(); return import(${JSON.stringify(THREAD_URL)}); })`,
+    { eval: true },
+  );
 }
 
 export async function importInThreads(
@@ -33,26 +36,51 @@ export async function importInThreads(
   const count = Math.max(1, Math.min(options.threads ?? availableParallelism(), files.length));
   const limit = options.limitMs ?? ((bytes: number) => 30_000 + (2_000 * bytes) / 2 ** 20);
   const results = new Array<ThreadResult | undefined>(files.length);
-  let next = 0, delivered = 0, id = 0;
+  let next = 0,
+    delivered = 0,
+    id = 0;
   const deliver = () => {
-    while (delivered < files.length && results[delivered]) { onResult(delivered, results[delivered]!); results[delivered] = undefined; delivered++; }
+    while (delivered < files.length && results[delivered]) {
+      onResult(delivered, results[delivered]!);
+      results[delivered] = undefined;
+      delivered++;
+    }
   };
   const runSlot = async () => {
     let worker = spawn();
     try {
       while (next < files.length) {
         const i = next++;
-        const req: ThreadRequest = { id: ++id, path: files[i].path, name: files[i].name, sampling: options.sampling, maxBytes: options.maxBytes };
+        const req: ThreadRequest = {
+          id: ++id,
+          path: files[i].path,
+          name: files[i].name,
+          sampling: options.sampling,
+          maxBytes: options.maxBytes,
+        };
         const outcome = await new Promise<ThreadResult | 'timed-out'>((resolve, reject) => {
           let timer: NodeJS.Timeout | undefined;
           const onMessage = (m: { id: number; kind: string; part?: LibraryPart; failure?: ImportFailure }) => {
             if (m.id !== req.id) return;
-            if (m.kind === 'reading') { timer = setTimeout(() => { done(); resolve('timed-out'); }, limit(files[i].bytes)); return; }
+            if (m.kind === 'reading') {
+              timer = setTimeout(() => {
+                done();
+                resolve('timed-out');
+              }, limit(files[i].bytes));
+              return;
+            }
             done();
             resolve(m.kind === 'part' ? { kind: 'part', part: m.part! } : { kind: 'failed', failure: m.failure! });
           };
-          const onError = (e: Error) => { done(); reject(e); };
-          const done = () => { clearTimeout(timer); worker.off('message', onMessage); worker.off('error', onError); };
+          const onError = (e: Error) => {
+            done();
+            reject(e);
+          };
+          const done = () => {
+            clearTimeout(timer);
+            worker.off('message', onMessage);
+            worker.off('error', onError);
+          };
           worker.on('message', onMessage);
           worker.on('error', onError);
           worker.postMessage(req);
@@ -61,7 +89,14 @@ export async function importInThreads(
           await worker.terminate();
           worker = spawn();
           const s = limit(files[i].bytes) / 1000;
-          results[i] = { kind: 'failed', failure: { file: files[i].name, code: 'timed-out', reason: `reading took longer than ${s < 10 ? s.toFixed(1) : Math.round(s)} s and was stopped` } };
+          results[i] = {
+            kind: 'failed',
+            failure: {
+              file: files[i].name,
+              code: 'timed-out',
+              reason: `reading took longer than ${s < 10 ? s.toFixed(1) : Math.round(s)} s and was stopped`,
+            },
+          };
         } else {
           results[i] = outcome;
         }

@@ -5,7 +5,13 @@ import { parentPort } from 'node:worker_threads';
 import { failureOf, loadPart, partTransfers, type SamplingSettings } from '../core/library';
 import { prepareToRead, readBytes } from './read-file';
 
-export interface ThreadRequest { readonly id: number; readonly path: string; readonly name: string; readonly sampling: SamplingSettings; readonly maxBytes: number }
+export interface ThreadRequest {
+  readonly id: number;
+  readonly path: string;
+  readonly name: string;
+  readonly sampling: SamplingSettings;
+  readonly maxBytes: number;
+}
 
 parentPort!.on('message', async (req: ThreadRequest) => {
   try {

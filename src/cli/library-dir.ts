@@ -57,14 +57,21 @@ export function readLabelsCsv(root: string): Map<string, string> | null {
 /** Below this many files the pool's start-up (a thread loads the readers) costs more than it saves. */
 const POOL_MIN_FILES = 16;
 
-export async function loadLibrary(root: string, options: { quiet?: boolean; seed?: number; points?: number; maxBytes?: number; threads?: number } = {}): Promise<LoadedLibrary> {
+export async function loadLibrary(
+  root: string,
+  options: { quiet?: boolean; seed?: number; points?: number; maxBytes?: number; threads?: number } = {},
+): Promise<LoadedLibrary> {
   const files = listFiles(root);
   if (files.length === 0) throw new CliError(`no part files (${FORMAT_NAMES}) under ${root}`);
   const csv = readLabelsCsv(root);
   const progress = new Progress('reading', files.length, options.quiet);
   const sampling = { points: options.points ?? POOL_POINTS, seed: options.seed ?? 0 };
   const cap = options.maxBytes ?? DEFAULT_MAX_BYTES;
-  const named = files.map((path) => ({ path, name: relative(root, path).split(sep).join('/'), bytes: statSync(path).size }));
+  const named = files.map((path) => ({
+    path,
+    name: relative(root, path).split(sep).join('/'),
+    bytes: statSync(path).size,
+  }));
   const parts: LibraryPart[] = [];
   const failures: ImportFailure[] = [];
   const threads = options.threads ?? 1;

@@ -6,7 +6,14 @@ import { availableParallelism } from 'node:os';
 import { parseArgs } from 'node:util';
 import { initBackend } from '../core/model/backend';
 import { encodersFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
-import { DEFAULT_TRAIN, POOL_POINTS, defaultTrainFor, inputsReason, libraryTraits, poseReason } from '../core/model/defaults';
+import {
+  DEFAULT_TRAIN,
+  POOL_POINTS,
+  defaultTrainFor,
+  inputsReason,
+  libraryTraits,
+  poseReason,
+} from '../core/model/defaults';
 import { disposeEncoders, embedForRetrieval, type Encoders } from '../core/model/embed';
 import { POSE_LABELS, POSES } from '../core/model/train-config';
 import { type ModelPart } from '../core/model/views';
@@ -36,7 +43,8 @@ import { prepareToRead, readBytes } from './read-file';
 import { duration, Progress, setProgressMode } from './progress';
 import { loadRun, saveRun } from './run-dir';
 
-const CAUTION = 'Caution: geometric similarity is not interchangeability. Before substituting a part, a qualified person must check material, tolerances, loads and standards, following local codes and your engineering sign-off.';
+const CAUTION =
+  'Caution: geometric similarity is not interchangeability. Before substituting a part, a qualified person must check material, tolerances, loads and standards, following local codes and your engineering sign-off.';
 
 const USAGE = `shapekin — find parts that look like a given part
 
@@ -68,22 +76,53 @@ presets for --augment: ${Object.keys(PRESETS).join(', ')}
 `;
 
 const OPTIONS = {
-  out: { type: 'string' }, model: { type: 'string' }, library: { type: 'string' },
-  epochs: { type: 'string' }, seed: { type: 'string' }, points: { type: 'string' }, augment: { type: 'string' },
-  batch: { type: 'string' }, lr: { type: 'string' }, loss: { type: 'string' }, temperature: { type: 'string' },
-  k: { type: 'string', short: 'k' }, 'size-ratio': { type: 'string' }, order: { type: 'string' }, threshold: { type: 'string' },
-  json: { type: 'boolean' }, resume: { type: 'boolean' }, quiet: { type: 'boolean', short: 'q' }, help: { type: 'boolean', short: 'h' },
-  backend: { type: 'string' }, progress: { type: 'string' }, 'max-file-mb': { type: 'string' }, threads: { type: 'string' }, units: { type: 'string' }, inputs: { type: 'string' }, pose: { type: 'string' }, neighbours: { type: 'string' }, augmentations: { type: 'string' }, strengths: { type: 'string' },
+  out: { type: 'string' },
+  model: { type: 'string' },
+  library: { type: 'string' },
+  epochs: { type: 'string' },
+  seed: { type: 'string' },
+  points: { type: 'string' },
+  augment: { type: 'string' },
+  batch: { type: 'string' },
+  lr: { type: 'string' },
+  loss: { type: 'string' },
+  temperature: { type: 'string' },
+  k: { type: 'string', short: 'k' },
+  'size-ratio': { type: 'string' },
+  order: { type: 'string' },
+  threshold: { type: 'string' },
+  json: { type: 'boolean' },
+  resume: { type: 'boolean' },
+  quiet: { type: 'boolean', short: 'q' },
+  help: { type: 'boolean', short: 'h' },
+  backend: { type: 'string' },
+  progress: { type: 'string' },
+  'max-file-mb': { type: 'string' },
+  threads: { type: 'string' },
+  units: { type: 'string' },
+  inputs: { type: 'string' },
+  pose: { type: 'string' },
+  neighbours: { type: 'string' },
+  augmentations: { type: 'string' },
+  strengths: { type: 'string' },
 } as const;
 
 type Values = { [K in keyof typeof OPTIONS]?: (typeof OPTIONS)[K]['type'] extends 'boolean' ? boolean : string };
 
 /** A numeric option, checked to be a number (whole when `integer`) within [min, max]. */
-function num(values: Values, key: keyof Values, fallback: number, integer = true, min = -Infinity, max = Infinity): number {
+function num(
+  values: Values,
+  key: keyof Values,
+  fallback: number,
+  integer = true,
+  min = -Infinity,
+  max = Infinity,
+): number {
   const raw = values[key];
   if (raw === undefined) return fallback;
   const v = Number(raw);
-  const range = min > -Infinity && max < Infinity ? ` from ${min} to ${max}` : min > -Infinity ? ` of at least ${min}` : '';
+  const range =
+    min > -Infinity && max < Infinity ? ` from ${min} to ${max}` : min > -Infinity ? ` of at least ${min}` : '';
   if (raw === '' || !Number.isFinite(v) || (integer && !Number.isInteger(v)) || v < min || v > max) {
     throw new CliError(`--${key} must be ${integer ? 'a whole number' : 'a number'}${range}, got "${raw}"`, 2);
   }
@@ -97,7 +136,8 @@ const failuresJson = (library: LoadedLibrary) => library.failures.map((f) => ({ 
 const threads = (values: Values): number => num(values, 'threads', availableParallelism(), true, 1, 64);
 
 /** The per-file size cap the user set (--max-file-mb), in bytes. */
-const maxBytes = (values: Values): number => Math.floor(num(values, 'max-file-mb', DEFAULT_MAX_BYTES / 2 ** 20, false, 0.001) * 2 ** 20);
+const maxBytes = (values: Values): number =>
+  Math.floor(num(values, 'max-file-mb', DEFAULT_MAX_BYTES / 2 ** 20, false, 0.001) * 2 ** 20);
 
 function need(values: Values, key: 'out' | 'model' | 'library', command: string): string {
   const v = values[key];
@@ -108,7 +148,8 @@ function need(values: Values, key: 'out' | 'model' | 'library', command: string)
 function pipelineFrom(arg: string | undefined): Pipeline {
   if (!arg) return DEFAULT_TRAIN.pipeline;
   if (arg in PRESETS) return PRESETS[arg as keyof typeof PRESETS];
-  if (!existsSync(arg)) throw new CliError(`--augment: "${arg}" is neither a preset (${Object.keys(PRESETS).join(', ')}) nor a file`, 2);
+  if (!existsSync(arg))
+    throw new CliError(`--augment: "${arg}" is neither a preset (${Object.keys(PRESETS).join(', ')}) nor a file`, 2);
   try {
     return pipelineFromJson(readFileSync(arg, 'utf8'));
   } catch (err) {
@@ -124,23 +165,36 @@ function notice(values: Values, text: string): void {
   if (!values.quiet) process.stderr.write(`${text}\n`);
 }
 
-const asModelParts = (parts: readonly LibraryPart[]): ModelPart[] => parts.map((p) => ({ points: p.points, normals: p.normals }));
+const asModelParts = (parts: readonly LibraryPart[]): ModelPart[] =>
+  parts.map((p) => ({ points: p.points, normals: p.normals }));
 
 /** train's numeric options: whole or not, and the range each must lie in. */
-const TRAIN_NUMBERS: Record<'epochs' | 'seed' | 'points' | 'batch' | 'lr' | 'temperature' | 'neighbours', [integer: boolean, min: number, max: number]> = {
-  epochs: [true, 1, Infinity], seed: [true, -Infinity, Infinity], points: [true, 16, POOL_POINTS], batch: [true, 2, Infinity],
-  lr: [false, 1e-9, 1], temperature: [false, 1e-3, 100], neighbours: [true, 0, 64],
+const TRAIN_NUMBERS: Record<
+  'epochs' | 'seed' | 'points' | 'batch' | 'lr' | 'temperature' | 'neighbours',
+  [integer: boolean, min: number, max: number]
+> = {
+  epochs: [true, 1, Infinity],
+  seed: [true, -Infinity, Infinity],
+  points: [true, 16, POOL_POINTS],
+  batch: [true, 2, Infinity],
+  lr: [false, 1e-9, 1],
+  temperature: [false, 1e-3, 100],
+  neighbours: [true, 0, 64],
 };
 
 async function train(lib: string, values: Values): Promise<void> {
   const out = need(values, 'out', 'train');
   const loss = (values.loss ?? DEFAULT_TRAIN.loss.name) as LossName;
-  if (!LOSS_NAMES.includes(loss)) throw new CliError(`--loss must be one of ${LOSS_NAMES.join(', ')}, got "${loss}"`, 2);
+  if (!LOSS_NAMES.includes(loss))
+    throw new CliError(`--loss must be one of ${LOSS_NAMES.join(', ')}, got "${loss}"`, 2);
   // Every option is checked before the library is read, so a typo costs no wait.
-  const trainNum = (key: keyof typeof TRAIN_NUMBERS, fallback: number) => num(values, key, fallback, ...TRAIN_NUMBERS[key]);
+  const trainNum = (key: keyof typeof TRAIN_NUMBERS, fallback: number) =>
+    num(values, key, fallback, ...TRAIN_NUMBERS[key]);
   for (const key of Object.keys(TRAIN_NUMBERS) as (keyof typeof TRAIN_NUMBERS)[]) trainNum(key, 0);
-  if (values.inputs !== undefined && !INPUT_FEATURES.includes(values.inputs as InputFeatures)) throw new CliError(`--inputs must be one of ${INPUT_FEATURES.join(', ')}, got "${values.inputs}"`, 2);
-  if (values.pose !== undefined && !POSES.includes(values.pose as TrainConfig['pose'])) throw new CliError(`--pose must be one of ${POSES.join(', ')}, got "${values.pose}"`, 2);
+  if (values.inputs !== undefined && !INPUT_FEATURES.includes(values.inputs as InputFeatures))
+    throw new CliError(`--inputs must be one of ${INPUT_FEATURES.join(', ')}, got "${values.inputs}"`, 2);
+  if (values.pose !== undefined && !POSES.includes(values.pose as TrainConfig['pose']))
+    throw new CliError(`--pose must be one of ${POSES.join(', ')}, got "${values.pose}"`, 2);
   const pipeline = values.augment ? pipelineFrom(values.augment) : null;
   maxBytes(values);
   const backend = await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
@@ -156,7 +210,11 @@ async function train(lib: string, values: Values): Promise<void> {
   const config: TrainConfig = {
     ...base,
     pose,
-    encoder: { ...plainEncoder, inputFeatures: inputs, ...(neighbours > 0 ? { edge: { k: neighbours, width: base.encoder.edge?.width ?? EDGE_WIDTH } } : {}) },
+    encoder: {
+      ...plainEncoder,
+      inputFeatures: inputs,
+      ...(neighbours > 0 ? { edge: { k: neighbours, width: base.encoder.edge?.width ?? EDGE_WIDTH } } : {}),
+    },
     epochs: trainNum('epochs', base.epochs),
     seed: trainNum('seed', DEFAULT_TRAIN.seed),
     points: trainNum('points', DEFAULT_TRAIN.points),
@@ -170,23 +228,53 @@ async function train(lib: string, values: Values): Promise<void> {
   const labelIds = library.labels.map((l) => labelNames.indexOf(l));
   let resume: Checkpoint | null = null;
   if (values.resume && existsSync(`${out}/model.json`)) resume = await loadRun(out);
-  else if (values.resume) notice(values, `--resume: nothing has been saved in ${out} yet, so training starts from step 0`);
+  else if (values.resume)
+    notice(values, `--resume: nothing has been saved in ${out} yet, so training starts from step 0`);
   const trainer = new Trainer(asModelParts(library.parts), resume ? resume.manifest.config : config, {
     labels: loss === 'supervised-contrastive' ? labelIds : null,
-    ...(resume ? { initialWeights: resume.weights, resume: { step: resume.manifest.step, adam: resume.adam!, history: resume.manifest.history, checks: resume.manifest.checks } } : {}),
+    ...(resume
+      ? {
+          initialWeights: resume.weights,
+          resume: {
+            step: resume.manifest.step,
+            adam: resume.adam!,
+            history: resume.manifest.history,
+            checks: resume.manifest.checks,
+          },
+        }
+      : {}),
   });
   const cfg = trainer.config;
   if (!values.json) {
-    process.stderr.write(`training on ${library.parts.length} parts, ${trainer.totalSteps} steps (${trainer.encoders.length > 1 ? `${trainer.encoders.length} encoders × ` : ''}${cfg.epochs} epochs × ${trainer.stepsPerEpoch}), backend ${backend}\n`);
-    process.stderr.write(`inputs: ${values.inputs || resume ? INPUT_LABELS[cfg.encoder.inputFeatures] + (resume ? ' (from the saved run)' : ' (--inputs)') : inputsReason(closed)}\n`);
-    process.stderr.write(`pose: ${values.pose || resume ? `${POSE_LABELS[cfg.pose]}${resume ? ' (from the saved run)' : ' (--pose)'}` : poseReason(traits.boxRatios)}\n`);
+    process.stderr.write(
+      `training on ${library.parts.length} parts, ${trainer.totalSteps} steps (${trainer.encoders.length > 1 ? `${trainer.encoders.length} encoders × ` : ''}${cfg.epochs} epochs × ${trainer.stepsPerEpoch}), backend ${backend}\n`,
+    );
+    process.stderr.write(
+      `inputs: ${values.inputs || resume ? INPUT_LABELS[cfg.encoder.inputFeatures] + (resume ? ' (from the saved run)' : ' (--inputs)') : inputsReason(closed)}\n`,
+    );
+    process.stderr.write(
+      `pose: ${values.pose || resume ? `${POSE_LABELS[cfg.pose]}${resume ? ' (from the saved run)' : ' (--pose)'}` : poseReason(traits.boxRatios)}\n`,
+    );
   }
   const progress = new Progress('training', trainer.totalSteps);
-  const checkpoint = (status: Checkpoint['manifest']['status']) => saveRun(out, {
-    manifest: { format: 'shapekin-encoder', version: 1, config: cfg, sampling: { points: POOL_POINTS, seed: 0 }, step: trainer.step, totalSteps: trainer.totalSteps, status, backend, history: trainer.history, checks: trainer.checks, labelNames },
-    weights: trainer.weights(),
-    adam: trainer.adamState(),
-  });
+  const checkpoint = (status: Checkpoint['manifest']['status']) =>
+    saveRun(out, {
+      manifest: {
+        format: 'shapekin-encoder',
+        version: 1,
+        config: cfg,
+        sampling: { points: POOL_POINTS, seed: 0 },
+        step: trainer.step,
+        totalSteps: trainer.totalSteps,
+        status,
+        backend,
+        history: trainer.history,
+        checks: trainer.checks,
+        labelNames,
+      },
+      weights: trainer.weights(),
+      adam: trainer.adamState(),
+    });
   // The first checkpoint follows the first step, then one every CHECKPOINT_EVERY_MS: a kill loses at most that.
   let lastSave = -Infinity;
   const t0 = Date.now();
@@ -196,8 +284,14 @@ async function train(lib: string, values: Values): Promise<void> {
   const result = await trainer.run({
     yieldEvery: 1,
     onProgress: (p) => {
-      progress.update(p.step, `${p.members > 1 ? `encoder ${p.member + 1} of ${p.members} · ` : ''}loss ${p.loss.toFixed(3)} · ${p.samplesPerSec.toFixed(0)} parts/s · ${duration(p.etaSec)} left`);
-      if (Date.now() - lastSave > CHECKPOINT_EVERY_MS) { void checkpoint('running'); lastSave = Date.now(); }
+      progress.update(
+        p.step,
+        `${p.members > 1 ? `encoder ${p.member + 1} of ${p.members} · ` : ''}loss ${p.loss.toFixed(3)} · ${p.samplesPerSec.toFixed(0)} parts/s · ${duration(p.etaSec)} left`,
+      );
+      if (Date.now() - lastSave > CHECKPOINT_EVERY_MS) {
+        void checkpoint('running');
+        lastSave = Date.now();
+      }
     },
   });
   process.off('SIGINT', stop);
@@ -205,29 +299,67 @@ async function train(lib: string, values: Values): Promise<void> {
   progress.done();
   await checkpoint(result.status);
   trainer.dispose();
-  const summary = { status: result.status, steps: result.steps, final_loss: result.finalLoss, seconds: (Date.now() - t0) / 1000, backend, out, resumed_from: resume ? resume.manifest.step : null, ...(result.message ? { message: result.message } : {}), failures: failuresJson(library) };
+  const summary = {
+    status: result.status,
+    steps: result.steps,
+    final_loss: result.finalLoss,
+    seconds: (Date.now() - t0) / 1000,
+    backend,
+    out,
+    resumed_from: resume ? resume.manifest.step : null,
+    ...(result.message ? { message: result.message } : {}),
+    failures: failuresJson(library),
+  };
   if (values.json) emit(summary);
-  else console.log(`${result.status}: ${result.steps} steps in ${duration(summary.seconds)}, final loss ${result.finalLoss.toFixed(4)} → ${out}${result.message ? ` (${result.message})` : ''}`);
+  else
+    console.log(
+      `${result.status}: ${result.steps} steps in ${duration(summary.seconds)}, final loss ${result.finalLoss.toFixed(4)} → ${out}${result.message ? ` (${result.message})` : ''}`,
+    );
   if (result.status === 'failed') throw new CliError(result.message ?? 'training failed');
 }
 
-async function withModel<T>(values: Values, command: string, fn: (enc: Encoders, ckpt: Checkpoint) => Promise<T> | T): Promise<T> {
+async function withModel<T>(
+  values: Values,
+  command: string,
+  fn: (enc: Encoders, ckpt: Checkpoint) => Promise<T> | T,
+): Promise<T> {
   const ckpt = await loadRun(need(values, 'model', command));
   await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
   const enc = encodersFromCheckpoint(ckpt);
-  try { return await fn(enc, ckpt); } finally { disposeEncoders(enc); }
+  try {
+    return await fn(enc, ckpt);
+  } finally {
+    disposeEncoders(enc);
+  }
 }
 
 async function embed(lib: string, values: Values): Promise<void> {
   const out = need(values, 'out', 'embed');
   const ext = extname(out).toLowerCase();
-  if (!['.csv', '.json', '.npy'].includes(ext)) throw new CliError(`--out must end in .csv, .json or .npy, got "${out}"`, 2);
+  if (!['.csv', '.json', '.npy'].includes(ext))
+    throw new CliError(`--out must end in .csv, .json or .npy, got "${out}"`, 2);
   await withModel(values, 'embed', async (enc, ckpt) => {
-    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), threads: threads(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
+    const library = await loadLibrary(lib, {
+      maxBytes: maxBytes(values),
+      threads: threads(values),
+      points: ckpt.manifest.sampling.points,
+      seed: ckpt.manifest.sampling.seed,
+    });
     reportFailures(library.failures, Boolean(values.json));
-    const vectors = embedForRetrieval(enc, asModelParts(library.parts), ckpt.manifest.config.points, ckpt.manifest.config.pose);
+    const vectors = embedForRetrieval(
+      enc,
+      asModelParts(library.parts),
+      ckpt.manifest.config.points,
+      ckpt.manifest.config.pose,
+    );
     const D = vectors.length / library.parts.length;
-    const rows = library.parts.map((p, i) => ({ file: p.name, label: library.labels[i], extents: p.info.extents, diagonal: p.diagonal, units: p.info.units }));
+    const rows = library.parts.map((p, i) => ({
+      file: p.name,
+      label: library.labels[i],
+      extents: p.info.extents,
+      diagonal: p.diagonal,
+      units: p.info.units,
+    }));
     if (ext === '.npy') writeFileSync(out, writeNpyFloat32(vectors, library.parts.length, D));
     else writeFileSync(out, ext === '.json' ? embeddingsJson(rows, vectors, D) : embeddingsCsv(rows, vectors, D));
     if (values.json) emit({ out, parts: library.parts.length, dim: D, failures: failuresJson(library) });
@@ -242,7 +374,8 @@ async function query(file: string, values: Values): Promise<void> {
   const ratio = values['size-ratio'] !== undefined ? num(values, 'size-ratio', 2, false, 1) : undefined;
   if (!existsSync(file)) throw new CliError(`query file not found: ${file}`, 2);
   const ranking = (values.order ?? 'diffusion') as Ranking;
-  if (ranking !== 'diffusion' && ranking !== 'cosine') throw new CliError(`--order must be diffusion or cosine, got "${values.order}"`, 2);
+  if (ranking !== 'diffusion' && ranking !== 'cosine')
+    throw new CliError(`--order must be diffusion or cosine, got "${values.order}"`, 2);
   await withModel(values, 'query', async (enc, ckpt) => {
     let q: LibraryPart;
     try {
@@ -251,7 +384,12 @@ async function query(file: string, values: Values): Promise<void> {
     } catch (err) {
       throw new CliError((err as Error).message);
     }
-    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), threads: threads(values), points: ckpt.manifest.sampling.points, seed: ckpt.manifest.sampling.seed });
+    const library = await loadLibrary(lib, {
+      maxBytes: maxBytes(values),
+      threads: threads(values),
+      points: ckpt.manifest.sampling.points,
+      seed: ckpt.manifest.sampling.seed,
+    });
     reportFailures(library.failures, Boolean(values.json));
     const points = ckpt.manifest.config.points;
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), points, ckpt.manifest.config.pose);
@@ -259,23 +397,66 @@ async function query(file: string, values: Values): Promise<void> {
     // Sizes compare in mm where units are known (STEP/IGES, or --units), so a part exported in inches still passes the size filter.
     const sizes = library.parts.map((p) => sizeOf(p.info, mmPerUnit));
     const qSize = sizeOf(q.info, mmPerUnit);
-    const index = new TensorIndex(vectors, D, library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal * sizes[i].scale })));
+    const index = new TensorIndex(
+      vectors,
+      D,
+      library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal * sizes[i].scale })),
+    );
     const qv = embedForRetrieval(enc, [{ points: q.points, normals: q.normals }], points, ckpt.manifest.config.pose);
-    if (!qv.every(Number.isFinite)) { index.dispose(); throw new CliError(`the model gives no usable embedding for ${file} (non-finite values)`); }
+    if (!qv.every(Number.isFinite)) {
+      index.dispose();
+      throw new CliError(`the model gives no usable embedding for ${file} (non-finite values)`);
+    }
     const order: Ranking = ranking === 'diffusion' && !index.diffusionApplies() ? 'cosine' : ranking; // ranked() falls back the same way
-    const hits = index.ranked(order, qv, k, ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal * qSize.scale } : {});
+    const hits = index.ranked(
+      order,
+      qv,
+      k,
+      ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal * qSize.scale } : {},
+    );
     index.dispose();
     const rows = hits.map((h, r) => {
       const p = library.parts[h.index];
       const size = sizes[h.index];
-      return { rank: r + 1, score: h.score, file: p.name, label: library.labels[h.index], extents: size.size, units: size.units, size_ratio: (p.diagonal * size.scale) / (q.diagonal * qSize.scale) };
+      return {
+        rank: r + 1,
+        score: h.score,
+        file: p.name,
+        label: library.labels[h.index],
+        extents: size.size,
+        units: size.units,
+        size_ratio: (p.diagonal * size.scale) / (q.diagonal * qSize.scale),
+      };
     });
-    if (values.json) { emit({ query: file, query_extents: qSize.size, query_units: qSize.units, order, mean_pair_cosine: index.meanPairCosine(), results: rows, failures: failuresJson(library), caution: CAUTION }); return; }
+    if (values.json) {
+      emit({
+        query: file,
+        query_extents: qSize.size,
+        query_units: qSize.units,
+        order,
+        mean_pair_cosine: index.meanPairCosine(),
+        results: rows,
+        failures: failuresJson(library),
+        caution: CAUTION,
+      });
+      return;
+    }
     console.log(`query ${file}  (${fmtSize(qSize)})`);
-    if (order !== ranking) console.log(`ordered by cosine similarity: this model's embedding is too concentrated (mean pair cosine ${index.meanPairCosine().toFixed(2)}) to order through the library`);
-    else console.log(order === 'diffusion' ? 'ordered through the library (scores corrected for parts near everything, then diffused over its neighbour graph); score: cosine similarity to the query' : 'ordered by cosine similarity to the query');
+    if (order !== ranking)
+      console.log(
+        `ordered by cosine similarity: this model's embedding is too concentrated (mean pair cosine ${index.meanPairCosine().toFixed(2)}) to order through the library`,
+      );
+    else
+      console.log(
+        order === 'diffusion'
+          ? 'ordered through the library (scores corrected for parts near everything, then diffused over its neighbour graph); score: cosine similarity to the query'
+          : 'ordered by cosine similarity to the query',
+      );
     console.log('rank  score   size×   folder            file');
-    for (const r of rows) console.log(`${String(r.rank).padStart(4)}  ${r.score.toFixed(3)}  ${r.size_ratio.toFixed(2).padStart(5)}   ${r.label.padEnd(17)} ${r.file}  (${fmtSize({ size: r.extents, units: r.units })})`);
+    for (const r of rows)
+      console.log(
+        `${String(r.rank).padStart(4)}  ${r.score.toFixed(3)}  ${r.size_ratio.toFixed(2).padStart(5)}   ${r.label.padEnd(17)} ${r.file}  (${fmtSize({ size: r.extents, units: r.units })})`,
+      );
     console.log(`\n${CAUTION}`);
   });
 }
@@ -288,36 +469,79 @@ async function evaluate(lib: string, values: Values): Promise<void> {
   reportFailures(library.failures, Boolean(values.json));
   const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
   const config = ckpt?.manifest.config ?? defaultTrainFor(libraryTraits(library.parts));
-  const report = evaluateMethods({ parts: asModelParts(library.parts), labels: library.labels, points: config.points, pose: config.pose, ...(learned ? { learned } : {}), untrainedConfig: config.encoder, seed: config.seed, diffusion: DIFFUSION_DEFAULTS });
+  const report = evaluateMethods({
+    parts: asModelParts(library.parts),
+    labels: library.labels,
+    points: config.points,
+    pose: config.pose,
+    ...(learned ? { learned } : {}),
+    untrainedConfig: config.encoder,
+    seed: config.seed,
+    diffusion: DIFFUSION_DEFAULTS,
+  });
   if (learned) disposeEncoders(learned);
-  if (values.json) { emit({ ...report, failures: failuresJson(library) }); return; }
-  console.log(`${report.parts} parts, ${report.labels} labels (leave-one-out; "+diffusion": ordered through the library, as queries are by default: scores corrected for parts near everything, then diffused over the neighbour graph)`);
+  if (values.json) {
+    emit({ ...report, failures: failuresJson(library) });
+    return;
+  }
+  console.log(
+    `${report.parts} parts, ${report.labels} labels (leave-one-out; "+diffusion": ordered through the library, as queries are by default: scores corrected for parts near everything, then diffused over the neighbour graph)`,
+  );
   console.log('method              NN     1st tier  2nd tier  DCG    mAP    P@5');
   for (const [m, r] of Object.entries(report.methods)) {
-    console.log(`${m.padEnd(18)}  ${r.nn.toFixed(3)}  ${r.first_tier.toFixed(3)}     ${r.second_tier.toFixed(3)}     ${r.dcg.toFixed(3)}  ${r.map.toFixed(3)}  ${r.p_at_5.toFixed(3)}`);
+    console.log(
+      `${m.padEnd(18)}  ${r.nn.toFixed(3)}  ${r.first_tier.toFixed(3)}     ${r.second_tier.toFixed(3)}     ${r.dcg.toFixed(3)}  ${r.map.toFixed(3)}  ${r.p_at_5.toFixed(3)}`,
+    );
   }
 }
 
 async function study(lib: string, values: Values): Promise<void> {
   await withModel(values, 'study', async (enc, ckpt) => {
-    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), threads: threads(values), ...ckpt.manifest.sampling });
+    const library = await loadLibrary(lib, {
+      maxBytes: maxBytes(values),
+      threads: threads(values),
+      ...ckpt.manifest.sampling,
+    });
     reportFailures(library.failures, Boolean(values.json));
     const kinds = values.augmentations ? values.augmentations.split(',').map((k) => k.trim()) : undefined;
-    for (const k of kinds ?? []) if (!(AUGMENT_KINDS as readonly string[]).includes(k)) throw new CliError(`--augmentations: unknown "${k}" (one of ${AUGMENT_KINDS.join(', ')})`, 2);
+    for (const k of kinds ?? [])
+      if (!(AUGMENT_KINDS as readonly string[]).includes(k))
+        throw new CliError(`--augmentations: unknown "${k}" (one of ${AUGMENT_KINDS.join(', ')})`, 2);
     const strengths = values.strengths ? values.strengths.split(',').map(Number) : undefined;
-    if (strengths?.some((s) => !(s >= 0 && s <= 1))) throw new CliError(`--strengths must be numbers in [0, 1], got "${values.strengths}"`, 2);
-    const untrained = untrainedEncoders(ckpt.manifest.config.encoder, ckpt.manifest.config.pose, ckpt.manifest.config.seed);
+    if (strengths?.some((s) => !(s >= 0 && s <= 1)))
+      throw new CliError(`--strengths must be numbers in [0, 1], got "${values.strengths}"`, 2);
+    const untrained = untrainedEncoders(
+      ckpt.manifest.config.encoder,
+      ckpt.manifest.config.pose,
+      ckpt.manifest.config.seed,
+    );
     const progress = new Progress('study', 1);
     const rows = runStudy({
-      parts: asModelParts(library.parts), labels: library.labels, points: ckpt.manifest.config.points, pose: ckpt.manifest.config.pose,
-      encoders: { learned: enc, untrained }, ...(kinds ? { kinds: kinds as AugmentKind[] } : {}), ...(strengths ? { strengths } : {}), upAxis: ckpt.manifest.config.pipeline.upAxis, seed: ckpt.manifest.config.seed,
-      onProgress: (done, total, what) => { progress.total = total; progress.update(done, what); },
+      parts: asModelParts(library.parts),
+      labels: library.labels,
+      points: ckpt.manifest.config.points,
+      pose: ckpt.manifest.config.pose,
+      encoders: { learned: enc, untrained },
+      ...(kinds ? { kinds: kinds as AugmentKind[] } : {}),
+      ...(strengths ? { strengths } : {}),
+      upAxis: ckpt.manifest.config.pipeline.upAxis,
+      seed: ckpt.manifest.config.seed,
+      onProgress: (done, total, what) => {
+        progress.total = total;
+        progress.update(done, what);
+      },
     });
     progress.done();
     disposeEncoders(untrained);
-    if (values.json) { emit({ parts: library.parts.length, rows, failures: failuresJson(library) }); return; }
+    if (values.json) {
+      emit({ parts: library.parts.length, rows, failures: failuresJson(library) });
+      return;
+    }
     console.log('augmentation   strength  method     instance  label   similarity  chamfer');
-    for (const r of rows) console.log(`${r.augmentation.padEnd(14)} ${r.strength.toFixed(2).padStart(8)}  ${r.method.padEnd(9)}  ${r.instance_top1.toFixed(3).padStart(8)}  ${r.label_top1.toFixed(3)}   ${r.mean_similarity.toFixed(3).padStart(10)}  ${r.mean_chamfer.toFixed(4)}`);
+    for (const r of rows)
+      console.log(
+        `${r.augmentation.padEnd(14)} ${r.strength.toFixed(2).padStart(8)}  ${r.method.padEnd(9)}  ${r.instance_top1.toFixed(3).padStart(8)}  ${r.label_top1.toFixed(3)}   ${r.mean_similarity.toFixed(3).padStart(10)}  ${r.mean_chamfer.toFixed(4)}`,
+      );
   });
 }
 
@@ -327,18 +551,23 @@ function unitsOption(values: Values): number | null {
   if (raw === undefined) return null;
   const named: Record<string, number> = { mm: 1, cm: 10, m: 1000, inch: 25.4, in: 25.4 };
   const factor = named[raw.toLowerCase()] ?? Number(raw);
-  if (!(factor > 0) || !Number.isFinite(factor)) throw new CliError(`--units must be mm, cm, m, inch or a positive number of mm per unit, got "${raw}"`, 2);
+  if (!(factor > 0) || !Number.isFinite(factor))
+    throw new CliError(`--units must be mm, cm, m, inch or a positive number of mm per unit, got "${raw}"`, 2);
   return factor;
 }
 
 /** A part's size in mm where its units are known (the format's own, or --units), else in file units. */
-function sizeOf(info: MeshInfo, mmPerUnit: number | null): { size: number[]; units: 'mm' | 'file units'; scale: number } {
+function sizeOf(
+  info: MeshInfo,
+  mmPerUnit: number | null,
+): { size: number[]; units: 'mm' | 'file units'; scale: number } {
   const scale = info.units === 'mm' ? 1 : mmPerUnit;
   if (scale === null) return { size: [...info.extents], units: 'file units', scale: 1 };
   return { size: info.extents.map((v) => v * scale), units: 'mm', scale };
 }
 
-const fmtSize = (s: { size: readonly number[]; units: string }) => `${s.size.map((v) => v.toPrecision(4)).join(' × ')} ${s.units}`;
+const fmtSize = (s: { size: readonly number[]; units: string }) =>
+  `${s.size.map((v) => v.toPrecision(4)).join(' × ')} ${s.units}`;
 
 async function inspect(target: string, values: Values): Promise<void> {
   const mmPerUnit = unitsOption(values);
@@ -348,19 +577,43 @@ async function inspect(target: string, values: Values): Promise<void> {
   const files = single ? [target] : listFiles(target);
   if (files.length === 0) throw new CliError(`no part files (${FORMAT_NAMES}) under ${target}`);
   const progress = new Progress('inspecting', files.length);
-  type Row = { file: string; format: string; bodies: number | null; triangles: number; closed: boolean; size: number[]; units: string } | { file: string; error: string };
+  type Row =
+    | {
+        file: string;
+        format: string;
+        bodies: number | null;
+        triangles: number;
+        closed: boolean;
+        size: number[];
+        units: string;
+      }
+    | { file: string; error: string };
   const rows: Row[] = [];
   const rowOf = (name: string, info: MeshInfo): Row => {
     const s = sizeOf(info, mmPerUnit);
-    return { file: name, format: info.format, bodies: info.bodies, triangles: info.triangleCount, closed: info.closed, size: s.size, units: s.units };
+    return {
+      file: name,
+      format: info.format,
+      bodies: info.bodies,
+      triangles: info.triangleCount,
+      closed: info.closed,
+      size: s.size,
+      units: s.units,
+    };
   };
   const t0 = performance.now();
-  const named = files.map((path) => ({ path, name: single ? path : relative(target, path).split(sep).join('/'), bytes: statSync(path).size }));
+  const named = files.map((path) => ({
+    path,
+    name: single ? path : relative(target, path).split(sep).join('/'),
+    bytes: statSync(path).size,
+  }));
   const pool = threads(values);
   if (pool > 1 && files.length >= 16) {
     // The threads also sample each part (as a library import does): a little more work, the same measurements.
     await importInThreads(named, { threads: pool, sampling: { points: 64, seed: 0 }, maxBytes: cap }, (i, r) => {
-      rows.push(r.kind === 'part' ? rowOf(named[i].name, r.part.info) : { file: named[i].name, error: r.failure.reason });
+      rows.push(
+        r.kind === 'part' ? rowOf(named[i].name, r.part.info) : { file: named[i].name, error: r.failure.reason },
+      );
       progress.update(i + 1, named[i].name);
     });
   } else {
@@ -376,39 +629,69 @@ async function inspect(target: string, values: Values): Promise<void> {
   }
   progress.done();
   const seconds = (performance.now() - t0) / 1000;
-  if (values.json) { emit(rows); return; }
+  if (values.json) {
+    emit(rows);
+    return;
+  }
   for (const r of rows) {
     if ('error' in r) console.log(`${r.file}: cannot be read: ${r.error}`);
-    else console.log(`${r.file}: ${r.format}${r.bodies !== null ? `, ${r.bodies} ${r.bodies === 1 ? 'body' : 'bodies'}` : ''}, ${r.triangles} triangles, ${r.closed ? 'closed' : 'open'}, ${fmtSize(r)}`);
+    else
+      console.log(
+        `${r.file}: ${r.format}${r.bodies !== null ? `, ${r.bodies} ${r.bodies === 1 ? 'body' : 'bodies'}` : ''}, ${r.triangles} triangles, ${r.closed ? 'closed' : 'open'}, ${fmtSize(r)}`,
+      );
   }
   const bad = rows.filter((r) => 'error' in r).length;
-  process.stderr.write(`${rows.length} files in ${duration(seconds)} (${(rows.length / Math.max(seconds, 1e-9)).toFixed(1)} files/s): ${rows.length - bad} readable, ${bad} not\n`);
+  process.stderr.write(
+    `${rows.length} files in ${duration(seconds)} (${(rows.length / Math.max(seconds, 1e-9)).toFixed(1)} files/s): ${rows.length - bad} readable, ${bad} not\n`,
+  );
 }
 
 async function duplicates(lib: string, values: Values): Promise<void> {
   const threshold = num(values, 'threshold', 0.97, false, -1, 1);
   await withModel(values, 'duplicates', async (enc, ckpt) => {
-    const library = await loadLibrary(lib, { maxBytes: maxBytes(values), threads: threads(values), ...ckpt.manifest.sampling });
+    const library = await loadLibrary(lib, {
+      maxBytes: maxBytes(values),
+      threads: threads(values),
+      ...ckpt.manifest.sampling,
+    });
     reportFailures(library.failures, Boolean(values.json));
-    const vectors = embedForRetrieval(enc, asModelParts(library.parts), ckpt.manifest.config.points, ckpt.manifest.config.pose);
+    const vectors = embedForRetrieval(
+      enc,
+      asModelParts(library.parts),
+      ckpt.manifest.config.points,
+      ckpt.manifest.config.pose,
+    );
     const D = vectors.length / library.parts.length;
     const groups = duplicateGroups(library.parts.length, cosineSimilarity(vectors, D), threshold);
     const described = groups.map((g) => ({
-      parts: g.members.map((i) => ({ file: library.parts[i].name, label: library.labels[i], extents: library.parts[i].info.extents, diagonal: library.parts[i].diagonal })),
+      parts: g.members.map((i) => ({
+        file: library.parts[i].name,
+        label: library.labels[i],
+        extents: library.parts[i].info.extents,
+        diagonal: library.parts[i].diagonal,
+      })),
       closest: Math.max(...g.pairs.map((p) => p.similarity)),
     }));
-    if (values.json) { emit({ threshold, groups: described, failures: failuresJson(library), caution: CAUTION }); return; }
+    if (values.json) {
+      emit({ threshold, groups: described, failures: failuresJson(library), caution: CAUTION });
+      return;
+    }
     console.log(`${groups.length} groups of look-alike parts at similarity ≥ ${threshold}`);
     described.forEach((g, n) => {
       console.log(`\ngroup ${n + 1} (closest pair ${g.closest.toFixed(3)})`);
-      for (const p of g.parts) console.log(`  ${p.file.padEnd(40)} ${p.label.padEnd(16)} ${p.extents.map((v) => v.toPrecision(4)).join(' × ')}`);
+      for (const p of g.parts)
+        console.log(
+          `  ${p.file.padEnd(40)} ${p.label.padEnd(16)} ${p.extents.map((v) => v.toPrecision(4)).join(' × ')}`,
+        );
     });
     console.log(`\n${CAUTION}`);
   });
 }
 
 /** Writes the one JSON document of a --json run to stdout; set per run by main. */
-let emit: (doc: unknown) => void = () => { throw new Error('emit called outside main'); };
+let emit: (doc: unknown) => void = () => {
+  throw new Error('emit called outside main');
+};
 
 export async function main(argv: string[]): Promise<number> {
   let parsed;
@@ -420,8 +703,19 @@ export async function main(argv: string[]): Promise<number> {
   }
   const values = parsed.values as Values;
   const [command, target, ...extra] = parsed.positionals;
-  if (values.help || !command) { process.stdout.write(USAGE); return command || values.help ? 0 : 2; }
-  const commands: Record<string, (t: string, v: Values) => Promise<void>> = { train, embed, query, eval: evaluate, study, duplicates, inspect };
+  if (values.help || !command) {
+    process.stdout.write(USAGE);
+    return command || values.help ? 0 : 2;
+  }
+  const commands: Record<string, (t: string, v: Values) => Promise<void>> = {
+    train,
+    embed,
+    query,
+    eval: evaluate,
+    study,
+    duplicates,
+    inspect,
+  };
   const run = commands[command];
   // With --json, stdout carries exactly one JSON document: the command's result, or {"error"} when it fails.
   // Anything else that would print there (a library's warning) goes to stderr, and only on a terminal.
@@ -434,14 +728,23 @@ export async function main(argv: string[]): Promise<number> {
     consoleWas.log(JSON.stringify(doc));
   };
   if (json) {
-    const aside = (...a: unknown[]) => { if (process.stderr.isTTY) process.stderr.write(`${a.map(String).join(' ')}\n`); };
+    const aside = (...a: unknown[]) => {
+      if (process.stderr.isTTY) process.stderr.write(`${a.map(String).join(' ')}\n`);
+    };
     console.log = console.info = console.warn = console.debug = aside;
   }
   try {
-    if (values.progress !== undefined && !['bar', 'json', 'none'].includes(values.progress)) throw new CliError(`--progress must be bar, json or none, got "${values.progress}"`, 2);
-    setProgressMode((values.progress as 'bar' | 'json' | 'none' | undefined) ?? (values.quiet || json ? 'none' : 'bar'));
+    if (values.progress !== undefined && !['bar', 'json', 'none'].includes(values.progress))
+      throw new CliError(`--progress must be bar, json or none, got "${values.progress}"`, 2);
+    setProgressMode(
+      (values.progress as 'bar' | 'json' | 'none' | undefined) ?? (values.quiet || json ? 'none' : 'bar'),
+    );
     if (!run) throw new CliError(`unknown command "${command}" (one of ${Object.keys(commands).join(', ')})`, 2);
-    if (!target) throw new CliError(`${command} needs a ${command === 'query' ? 'part file' : command === 'inspect' ? 'file or folder' : 'library folder'}`, 2);
+    if (!target)
+      throw new CliError(
+        `${command} needs a ${command === 'query' ? 'part file' : command === 'inspect' ? 'file or folder' : 'library folder'}`,
+        2,
+      );
     if (extra.length) throw new CliError(`unexpected argument "${extra[0]}"`, 2);
     await run(target, values);
     return 0;

@@ -8,7 +8,12 @@ import { MeshImportError } from '../core/mesh/types';
 
 export async function prepareToRead(path: string, name: string, maxBytes: number): Promise<void> {
   const size = statSync(path).size;
-  if (size > maxBytes) throw new MeshImportError(name, 'too-large', `the file is ${size} bytes, over the ${maxBytes}-byte limit (raise it with --max-file-mb)`);
+  if (size > maxBytes)
+    throw new MeshImportError(
+      name,
+      'too-large',
+      `the file is ${size} bytes, over the ${maxBytes}-byte limit (raise it with --max-file-mb)`,
+    );
   if (needsCadReader(name)) await loadCadReader();
 }
 

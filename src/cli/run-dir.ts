@@ -6,7 +6,13 @@ import { existsSync, mkdirSync, readFileSync, renameSync, writeFileSync } from '
 import { join } from 'node:path';
 import type * as tf from '@tensorflow/tfjs';
 import { artifactsFromModelJson, fromArtifacts, toArtifacts, type Checkpoint } from '../core/model/checkpoint';
-import { modelJsonFor, WEIGHTS_FILE, type ModelJson, type RunManifest, type WeightSpec } from '../core/model/model-json';
+import {
+  modelJsonFor,
+  WEIGHTS_FILE,
+  type ModelJson,
+  type RunManifest,
+  type WeightSpec,
+} from '../core/model/model-json';
 import { CliError } from './errors';
 
 const MODEL = 'model.json';
@@ -19,29 +25,44 @@ export function fileSystemHandler(dir: string): Required<Pick<tf.io.IOHandler, '
       mkdirSync(dir, { recursive: true });
       const manifest = (art.modelTopology as unknown as { shapekin: RunManifest }).shapekin;
       const adamStep = Number((art.userDefinedMetadata as { adamStep?: number } | undefined)?.adamStep ?? 0);
-      const json = modelJsonFor(manifest, (art.weightSpecs ?? []) as WeightSpec[], art.weightData as ArrayBuffer, adamStep);
-      const tmpW = join(dir, `.${WEIGHTS}.tmp`), tmpM = join(dir, `.${MODEL}.tmp`);
+      const json = modelJsonFor(
+        manifest,
+        (art.weightSpecs ?? []) as WeightSpec[],
+        art.weightData as ArrayBuffer,
+        adamStep,
+      );
+      const tmpW = join(dir, `.${WEIGHTS}.tmp`),
+        tmpM = join(dir, `.${MODEL}.tmp`);
       writeFileSync(tmpW, new Uint8Array(art.weightData as ArrayBuffer));
       writeFileSync(tmpM, JSON.stringify(json));
       renameSync(tmpW, join(dir, WEIGHTS));
       renameSync(tmpM, join(dir, MODEL));
-      return { modelArtifactsInfo: { dateSaved: new Date(), modelTopologyType: 'JSON', weightDataBytes: (art.weightData as ArrayBuffer).byteLength } };
+      return {
+        modelArtifactsInfo: {
+          dateSaved: new Date(),
+          modelTopologyType: 'JSON',
+          weightDataBytes: (art.weightData as ArrayBuffer).byteLength,
+        },
+      };
     },
     async load(): Promise<tf.io.ModelArtifacts> {
       const modelPath = join(dir, MODEL);
-      if (!existsSync(modelPath)) throw new CliError(`no model in ${dir} (expected ${MODEL} and ${WEIGHTS}; train one with "shapekin train")`);
+      if (!existsSync(modelPath))
+        throw new CliError(`no model in ${dir} (expected ${MODEL} and ${WEIGHTS}; train one with "shapekin train")`);
       let json: ModelJson;
       try {
         json = JSON.parse(readFileSync(modelPath, 'utf8'));
       } catch (err) {
         throw new CliError(`${modelPath}: not valid JSON (${(err as Error).message})`);
       }
-      const buffers = (json.weightsManifest ?? []).flatMap((g) => g.paths.map((p) => {
-        const path = join(dir, p);
-        if (!existsSync(path)) throw new CliError(`${modelPath} names ${p}, which is missing`);
-        const b = readFileSync(path);
-        return b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer;
-      }));
+      const buffers = (json.weightsManifest ?? []).flatMap((g) =>
+        g.paths.map((p) => {
+          const path = join(dir, p);
+          if (!existsSync(path)) throw new CliError(`${modelPath} names ${p}, which is missing`);
+          const b = readFileSync(path);
+          return b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer;
+        }),
+      );
       return artifactsFromModelJson(json, buffers);
     },
   };

@@ -7,19 +7,30 @@ export function parseCsv(text: string): string[][] {
   let field = '';
   let quoted = false;
   let i = text.charCodeAt(0) === 0xfeff ? 1 : 0; // a byte order mark is not part of the first field
-  const endField = () => { record.push(field); field = ''; };
-  const endRecord = () => { endField(); if (record.length > 1 || record[0] !== '') records.push(record); record = []; };
+  const endField = () => {
+    record.push(field);
+    field = '';
+  };
+  const endRecord = () => {
+    endField();
+    if (record.length > 1 || record[0] !== '') records.push(record);
+    record = [];
+  };
   for (; i < text.length; i++) {
     const c = text[i];
     if (quoted) {
-      if (c === '"' && text[i + 1] === '"') { field += '"'; i++; }
-      else if (c === '"') quoted = false;
+      if (c === '"' && text[i + 1] === '"') {
+        field += '"';
+        i++;
+      } else if (c === '"') quoted = false;
       else field += c;
     } else if (c === '"' && field === '') quoted = true;
     else if (c === ',') endField();
     else if (c === '\n') endRecord();
-    else if (c === '\r' && text[i + 1] === '\n') { endRecord(); i++; }
-    else field += c;
+    else if (c === '\r' && text[i + 1] === '\n') {
+      endRecord();
+      i++;
+    } else field += c;
   }
   if (field !== '' || record.length > 0) endRecord();
   return records;

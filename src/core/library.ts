@@ -36,7 +36,12 @@ export function labelFromPath(path: string): string {
 }
 
 /** Import and sample one file; throws MeshImportError naming the file. */
-export function loadPart(buffer: ArrayBuffer, name: string, settings: SamplingSettings, maxBytes?: number): LibraryPart {
+export function loadPart(
+  buffer: ArrayBuffer,
+  name: string,
+  settings: SamplingSettings,
+  maxBytes?: number,
+): LibraryPart {
   const imported = importMesh(buffer, name, maxBytes === undefined ? {} : { maxBytes });
   let sampled;
   try {

@@ -3,8 +3,17 @@
 
 import type { Rng } from '../core/rng';
 import {
-  circle, extrude, loft, ngonArea, pappusVolume, polygonArea, revolve, sweepTube,
-  type Frame, type P2, type Solid,
+  circle,
+  extrude,
+  loft,
+  ngonArea,
+  pappusVolume,
+  polygonArea,
+  revolve,
+  sweepTube,
+  type Frame,
+  type P2,
+  type Solid,
 } from './solids';
 
 export interface GeneratedPart {
@@ -28,7 +37,7 @@ export interface Family {
 
 /** Ratio of a faceted (m-segment) revolution to the smooth one: (m/2π)·sin(2π/m). */
 const facetRatio = (m: number): number => (m / (2 * Math.PI)) * Math.sin((2 * Math.PI) / m);
-const pick = <T,>(rng: Rng, items: readonly T[]): T => items[rng.int(items.length)];
+const pick = <T>(rng: Rng, items: readonly T[]): T => items[rng.int(items.length)];
 const round = (x: number, step: number): number => Math.round(x / step) * step;
 const segs = (rng: Rng, lo: number, hi: number): number => 4 * Math.round(rng.uniform(lo, hi) / 4);
 
@@ -42,47 +51,86 @@ function arc(cx: number, cy: number, r: number, a0: number, a1: number, n: numbe
 
 function revolvedPart(profile: P2[], m: number, nominal: string): GeneratedPart {
   const smooth = pappusVolume(profile);
-  return { solid: revolve(profile, m), nominal, volumeFaceted: smooth * facetRatio(m), volumeSmooth: smooth, tessellationGap: 1 - facetRatio(m) };
+  return {
+    solid: revolve(profile, m),
+    nominal,
+    volumeFaceted: smooth * facetRatio(m),
+    volumeSmooth: smooth,
+    tessellationGap: 1 - facetRatio(m),
+  };
 }
 
 const METRIC = [3, 4, 5, 6, 8, 10, 12, 16, 20] as const;
 
 const washer: Family = {
-  name: 'washer', code: '01', description: 'Plain flat washers, M3 to M16',
+  name: 'washer',
+  code: '01',
+  description: 'Plain flat washers, M3 to M16',
   make(rng, variant) {
     const d = METRIC[variant];
     const r = (d * rng.uniform(1.05, 1.1)) / 2;
     const R = (d * rng.uniform(1.9, 2.3)) / 2;
     const t = round(d * rng.uniform(0.12, 0.2), 0.1);
-    return revolvedPart([[r, 0], [R, 0], [R, t], [r, t]], segs(rng, 24, 64), `M${d}`);
+    return revolvedPart(
+      [
+        [r, 0],
+        [R, 0],
+        [R, t],
+        [r, t],
+      ],
+      segs(rng, 24, 64),
+      `M${d}`,
+    );
   },
 };
 
 const spacer: Family = {
-  name: 'spacer', code: '02', description: 'Round spacers and standoffs, plain bore',
+  name: 'spacer',
+  code: '02',
+  description: 'Round spacers and standoffs, plain bore',
   make(rng) {
     const od = round(rng.uniform(6, 40), 1);
     const id = round(od * rng.uniform(0.35, 0.6), 0.5);
     const len = round(od * rng.uniform(0.6, 3), 1);
-    return revolvedPart([[id / 2, 0], [od / 2, 0], [od / 2, len], [id / 2, len]], segs(rng, 20, 56), `OD${od} ID${id} L${len}`);
+    return revolvedPart(
+      [
+        [id / 2, 0],
+        [od / 2, 0],
+        [od / 2, len],
+        [id / 2, len],
+      ],
+      segs(rng, 20, 56),
+      `OD${od} ID${id} L${len}`,
+    );
   },
 };
 
 const bushing: Family = {
-  name: 'flanged-bushing', code: '03', description: 'Flanged sleeve bushings',
+  name: 'flanged-bushing',
+  code: '03',
+  description: 'Flanged sleeve bushings',
   make(rng) {
     const bore = round(rng.uniform(6, 40), 1);
     const rs = (bore / 2) * rng.uniform(1.2, 1.45);
     const rf = rs * rng.uniform(1.35, 1.8);
     const tf = round(bore * rng.uniform(0.12, 0.25), 0.5);
     const len = round(bore * rng.uniform(0.8, 1.8), 1);
-    const profile: P2[] = [[bore / 2, 0], [rf, 0], [rf, tf], [rs, tf], [rs, len], [bore / 2, len]];
+    const profile: P2[] = [
+      [bore / 2, 0],
+      [rf, 0],
+      [rf, tf],
+      [rs, tf],
+      [rs, len],
+      [bore / 2, len],
+    ];
     return revolvedPart(profile, segs(rng, 24, 56), `ID${bore} L${len}`);
   },
 };
 
 const hexNut: Family = {
-  name: 'hex-nut', code: '04', description: 'Hexagon nuts, M4 to M20',
+  name: 'hex-nut',
+  code: '04',
+  description: 'Hexagon nuts, M4 to M20',
   make(rng, variant) {
     const d = METRIC[variant + 1];
     const s = d * rng.uniform(1.55, 1.8); // across flats
@@ -90,7 +138,7 @@ const hexNut: Family = {
     const h = round(d * rng.uniform(0.75, 0.9), 0.1);
     const m = segs(rng, 16, 40);
     const hex = circle(0, 0, a, 6, Math.PI / 6);
-    const hexArea = (3 * Math.sqrt(3) / 2) * a * a;
+    const hexArea = ((3 * Math.sqrt(3)) / 2) * a * a;
     return {
       solid: extrude(hex, [circle(0, 0, d / 2, m)], h),
       nominal: `M${d}`,
@@ -102,7 +150,9 @@ const hexNut: Family = {
 };
 
 const flange: Family = {
-  name: 'flange', code: '05', description: 'Flat flanges with a bolt circle',
+  name: 'flange',
+  code: '05',
+  description: 'Flat flanges with a bolt circle',
   make(rng) {
     const od = round(rng.uniform(50, 220), 5);
     const bore = round(od * rng.uniform(0.25, 0.45), 1);
@@ -110,7 +160,9 @@ const flange: Family = {
     const boltR = (od * rng.uniform(0.045, 0.06)) / 1;
     const pitch = (od / 2 + bore / 2) / 2 + rng.uniform(-0.02, 0.02) * od;
     const t = round(od * rng.uniform(0.06, 0.14), 0.5);
-    const m = segs(rng, 48, 96), mh = segs(rng, 16, 32), mb = segs(rng, 12, 20);
+    const m = segs(rng, 48, 96),
+      mh = segs(rng, 16, 32),
+      mb = segs(rng, 12, 20);
     const holes = [circle(0, 0, bore / 2, mh)];
     for (let k = 0; k < bolts; k++) {
       const a = (2 * Math.PI * k) / bolts;
@@ -129,15 +181,28 @@ const flange: Family = {
 };
 
 const gear: Family = {
-  name: 'spur-gear', code: '06', description: 'Spur gears, straight-flank tooth outline',
+  name: 'spur-gear',
+  code: '06',
+  description: 'Spur gears, straight-flank tooth outline',
   make(rng) {
     const z = 10 + rng.int(31);
     const module = pick(rng, [1, 1.25, 1.5, 2, 2.5, 3]);
-    const rp = (module * z) / 2, ra = rp + module, rf = rp - 1.25 * module;
+    const rp = (module * z) / 2,
+      ra = rp + module,
+      rf = rp - 1.25 * module;
     const p = (2 * Math.PI) / z;
     const outline: P2[] = [];
-    const steps: [number, number][] = [[-0.5, rf], [-0.27, rf], [-0.19, rp], [-0.11, ra], [0.11, ra], [0.19, rp], [0.27, rf]];
-    for (let k = 0; k < z; k++) for (const [f, r] of steps) outline.push([r * Math.cos((k + f) * p), r * Math.sin((k + f) * p)]);
+    const steps: [number, number][] = [
+      [-0.5, rf],
+      [-0.27, rf],
+      [-0.19, rp],
+      [-0.11, ra],
+      [0.11, ra],
+      [0.19, rp],
+      [0.27, rf],
+    ];
+    for (let k = 0; k < z; k++)
+      for (const [f, r] of steps) outline.push([r * Math.cos((k + f) * p), r * Math.sin((k + f) * p)]);
     const bore = round(rf * rng.uniform(0.3, 0.6), 0.5);
     const width = round(module * rng.uniform(6, 12), 0.5);
     const m = segs(rng, 16, 40);
@@ -166,7 +231,9 @@ function shaftSection(r: number, m: number, flatDepth: number): P2[] {
 }
 
 const shaft: Family = {
-  name: 'stepped-shaft', code: '07', description: 'Stepped shafts, some with a flat for a set screw',
+  name: 'stepped-shaft',
+  code: '07',
+  description: 'Stepped shafts, some with a flat for a set screw',
   make(rng) {
     const steps = 2 + rng.int(3);
     const m = segs(rng, 24, 56);
@@ -179,7 +246,9 @@ const shaft: Family = {
     }
     const flat = rng.next() < 0.6 ? round(radii[0] * rng.uniform(0.12, 0.25), 0.1) : 0;
     const sections: { z: number; loop: P2[] }[] = [];
-    let z = 0, faceted = 0, smooth = 0;
+    let z = 0,
+      faceted = 0,
+      smooth = 0;
     for (let i = 0; i < steps; i++) {
       const loop = shaftSection(radii[i], m, i === 0 ? flat : 0);
       sections.push({ z, loop }, { z: z + lengths[i], loop });
@@ -203,7 +272,9 @@ const shaft: Family = {
 };
 
 const elbow: Family = {
-  name: 'pipe-elbow', code: '08', description: 'Butt-weld pipe elbows, 45° and 90°, DN15 to DN80',
+  name: 'pipe-elbow',
+  code: '08',
+  description: 'Butt-weld pipe elbows, 45° and 90°, DN15 to DN80',
   make(rng, variant) {
     const dn = [15, 20, 25, 32, 40, 50, 65, 80][variant];
     const od = dn * rng.uniform(1.2, 1.4);
@@ -211,16 +282,26 @@ const elbow: Family = {
     const rho = od * rng.uniform(1.0, 1.6);
     const phi = (variant % 2 === 0 ? 90 : 45) * (Math.PI / 180);
     const stub = od * rng.uniform(0.1, 0.5);
-    const k = segs(rng, 8, 24), m = segs(rng, 16, 40);
+    const k = segs(rng, 8, 24),
+      m = segs(rng, 16, 40);
     const frames: Frame[] = [];
     frames.push({ origin: [rho, -stub, 0], u: [1, 0, 0], v: [0, 0, -1] });
     for (let i = 0; i <= k; i++) {
       const a = (phi * i) / k;
-      frames.push({ origin: [rho * Math.cos(a), rho * Math.sin(a), 0], u: [Math.cos(a), Math.sin(a), 0], v: [0, 0, -1] });
+      frames.push({
+        origin: [rho * Math.cos(a), rho * Math.sin(a), 0],
+        u: [Math.cos(a), Math.sin(a), 0],
+        v: [0, 0, -1],
+      });
     }
     const t = [-Math.sin(phi), Math.cos(phi)];
-    frames.push({ origin: [rho * Math.cos(phi) + stub * t[0], rho * Math.sin(phi) + stub * t[1], 0], u: [Math.cos(phi), Math.sin(phi), 0], v: [0, 0, -1] });
-    const ro = od / 2, ri = od / 2 - wall;
+    frames.push({
+      origin: [rho * Math.cos(phi) + stub * t[0], rho * Math.sin(phi) + stub * t[1], 0],
+      u: [Math.cos(phi), Math.sin(phi), 0],
+      v: [0, 0, -1],
+    });
+    const ro = od / 2,
+      ri = od / 2 - wall;
     const facetArea = ngonArea(ro, m) - ngonArea(ri, m);
     const smoothArea = Math.PI * (ro * ro - ri * ri);
     // Pappus: a section of area A swept through angle φ at radius ρ gives A·ρ·φ; with k chords, A·ρ·k·sin(φ/k).
@@ -235,7 +316,9 @@ const elbow: Family = {
 };
 
 const pulley: Family = {
-  name: 'v-pulley', code: '09', description: 'V-belt pulleys with one or two grooves',
+  name: 'v-pulley',
+  code: '09',
+  description: 'V-belt pulleys with one or two grooves',
   make(rng) {
     const R = round(rng.uniform(25, 110), 1);
     const bore = round(R * rng.uniform(0.2, 0.35), 0.5);
@@ -244,7 +327,11 @@ const pulley: Family = {
     const depth = pitch * rng.uniform(0.7, 0.9);
     const rim = pitch * 0.3;
     const width = grooves * pitch + 2 * rim;
-    const profile: P2[] = [[bore, 0], [R, 0], [R, rim]];
+    const profile: P2[] = [
+      [bore, 0],
+      [R, 0],
+      [R, rim],
+    ];
     for (let g = 0; g < grooves; g++) {
       const z0 = rim + g * pitch;
       profile.push([R - depth, z0 + pitch * 0.38], [R - depth, z0 + pitch * 0.62], [R, z0 + pitch]);
@@ -255,7 +342,9 @@ const pulley: Family = {
 };
 
 const knob: Family = {
-  name: 'lobed-knob', code: '10', description: 'Lobed clamping knobs (3 to 8 lobes)',
+  name: 'lobed-knob',
+  code: '10',
+  description: 'Lobed clamping knobs (3 to 8 lobes)',
   make(rng) {
     const lobes = 3 + rng.int(6);
     const R = round(rng.uniform(12, 40), 0.5);
@@ -297,17 +386,28 @@ function profilePart(outline: P2[], smoothArea: number, length: number, nominal:
 const FILLET_LEFTOVER = 1 - Math.PI / 4; // a square r² minus the quarter disc it holds
 
 const iBeam: Family = {
-  name: 'i-beam', code: '11', description: 'I-section beam offcuts',
+  name: 'i-beam',
+  code: '11',
+  description: 'I-section beam offcuts',
   make(rng) {
-    const h = round(rng.uniform(60, 240), 10), b = round(h * rng.uniform(0.45, 0.75), 2);
-    const tf = round(h * rng.uniform(0.06, 0.09), 0.5), tw = round(tf * rng.uniform(0.55, 0.75), 0.5);
-    const rf = round(tw * rng.uniform(1, 2), 0.5), n = 2 + rng.int(5);
-    const x = tw / 2, y = h / 2;
+    const h = round(rng.uniform(60, 240), 10),
+      b = round(h * rng.uniform(0.45, 0.75), 2);
+    const tf = round(h * rng.uniform(0.06, 0.09), 0.5),
+      tw = round(tf * rng.uniform(0.55, 0.75), 0.5);
+    const rf = round(tw * rng.uniform(1, 2), 0.5),
+      n = 2 + rng.int(5);
+    const x = tw / 2,
+      y = h / 2;
     const outline: P2[] = [
-      [-b / 2, -y], [b / 2, -y], [b / 2, -y + tf],
+      [-b / 2, -y],
+      [b / 2, -y],
+      [b / 2, -y + tf],
       ...arc(x + rf, -y + tf + rf, rf, -Math.PI / 2, -Math.PI, n),
       ...arc(x + rf, y - tf - rf, rf, Math.PI, Math.PI / 2, n),
-      [b / 2, y - tf], [b / 2, y], [-b / 2, y], [-b / 2, y - tf],
+      [b / 2, y - tf],
+      [b / 2, y],
+      [-b / 2, y],
+      [-b / 2, y - tf],
       ...arc(-x - rf, y - tf - rf, rf, Math.PI / 2, 0, n),
       ...arc(-x - rf, -y + tf + rf, rf, 0, -Math.PI / 2, n),
       [-b / 2, -y + tf],
@@ -318,16 +418,25 @@ const iBeam: Family = {
 };
 
 const channel: Family = {
-  name: 'channel', code: '12', description: 'Channel (U) section offcuts',
+  name: 'channel',
+  code: '12',
+  description: 'Channel (U) section offcuts',
   make(rng) {
-    const h = round(rng.uniform(50, 200), 10), b = round(h * rng.uniform(0.35, 0.55), 2);
-    const tf = round(h * rng.uniform(0.07, 0.1), 0.5), tw = round(tf * rng.uniform(0.6, 0.8), 0.5);
-    const rf = round(tw * rng.uniform(1, 2), 0.5), n = 2 + rng.int(5);
+    const h = round(rng.uniform(50, 200), 10),
+      b = round(h * rng.uniform(0.35, 0.55), 2);
+    const tf = round(h * rng.uniform(0.07, 0.1), 0.5),
+      tw = round(tf * rng.uniform(0.6, 0.8), 0.5);
+    const rf = round(tw * rng.uniform(1, 2), 0.5),
+      n = 2 + rng.int(5);
     const outline: P2[] = [
-      [0, 0], [b, 0], [b, tf],
+      [0, 0],
+      [b, 0],
+      [b, tf],
       ...arc(tw + rf, tf + rf, rf, -Math.PI / 2, -Math.PI, n),
       ...arc(tw + rf, h - tf - rf, rf, Math.PI, Math.PI / 2, n),
-      [b, h - tf], [b, h], [0, h],
+      [b, h - tf],
+      [b, h],
+      [0, h],
     ];
     const smooth = b * h - (b - tw) * (h - 2 * tf) + 2 * rf * rf * FILLET_LEFTOVER;
     return profilePart(outline, smooth, round(h * rng.uniform(1.5, 4), 10), `U${h}x${b}`, n);
@@ -335,35 +444,61 @@ const channel: Family = {
 };
 
 const angle: Family = {
-  name: 'angle', code: '13', description: 'Equal and unequal angle (L) section offcuts',
+  name: 'angle',
+  code: '13',
+  description: 'Equal and unequal angle (L) section offcuts',
   make(rng) {
-    const a = round(rng.uniform(30, 150), 5), bLeg = rng.next() < 0.5 ? a : round(a * rng.uniform(0.5, 0.8), 5);
-    const t = round(a * rng.uniform(0.07, 0.12), 0.5), rf = round(t * rng.uniform(0.8, 1.5), 0.5), n = 2 + rng.int(5);
-    const outline: P2[] = [[0, 0], [a, 0], [a, t], ...arc(t + rf, t + rf, rf, -Math.PI / 2, -Math.PI, n), [t, bLeg], [0, bLeg]];
+    const a = round(rng.uniform(30, 150), 5),
+      bLeg = rng.next() < 0.5 ? a : round(a * rng.uniform(0.5, 0.8), 5);
+    const t = round(a * rng.uniform(0.07, 0.12), 0.5),
+      rf = round(t * rng.uniform(0.8, 1.5), 0.5),
+      n = 2 + rng.int(5);
+    const outline: P2[] = [
+      [0, 0],
+      [a, 0],
+      [a, t],
+      ...arc(t + rf, t + rf, rf, -Math.PI / 2, -Math.PI, n),
+      [t, bLeg],
+      [0, bLeg],
+    ];
     const smooth = t * (a + bLeg - t) + rf * rf * FILLET_LEFTOVER;
     return profilePart(outline, smooth, round(a * rng.uniform(1, 3), 5), `L${a}x${bLeg}x${t}`, n);
   },
 };
 
 const plate: Family = {
-  name: 'mounting-plate', code: '14', description: 'Rectangular mounting plates with a hole pattern',
+  name: 'mounting-plate',
+  code: '14',
+  description: 'Rectangular mounting plates with a hole pattern',
   make(rng) {
-    const a = round(rng.uniform(60, 300), 5), b = round(a * rng.uniform(0.4, 0.9), 5);
-    const t = round(rng.uniform(4, 16), 1), rc = round(Math.min(a, b) * rng.uniform(0.04, 0.12), 0.5);
+    const a = round(rng.uniform(60, 300), 5),
+      b = round(a * rng.uniform(0.4, 0.9), 5);
+    const t = round(rng.uniform(4, 16), 1),
+      rc = round(Math.min(a, b) * rng.uniform(0.04, 0.12), 0.5);
     const n = 2 + rng.int(5);
     const outline: P2[] = [
-      ...arc(a - rc, rc, rc, -Math.PI / 2, 0, n), ...arc(a - rc, b - rc, rc, 0, Math.PI / 2, n),
-      ...arc(rc, b - rc, rc, Math.PI / 2, Math.PI, n), ...arc(rc, rc, rc, Math.PI, 1.5 * Math.PI, n),
+      ...arc(a - rc, rc, rc, -Math.PI / 2, 0, n),
+      ...arc(a - rc, b - rc, rc, 0, Math.PI / 2, n),
+      ...arc(rc, b - rc, rc, Math.PI / 2, Math.PI, n),
+      ...arc(rc, rc, rc, Math.PI, 1.5 * Math.PI, n),
     ];
-    const [nx, ny]: readonly [number, number] = pick(rng, [[2, 2], [3, 2], [2, 1], [3, 3], [4, 2]] as const);
-    const hr = round(Math.min(a, b) * rng.uniform(0.03, 0.06), 0.25), mh = segs(rng, 12, 24);
+    const [nx, ny]: readonly [number, number] = pick(rng, [
+      [2, 2],
+      [3, 2],
+      [2, 1],
+      [3, 3],
+      [4, 2],
+    ] as const);
+    const hr = round(Math.min(a, b) * rng.uniform(0.03, 0.06), 0.25),
+      mh = segs(rng, 12, 24);
     const holes: P2[][] = [];
     const margin = Math.max(rc, 3 * hr);
-    for (let i = 0; i < nx; i++) for (let j = 0; j < ny; j++) {
-      const x = nx === 1 ? a / 2 : margin + ((a - 2 * margin) * i) / (nx - 1);
-      const y = ny === 1 ? b / 2 : margin + ((b - 2 * margin) * j) / (ny - 1);
-      holes.push(circle(x, y, hr, mh));
-    }
+    for (let i = 0; i < nx; i++)
+      for (let j = 0; j < ny; j++) {
+        const x = nx === 1 ? a / 2 : margin + ((a - 2 * margin) * i) / (nx - 1);
+        const y = ny === 1 ? b / 2 : margin + ((b - 2 * margin) * j) / (ny - 1);
+        holes.push(circle(x, y, hr, mh));
+      }
     const count = nx * ny;
     const area = polygonArea(outline);
     const smooth = a * b - (4 - Math.PI) * rc * rc - count * Math.PI * hr * hr;
@@ -379,5 +514,18 @@ const plate: Family = {
 };
 
 export const FAMILIES: readonly Family[] = [
-  washer, spacer, bushing, hexNut, flange, gear, shaft, elbow, pulley, knob, iBeam, channel, angle, plate,
+  washer,
+  spacer,
+  bushing,
+  hexNut,
+  flange,
+  gear,
+  shaft,
+  elbow,
+  pulley,
+  knob,
+  iBeam,
+  channel,
+  angle,
+  plate,
 ];

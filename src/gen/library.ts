@@ -35,14 +35,38 @@ type Format = 'stl-binary' | 'stl-binary-solid-header' | 'stl-ascii' | 'obj' | '
 
 // One slot per (family + variant) modulo the cycle: mostly binary STL, as most CAD libraries are.
 const FORMAT_CYCLE: readonly Format[] = [
-  'stl-binary', 'stl-binary-solid-header', 'stl-binary', 'obj', 'stl-binary', 'ascii', 'stl-binary', 'stl-ascii',
-  'stl-binary-solid-header', 'obj-soup', 'stl-binary', 'binary_little_endian', 'stl-binary', 'off', 'stl-binary',
-  'obj', 'stl-binary-solid-header', 'binary_big_endian', 'stl-binary', 'stl-binary',
+  'stl-binary',
+  'stl-binary-solid-header',
+  'stl-binary',
+  'obj',
+  'stl-binary',
+  'ascii',
+  'stl-binary',
+  'stl-ascii',
+  'stl-binary-solid-header',
+  'obj-soup',
+  'stl-binary',
+  'binary_little_endian',
+  'stl-binary',
+  'off',
+  'stl-binary',
+  'obj',
+  'stl-binary-solid-header',
+  'binary_big_endian',
+  'stl-binary',
+  'stl-binary',
 ];
 
 const EXT: Record<Format, string> = {
-  'stl-binary': 'stl', 'stl-binary-solid-header': 'stl', 'stl-ascii': 'stl', obj: 'obj', 'obj-soup': 'obj',
-  ascii: 'ply', binary_little_endian: 'ply', binary_big_endian: 'ply', off: 'off',
+  'stl-binary': 'stl',
+  'stl-binary-solid-header': 'stl',
+  'stl-ascii': 'stl',
+  obj: 'obj',
+  'obj-soup': 'obj',
+  ascii: 'ply',
+  binary_little_endian: 'ply',
+  binary_big_endian: 'ply',
+  off: 'off',
 };
 
 /** Y-up exporters put the part's main axis on y: (x, y, z) → (x, z, −y). */
@@ -62,7 +86,11 @@ function place(part: GeneratedPart, rng: Rng, scale: number, upAxis: LibraryEntr
 function mixWinding(indices: number[], rng: Rng): number[] {
   const out = indices.slice();
   for (let t = 0; t < out.length / 3; t++) {
-    if (rng.next() < 0.15) { const tmp = out[t * 3 + 1]; out[t * 3 + 1] = out[t * 3 + 2]; out[t * 3 + 2] = tmp; }
+    if (rng.next() < 0.15) {
+      const tmp = out[t * 3 + 1];
+      out[t * 3 + 1] = out[t * 3 + 2];
+      out[t * 3 + 2] = tmp;
+    }
   }
   return out;
 }
@@ -71,13 +99,20 @@ function encode(format: Format, positions: Float32Array, indices: number[], part
   const mesh = { positions, indices };
   const note = `${partNo} Brindle Cove Fabrication, units ${units}`;
   switch (format) {
-    case 'stl-binary': return writeStlBinary(mesh, `BCF export ${partNo} units=${units}`);
-    case 'stl-binary-solid-header': return writeStlBinary(mesh, `solid ${partNo} exported by the shop's CAM station`);
-    case 'stl-ascii': return writeStlAscii(mesh, partNo);
-    case 'obj': return writeObj(mesh, note);
-    case 'obj-soup': return writeObj(mesh, note, { soup: true });
-    case 'off': return writeOff(mesh, note);
-    default: return writePly(mesh, note, format);
+    case 'stl-binary':
+      return writeStlBinary(mesh, `BCF export ${partNo} units=${units}`);
+    case 'stl-binary-solid-header':
+      return writeStlBinary(mesh, `solid ${partNo} exported by the shop's CAM station`);
+    case 'stl-ascii':
+      return writeStlAscii(mesh, partNo);
+    case 'obj':
+      return writeObj(mesh, note);
+    case 'obj-soup':
+      return writeObj(mesh, note, { soup: true });
+    case 'off':
+      return writeOff(mesh, note);
+    default:
+      return writePly(mesh, note, format);
   }
 }
 
@@ -109,8 +144,14 @@ export function generateLibrary(seed = DEMO_SEED): Library {
       files.push({ path: file, bytes: encode(format, positions, indices, partNo, units) });
       const s3 = scale ** 3;
       entries.push({
-        file, family: family.name, nominal: part.nominal, units, upAxis, format,
-        triangles: indices.length / 3, windingMixed,
+        file,
+        family: family.name,
+        nominal: part.nominal,
+        units,
+        upAxis,
+        format,
+        triangles: indices.length / 3,
+        windingMixed,
         volumeFaceted: part.volumeFaceted * s3 * (outward ? 1 : -1),
         volumeSmooth: part.volumeSmooth * s3,
         tessellationGap: part.tessellationGap,
@@ -138,12 +179,19 @@ function brokenFiles(good: readonly LibraryFile[]): LibraryFile[] {
     { path: 'broken/empty-export.stl', bytes: new Uint8Array(0) },
     {
       path: 'broken/bad-coordinates.obj',
-      bytes: enc.encode('# exported with a failed unit conversion\nv 0 0 0\nv 10 0 0\nv nan 10 0\nv 0 0 10\nf 1 2 3\nf 1 2 4\nf 1 3 4\nf 2 3 4\n'),
+      bytes: enc.encode(
+        '# exported with a failed unit conversion\nv 0 0 0\nv 10 0 0\nv nan 10 0\nv 0 0 10\nf 1 2 3\nf 1 2 4\nf 1 3 4\nf 2 3 4\n',
+      ),
     },
     {
       path: 'broken/quote-saved-as-stl.stl',
-      bytes: enc.encode('Brindle Cove Fabrication - quotation Q-4471\nQty 40 brackets, 3 mm mild steel, galvanised.\nDelivery: 2 weeks.\n'),
+      bytes: enc.encode(
+        'Brindle Cove Fabrication - quotation Q-4471\nQty 40 brackets, 3 mm mild steel, galvanised.\nDelivery: 2 weeks.\n',
+      ),
     },
-    { path: 'broken/missing-vertices.off', bytes: enc.encode('OFF\n4 2 0\n0 0 0\n1 0 0\n0 1 0\n0 0 1\n3 0 1 2\n3 0 2 9\n') },
+    {
+      path: 'broken/missing-vertices.off',
+      bytes: enc.encode('OFF\n4 2 0\n0 0 0\n1 0 0\n0 1 0\n0 0 1\n3 0 1 2\n3 0 2 9\n'),
+    },
   ];
 }

@@ -27,7 +27,8 @@ export function polygonArea(loop: readonly P2[]): number {
 
 /** Centroid of a simple polygon (the standard shoelace-weighted formula). */
 export function polygonCentroid(loop: readonly P2[]): P2 {
-  let cx = 0, cy = 0;
+  let cx = 0,
+    cy = 0;
   for (let i = 0; i < loop.length; i++) {
     const [x0, y0] = loop[i];
     const [x1, y1] = loop[(i + 1) % loop.length];
@@ -63,7 +64,10 @@ export function ngonArea(r: number, m: number): number {
 /** Triangulate a polygon with holes in the plane (three.js ShapeUtils, earcut); indices into [outer, ...holes]. */
 function triangulate(outer: P2[], holes: P2[][]): number[][] {
   const v = (p: P2) => new Vector2(p[0], p[1]);
-  return ShapeUtils.triangulateShape(outer.map(v), holes.map((h) => h.map(v)));
+  return ShapeUtils.triangulateShape(
+    outer.map(v),
+    holes.map((h) => h.map(v)),
+  );
 }
 
 /**
@@ -81,17 +85,25 @@ export function extrude(outerIn: readonly P2[], holesIn: readonly (readonly P2[]
   for (const [x, y] of flat) s.positions.push(x, y, h);
   for (const [a, b, c] of triangulate(outer, holes)) {
     // Earcut's output winding is not promised: orient each cap triangle by its signed area.
-    const pa = flat[a], pb = flat[b], pc = flat[c];
+    const pa = flat[a],
+      pb = flat[b],
+      pc = flat[c];
     const up = (pb[0] - pa[0]) * (pc[1] - pa[1]) - (pb[1] - pa[1]) * (pc[0] - pa[0]) > 0;
-    if (up) { s.indices.push(a + n, b + n, c + n, a, c, b); }
-    else { s.indices.push(a + n, c + n, b + n, a, b, c); }
+    if (up) {
+      s.indices.push(a + n, b + n, c + n, a, c, b);
+    } else {
+      s.indices.push(a + n, c + n, b + n, a, b, c);
+    }
   }
   let base = 0;
   for (const loop of loops) {
     const m = loop.length;
     for (let i = 0; i < m; i++) {
       const j = (i + 1) % m;
-      const b0 = base + i, b1 = base + j, t0 = base + i + n, t1 = base + j + n;
+      const b0 = base + i,
+        b1 = base + j,
+        t0 = base + i + n,
+        t1 = base + j + n;
       s.indices.push(b0, b1, t1, b0, t1, t0);
     }
     base += m;
@@ -131,7 +143,10 @@ export function revolve(profileIn: readonly P2[], m: number, phase = 0): Solid {
     for (let i = 0; i < m; i++) {
       const j = (i + 1) % m;
       // Counter-clockwise profile in (r, z), revolved counter-clockwise about +z: this winding faces outward.
-      const a = ring[p][i], b = ring[p][j], c = ring[q][j], d = ring[q][i];
+      const a = ring[p][i],
+        b = ring[p][j],
+        c = ring[q][j],
+        d = ring[q][i];
       if (a !== b && b !== c && a !== c) s.indices.push(a, b, c);
       if (a !== c && c !== d && a !== d) s.indices.push(a, c, d);
     }
@@ -159,9 +174,14 @@ export function sweepTube(frames: readonly Frame[], rOuter: number, rInner: numb
     frames.map((f) =>
       Array.from({ length: m }, (_, i) => {
         const a = (2 * Math.PI * i) / m;
-        const c = Math.cos(a) * r, d = Math.sin(a) * r;
+        const c = Math.cos(a) * r,
+          d = Math.sin(a) * r;
         const idx = s.positions.length / 3;
-        s.positions.push(f.origin[0] + c * f.u[0] + d * f.v[0], f.origin[1] + c * f.u[1] + d * f.v[1], f.origin[2] + c * f.u[2] + d * f.v[2]);
+        s.positions.push(
+          f.origin[0] + c * f.u[0] + d * f.v[0],
+          f.origin[1] + c * f.u[1] + d * f.v[1],
+          f.origin[2] + c * f.u[2] + d * f.v[2],
+        );
         return idx;
       }),
     );
@@ -221,8 +241,13 @@ export function signedVolumeOf(s: Solid): number {
   let sum = 0;
   const p = s.positions;
   for (let i = 0; i < s.indices.length; i += 3) {
-    const a = s.indices[i] * 3, b = s.indices[i + 1] * 3, c = s.indices[i + 2] * 3;
-    sum += p[a] * (p[b + 1] * p[c + 2] - p[b + 2] * p[c + 1]) + p[a + 1] * (p[b + 2] * p[c] - p[b] * p[c + 2]) + p[a + 2] * (p[b] * p[c + 1] - p[b + 1] * p[c]);
+    const a = s.indices[i] * 3,
+      b = s.indices[i + 1] * 3,
+      c = s.indices[i + 2] * 3;
+    sum +=
+      p[a] * (p[b + 1] * p[c + 2] - p[b + 2] * p[c + 1]) +
+      p[a + 1] * (p[b + 2] * p[c] - p[b] * p[c + 2]) +
+      p[a + 2] * (p[b] * p[c + 1] - p[b + 1] * p[c]);
   }
   return sum / 6;
 }

@@ -2,7 +2,11 @@
 
 import type { FileInput } from '../worker/protocol';
 
-const urls = import.meta.glob('/demo-shapes/**/*.{stl,obj,ply,off,xyz}', { query: '?url', import: 'default', eager: true }) as Record<string, string>;
+const urls = import.meta.glob('/demo-shapes/**/*.{stl,obj,ply,off,xyz}', {
+  query: '?url',
+  import: 'default',
+  eager: true,
+}) as Record<string, string>;
 
 export const DEMO_FILE_COUNT = Object.keys(urls).length;
 

@@ -29,7 +29,9 @@ async function walkEntry(entry: FileSystemEntry, prefix: string, out: NamedFile[
 
 export async function namedFromDrop(dt: DataTransfer): Promise<NamedFile[]> {
   const out: NamedFile[] = [];
-  const entries = Array.from(dt.items ?? []).map((item) => item.webkitGetAsEntry?.()).filter((e): e is FileSystemEntry => !!e);
+  const entries = Array.from(dt.items ?? [])
+    .map((item) => item.webkitGetAsEntry?.())
+    .filter((e): e is FileSystemEntry => !!e);
   if (entries.length === 0) return namedFromInput(Array.from(dt.files));
   for (const entry of entries) await walkEntry(entry, '', out);
   return out;
@@ -40,7 +42,10 @@ export async function readFiles(files: readonly NamedFile[]): Promise<{ inputs: 
   const inputs: FileInput[] = [];
   const skipped: string[] = [];
   for (const f of files) {
-    if (!formatOf(f.name)) { skipped.push(f.name); continue; }
+    if (!formatOf(f.name)) {
+      skipped.push(f.name);
+      continue;
+    }
     inputs.push({ name: f.name, buffer: await f.file.arrayBuffer() });
   }
   return { inputs, skipped };

@@ -9,7 +9,8 @@ import { loadCadReader } from '../core/mesh/occt';
 import type { LibraryReply, LibraryRequest } from './protocol';
 import { partTransfers } from './protocol';
 
-const post = (msg: LibraryReply, transfer: ArrayBuffer[] = []): void => (self as unknown as Worker).postMessage(msg, transfer);
+const post = (msg: LibraryReply, transfer: ArrayBuffer[] = []): void =>
+  (self as unknown as Worker).postMessage(msg, transfer);
 
 self.onmessage = async (event: MessageEvent<LibraryRequest>) => {
   const req = event.data;

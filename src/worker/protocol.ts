@@ -33,7 +33,6 @@ export { partTransfers } from '../core/library';
 
 // ---- training worker ----
 
-
 export interface PartArrays {
   readonly points: Float32Array;
   readonly normals: Float32Array;
@@ -48,19 +47,49 @@ export interface CheckpointMessage {
 }
 
 export type TrainRequest =
-  | { readonly type: 'start'; readonly id: number; readonly parts: readonly PartArrays[]; readonly labels: readonly number[] | null; readonly config: TrainConfig; readonly sampling: { points: number; seed: number }; readonly resume?: CheckpointMessage }
+  | {
+      readonly type: 'start';
+      readonly id: number;
+      readonly parts: readonly PartArrays[];
+      readonly labels: readonly number[] | null;
+      readonly config: TrainConfig;
+      readonly sampling: { points: number; seed: number };
+      readonly resume?: CheckpointMessage;
+    }
   | { readonly type: 'pause'; readonly id: number }
   | { readonly type: 'resume'; readonly id: number }
   | { readonly type: 'cancel'; readonly id: number }
-  | { readonly type: 'embed'; readonly id: number; readonly parts: readonly PartArrays[]; readonly checkpoint: CheckpointMessage | null; readonly config: TrainConfig }
+  | {
+      readonly type: 'embed';
+      readonly id: number;
+      readonly parts: readonly PartArrays[];
+      readonly checkpoint: CheckpointMessage | null;
+      readonly config: TrainConfig;
+    }
   /** The checkpoint kept in IndexedDB (tfjs's browser handler), if any. */
   | { readonly type: 'load-saved'; readonly id: number }
   /** Keep this checkpoint (e.g. a model trained by the command line) as the current one. */
   | { readonly type: 'save'; readonly id: number; readonly checkpoint: CheckpointMessage }
   /** Leave-one-out retrieval quality of the model and the two baselines (needs labels). */
-  | { readonly type: 'evaluate'; readonly id: number; readonly parts: readonly PartArrays[]; readonly labels: readonly string[]; readonly checkpoint: CheckpointMessage | null; readonly config: TrainConfig }
+  | {
+      readonly type: 'evaluate';
+      readonly id: number;
+      readonly parts: readonly PartArrays[];
+      readonly labels: readonly string[];
+      readonly checkpoint: CheckpointMessage | null;
+      readonly config: TrainConfig;
+    }
   /** The augmentation study over the library. */
-  | { readonly type: 'study'; readonly id: number; readonly parts: readonly PartArrays[]; readonly labels: readonly string[]; readonly checkpoint: CheckpointMessage | null; readonly config: TrainConfig; readonly kinds?: readonly AugmentKind[]; readonly strengths?: readonly number[] };
+  | {
+      readonly type: 'study';
+      readonly id: number;
+      readonly parts: readonly PartArrays[];
+      readonly labels: readonly string[];
+      readonly checkpoint: CheckpointMessage | null;
+      readonly config: TrainConfig;
+      readonly kinds?: readonly AugmentKind[];
+      readonly strengths?: readonly number[];
+    };
 
 export type TrainReply =
   | { readonly type: 'backend'; readonly id: number; readonly backend: string }
@@ -68,10 +97,26 @@ export type TrainReply =
   | { readonly type: 'check'; readonly id: number; readonly check: HeldOutCheck }
   | { readonly type: 'status'; readonly id: number; readonly status: 'running' | 'paused' }
   | { readonly type: 'checkpoint'; readonly id: number; readonly checkpoint: CheckpointMessage }
-  | { readonly type: 'done'; readonly id: number; readonly result: Omit<TrainResult, 'history'> & { history: TrainResult['history'] } }
-  | { readonly type: 'embeddings'; readonly id: number; readonly vectors: Float32Array; readonly dim: number; readonly learned: boolean }
+  | {
+      readonly type: 'done';
+      readonly id: number;
+      readonly result: Omit<TrainResult, 'history'> & { history: TrainResult['history'] };
+    }
+  | {
+      readonly type: 'embeddings';
+      readonly id: number;
+      readonly vectors: Float32Array;
+      readonly dim: number;
+      readonly learned: boolean;
+    }
   | { readonly type: 'saved'; readonly id: number; readonly checkpoint: CheckpointMessage | null }
   | { readonly type: 'evaluation'; readonly id: number; readonly report: EvaluationReport }
-  | { readonly type: 'study-progress'; readonly id: number; readonly done: number; readonly total: number; readonly what: string }
+  | {
+      readonly type: 'study-progress';
+      readonly id: number;
+      readonly done: number;
+      readonly total: number;
+      readonly what: string;
+    }
   | { readonly type: 'study'; readonly id: number; readonly rows: StudyRow[] }
   | { readonly type: 'error'; readonly id: number; readonly message: string };

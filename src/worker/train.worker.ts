@@ -20,13 +20,16 @@ const SAVED = 'indexeddb://shapekin-current-model';
 async function keep(c: CheckpointMessage): Promise<void> {
   const [handler] = tf.io.getSaveHandlers(SAVED);
   await handler.save!({
-    format: 'shapekin-encoder', modelTopology: { shapekin: c.manifest } as unknown as tf.io.ModelArtifacts['modelTopology'],
-    weightSpecs: c.weightSpecs, weightData: c.weightData.slice(0), userDefinedMetadata: { adamStep: c.adamStep },
+    format: 'shapekin-encoder',
+    modelTopology: { shapekin: c.manifest } as unknown as tf.io.ModelArtifacts['modelTopology'],
+    weightSpecs: c.weightSpecs,
+    weightData: c.weightData.slice(0),
+    userDefinedMetadata: { adamStep: c.adamStep },
   });
 }
 
 async function loadKept(): Promise<CheckpointMessage | null> {
-  const list = await tf.io.listModels().catch(() => ({} as Record<string, unknown>));
+  const list = await tf.io.listModels().catch(() => ({}) as Record<string, unknown>);
   if (!(SAVED in list)) return null;
   const [handler] = tf.io.getLoadHandlers(SAVED);
   const art = await handler.load!();
@@ -40,7 +43,11 @@ let backend: Promise<string> | null = null;
 function ready(): Promise<string> {
   backend ??= initBackend({
     prefer: 'wasm',
-    wasmPaths: { 'tfjs-backend-wasm.wasm': wasmPlain, 'tfjs-backend-wasm-simd.wasm': wasmSimd, 'tfjs-backend-wasm-threaded-simd.wasm': wasmThreaded },
+    wasmPaths: {
+      'tfjs-backend-wasm.wasm': wasmPlain,
+      'tfjs-backend-wasm-simd.wasm': wasmSimd,
+      'tfjs-backend-wasm-threaded-simd.wasm': wasmThreaded,
+    },
   });
   return backend;
 }
@@ -50,16 +57,46 @@ let trainerId = 0;
 
 function toMessage(ckpt: Checkpoint): CheckpointMessage {
   const art = toArtifacts(ckpt);
-  return { manifest: ckpt.manifest, weightSpecs: art.weightSpecs as CheckpointMessage['weightSpecs'], weightData: art.weightData as ArrayBuffer, adamStep: ckpt.adam?.step ?? 0 };
+  return {
+    manifest: ckpt.manifest,
+    weightSpecs: art.weightSpecs as CheckpointMessage['weightSpecs'],
+    weightData: art.weightData as ArrayBuffer,
+    adamStep: ckpt.adam?.step ?? 0,
+  };
 }
 
 export function fromMessage(m: CheckpointMessage): Checkpoint {
-  return fromArtifacts({ format: 'shapekin-encoder', modelTopology: { shapekin: m.manifest } as unknown as tf.io.ModelArtifacts['modelTopology'], weightSpecs: m.weightSpecs, weightData: m.weightData, userDefinedMetadata: { adamStep: m.adamStep } }, 'saved model');
+  return fromArtifacts(
+    {
+      format: 'shapekin-encoder',
+      modelTopology: { shapekin: m.manifest } as unknown as tf.io.ModelArtifacts['modelTopology'],
+      weightSpecs: m.weightSpecs,
+      weightData: m.weightData,
+      userDefinedMetadata: { adamStep: m.adamStep },
+    },
+    'saved model',
+  );
 }
 
-function snapshot(t: Trainer, sampling: { points: number; seed: number }, status: Checkpoint['manifest']['status'], name: string): CheckpointMessage {
+function snapshot(
+  t: Trainer,
+  sampling: { points: number; seed: number },
+  status: Checkpoint['manifest']['status'],
+  name: string,
+): CheckpointMessage {
   return toMessage({
-    manifest: { format: 'shapekin-encoder', version: 1, config: t.config, sampling, step: t.step, totalSteps: t.totalSteps, status, backend: name, history: t.history, checks: t.checks },
+    manifest: {
+      format: 'shapekin-encoder',
+      version: 1,
+      config: t.config,
+      sampling,
+      step: t.step,
+      totalSteps: t.totalSteps,
+      status,
+      backend: name,
+      history: t.history,
+      checks: t.checks,
+    },
     weights: t.weights(),
     adam: t.adamState(),
   });
@@ -76,7 +113,17 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         const resume = req.resume ? fromMessage(req.resume) : null;
         trainer = new Trainer(req.parts, resume ? resume.manifest.config : req.config, {
           labels: req.labels,
-          ...(resume ? { initialWeights: resume.weights, resume: { step: resume.manifest.step, adam: resume.adam!, history: resume.manifest.history, checks: resume.manifest.checks } } : {}),
+          ...(resume
+            ? {
+                initialWeights: resume.weights,
+                resume: {
+                  step: resume.manifest.step,
+                  adam: resume.adam!,
+                  history: resume.manifest.history,
+                  checks: resume.manifest.checks,
+                },
+              }
+            : {}),
         });
         trainerId = req.id;
         const t = trainer;
@@ -101,15 +148,36 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         trainer = null;
         return;
       }
-      case 'pause': if (trainer && req.id === trainerId) { trainer.pause(); post({ type: 'status', id: req.id, status: 'paused' }); } return;
-      case 'resume': if (trainer && req.id === trainerId) { trainer.resume(); post({ type: 'status', id: req.id, status: 'running' }); } return;
-      case 'cancel': if (trainer && req.id === trainerId) trainer.cancel(); return;
+      case 'pause':
+        if (trainer && req.id === trainerId) {
+          trainer.pause();
+          post({ type: 'status', id: req.id, status: 'paused' });
+        }
+        return;
+      case 'resume':
+        if (trainer && req.id === trainerId) {
+          trainer.resume();
+          post({ type: 'status', id: req.id, status: 'running' });
+        }
+        return;
+      case 'cancel':
+        if (trainer && req.id === trainerId) trainer.cancel();
+        return;
       case 'evaluate': {
         const ckpt = req.checkpoint ? fromMessage(req.checkpoint) : null;
         const cfg = ckpt ? ckpt.manifest.config : req.config;
         const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
         try {
-          const report = evaluateMethods({ parts: req.parts, labels: req.labels, points: cfg.points, pose: cfg.pose, ...(learned ? { learned } : {}), untrainedConfig: cfg.encoder, seed: cfg.seed, diffusion: DIFFUSION_DEFAULTS });
+          const report = evaluateMethods({
+            parts: req.parts,
+            labels: req.labels,
+            points: cfg.points,
+            pose: cfg.pose,
+            ...(learned ? { learned } : {}),
+            untrainedConfig: cfg.encoder,
+            seed: cfg.seed,
+            diffusion: DIFFUSION_DEFAULTS,
+          });
           post({ type: 'evaluation', id: req.id, report });
         } finally {
           if (learned) disposeEncoders(learned);
@@ -123,9 +191,15 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         const untrained = untrainedEncoders(cfg.encoder, cfg.pose, cfg.seed);
         try {
           const rows = runStudy({
-            parts: req.parts, labels: req.labels, points: cfg.points, pose: cfg.pose, upAxis: cfg.pipeline.upAxis, seed: cfg.seed,
+            parts: req.parts,
+            labels: req.labels,
+            points: cfg.points,
+            pose: cfg.pose,
+            upAxis: cfg.pipeline.upAxis,
+            seed: cfg.seed,
             encoders: { ...(learned ? { learned } : {}), untrained },
-            ...(req.kinds ? { kinds: req.kinds } : {}), ...(req.strengths ? { strengths: req.strengths } : {}),
+            ...(req.kinds ? { kinds: req.kinds } : {}),
+            ...(req.strengths ? { strengths: req.strengths } : {}),
             onProgress: (done, total, what) => post({ type: 'study-progress', id: req.id, done, total, what }),
           });
           post({ type: 'study', id: req.id, rows });
@@ -147,11 +221,22 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         return;
       }
       case 'embed': {
-        const enc = req.checkpoint ? encodersFromCheckpoint(fromMessage(req.checkpoint)) : untrainedEncoders(req.config.encoder, req.config.pose, req.config.seed);
+        const enc = req.checkpoint
+          ? encodersFromCheckpoint(fromMessage(req.checkpoint))
+          : untrainedEncoders(req.config.encoder, req.config.pose, req.config.seed);
         const cfg = req.checkpoint ? fromMessage(req.checkpoint).manifest.config : req.config;
         try {
           const vectors = embedForRetrieval(enc, req.parts, cfg.points, cfg.pose);
-          post({ type: 'embeddings', id: req.id, vectors, dim: vectors.length / Math.max(1, req.parts.length), learned: Boolean(req.checkpoint) }, [vectors.buffer as ArrayBuffer]);
+          post(
+            {
+              type: 'embeddings',
+              id: req.id,
+              vectors,
+              dim: vectors.length / Math.max(1, req.parts.length),
+              learned: Boolean(req.checkpoint),
+            },
+            [vectors.buffer as ArrayBuffer],
+          );
         } finally {
           disposeEncoders(enc);
         }
@@ -159,7 +244,10 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
       }
     }
   } catch (err) {
-    if (req.type === 'start') { trainer?.dispose(); trainer = null; }
+    if (req.type === 'start') {
+      trainer?.dispose();
+      trainer = null;
+    }
     post({ type: 'error', id: req.id, message: (err as Error).message });
   }
 };

@@ -18,11 +18,23 @@ export async function launch(): Promise<BrowserContext> {
     executablePath: CHROMIUM,
     headless: true,
     viewport: { width: 1280, height: 800 },
-    args: ['--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run', '--disable-quic'],
+    args: [
+      '--no-sandbox',
+      '--disable-gpu',
+      '--disable-background-networking',
+      '--disable-component-update',
+      '--disable-sync',
+      '--no-first-run',
+      '--disable-quic',
+    ],
   });
   context.on('close', () => {
     // Chromium may still be writing into the profile as it exits: retry, and never fail a test run over it.
-    try { rmSync(profile, { recursive: true, force: true, maxRetries: 5, retryDelay: 200 }); } catch { /* left in the temp folder */ }
+    try {
+      rmSync(profile, { recursive: true, force: true, maxRetries: 5, retryDelay: 200 });
+    } catch {
+      /* left in the temp folder */
+    }
   });
   return context;
 }

@@ -25,7 +25,9 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     context = await launch();
     page = await context.newPage();
     page.on('pageerror', (e) => errors.push(`pageerror: ${e.message}`));
-    page.on('console', (m) => { if (m.type() === 'error') errors.push(`console: ${m.text()}`); });
+    page.on('console', (m) => {
+      if (m.type() === 'error') errors.push(`console: ${m.text()}`);
+    });
     await page.goto(server.url);
   }, 60_000);
 
@@ -38,21 +40,27 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     const summary = page.getByTestId('library-summary');
     await expect.poll(async () => summary.textContent(), { timeout: 60_000 }).toMatch(/112 parts in 14 folders/);
     const failures = page.getByTestId('failures');
-    await expect.poll(async () => (await failures.textContent()) ?? '', { timeout: 10_000 }).toContain('upload-cut-short.stl');
+    await expect
+      .poll(async () => (await failures.textContent()) ?? '', { timeout: 10_000 })
+      .toContain('upload-cut-short.stl');
     const text = (await failures.textContent()) ?? '';
     expect(text).toMatch(/empty-export\.stl: the file is empty/);
     expect(text).toMatch(/bad-coordinates\.obj: vertex 2 has a non-finite coordinate/);
     expect(text).toMatch(/quote-saved-as-stl\.stl: not an STL file/);
     expect(text).toMatch(/upload-cut-short\.stl: binary STL header declares \d+ triangles/);
     expect(text).toMatch(/missing-vertices\.off: face 1 refers to vertex 9/);
-    await expect.poll(async () => page.locator('sk-library-panel').locator('img').count(), { timeout: 60_000 }).toBeGreaterThan(100);
+    await expect
+      .poll(async () => page.locator('sk-library-panel').locator('img').count(), { timeout: 60_000 })
+      .toBeGreaterThan(100);
     await page.screenshot({ path: `${ARTIFACTS}/library.png` });
   }, 120_000);
 
   it('the augmentation preview shows the original and two views with the distance moved', async () => {
     await page.getByRole('tab', { name: 'Augmentations' }).click();
     const numbers = page.getByTestId('augment-distances');
-    await expect.poll(async () => (await numbers.textContent()) ?? '', { timeout: 10_000 }).toMatch(/view A: Chamfer \d/);
+    await expect
+      .poll(async () => (await numbers.textContent()) ?? '', { timeout: 10_000 })
+      .toMatch(/view A: Chamfer \d/);
     const before = await numbers.textContent();
     await page.getByRole('button', { name: 'Roll new views' }).click();
     await expect.poll(async () => numbers.textContent()).not.toBe(before);
@@ -63,25 +71,37 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.evaluate(() => {
       const w = window as unknown as { longTasks: number[] };
       w.longTasks = [];
-      new PerformanceObserver((list) => { for (const e of list.getEntries()) w.longTasks.push(e.duration); }).observe({ type: 'longtask', buffered: false });
+      new PerformanceObserver((list) => {
+        for (const e of list.getEntries()) w.longTasks.push(e.duration);
+      }).observe({ type: 'longtask', buffered: false });
     });
     await page.getByRole('tab', { name: 'Training' }).click();
     // The demo's meshes are all closed, so the library's default inputs keep the normals, and say why.
     expect(await page.getByLabel('per-point inputs').inputValue()).toBe('xyz+normal');
     expect(await page.getByLabel('neighbour layer').inputValue()).toBe('32'); // the EdgeConv default
-    await page.getByText(/Default inputs for this library: x y z \+ normal: 112 of 112 meshes are closed/).waitFor({ timeout: 10_000 });
+    await page
+      .getByText(/Default inputs for this library: x y z \+ normal: 112 of 112 meshes are closed/)
+      .waitFor({ timeout: 10_000 });
     // A third of the demo was exported turned, so it keeps the principal-axes pose, and says why.
     expect(await page.getByLabel('pose', { exact: true }).inputValue()).toBe('principal-axes');
-    await page.getByText(/Default pose: principal axes: only 74 of 112 parts sit square in their files' axes/).waitFor({ timeout: 10_000 });
+    await page
+      .getByText(/Default pose: principal axes: only 74 of 112 parts sit square in their files' axes/)
+      .waitFor({ timeout: 10_000 });
     await page.getByLabel('epochs').fill('3');
     await page.getByLabel('epochs').dispatchEvent('change');
     await page.getByRole('button', { name: 'Start training' }).click();
     const stats = page.getByTestId('train-stats');
-    await expect.poll(async () => (await stats.textContent()) ?? '', { timeout: 120_000 }).toMatch(/step [2-9] of 9 · loss \d/);
+    await expect
+      .poll(async () => (await stats.textContent()) ?? '', { timeout: 120_000 })
+      .toMatch(/step [2-9] of 9 · loss \d/);
     expect((await stats.textContent()) ?? '').toMatch(/parts\/s .* left/);
     await page.screenshot({ path: `${ARTIFACTS}/training.png` });
     await expect.poll(async () => (await stats.textContent()) ?? '', { timeout: 120_000 }).toMatch(/finished · step/);
-    const losses = await page.evaluate(() => (document.querySelector('sk-app') as unknown as { state: { training: { history: { loss: number }[] } } }).state.training.history.map((h) => h.loss));
+    const losses = await page.evaluate(() =>
+      (
+        document.querySelector('sk-app') as unknown as { state: { training: { history: { loss: number }[] } } }
+      ).state.training.history.map((h) => h.loss),
+    );
     expect(losses.length).toBe(9);
     expect((losses[7] + losses[8]) / 2).toBeLessThan((losses[0] + losses[1]) / 2);
     const longTasks = await page.evaluate(() => (window as unknown as { longTasks: number[] }).longTasks);
@@ -107,59 +127,87 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.screenshot({ path: `${ARTIFACTS}/search.png` });
     // A new file, not in the library, as the query.
     await page.locator('sk-search-panel input[type=file]').setInputFiles('demo-shapes/spur-gear/BC06-311C.obj');
-    await expect.poll(async () => page.locator('sk-search-panel select[aria-label="Query part"]').inputValue(), { timeout: 30_000 }).toMatch(/BC06-311C\.obj \(dropped file\)/);
+    await expect
+      .poll(async () => page.locator('sk-search-panel select[aria-label="Query part"]').inputValue(), {
+        timeout: 30_000,
+      })
+      .toMatch(/BC06-311C\.obj \(dropped file\)/);
     await expect.poll(async () => results.count(), { timeout: 30_000 }).toBe(10);
   }, 120_000);
 
   it('the map shows every part, and the quality panel measures the model against the baselines', async () => {
     await page.getByRole('tab', { name: 'Map' }).click();
-    await expect.poll(async () => page.locator('sk-map-panel').locator('circle').count(), { timeout: 30_000 }).toBe(112);
+    await expect
+      .poll(async () => page.locator('sk-map-panel').locator('circle').count(), { timeout: 30_000 })
+      .toBe(112);
     await page.screenshot({ path: `${ARTIFACTS}/map.png` });
     await page.getByRole('tab', { name: 'Quality' }).click();
     await page.getByRole('button', { name: 'Measure retrieval quality' }).click();
     const table = page.getByTestId('metrics-table');
-    await expect.poll(async () => (await table.count()) ? table.locator('tr').count() : 0, { timeout: 120_000 }).toBe(7);
-    expect(await table.textContent()).toMatch(/learned.*learned, ordered through the library.*untrained.*d2.*d2, ordered through the library/s);
+    await expect
+      .poll(async () => ((await table.count()) ? table.locator('tr').count() : 0), { timeout: 120_000 })
+      .toBe(7);
+    expect(await table.textContent()).toMatch(
+      /learned.*learned, ordered through the library.*untrained.*d2.*d2, ordered through the library/s,
+    );
     await page.screenshot({ path: `${ARTIFACTS}/quality.png` });
   }, 180_000);
 
   it('a reload keeps the library and the trained model', async () => {
     await page.reload();
-    await expect.poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 60_000 }).toMatch(/112 parts in 14 folders/);
-    await expect.poll(async () => page.getByTestId('model-status').textContent(), { timeout: 60_000 }).toMatch(/model: 9 of 9 steps \(done\)/);
+    await expect
+      .poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 60_000 })
+      .toMatch(/112 parts in 14 folders/);
+    await expect
+      .poll(async () => page.getByTestId('model-status').textContent(), { timeout: 60_000 })
+      .toMatch(/model: 9 of 9 steps \(done\)/);
   }, 120_000);
 
   it('broken files dropped into the page get a reason each, a reader that runs too long is stopped, and the page stays responsive', async () => {
     await page.evaluate(() => {
       const w = window as unknown as { longTasks: number[] };
       w.longTasks = [];
-      new PerformanceObserver((list) => { for (const e of list.getEntries()) w.longTasks.push(e.duration); }).observe({ type: 'longtask', buffered: false });
+      new PerformanceObserver((list) => {
+        for (const e of list.getEntries()) w.longTasks.push(e.duration);
+      }).observe({ type: 'longtask', buffered: false });
       // A short time limit, so that reading a large file (well over a second here) outlasts it.
-      (document.querySelector('sk-app') as unknown as { library: { timeLimits: unknown } }).library.timeLimits = { baseMs: 150, perMiBMs: 0 };
+      (document.querySelector('sk-app') as unknown as { library: { timeLimits: unknown } }).library.timeLimits = {
+        baseMs: 150,
+        perMiBMs: 0,
+      };
     });
     await page.getByRole('tab', { name: 'Parts library' }).click();
     // Files on disk, handed to the page by path (a large in-memory buffer would be built by page script).
     const dir = mkdtempSync(join(tmpdir(), 'shapekin-broken-'));
-    const file = (name: string, text: string) => { writeFileSync(join(dir, name), text); return join(dir, name); };
+    const file = (name: string, text: string) => {
+      writeFileSync(join(dir, name), text);
+      return join(dir, name);
+    };
     const vertices = 'ply\nformat ascii 1.0\nelement vertex 3\nproperty float x\nproperty float y\nproperty float z\n';
-    await page.locator('sk-library-panel input[type=file][multiple]').setInputFiles([
-      file('junk-count.ply', `${vertices}element junk 9007199254740991\nend_header\n0 0 0\n1 0 0\n0 1 0\n`),
-      file('cut-short.ply', `${vertices}end_header\n0 0 0\n1 0 0\n`),
-      file('lying-counts.off', 'OFF\n6 1 0\n0 0 0\n1 0 0\n0 1 0\n3 0 1 2\n'),
-      file('typo.xyz', '1 2 3a\n4 5 6\n7 8 9\n'),
-      file('slow.obj', 'v 0 0 0\nv 1 0 0\nv 0 1 0\n' + 'f 1 2 3\n'.repeat(2_500_000)),
-    ]);
+    await page
+      .locator('sk-library-panel input[type=file][multiple]')
+      .setInputFiles([
+        file('junk-count.ply', `${vertices}element junk 9007199254740991\nend_header\n0 0 0\n1 0 0\n0 1 0\n`),
+        file('cut-short.ply', `${vertices}end_header\n0 0 0\n1 0 0\n`),
+        file('lying-counts.off', 'OFF\n6 1 0\n0 0 0\n1 0 0\n0 1 0\n3 0 1 2\n'),
+        file('typo.xyz', '1 2 3a\n4 5 6\n7 8 9\n'),
+        file('slow.obj', 'v 0 0 0\nv 1 0 0\nv 0 1 0\n' + 'f 1 2 3\n'.repeat(2_500_000)),
+      ]);
     const failures = page.getByTestId('failures');
     await expect.poll(async () => (await failures.textContent()) ?? '', { timeout: 60_000 }).toContain('slow.obj');
     await page.screenshot({ path: `${ARTIFACTS}/broken-files.png` });
     const text = ((await failures.textContent()) ?? '').replace(/\s+/g, ' ');
-    expect(text).toMatch(/junk-count\.ply: PLY header: element "junk" declares 9007199254740991 entries but no properties/);
+    expect(text).toMatch(
+      /junk-count\.ply: PLY header: element "junk" declares 9007199254740991 entries but no properties/,
+    );
     expect(text).toMatch(/cut-short\.ply: PLY header declares 3 entries .* but the body has 2 lines/);
     expect(text).toMatch(/lying-counts\.off: OFF header declares 6 vertices but the file ends after 4/);
     expect(text).toMatch(/typo\.xyz: line 1 is not a point/);
     expect(text).toMatch(/slow\.obj: reading took longer than 0\.\d s and was stopped/);
     // The library itself is untouched and the page answered throughout.
-    await expect.poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 10_000 }).toMatch(/112 parts in 14 folders/);
+    await expect
+      .poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 10_000 })
+      .toMatch(/112 parts in 14 folders/);
     const longTasks = await page.evaluate(() => (window as unknown as { longTasks: number[] }).longTasks);
     // No reader runs on the page. What remains are the page's own steps after an import (saving the library,
     // handing parts to the training worker): 50–240 ms measured here, to be cut with the workbench's status work.
@@ -168,15 +216,26 @@ describe.skipIf(!available)('workbench in a real browser', () => {
 
   it('STEP and VRML files import in the page, STEP sizes in millimetres (KiCad models, test/fixtures/kicad)', async () => {
     await page.evaluate(() => {
-      (document.querySelector('sk-app') as unknown as { library: { timeLimits: unknown } }).library.timeLimits = { baseMs: 30_000, perMiBMs: 2_000 };
+      (document.querySelector('sk-app') as unknown as { library: { timeLimits: unknown } }).library.timeLimits = {
+        baseMs: 30_000,
+        perMiBMs: 2_000,
+      };
     });
-    await page.locator('sk-library-panel input[type=file][multiple]').setInputFiles([
-      'test/fixtures/kicad/Battery_CR1225.step', 'test/fixtures/kicad/Battery_CR1225.wrl', 'test/fixtures/kicad/TO-92Mini-2.step',
-    ]);
-    await expect.poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 60_000 }).toMatch(/115 parts in 15 folders/);
+    await page
+      .locator('sk-library-panel input[type=file][multiple]')
+      .setInputFiles([
+        'test/fixtures/kicad/Battery_CR1225.step',
+        'test/fixtures/kicad/Battery_CR1225.wrl',
+        'test/fixtures/kicad/TO-92Mini-2.step',
+      ]);
+    await expect
+      .poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 60_000 })
+      .toMatch(/115 parts in 15 folders/);
     const card = page.locator('sk-library-panel button.card', { hasText: 'Battery_CR1225.step' });
     expect(await card.textContent()).toMatch(/12\.5 × 12\.5 × 2\.50 mm/);
-    expect(await page.locator('sk-library-panel button.card', { hasText: 'Battery_CR1225.wrl' }).textContent()).toMatch(/4\.92 × 4\.92 × 0\.98 file units/);
+    expect(await page.locator('sk-library-panel button.card', { hasText: 'Battery_CR1225.wrl' }).textContent()).toMatch(
+      /4\.92 × 4\.92 × 0\.98 file units/,
+    );
     await page.getByPlaceholder('Filter by name or folder').fill('Battery');
     await page.screenshot({ path: `${ARTIFACTS}/cad-import.png` });
     await page.getByPlaceholder('Filter by name or folder').fill('');

@@ -18,10 +18,18 @@ let out: string[] = [];
 let err: string[] = [];
 
 function capture() {
-  out = []; err = [];
-  vi.spyOn(console, 'log').mockImplementation((...a: unknown[]) => { out.push(a.join(' ')); });
-  vi.spyOn(console, 'error').mockImplementation((...a: unknown[]) => { err.push(a.join(' ')); });
-  vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => { err.push(String(s)); return true; });
+  out = [];
+  err = [];
+  vi.spyOn(console, 'log').mockImplementation((...a: unknown[]) => {
+    out.push(a.join(' '));
+  });
+  vi.spyOn(console, 'error').mockImplementation((...a: unknown[]) => {
+    err.push(a.join(' '));
+  });
+  vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => {
+    err.push(String(s));
+    return true;
+  });
 }
 afterEach(() => vi.restoreAllMocks());
 
@@ -36,31 +44,98 @@ beforeAll(async () => {
 describe('shapekin train', () => {
   it('picks the inputs from the library: normals for closed meshes, x y z only when most are open; --inputs overrides', async () => {
     // The demo run above: every demo mesh is closed.
-    expect(JSON.parse(readFileSync(join(run, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.inputFeatures).toBe('xyz+normal');
+    expect(
+      JSON.parse(readFileSync(join(run, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.inputFeatures,
+    ).toBe('xyz+normal');
     const lib = mkdtempSync(join(tmpdir(), 'shapekin-open-'));
-    const open = [new PlaneGeometry(2, 1, 4, 2), new CylinderGeometry(1, 1, 2, 16, 1, true), new CylinderGeometry(0.5, 1, 1, 12, 1, true)];
-    open.forEach((g, i) => writeFileSync(join(lib, `open${i}.obj`), writeObj({ positions: g.getAttribute('position').array, indices: g.index!.array }, 'open surface')));
+    const open = [
+      new PlaneGeometry(2, 1, 4, 2),
+      new CylinderGeometry(1, 1, 2, 16, 1, true),
+      new CylinderGeometry(0.5, 1, 1, 12, 1, true),
+    ];
+    open.forEach((g, i) =>
+      writeFileSync(
+        join(lib, `open${i}.obj`),
+        writeObj({ positions: g.getAttribute('position').array, indices: g.index!.array }, 'open surface'),
+      ),
+    );
     const openRun = join(lib, 'run');
     capture();
     expect(await main(['train', lib, '--out', openRun, '--epochs', '1', '--points', '64', '--batch', '3'])).toBe(0);
     expect(err.join('')).toMatch(/inputs: x y z only: 0 of 3 meshes are closed/);
     // A plane and two cylinders modelled square to their axes keep the files' axes; the demo, a third of it
     // exported turned, gets principal axes.
-    expect(err.join('')).toMatch(/pose: the files' own axes and principal axes, one encoder each: 3 of 3 parts sit square in their files' axes/);
+    expect(err.join('')).toMatch(
+      /pose: the files' own axes and principal axes, one encoder each: 3 of 3 parts sit square in their files' axes/,
+    );
     expect(err.join('')).toMatch(/training on 3 parts, 2 steps \(2 encoders × 1 epochs × 1\)/);
     const openConfig = JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config;
     expect(openConfig.encoder.inputFeatures).toBe('xyz');
     expect(openConfig.pose).toBe('file-and-principal');
-    expect(JSON.parse(readFileSync(join(run, 'model.json'), 'utf8')).modelTopology.shapekin.config.pose).toBe('principal-axes');
-    expect(await main(['train', lib, '--out', openRun, '--epochs', '1', '--points', '64', '--batch', '3', '--inputs', 'xyz+unsigned-normal', '--json'])).toBe(0);
-    expect(JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.inputFeatures).toBe('xyz+unsigned-normal');
+    expect(JSON.parse(readFileSync(join(run, 'model.json'), 'utf8')).modelTopology.shapekin.config.pose).toBe(
+      'principal-axes',
+    );
+    expect(
+      await main([
+        'train',
+        lib,
+        '--out',
+        openRun,
+        '--epochs',
+        '1',
+        '--points',
+        '64',
+        '--batch',
+        '3',
+        '--inputs',
+        'xyz+unsigned-normal',
+        '--json',
+      ]),
+    ).toBe(0);
+    expect(
+      JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.inputFeatures,
+    ).toBe('xyz+unsigned-normal');
     expect(await main(['train', lib, '--out', openRun, '--inputs', 'colour'])).toBe(2);
-    expect(await main(['train', lib, '--out', openRun, '--epochs', '1', '--points', '64', '--batch', '3', '--pose', 'as-is', '--json'])).toBe(0);
+    expect(
+      await main([
+        'train',
+        lib,
+        '--out',
+        openRun,
+        '--epochs',
+        '1',
+        '--points',
+        '64',
+        '--batch',
+        '3',
+        '--pose',
+        'as-is',
+        '--json',
+      ]),
+    ).toBe(0);
     const kept = JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config;
     expect(kept.pose).toBe('as-is');
     expect(kept.pipeline.steps.map((s: { kind: string }) => s.kind)).toEqual(['scale', 'occlude', 'jitter']); // no turning
-    expect(await main(['train', lib, '--out', openRun, '--epochs', '1', '--points', '64', '--batch', '3', '--neighbours', '8', '--json'])).toBe(0);
-    expect(JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.edge).toEqual({ k: 8, width: 64 });
+    expect(
+      await main([
+        'train',
+        lib,
+        '--out',
+        openRun,
+        '--epochs',
+        '1',
+        '--points',
+        '64',
+        '--batch',
+        '3',
+        '--neighbours',
+        '8',
+        '--json',
+      ]),
+    ).toBe(0);
+    expect(
+      JSON.parse(readFileSync(join(openRun, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.edge,
+    ).toEqual({ k: 8, width: 64 });
     expect(await main(['eval', lib, '--model', openRun, '--json'])).toBe(0); // the saved layer is rebuilt and used
     expect(await main(['train', lib, '--out', openRun, '--neighbours', '-1'])).toBe(2);
   });
@@ -88,30 +163,55 @@ describe('shapekin eval --json', () => {
     const r = JSON.parse(out.join('\n'));
     expect(r.parts).toBe(112);
     expect(r.labels).toBe(14);
-    expect(Object.keys(r.methods).sort()).toEqual(['d2', 'd2+diffusion', 'learned', 'learned+diffusion', 'untrained', 'untrained+diffusion']);
+    expect(Object.keys(r.methods).sort()).toEqual([
+      'd2',
+      'd2+diffusion',
+      'learned',
+      'learned+diffusion',
+      'untrained',
+      'untrained+diffusion',
+    ]);
     for (const m of Object.values(r.methods) as Record<string, number>[]) {
       expect(Object.keys(m).sort()).toEqual(['dcg', 'first_tier', 'map', 'nn', 'p_at_5', 'second_tier']);
-      for (const v of Object.values(m)) { expect(v).toBeGreaterThanOrEqual(0); expect(v).toBeLessThanOrEqual(1); }
+      for (const v of Object.values(m)) {
+        expect(v).toBeGreaterThanOrEqual(0);
+        expect(v).toBeLessThanOrEqual(1);
+      }
     }
     expect(err.join('')).toBe(''); // --json keeps stderr free of per-file lines
   }, 120_000);
   it('without --model leaves learned out', async () => {
     capture();
     expect(await main(['eval', DEMO, '--json'])).toBe(0);
-    expect(Object.keys(JSON.parse(out.join('\n')).methods).sort()).toEqual(['d2', 'd2+diffusion', 'untrained', 'untrained+diffusion']);
+    expect(Object.keys(JSON.parse(out.join('\n')).methods).sort()).toEqual([
+      'd2',
+      'd2+diffusion',
+      'untrained',
+      'untrained+diffusion',
+    ]);
   }, 120_000);
 });
 
 describe('shapekin embed, query, duplicates, study', () => {
   it('embed writes .npy (NumPy v1.0), .csv and .json', async () => {
     capture();
-    const npy = join(run, 'e.npy'), csv = join(run, 'e.csv'), json = join(run, 'e.json');
+    const npy = join(run, 'e.npy'),
+      csv = join(run, 'e.csv'),
+      json = join(run, 'e.json');
     for (const f of [npy, csv, json]) expect(await main(['embed', DEMO, '--model', run, '--out', f])).toBe(0);
     const b = readFileSync(npy);
     expect(b.subarray(1, 6).toString()).toBe('NUMPY');
     expect(b.subarray(10, 10 + b.readUInt16LE(8)).toString()).toContain("'shape': (112, 128)"); // the default projection head's output width
     const rows = readFileSync(csv, 'utf8').trim().split('\n');
-    expect(rows[0].split(',').slice(0, 7)).toEqual(['file', 'label', 'extent_x', 'extent_y', 'extent_z', 'units', 'e0']);
+    expect(rows[0].split(',').slice(0, 7)).toEqual([
+      'file',
+      'label',
+      'extent_x',
+      'extent_y',
+      'extent_z',
+      'units',
+      'e0',
+    ]);
     expect(rows.length).toBe(113);
     expect(JSON.parse(readFileSync(json, 'utf8')).parts[0].embedding.length).toBe(128);
   }, 120_000);
@@ -129,7 +229,9 @@ describe('shapekin embed, query, duplicates, study', () => {
     expect(r.caution).toMatch(/qualified person/);
     // By similarity alone the cosine scores fall rank by rank.
     capture();
-    expect(await main(['query', file, '--model', run, '--library', DEMO, '-k', '5', '--order', 'cosine', '--json'])).toBe(0);
+    expect(
+      await main(['query', file, '--model', run, '--library', DEMO, '-k', '5', '--order', 'cosine', '--json']),
+    ).toBe(0);
     const c = JSON.parse(out.join('\n'));
     expect(c.order).toBe('cosine');
     for (let i = 1; i < 5; i++) expect(c.results[i].score).toBeLessThanOrEqual(c.results[i - 1].score);
@@ -144,7 +246,9 @@ describe('shapekin embed, query, duplicates, study', () => {
   }, 120_000);
   it('study reports rows per augmentation, strength and method', async () => {
     capture();
-    expect(await main(['study', DEMO, '--model', run, '--augmentations', 'jitter', '--strengths', '0,1', '--json'])).toBe(0);
+    expect(
+      await main(['study', DEMO, '--model', run, '--augmentations', 'jitter', '--strengths', '0,1', '--json']),
+    ).toBe(0);
     const r = JSON.parse(out.join('\n'));
     expect(r.rows.length).toBe(2 * 3);
     const clean = r.rows.find((x: { strength: number; method: string }) => x.strength === 0 && x.method === 'learned');
@@ -161,9 +265,17 @@ describe('bad arguments and unreadable files: one clear line and a non-zero exit
     [['embed', DEMO, '--model', 'no/such/run', '--out', 'x.npy'], 1, /no model in no\/such\/run/],
     [['embed', DEMO, '--model', 'x', '--out', 'x.txt'], 2, /--out must end in .csv, .json or .npy/],
     [['train', DEMO, '--out', 'x', '--epochs', 'ten'], 2, /--epochs must be a whole number/],
-    [['train', DEMO, '--out', 'x', '--pose', 'upright'], 2, /--pose must be one of principal-axes, file-axes, as-is, file-and-principal, got "upright"/],
+    [
+      ['train', DEMO, '--out', 'x', '--pose', 'upright'],
+      2,
+      /--pose must be one of principal-axes, file-axes, as-is, file-and-principal, got "upright"/,
+    ],
     [['query', 'missing.stl', '--model', 'x', '--library', DEMO], 2, /query file not found/],
-    [['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '--order', 'best'], 2, /--order must be diffusion or cosine, got "best"/],
+    [
+      ['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '--order', 'best'],
+      2,
+      /--order must be diffusion or cosine, got "best"/,
+    ],
     [['eval', DEMO, '--bogus'], 2, /Unknown option '--bogus'/],
   ] as const)('%j', async (args, code, message) => {
     capture();
@@ -178,13 +290,17 @@ describe('bad arguments and unreadable files: one clear line and a non-zero exit
 });
 
 describe('the --json contract: exactly one JSON document on stdout, bad files listed under "failures"', () => {
-  it('eval lists the demo\'s broken files with their reasons, and stdout is one document', async () => {
+  it("eval lists the demo's broken files with their reasons, and stdout is one document", async () => {
     capture();
     expect(await main(['eval', DEMO, '--json'])).toBe(0);
     expect(out.length).toBe(1);
     const r = JSON.parse(out[0]);
     expect(r.failures.map((f: { file: string }) => f.file).sort()).toEqual([
-      'broken/bad-coordinates.obj', 'broken/empty-export.stl', 'broken/missing-vertices.off', 'broken/quote-saved-as-stl.stl', 'broken/upload-cut-short.stl',
+      'broken/bad-coordinates.obj',
+      'broken/empty-export.stl',
+      'broken/missing-vertices.off',
+      'broken/quote-saved-as-stl.stl',
+      'broken/upload-cut-short.stl',
     ]);
     for (const f of r.failures) expect(f.reason.length).toBeGreaterThan(10);
   }, 120_000);
@@ -200,23 +316,38 @@ describe('the --json contract: exactly one JSON document on stdout, bad files li
   it('--progress json writes progress as JSON lines on stderr and leaves stdout alone', async () => {
     capture();
     expect(await main(['eval', DEMO, '--json', '--progress', 'json'])).toBe(0);
-    const lines = err.join('').trim().split('\n').map((l) => JSON.parse(l));
+    const lines = err
+      .join('')
+      .trim()
+      .split('\n')
+      .map((l) => JSON.parse(l));
     expect(lines.some((l) => l.event === 'progress' && l.stage === 'reading' && l.done === l.total)).toBe(true);
     expect(out.length).toBe(1);
   }, 120_000);
   it('--max-file-mb refuses larger files before reading them and says how to raise the cap', async () => {
     capture();
     expect(await main(['eval', DEMO, '--json', '--max-file-mb', '0.02'])).toBe(0);
-    const big = JSON.parse(out[0]).failures.filter((f: { reason: string }) => /over the 20971-byte limit \(raise it with --max-file-mb\)/.test(f.reason));
+    const big = JSON.parse(out[0]).failures.filter((f: { reason: string }) =>
+      /over the 20971-byte limit \(raise it with --max-file-mb\)/.test(f.reason),
+    );
     expect(big.length).toBeGreaterThan(10);
   }, 120_000);
 });
 
 describe('numbers out of range, and models that cannot be trusted', () => {
   it.each([
-    [['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '-k', '0'], /--k must be a whole number of at least 1, got "0"/],
-    [['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '--k=-5'], /--k must be a whole number of at least 1, got "-5"/],
-    [['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '--size-ratio', '0.5'], /--size-ratio must be a number of at least 1/],
+    [
+      ['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '-k', '0'],
+      /--k must be a whole number of at least 1, got "0"/,
+    ],
+    [
+      ['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '--k=-5'],
+      /--k must be a whole number of at least 1, got "-5"/,
+    ],
+    [
+      ['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', 'x', '--library', DEMO, '--size-ratio', '0.5'],
+      /--size-ratio must be a number of at least 1/,
+    ],
     [['duplicates', DEMO, '--model', 'x', '--threshold', '2'], /--threshold must be a number from -1 to 1, got "2"/],
     [['train', DEMO, '--out', 'x', '--epochs', '0'], /--epochs must be a whole number of at least 1/],
     [['eval', DEMO, '--progress', 'loud'], /--progress must be bar, json or none/],
@@ -234,7 +365,9 @@ describe('numbers out of range, and models that cannot be trusted', () => {
     other[0] += 0.25; // a later save of the same run: same size, other values
     writeFileSync(join(copy, 'weights.bin'), new Uint8Array(other.buffer));
     capture();
-    expect(await main(['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', copy, '--library', DEMO, '--json'])).toBe(1);
+    expect(
+      await main(['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', copy, '--library', DEMO, '--json']),
+    ).toBe(1);
     expect(JSON.parse(out[0]).error).toMatch(/weights file does not belong to this model\.json/);
     // NaN values with a manifest that matches them: refused for what they are.
     other.fill(NaN, 0, 10);
@@ -243,10 +376,12 @@ describe('numbers out of range, and models that cannot be trusted', () => {
     model.userDefinedMetadata.weightsCrc32 = crc32(new Uint8Array(other.buffer));
     writeFileSync(join(copy, 'model.json'), JSON.stringify(model));
     capture();
-    expect(await main(['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', copy, '--library', DEMO, '--json'])).toBe(1);
+    expect(
+      await main(['query', join(DEMO, 'washer', 'BC01-100A.stl'), '--model', copy, '--library', DEMO, '--json']),
+    ).toBe(1);
     expect(JSON.parse(out[0]).error).toMatch(/NaN or infinite/);
   }, 120_000);
-  it('the saved checksum is the standard CRC-32 of weights.bin (zlib\'s crc32 as the reference)', () => {
+  it("the saved checksum is the standard CRC-32 of weights.bin (zlib's crc32 as the reference)", () => {
     const model = JSON.parse(readFileSync(join(run, 'model.json'), 'utf8'));
     expect(model.userDefinedMetadata.weightsCrc32).toBe(zlibSync(readFileSync(join(run, 'weights.bin'))));
   });
@@ -279,12 +414,23 @@ describe('training saves early and says what --resume found', () => {
   }, 120_000);
 });
 
-
 describe('a CAD file as the query', () => {
   // First in this file to read a CAD file, so it also checks that query loads OpenCascade itself.
   it('a STEP file can be the query (OpenCascade is loaded for it), its size shown in mm', async () => {
     capture();
-    expect(await main(['query', 'test/fixtures/kicad/Battery_CR1225.step', '--model', run, '--library', DEMO, '-k', '3', '--json'])).toBe(0);
+    expect(
+      await main([
+        'query',
+        'test/fixtures/kicad/Battery_CR1225.step',
+        '--model',
+        run,
+        '--library',
+        DEMO,
+        '-k',
+        '3',
+        '--json',
+      ]),
+    ).toBe(0);
     const r = JSON.parse(out[0]);
     expect(r.query_units).toBe('mm');
     expect(r.results.length).toBe(3);
@@ -320,7 +466,8 @@ describe('shapekin inspect', () => {
 
 describe('import threads', () => {
   it('a library read on two threads embeds to the same bytes as on one', async () => {
-    const one = join(run, 'threads-1.npy'), two = join(run, 'threads-2.npy');
+    const one = join(run, 'threads-1.npy'),
+      two = join(run, 'threads-2.npy');
     capture();
     expect(await main(['embed', DEMO, '--model', run, '--out', one, '--threads', '1'])).toBe(0);
     expect(await main(['embed', DEMO, '--model', run, '--out', two, '--threads', '2'])).toBe(0);

@@ -7,7 +7,9 @@ import { createRng, hashString } from '../../src/core/rng';
 describe('createRng (sfc32 seeded by splitmix32)', () => {
   it('gives the same sequence as when runs were first saved (values recorded from this implementation, 2026-12)', () => {
     const r = createRng(0);
-    expect(Array.from({ length: 4 }, () => r.next())).toEqual([0.9791452463250607, 0.8250711336731911, 0.2846157543826848, 0.7095207434613258]);
+    expect(Array.from({ length: 4 }, () => r.next())).toEqual([
+      0.9791452463250607, 0.8250711336731911, 0.2846157543826848, 0.7095207434613258,
+    ]);
     const s = createRng(12345);
     expect(Array.from({ length: 4 }, () => s.int(1000))).toEqual([546, 313, 692, 802]);
   });

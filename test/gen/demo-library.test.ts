@@ -17,7 +17,9 @@ const library = generateLibrary();
 
 function onDisk(): string[] {
   const walk = (dir: string): string[] =>
-    readdirSync(dir).flatMap((n) => (statSync(join(dir, n)).isDirectory() ? walk(join(dir, n)) : [relative(root, join(dir, n))]));
+    readdirSync(dir).flatMap((n) =>
+      statSync(join(dir, n)).isDirectory() ? walk(join(dir, n)) : [relative(root, join(dir, n))],
+    );
   return walk(root).sort();
 }
 const read = (p: string): ArrayBuffer => {
@@ -44,7 +46,17 @@ describe('demo library generator', () => {
     expect(perFamily.size).toBeGreaterThanOrEqual(12);
     for (const n of perFamily.values()) expect(n).toBeGreaterThanOrEqual(8);
     const formats = new Set(library.entries.map((e) => e.format));
-    for (const f of ['stl-binary', 'stl-binary-solid-header', 'stl-ascii', 'obj', 'obj-soup', 'ascii', 'binary_little_endian', 'binary_big_endian', 'off']) {
+    for (const f of [
+      'stl-binary',
+      'stl-binary-solid-header',
+      'stl-ascii',
+      'obj',
+      'obj-soup',
+      'ascii',
+      'binary_little_endian',
+      'binary_big_endian',
+      'off',
+    ]) {
       expect(formats, f).toContain(f);
     }
     expect(new Set(library.entries.map((e) => e.upAxis))).toEqual(new Set(['z', 'y', 'any']));

@@ -28,7 +28,12 @@ interface OcctResult {
 }
 
 /** Tessellation settings: millimetres; chord error 0.1 % of the part's bounding box; 0.5 rad between facets. */
-export const TESSELLATION: OcctParams = { linearUnit: 'millimeter', linearDeflectionType: 'bounding_box_ratio', linearDeflection: 0.001, angularDeflection: 0.5 };
+export const TESSELLATION: OcctParams = {
+  linearUnit: 'millimeter',
+  linearDeflectionType: 'bounding_box_ratio',
+  linearDeflection: 0.001,
+  angularDeflection: 0.5,
+};
 
 /** The loader's side: what OpenCascade printed while reading (for the failure reason), and a way to say
  * that it trapped, after which its memory cannot be trusted and it must be loaded afresh. */
@@ -37,7 +42,13 @@ export interface OcctHost {
   trapped(): void;
 }
 
-export function parseCad(buffer: ArrayBuffer, file: string, kind: 'step' | 'iges', occt: OcctModule, host?: OcctHost): ImportedMesh {
+export function parseCad(
+  buffer: ArrayBuffer,
+  file: string,
+  kind: 'step' | 'iges',
+  occt: OcctModule,
+  host?: OcctHost,
+): ImportedMesh {
   const bytes = new Uint8Array(buffer);
   const signature = kind === 'step' ? 'ISO-10303-21' : null;
   if (signature && !new TextDecoder().decode(bytes.subarray(0, 256)).includes(signature)) {
@@ -50,19 +61,37 @@ export function parseCad(buffer: ArrayBuffer, file: string, kind: 'step' | 'iges
   } catch {
     // A WebAssembly trap inside OpenCascade (seen on damaged files): the module is reloaded for the next file.
     host?.trapped();
-    throw new MeshImportError(file, 'parse-failed', `${kind.toUpperCase()} stopped OpenCascade with an internal error: the file is damaged or uses something it cannot read`);
+    throw new MeshImportError(
+      file,
+      'parse-failed',
+      `${kind.toUpperCase()} stopped OpenCascade with an internal error: the file is damaged or uses something it cannot read`,
+    );
   }
   const said = (host?.take() ?? []).map((l) => l.replace(/\*+/g, '').trim()).filter(Boolean);
   if (!result.success) {
-    throw new MeshImportError(file, 'parse-failed', `${kind.toUpperCase()} could not be read by OpenCascade${said.length ? ` (${said[0].slice(0, 160)})` : ''}`);
+    throw new MeshImportError(
+      file,
+      'parse-failed',
+      `${kind.toUpperCase()} could not be read by OpenCascade${said.length ? ` (${said[0].slice(0, 160)})` : ''}`,
+    );
   }
   const meshes = result.meshes ?? [];
-  let vertices = 0, corners = 0;
-  for (const m of meshes) { vertices += m.attributes.position.array.length; corners += m.index?.array.length ?? 0; }
-  if (meshes.length === 0 || corners === 0) throw new MeshImportError(file, 'no-geometry', `${kind.toUpperCase()} holds no solid or surface bodies to tessellate`);
+  let vertices = 0,
+    corners = 0;
+  for (const m of meshes) {
+    vertices += m.attributes.position.array.length;
+    corners += m.index?.array.length ?? 0;
+  }
+  if (meshes.length === 0 || corners === 0)
+    throw new MeshImportError(
+      file,
+      'no-geometry',
+      `${kind.toUpperCase()} holds no solid or surface bodies to tessellate`,
+    );
   const positions = new Float32Array(vertices);
   const indices = new Uint32Array(corners);
-  let v = 0, c = 0;
+  let v = 0,
+    c = 0;
   for (const m of meshes) {
     const base = v / 3;
     positions.set(m.attributes.position.array, v);

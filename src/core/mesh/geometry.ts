@@ -37,12 +37,17 @@ export const WELD_TOLERANCE_FRACTION = 1e-6;
  * quantised to a grid of WELD_TOLERANCE_FRACTION × diagonal and hashed (open addressing); the first
  * vertex of each cell keeps its exact coordinates. `indices === null` means triangle soup.
  */
-export function weldVertices(positions: Float32Array, indices: ArrayLike<number> | null): { positions: Float32Array; indices: Uint32Array } {
+export function weldVertices(
+  positions: Float32Array,
+  indices: ArrayLike<number> | null,
+): { positions: Float32Array; indices: Uint32Array } {
   const vertexCount = positions.length / 3;
   const { min, max } = boundingBox(positions);
   const diag = Math.hypot(max[0] - min[0], max[1] - min[1], max[2] - min[2]);
   const inv = diag > 0 ? 1 / (diag * WELD_TOLERANCE_FRACTION) : 1;
-  const qx = new Int32Array(vertexCount), qy = new Int32Array(vertexCount), qz = new Int32Array(vertexCount);
+  const qx = new Int32Array(vertexCount),
+    qy = new Int32Array(vertexCount),
+    qz = new Int32Array(vertexCount);
   let capacity = 1;
   while (capacity < vertexCount * 2) capacity <<= 1;
   const mask = capacity - 1;
@@ -53,7 +58,9 @@ export function weldVertices(positions: Float32Array, indices: ArrayLike<number>
     const x = Math.round((positions[v * 3] - min[0]) * inv);
     const y = Math.round((positions[v * 3 + 1] - min[1]) * inv);
     const z = Math.round((positions[v * 3 + 2] - min[2]) * inv);
-    qx[v] = x; qy[v] = y; qz[v] = z;
+    qx[v] = x;
+    qy[v] = y;
+    qz[v] = z;
     let h = (Math.imul(x, 73856093) ^ Math.imul(y, 19349663) ^ Math.imul(z, 83492791)) & mask;
     for (;;) {
       const slot = table[h];
@@ -74,7 +81,9 @@ export function weldVertices(positions: Float32Array, indices: ArrayLike<number>
   const welded = new Float32Array(firstOf.length * 3);
   for (let u = 0; u < firstOf.length; u++) {
     const f = firstOf[u] * 3;
-    welded[u * 3] = positions[f]; welded[u * 3 + 1] = positions[f + 1]; welded[u * 3 + 2] = positions[f + 2];
+    welded[u * 3] = positions[f];
+    welded[u * 3 + 1] = positions[f + 1];
+    welded[u * 3 + 2] = positions[f + 2];
   }
   let out: Uint32Array;
   if (indices === null) {
@@ -87,12 +96,22 @@ export function weldVertices(positions: Float32Array, indices: ArrayLike<number>
 }
 
 export function boundingBox(positions: Float32Array): { min: Vec3; max: Vec3 } {
-  let x0 = Infinity, y0 = Infinity, z0 = Infinity, x1 = -Infinity, y1 = -Infinity, z1 = -Infinity;
+  let x0 = Infinity,
+    y0 = Infinity,
+    z0 = Infinity,
+    x1 = -Infinity,
+    y1 = -Infinity,
+    z1 = -Infinity;
   for (let i = 0; i < positions.length; i += 3) {
-    const x = positions[i], y = positions[i + 1], z = positions[i + 2];
-    if (x < x0) x0 = x; if (x > x1) x1 = x;
-    if (y < y0) y0 = y; if (y > y1) y1 = y;
-    if (z < z0) z0 = z; if (z > z1) z1 = z;
+    const x = positions[i],
+      y = positions[i + 1],
+      z = positions[i + 2];
+    if (x < x0) x0 = x;
+    if (x > x1) x1 = x;
+    if (y < y0) y0 = y;
+    if (y > y1) y1 = y;
+    if (z < z0) z0 = z;
+    if (z > z1) z1 = z;
   }
   if (positions.length === 0) return { min: [0, 0, 0], max: [0, 0, 0] };
   return { min: [x0, y0, z0], max: [x1, y1, z1] };
@@ -100,10 +119,18 @@ export function boundingBox(positions: Float32Array): { min: Vec3; max: Vec3 } {
 
 /** Twice the area of triangle t (length of the edge cross product). */
 export function triangleDoubleArea(p: Float32Array, idx: ArrayLike<number>, t: number): number {
-  const a = idx[t * 3] * 3, b = idx[t * 3 + 1] * 3, c = idx[t * 3 + 2] * 3;
-  const ux = p[b] - p[a], uy = p[b + 1] - p[a + 1], uz = p[b + 2] - p[a + 2];
-  const vx = p[c] - p[a], vy = p[c + 1] - p[a + 1], vz = p[c + 2] - p[a + 2];
-  const cx = uy * vz - uz * vy, cy = uz * vx - ux * vz, cz = ux * vy - uy * vx;
+  const a = idx[t * 3] * 3,
+    b = idx[t * 3 + 1] * 3,
+    c = idx[t * 3 + 2] * 3;
+  const ux = p[b] - p[a],
+    uy = p[b + 1] - p[a + 1],
+    uz = p[b + 2] - p[a + 2];
+  const vx = p[c] - p[a],
+    vy = p[c + 1] - p[a + 1],
+    vz = p[c + 2] - p[a + 2];
+  const cx = uy * vz - uz * vy,
+    cy = uz * vx - ux * vz,
+    cz = ux * vy - uy * vx;
   return Math.sqrt(cx * cx + cy * cy + cz * cz);
 }
 
@@ -122,12 +149,22 @@ export function surfaceArea(mesh: Mesh): number {
  */
 export function signedVolume(positions: Float32Array, indices: Uint32Array): number {
   let sum = 0;
-  const ox = positions[0], oy = positions[1], oz = positions[2];
+  const ox = positions[0],
+    oy = positions[1],
+    oz = positions[2];
   for (let i = 0; i < indices.length; i += 3) {
-    const a = indices[i] * 3, b = indices[i + 1] * 3, c = indices[i + 2] * 3;
-    const ax = positions[a] - ox, ay = positions[a + 1] - oy, az = positions[a + 2] - oz;
-    const bx = positions[b] - ox, by = positions[b + 1] - oy, bz = positions[b + 2] - oz;
-    const cx = positions[c] - ox, cy = positions[c + 1] - oy, cz = positions[c + 2] - oz;
+    const a = indices[i] * 3,
+      b = indices[i + 1] * 3,
+      c = indices[i + 2] * 3;
+    const ax = positions[a] - ox,
+      ay = positions[a + 1] - oy,
+      az = positions[a + 2] - oz;
+    const bx = positions[b] - ox,
+      by = positions[b + 1] - oy,
+      bz = positions[b + 2] - oz;
+    const cx = positions[c] - ox,
+      cy = positions[c + 1] - oy,
+      cz = positions[c + 2] - oz;
     sum += ax * (by * cz - bz * cy) + ay * (bz * cx - bx * cz) + az * (bx * cy - by * cx);
   }
   return sum / 6;
@@ -139,16 +176,21 @@ export function signedVolume(positions: Float32Array, indices: Uint32Array): num
  * each shared edge is walked in opposite directions. Each connected shell keeps the winding most of its
  * faces already had, so a shell that is mostly outward stays outward.
  */
-export function orientClosed(indices: Uint32Array, vertexCount: number): { closed: boolean; oriented: Uint32Array | null } {
+export function orientClosed(
+  indices: Uint32Array,
+  vertexCount: number,
+): { closed: boolean; oriented: Uint32Array | null } {
   const triCount = indices.length / 3;
   const edgeFaces = new Map<number, number[]>();
   for (let t = 0; t < triCount; t++) {
     for (let e = 0; e < 3; e++) {
-      const a = indices[t * 3 + e], b = indices[t * 3 + ((e + 1) % 3)];
+      const a = indices[t * 3 + e],
+        b = indices[t * 3 + ((e + 1) % 3)];
       const key = a < b ? a * vertexCount + b : b * vertexCount + a;
       const list = edgeFaces.get(key);
       if (!list) edgeFaces.set(key, [t]);
-      else if (list.length === 2) return { closed: false, oriented: null }; // a third face on one edge: not a closed 2-manifold
+      else if (list.length === 2)
+        return { closed: false, oriented: null }; // a third face on one edge: not a closed 2-manifold
       else list.push(t);
     }
   }
@@ -164,7 +206,10 @@ export function orientClosed(indices: Uint32Array, vertexCount: number): { close
   };
   for (let seed = 0; seed < triCount; seed++) {
     if (visited[seed]) continue;
-    let head = 0, tail = 0, members = 0, flips = 0;
+    let head = 0,
+      tail = 0,
+      members = 0,
+      flips = 0;
     const shell: number[] = [];
     visited[seed] = 1;
     queue[tail++] = seed;
@@ -173,7 +218,8 @@ export function orientClosed(indices: Uint32Array, vertexCount: number): { close
       shell.push(t);
       members++;
       for (let e = 0; e < 3; e++) {
-        const a = out[t * 3 + e], b = out[t * 3 + ((e + 1) % 3)];
+        const a = out[t * 3 + e],
+          b = out[t * 3 + ((e + 1) % 3)];
         const key = a < b ? a * vertexCount + b : b * vertexCount + a;
         const pair = edgeFaces.get(key)!;
         const u = pair[0] === t ? pair[1] : pair[0];
@@ -202,7 +248,10 @@ export function orientClosed(indices: Uint32Array, vertexCount: number): { close
 }
 
 /** Drop triangles with a repeated vertex or (near-)zero area; returns the kept indices and the count dropped. */
-export function dropDegenerate(positions: Float32Array, indices: Uint32Array): { indices: Uint32Array; dropped: number } {
+export function dropDegenerate(
+  positions: Float32Array,
+  indices: Uint32Array,
+): { indices: Uint32Array; dropped: number } {
   const { min, max } = boundingBox(positions);
   const diagSq = (max[0] - min[0]) ** 2 + (max[1] - min[1]) ** 2 + (max[2] - min[2]) ** 2;
   const minDoubleArea = 2 * DEGENERATE_AREA_FRACTION * diagSq;
@@ -210,10 +259,14 @@ export function dropDegenerate(positions: Float32Array, indices: Uint32Array): {
   let k = 0;
   const n = indices.length / 3;
   for (let t = 0; t < n; t++) {
-    const a = indices[t * 3], b = indices[t * 3 + 1], c = indices[t * 3 + 2];
+    const a = indices[t * 3],
+      b = indices[t * 3 + 1],
+      c = indices[t * 3 + 2];
     if (a === b || b === c || a === c) continue;
     if (!(triangleDoubleArea(positions, indices, t) > minDoubleArea)) continue;
-    kept[k++] = a; kept[k++] = b; kept[k++] = c;
+    kept[k++] = a;
+    kept[k++] = b;
+    kept[k++] = c;
   }
   return { indices: kept.slice(0, k), dropped: n - k / 3 };
 }
@@ -228,7 +281,11 @@ function compact(positions: Float32Array, indices: Uint32Array): { positions: Fl
   const p = new Float32Array(next * 3);
   for (let v = 0; v < vertexCount; v++) {
     const m = map[v];
-    if (m >= 0) { p[m * 3] = positions[v * 3]; p[m * 3 + 1] = positions[v * 3 + 1]; p[m * 3 + 2] = positions[v * 3 + 2]; }
+    if (m >= 0) {
+      p[m * 3] = positions[v * 3];
+      p[m * 3 + 1] = positions[v * 3 + 1];
+      p[m * 3 + 2] = positions[v * 3 + 2];
+    }
   }
   const idx = new Uint32Array(indices.length);
   for (let i = 0; i < indices.length; i++) idx[i] = map[indices[i]];
@@ -272,16 +329,32 @@ export function finishMesh(file: string, format: MeshFormat, raw: RawGeometry, f
   if (closed) {
     // A closed surface wound inward has negative signed volume: flip it so face normals point outward.
     const signed = signedVolume(positions, finalIdx);
-    if (signed < 0) for (let t = 0; t < finalIdx.length; t += 3) { const tmp = finalIdx[t + 1]; finalIdx[t + 1] = finalIdx[t + 2]; finalIdx[t + 2] = tmp; }
+    if (signed < 0)
+      for (let t = 0; t < finalIdx.length; t += 3) {
+        const tmp = finalIdx[t + 1];
+        finalIdx[t + 1] = finalIdx[t + 2];
+        finalIdx[t + 2] = tmp;
+      }
     volume = Math.abs(signed);
   }
   const { min, max } = boundingBox(positions);
-  return { name: file, mesh, info: makeInfo(format, mesh, dropped, surfaceArea(mesh), min, max, closed, volume, fileBytes) };
+  return {
+    name: file,
+    mesh,
+    info: makeInfo(format, mesh, dropped, surfaceArea(mesh), min, max, closed, volume, fileBytes),
+  };
 }
 
 function makeInfo(
-  format: MeshFormat, mesh: Mesh, degenerateSkipped: number, area: number,
-  min: Vec3, max: Vec3, closed: boolean, volume: number | null, fileBytes: number,
+  format: MeshFormat,
+  mesh: Mesh,
+  degenerateSkipped: number,
+  area: number,
+  min: Vec3,
+  max: Vec3,
+  closed: boolean,
+  volume: number | null,
+  fileBytes: number,
 ): MeshInfo {
   return {
     format,

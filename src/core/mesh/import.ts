@@ -40,16 +40,29 @@ export function importMesh(buffer: ArrayBuffer, file: string, options: ImportOpt
   const maxBytes = options.maxBytes ?? DEFAULT_MAX_BYTES;
   const format = formatOf(file);
   if (!format) {
-    throw new MeshImportError(file, 'unsupported-type', `unsupported file type ".${extensionOf(file)}" (Shapekin reads ${FORMAT_NAMES})`);
+    throw new MeshImportError(
+      file,
+      'unsupported-type',
+      `unsupported file type ".${extensionOf(file)}" (Shapekin reads ${FORMAT_NAMES})`,
+    );
   }
   if (buffer.byteLength === 0) throw new MeshImportError(file, 'empty', 'the file is empty (0 bytes)');
   if (buffer.byteLength > maxBytes) {
-    throw new MeshImportError(file, 'too-large', `the file is ${buffer.byteLength} bytes, over the ${maxBytes}-byte limit`);
+    throw new MeshImportError(
+      file,
+      'too-large',
+      `the file is ${buffer.byteLength} bytes, over the ${maxBytes}-byte limit`,
+    );
   }
   try {
     if (format.cad) {
       const occt = options.occt ?? cadReader();
-      if (!occt) throw new MeshImportError(file, 'parse-failed', 'the STEP/IGES reader was not loaded before this file was read (loadCadReader)');
+      if (!occt)
+        throw new MeshImportError(
+          file,
+          'parse-failed',
+          'the STEP/IGES reader was not loaded before this file was read (loadCadReader)',
+        );
       return parseCad(buffer, file, format.id as 'step' | 'iges', occt, occtHost);
     }
     if (format.id === 'stl') return parseStl(buffer, file);

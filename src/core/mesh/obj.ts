@@ -11,7 +11,10 @@ import { MeshImportError, type ImportedMesh } from './types';
 /** A Float32Array or Uint32Array that doubles as it fills. */
 class Growable<T extends Float32Array | Uint32Array> {
   length = 0;
-  constructor(private data: T, private readonly make: (n: number) => T) {}
+  constructor(
+    private data: T,
+    private readonly make: (n: number) => T,
+  ) {}
   push(v: number): void {
     if (this.length === this.data.length) {
       const bigger = this.make(this.data.length * 2);
@@ -55,20 +58,34 @@ export function parseObj(text: string, file: string, fileBytes: number): Importe
     const c1 = line.charCodeAt(i + 1);
     if (!(isBlank(c1) || Number.isNaN(c1))) continue; // vt, vn, usemtl, …: not geometry
     if (c0 === 118 /* v */) {
-      const words = line.slice(i + 2).trim().split(/\s+/);
+      const words = line
+        .slice(i + 2)
+        .trim()
+        .split(/\s+/);
       if (words.length < 3 || words[0] === '') {
-        throw new MeshImportError(file, 'parse-failed', `line ${firstLine}: a vertex needs x y z, got "${line.trim().slice(0, 40)}"`);
+        throw new MeshImportError(
+          file,
+          'parse-failed',
+          `line ${firstLine}: a vertex needs x y z, got "${line.trim().slice(0, 40)}"`,
+        );
       }
       for (let k = 0; k < 3; k++) {
         const v = Number(words[k]);
         if (Number.isNaN(v) && !/^[+-]?nan$/i.test(words[k])) {
-          throw new MeshImportError(file, 'parse-failed', `line ${firstLine}: "${words[k].slice(0, 20)}" is not a number`);
+          throw new MeshImportError(
+            file,
+            'parse-failed',
+            `line ${firstLine}: "${words[k].slice(0, 20)}" is not a number`,
+          );
         }
         positions.push(v);
       }
       vertices++;
     } else if (c0 === 102 /* f */) {
-      const words = line.slice(i + 2).trim().split(/\s+/);
+      const words = line
+        .slice(i + 2)
+        .trim()
+        .split(/\s+/);
       corners.length = 0;
       for (const word of words) {
         if (word === '') continue;
@@ -76,20 +93,33 @@ export function parseObj(text: string, file: string, fileBytes: number): Importe
         const ref = slash < 0 ? word : word.slice(0, slash);
         const k = Number(ref);
         if (!Number.isInteger(k) || ref === '') {
-          throw new MeshImportError(file, 'parse-failed', `line ${firstLine}: "${word.slice(0, 20)}" is not a vertex reference`);
+          throw new MeshImportError(
+            file,
+            'parse-failed',
+            `line ${firstLine}: "${word.slice(0, 20)}" is not a vertex reference`,
+          );
         }
         const absolute = k < 0 ? vertices + k : k - 1;
         if (k === 0 || absolute < 0 || absolute >= vertices) {
-          throw new MeshImportError(file, 'index-out-of-range',
-            `line ${firstLine}: face refers to vertex ${k}, but only ${vertices} vertices are defined before it`);
+          throw new MeshImportError(
+            file,
+            'index-out-of-range',
+            `line ${firstLine}: face refers to vertex ${k}, but only ${vertices} vertices are defined before it`,
+          );
         }
         corners.push(absolute);
       }
       if (corners.length < 3) {
-        throw new MeshImportError(file, 'parse-failed', `line ${firstLine}: a face needs at least 3 vertices, got ${corners.length}`);
+        throw new MeshImportError(
+          file,
+          'parse-failed',
+          `line ${firstLine}: a face needs at least 3 vertices, got ${corners.length}`,
+        );
       }
       for (let k = 1; k < corners.length - 1; k++) {
-        indices.push(corners[0]); indices.push(corners[k]); indices.push(corners[k + 1]);
+        indices.push(corners[0]);
+        indices.push(corners[k]);
+        indices.push(corners[k + 1]);
       }
     }
   }

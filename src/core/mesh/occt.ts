@@ -9,7 +9,10 @@ const lines: string[] = [];
 
 export const occtHost: OcctHost = {
   take: () => lines.splice(0, lines.length),
-  trapped: () => { loaded = null; loading = null; },
+  trapped: () => {
+    loaded = null;
+    loading = null;
+  },
 };
 
 /**
@@ -20,12 +23,16 @@ export function loadCadReader(wasmUrl?: string): Promise<OcctModule> {
   if (!loading) {
     loading = (async () => {
       const factory = (await import('occt-import-js')).default as unknown as (options: object) => Promise<OcctModule>;
-      const keep = (s: string) => { if (lines.length < 200) lines.push(String(s)); };
+      const keep = (s: string) => {
+        if (lines.length < 200) lines.push(String(s));
+      };
       const module = await factory({ print: keep, printErr: keep, ...(wasmUrl ? { locateFile: () => wasmUrl } : {}) });
       loaded = module;
       return module;
     })();
-    loading.catch(() => { loading = null; });
+    loading.catch(() => {
+      loading = null;
+    });
   }
   return loading;
 }

@@ -21,8 +21,10 @@ export function parseOff(text: string, file: string, fileBytes: number): Importe
   if (lines.length === 0) throw new MeshImportError(file, 'unrecognised', 'not an OFF file: no content');
   const first = lines[0].split(/\s+/);
   const keyword = first[0];
-  if (!/^(ST)?C?N?4?n?OFF$/.test(keyword)) throw new MeshImportError(file, 'unrecognised', `not an OFF file: first word is "${keyword.slice(0, 20)}"`);
-  if (keyword.includes('4') || keyword.includes('n')) throw new MeshImportError(file, 'unrecognised', `OFF variant "${keyword}" (not 3-D) is not supported`);
+  if (!/^(ST)?C?N?4?n?OFF$/.test(keyword))
+    throw new MeshImportError(file, 'unrecognised', `not an OFF file: first word is "${keyword.slice(0, 20)}"`);
+  if (keyword.includes('4') || keyword.includes('n'))
+    throw new MeshImportError(file, 'unrecognised', `OFF variant "${keyword}" (not 3-D) is not supported`);
   const withNormals = keyword.includes('N');
   let line = 1;
   let counts = first.slice(1);
@@ -36,12 +38,21 @@ export function parseOff(text: string, file: string, fileBytes: number): Importe
     throw new MeshImportError(file, 'parse-failed', `OFF counts "${counts.join(' ')}" are not whole numbers`);
   }
   if (line + vertexCount > lines.length) {
-    throw new MeshImportError(file, 'truncated', `OFF header declares ${vertexCount} vertices but the file ends after ${lines.length - line}`);
+    throw new MeshImportError(
+      file,
+      'truncated',
+      `OFF header declares ${vertexCount} vertices but the file ends after ${lines.length - line}`,
+    );
   }
   const positions = new Float32Array(vertexCount * 3);
   for (let v = 0; v < vertexCount; v++) {
     const parts = lines[line++].split(/\s+/);
-    if (parts.length < 3) throw new MeshImportError(file, 'parse-failed', `OFF vertex ${v} has ${parts.length} values, expected 3: the counts in the header may not match the data`);
+    if (parts.length < 3)
+      throw new MeshImportError(
+        file,
+        'parse-failed',
+        `OFF vertex ${v} has ${parts.length} values, expected 3: the counts in the header may not match the data`,
+      );
     for (let k = 0; k < 3; k++) {
       if (Number.isNaN(Number(parts[k])) && !/^[+-]?nan$/i.test(parts[k])) {
         throw new MeshImportError(file, 'parse-failed', `OFF vertex ${v}: "${parts[k].slice(0, 20)}" is not a number`);
@@ -53,21 +64,35 @@ export function parseOff(text: string, file: string, fileBytes: number): Importe
   }
   void withNormals; // normals, if present, follow the coordinates and are ignored like colours
   if (line + faceCount > lines.length) {
-    throw new MeshImportError(file, 'truncated', `OFF header declares ${faceCount} faces but the file ends after ${lines.length - line}`);
+    throw new MeshImportError(
+      file,
+      'truncated',
+      `OFF header declares ${faceCount} faces but the file ends after ${lines.length - line}`,
+    );
   }
   const indices: number[] = [];
   for (let f = 0; f < faceCount; f++) {
     const parts = lines[line++].split(/\s+/).map(Number);
     const n = parts[0];
     if (!Number.isInteger(n) || n < 3 || parts.length < n + 1) {
-      throw new MeshImportError(file, 'parse-failed', `OFF face ${f} is malformed ("${parts.slice(0, 6).join(' ')}"): the counts in the header may not match the data`);
+      throw new MeshImportError(
+        file,
+        'parse-failed',
+        `OFF face ${f} is malformed ("${parts.slice(0, 6).join(' ')}"): the counts in the header may not match the data`,
+      );
     }
     for (let k = 1; k < n - 1; k++) indices.push(parts[1], parts[1 + k], parts[2 + k]);
   }
   if (line < lines.length) {
-    throw new MeshImportError(file, 'parse-failed',
-      `OFF header declares ${vertexCount} vertices and ${faceCount} faces, but ${lines.length - line} more lines follow them: the counts do not match the data`);
+    throw new MeshImportError(
+      file,
+      'parse-failed',
+      `OFF header declares ${vertexCount} vertices and ${faceCount} faces, but ${lines.length - line} more lines follow them: the counts do not match the data`,
+    );
   }
-  const raw = faceCount === 0 ? { positions, indices: null } : { positions, indices: Uint32Array.from(indices.map((i) => (i < 0 || !Number.isInteger(i) ? 0xffffffff : i))) };
+  const raw =
+    faceCount === 0
+      ? { positions, indices: null }
+      : { positions, indices: Uint32Array.from(indices.map((i) => (i < 0 || !Number.isInteger(i) ? 0xffffffff : i))) };
   return finishMesh(file, 'off', raw, fileBytes);
 }

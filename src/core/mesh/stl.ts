@@ -19,7 +19,8 @@ export function detectStl(buffer: ArrayBuffer, file: string): StlKind {
   const bytes = new Uint8Array(buffer);
   if (buffer.byteLength >= HEADER_BYTES + 4) {
     const declared = new DataView(buffer).getUint32(HEADER_BYTES, true);
-    if (HEADER_BYTES + 4 + declared * RECORD_BYTES === buffer.byteLength) return { kind: 'binary', triangles: declared };
+    if (HEADER_BYTES + 4 + declared * RECORD_BYTES === buffer.byteLength)
+      return { kind: 'binary', triangles: declared };
   }
   const text = looksLikeText(bytes, 4096);
   if (text && startsWithWord(bytes, 'solid')) return { kind: 'ascii' };
@@ -34,7 +35,12 @@ export function detectStl(buffer: ArrayBuffer, file: string): StlKind {
         `(room for ${whole} triangles): the file is truncated or corrupt`,
     );
   }
-  if (!text) throw new MeshImportError(file, 'truncated', `binary STL is ${buffer.byteLength} bytes, shorter than its 84-byte header`);
+  if (!text)
+    throw new MeshImportError(
+      file,
+      'truncated',
+      `binary STL is ${buffer.byteLength} bytes, shorter than its 84-byte header`,
+    );
   throw new MeshImportError(file, 'unrecognised', `not an STL file: text that does not begin with "solid"`);
 }
 
@@ -55,7 +61,12 @@ export function parseStl(buffer: ArrayBuffer, file: string): ImportedMesh {
       throw new MeshImportError(file, 'parse-failed', `STL could not be parsed (${(err as Error).message})`);
     }
   }
-  return finishMesh(file, kind.kind === 'binary' ? 'stl-binary' : 'stl-ascii', { positions, indices: null, soup: true }, buffer.byteLength);
+  return finishMesh(
+    file,
+    kind.kind === 'binary' ? 'stl-binary' : 'stl-ascii',
+    { positions, indices: null, soup: true },
+    buffer.byteLength,
+  );
 }
 
 /**
@@ -68,20 +79,29 @@ export function parseAsciiStl(text: string, file: string): Float32Array {
   let facet = 0;
   let inFacet = 0;
   for (let m = pattern.exec(text); m; m = pattern.exec(text)) {
-    if (m[1] === 'facet') { inFacet = 0; continue; }
+    if (m[1] === 'facet') {
+      inFacet = 0;
+      continue;
+    }
     if (m[1] === 'endfacet') {
-      if (inFacet !== 3) throw new MeshImportError(file, 'parse-failed', `ASCII STL facet ${facet} has ${inFacet} vertices, expected 3`);
+      if (inFacet !== 3)
+        throw new MeshImportError(file, 'parse-failed', `ASCII STL facet ${facet} has ${inFacet} vertices, expected 3`);
       facet++;
       continue;
     }
     const parts = m[2].trim().split(/\s+/);
     const xyz = [Number(parts[0]), Number(parts[1]), Number(parts[2])];
     if (parts.length < 3 || xyz.some((v) => !Number.isFinite(v))) {
-      throw new MeshImportError(file, 'non-finite', `ASCII STL facet ${facet} has a vertex that is not three finite numbers ("${m[2].trim().slice(0, 40)}")`);
+      throw new MeshImportError(
+        file,
+        'non-finite',
+        `ASCII STL facet ${facet} has a vertex that is not three finite numbers ("${m[2].trim().slice(0, 40)}")`,
+      );
     }
     values.push(xyz[0], xyz[1], xyz[2]);
     inFacet++;
   }
-  if (facet === 0) throw new MeshImportError(file, 'no-geometry', 'ASCII STL has no complete "facet … endfacet" records');
+  if (facet === 0)
+    throw new MeshImportError(file, 'no-geometry', 'ASCII STL has no complete "facet … endfacet" records');
   return Float32Array.from(values);
 }

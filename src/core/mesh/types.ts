@@ -2,7 +2,8 @@
 
 export type Vec3 = readonly [number, number, number];
 
-export type MeshFormat = 'stl-binary' | 'stl-ascii' | 'obj' | 'ply' | 'off' | 'xyz' | 'step' | 'iges' | 'vrml' | 'gltf' | '3mf';
+export type MeshFormat =
+  'stl-binary' | 'stl-ascii' | 'obj' | 'ply' | 'off' | 'xyz' | 'step' | 'iges' | 'vrml' | 'gltf' | '3mf';
 
 /** Welded geometry in file units. `indices === null` means a point set (a scan with no faces). */
 export interface Mesh {

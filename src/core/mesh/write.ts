@@ -10,10 +10,18 @@ const encoder = new TextEncoder();
 
 function faceNormal(m: IndexedTriangles, t: number): [number, number, number] {
   const p = m.positions;
-  const a = m.indices[t * 3] * 3, b = m.indices[t * 3 + 1] * 3, c = m.indices[t * 3 + 2] * 3;
-  const ux = p[b] - p[a], uy = p[b + 1] - p[a + 1], uz = p[b + 2] - p[a + 2];
-  const vx = p[c] - p[a], vy = p[c + 1] - p[a + 1], vz = p[c + 2] - p[a + 2];
-  const nx = uy * vz - uz * vy, ny = uz * vx - ux * vz, nz = ux * vy - uy * vx;
+  const a = m.indices[t * 3] * 3,
+    b = m.indices[t * 3 + 1] * 3,
+    c = m.indices[t * 3 + 2] * 3;
+  const ux = p[b] - p[a],
+    uy = p[b + 1] - p[a + 1],
+    uz = p[b + 2] - p[a + 2];
+  const vx = p[c] - p[a],
+    vy = p[c + 1] - p[a + 1],
+    vz = p[c + 2] - p[a + 2];
+  const nx = uy * vz - uz * vy,
+    ny = uz * vx - ux * vz,
+    nz = ux * vy - uy * vx;
   const len = Math.hypot(nx, ny, nz) || 1;
   return [nx / len, ny / len, nz / len];
 }
@@ -51,7 +59,9 @@ export function writeStlAscii(m: IndexedTriangles, name: string, digits = 5): Ui
     lines.push(`  facet normal ${num(n[0], 6)} ${num(n[1], 6)} ${num(n[2], 6)}`, '    outer loop');
     for (let v = 0; v < 3; v++) {
       const i = m.indices[t * 3 + v] * 3;
-      lines.push(`      vertex ${num(m.positions[i], digits)} ${num(m.positions[i + 1], digits)} ${num(m.positions[i + 2], digits)}`);
+      lines.push(
+        `      vertex ${num(m.positions[i], digits)} ${num(m.positions[i + 1], digits)} ${num(m.positions[i + 2], digits)}`,
+      );
     }
     lines.push('    endloop', '  endfacet');
   }
@@ -60,20 +70,28 @@ export function writeStlAscii(m: IndexedTriangles, name: string, digits = 5): Ui
 }
 
 /** OBJ; `soup` writes three fresh vertices per face (duplicated vertices, as some exporters do). */
-export function writeObj(m: IndexedTriangles, comment: string, options: { soup?: boolean; digits?: number } = {}): Uint8Array {
+export function writeObj(
+  m: IndexedTriangles,
+  comment: string,
+  options: { soup?: boolean; digits?: number } = {},
+): Uint8Array {
   const digits = options.digits ?? 5;
   const lines = [`# ${comment}`, 'o part'];
   if (options.soup) {
     for (let t = 0; t < m.indices.length / 3; t++) {
       for (let v = 0; v < 3; v++) {
         const i = m.indices[t * 3 + v] * 3;
-        lines.push(`v ${num(m.positions[i], digits)} ${num(m.positions[i + 1], digits)} ${num(m.positions[i + 2], digits)}`);
+        lines.push(
+          `v ${num(m.positions[i], digits)} ${num(m.positions[i + 1], digits)} ${num(m.positions[i + 2], digits)}`,
+        );
       }
     }
     for (let t = 0; t < m.indices.length / 3; t++) lines.push(`f ${t * 3 + 1} ${t * 3 + 2} ${t * 3 + 3}`);
   } else {
     for (let i = 0; i < m.positions.length; i += 3) {
-      lines.push(`v ${num(m.positions[i], digits)} ${num(m.positions[i + 1], digits)} ${num(m.positions[i + 2], digits)}`);
+      lines.push(
+        `v ${num(m.positions[i], digits)} ${num(m.positions[i + 1], digits)} ${num(m.positions[i + 2], digits)}`,
+      );
     }
     for (let t = 0; t < m.indices.length / 3; t++) {
       lines.push(`f ${m.indices[t * 3] + 1} ${m.indices[t * 3 + 1] + 1} ${m.indices[t * 3 + 2] + 1}`);
@@ -89,14 +107,26 @@ export function writePly(m: IndexedTriangles, comment: string, encoding: PlyEnco
   const vertexCount = m.positions.length / 3;
   const faceCount = m.indices.length / 3;
   const header = [
-    'ply', `format ${encoding} 1.0`, `comment ${comment}`, `element vertex ${vertexCount}`,
-    'property float x', 'property float y', 'property float z', `element face ${faceCount}`,
-    'property list uchar int vertex_indices', 'end_header', '',
+    'ply',
+    `format ${encoding} 1.0`,
+    `comment ${comment}`,
+    `element vertex ${vertexCount}`,
+    'property float x',
+    'property float y',
+    'property float z',
+    `element face ${faceCount}`,
+    'property list uchar int vertex_indices',
+    'end_header',
+    '',
   ].join('\n');
   if (encoding === 'ascii') {
     const lines: string[] = [];
-    for (let i = 0; i < m.positions.length; i += 3) lines.push(`${num(m.positions[i], digits)} ${num(m.positions[i + 1], digits)} ${num(m.positions[i + 2], digits)}`);
-    for (let t = 0; t < faceCount; t++) lines.push(`3 ${m.indices[t * 3]} ${m.indices[t * 3 + 1]} ${m.indices[t * 3 + 2]}`);
+    for (let i = 0; i < m.positions.length; i += 3)
+      lines.push(
+        `${num(m.positions[i], digits)} ${num(m.positions[i + 1], digits)} ${num(m.positions[i + 2], digits)}`,
+      );
+    for (let t = 0; t < faceCount; t++)
+      lines.push(`3 ${m.indices[t * 3]} ${m.indices[t * 3 + 1]} ${m.indices[t * 3 + 2]}`);
     lines.push('');
     return encoder.encode(header + lines.join('\n'));
   }
@@ -106,10 +136,17 @@ export function writePly(m: IndexedTriangles, comment: string, encoding: PlyEnco
   out.set(head, 0);
   const view = new DataView(out.buffer);
   let o = head.length;
-  for (let i = 0; i < m.positions.length; i++) { view.setFloat32(o, m.positions[i], le); o += 4; }
+  for (let i = 0; i < m.positions.length; i++) {
+    view.setFloat32(o, m.positions[i], le);
+    o += 4;
+  }
   for (let t = 0; t < faceCount; t++) {
-    view.setUint8(o, 3); o += 1;
-    for (let v = 0; v < 3; v++) { view.setInt32(o, m.indices[t * 3 + v], le); o += 4; }
+    view.setUint8(o, 3);
+    o += 1;
+    for (let v = 0; v < 3; v++) {
+      view.setInt32(o, m.indices[t * 3 + v], le);
+      o += 4;
+    }
   }
   return out;
 }
@@ -118,8 +155,10 @@ export function writeOff(m: IndexedTriangles, comment: string, digits = 5): Uint
   const vertexCount = m.positions.length / 3;
   const faceCount = m.indices.length / 3;
   const lines = ['OFF', `# ${comment}`, `${vertexCount} ${faceCount} 0`];
-  for (let i = 0; i < m.positions.length; i += 3) lines.push(`${num(m.positions[i], digits)} ${num(m.positions[i + 1], digits)} ${num(m.positions[i + 2], digits)}`);
-  for (let t = 0; t < faceCount; t++) lines.push(`3 ${m.indices[t * 3]} ${m.indices[t * 3 + 1]} ${m.indices[t * 3 + 2]}`);
+  for (let i = 0; i < m.positions.length; i += 3)
+    lines.push(`${num(m.positions[i], digits)} ${num(m.positions[i + 1], digits)} ${num(m.positions[i + 2], digits)}`);
+  for (let t = 0; t < faceCount; t++)
+    lines.push(`3 ${m.indices[t * 3]} ${m.indices[t * 3 + 1]} ${m.indices[t * 3 + 2]}`);
   lines.push('');
   return encoder.encode(lines.join('\n'));
 }

@@ -50,7 +50,11 @@ export function parseXyz(text: string, file: string, fileBytes: number): Importe
     const numbers = fieldsOf(line, lineSep).map((f) => numberOf(f, lineSep));
     const isNumber = (k: number) => k < numbers.length && numbers[k] !== null;
     if (values.length > 0 && !fitsSeparator(line, lineSep)) {
-      throw new MeshImportError(file, 'parse-failed', `line ${i + 1} mixes separators: earlier lines use ${SEPARATOR_NAMES[lineSep]} ("${line.slice(0, 40)}")`);
+      throw new MeshImportError(
+        file,
+        'parse-failed',
+        `line ${i + 1} mixes separators: earlier lines use ${SEPARATOR_NAMES[lineSep]} ("${line.slice(0, 40)}")`,
+      );
     }
     if (numbers.every((v) => v === null)) {
       if (values.length === 0) continue; // a header: column names before the first point

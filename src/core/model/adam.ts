@@ -15,14 +15,20 @@ export class Adam {
   private v: tf.Variable[];
   step = 0;
 
-  constructor(private readonly params: readonly tf.Variable[], readonly beta1 = 0.9, readonly beta2 = 0.999, readonly epsilon = 1e-8) {
+  constructor(
+    private readonly params: readonly tf.Variable[],
+    readonly beta1 = 0.9,
+    readonly beta2 = 0.999,
+    readonly epsilon = 1e-8,
+  ) {
     this.m = params.map((p) => tf.variable(tf.zerosLike(p), false));
     this.v = params.map((p) => tf.variable(tf.zerosLike(p), false));
   }
 
   /** One update with gradients in the order of the parameters. */
   apply(grads: readonly tf.Tensor[], learningRate: number): void {
-    if (grads.length !== this.params.length) throw new RangeError(`Adam: ${grads.length} gradients for ${this.params.length} parameters`);
+    if (grads.length !== this.params.length)
+      throw new RangeError(`Adam: ${grads.length} gradients for ${this.params.length} parameters`);
     this.step += 1;
     const c1 = 1 - this.beta1 ** this.step;
     const c2 = 1 - this.beta2 ** this.step;
@@ -39,11 +45,16 @@ export class Adam {
   }
 
   state(): AdamState {
-    return { step: this.step, m: this.m.map((t) => t.dataSync().slice() as Float32Array), v: this.v.map((t) => t.dataSync().slice() as Float32Array) };
+    return {
+      step: this.step,
+      m: this.m.map((t) => t.dataSync().slice() as Float32Array),
+      v: this.v.map((t) => t.dataSync().slice() as Float32Array),
+    };
   }
 
   restore(s: AdamState): void {
-    if (s.m.length !== this.m.length || s.v.length !== this.v.length) throw new RangeError('Adam.restore: state is for a different set of parameters');
+    if (s.m.length !== this.m.length || s.v.length !== this.v.length)
+      throw new RangeError('Adam.restore: state is for a different set of parameters');
     tf.tidy(() => {
       s.m.forEach((a, i) => this.m[i].assign(tf.tensor(a, this.m[i].shape)));
       s.v.forEach((a, i) => this.v[i].assign(tf.tensor(a, this.v[i].shape)));
@@ -57,7 +68,13 @@ export class Adam {
 }
 
 /** Cosine learning-rate schedule with linear warm-up (common practice; cosine decay as in Loshchilov & Hutter 2017). */
-export function cosineWithWarmup(step: number, totalSteps: number, peak: number, warmupSteps: number, floor = 0): number {
+export function cosineWithWarmup(
+  step: number,
+  totalSteps: number,
+  peak: number,
+  warmupSteps: number,
+  floor = 0,
+): number {
   if (step < warmupSteps) return (peak * (step + 1)) / warmupSteps;
   const t = totalSteps > warmupSteps ? (step - warmupSteps) / (totalSteps - warmupSteps) : 1;
   return floor + (peak - floor) * 0.5 * (1 + Math.cos(Math.PI * Math.min(1, t)));

@@ -38,11 +38,21 @@ function encoderShapes(config: TrainConfig): { names: string[]; shapes: number[]
   let c = inputChannels(config.encoder.inputFeatures);
   const edge = config.encoder.edge;
   if (edge) {
-    names.push('edge/w', 'edge/b'); shapes.push([c + 3, edge.width], [edge.width]); c = edge.width;
+    names.push('edge/w', 'edge/b');
+    shapes.push([c + 3, edge.width], [edge.width]);
+    c = edge.width;
   }
-  config.encoder.widths.forEach((w, i) => { names.push(`point${i}/w`, `point${i}/b`); shapes.push([c, w], [w]); c = w; });
+  config.encoder.widths.forEach((w, i) => {
+    names.push(`point${i}/w`, `point${i}/b`);
+    shapes.push([c, w], [w]);
+    c = w;
+  });
   c = config.encoder.widths[config.encoder.widths.length - 1] * (config.encoder.pooling === 'max+mean' ? 2 : 1);
-  config.encoder.projection.forEach((w, i) => { names.push(`head${i}/w`, `head${i}/b`); shapes.push([c, w], [w]); c = w; });
+  config.encoder.projection.forEach((w, i) => {
+    names.push(`head${i}/w`, `head${i}/b`);
+    shapes.push([c, w], [w]);
+    c = w;
+  });
   return { names, shapes };
 }
 
@@ -64,7 +74,10 @@ export function toArtifacts(ckpt: Checkpoint): tf.io.ModelArtifacts {
   const total = arrays.reduce((s, a) => s + a.length, 0);
   const data = new Float32Array(total);
   let o = 0;
-  for (const a of arrays) { data.set(a, o); o += a.length; }
+  for (const a of arrays) {
+    data.set(a, o);
+    o += a.length;
+  }
   return {
     modelTopology: { shapekin: ckpt.manifest } as unknown as tf.io.ModelArtifacts['modelTopology'],
     format: CHECKPOINT_FORMAT,
@@ -76,11 +89,12 @@ export function toArtifacts(ckpt: Checkpoint): tf.io.ModelArtifacts {
   };
 }
 
-
 export function fromArtifacts(artifacts: tf.io.ModelArtifacts, where = 'checkpoint'): Checkpoint {
-  if (artifacts.format !== CHECKPOINT_FORMAT) throw new RangeError(`${where}: not a Shapekin model (format "${artifacts.format ?? 'none'}")`);
+  if (artifacts.format !== CHECKPOINT_FORMAT)
+    throw new RangeError(`${where}: not a Shapekin model (format "${artifacts.format ?? 'none'}")`);
   const manifest = (artifacts.modelTopology as { shapekin?: RunManifest } | undefined)?.shapekin;
-  if (!manifest || manifest.version !== CHECKPOINT_VERSION) throw new RangeError(`${where}: unsupported Shapekin model version ${manifest?.version}`);
+  if (!manifest || manifest.version !== CHECKPOINT_VERSION)
+    throw new RangeError(`${where}: unsupported Shapekin model version ${manifest?.version}`);
   validateEncoderConfig(manifest.config.encoder);
   const { names, shapes } = shapesFor(manifest.config);
   const specs = artifacts.weightSpecs ?? [];
@@ -92,20 +106,25 @@ export function fromArtifacts(artifacts: tf.io.ModelArtifacts, where = 'checkpoi
   let offset = 0;
   for (const spec of specs) {
     const size = spec.shape.reduce((a, b) => a * b, 1);
-    if (spec.dtype !== 'float32') throw new RangeError(`${where}: weight ${spec.name} is ${spec.dtype}, expected float32`);
-    if ((offset + size) * 4 > buffer.byteLength) throw new RangeError(`${where}: weights file is shorter than its manifest (truncated?)`);
+    if (spec.dtype !== 'float32')
+      throw new RangeError(`${where}: weight ${spec.name} is ${spec.dtype}, expected float32`);
+    if ((offset + size) * 4 > buffer.byteLength)
+      throw new RangeError(`${where}: weights file is shorter than its manifest (truncated?)`);
     byName.set(spec.name, new Float32Array(buffer.slice(offset * 4, (offset + size) * 4)));
     offset += size;
   }
   const weights = names.map((n, i) => {
     const w = byName.get(n);
     const size = shapes[i].reduce((a, b) => a * b, 1);
-    if (!w || w.length !== size) throw new RangeError(`${where}: weight ${n} is missing or has the wrong size for the stated configuration`);
+    if (!w || w.length !== size)
+      throw new RangeError(`${where}: weight ${n} is missing or has the wrong size for the stated configuration`);
     return w;
   });
   const hasAdam = names.every((n) => byName.has(`adam/m/${n}`) && byName.has(`adam/v/${n}`));
   const step = Number((artifacts.userDefinedMetadata as { adamStep?: number } | undefined)?.adamStep ?? 0);
-  const adam = hasAdam ? { step, m: names.map((n) => byName.get(`adam/m/${n}`)!), v: names.map((n) => byName.get(`adam/v/${n}`)!) } : null;
+  const adam = hasAdam
+    ? { step, m: names.map((n) => byName.get(`adam/m/${n}`)!), v: names.map((n) => byName.get(`adam/v/${n}`)!) }
+    : null;
   return { manifest, weights, adam };
 }
 
@@ -125,7 +144,10 @@ function concat(parts: ArrayBuffer[]): ArrayBuffer {
   const total = parts.reduce((s, p) => s + p.byteLength, 0);
   const out = new Uint8Array(total);
   let o = 0;
-  for (const p of parts) { out.set(new Uint8Array(p), o); o += p.byteLength; }
+  for (const p of parts) {
+    out.set(new Uint8Array(p), o);
+    o += p.byteLength;
+  }
   return out.buffer;
 }
 
@@ -146,5 +168,7 @@ export function encoderFromCheckpoint(ckpt: Checkpoint): Encoder {
   const e = encodersFromCheckpoint(ckpt);
   if (e instanceof Encoder) return e;
   disposeEncoders(e);
-  throw new RangeError(`this model has ${e.length} encoders (pose ${ckpt.manifest.config.pose}); this use needs a one-encoder model`);
+  throw new RangeError(
+    `this model has ${e.length} encoders (pose ${ckpt.manifest.config.pose}); this use needs a one-encoder model`,
+  );
 }

@@ -102,7 +102,9 @@ export interface LibraryTraits {
 }
 
 /** The traits of library parts (their clouds centred, as sampled). */
-export function libraryTraits(parts: readonly { readonly info: { readonly closed: boolean }; readonly points: Float32Array }[]): LibraryTraits {
+export function libraryTraits(
+  parts: readonly { readonly info: { readonly closed: boolean }; readonly points: Float32Array }[],
+): LibraryTraits {
   return { closed: parts.map((p) => p.info.closed), boxRatios: parts.map((p) => fileFrameBoxRatio(p.points)) };
 }
 

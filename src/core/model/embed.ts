@@ -34,11 +34,22 @@ export const RETRIEVAL_RESAMPLINGS = 4;
  * (file-and-principal) each embeds in its own pose and the two unit rows are set side by side, scaled by 1/√2, so the
  * row stays unit length and its cosine is the mean of the two encoders' cosines.
  */
-export function embedForRetrieval(encoders: Encoders, parts: readonly ModelPart[], n: number, pose: Pose, resamplings = RETRIEVAL_RESAMPLINGS): Float32Array {
-  const list = encoderList(encoders), poses = memberPoses(pose);
-  if (list.length !== poses.length) throw new RangeError(`embedForRetrieval: the pose "${pose}" needs ${poses.length} encoder(s), got ${list.length}`);
+export function embedForRetrieval(
+  encoders: Encoders,
+  parts: readonly ModelPart[],
+  n: number,
+  pose: Pose,
+  resamplings = RETRIEVAL_RESAMPLINGS,
+): Float32Array {
+  const list = encoderList(encoders),
+    poses = memberPoses(pose);
+  if (list.length !== poses.length)
+    throw new RangeError(`embedForRetrieval: the pose "${pose}" needs ${poses.length} encoder(s), got ${list.length}`);
   if (list.length === 1) return embedInPose(list[0], parts, n, poses[0], resamplings);
-  return sideBySide(list.map((e, m) => embedInPose(e, parts, n, poses[m], resamplings)), parts.length);
+  return sideBySide(
+    list.map((e, m) => embedInPose(e, parts, n, poses[m], resamplings)),
+    parts.length,
+  );
 }
 
 /**
@@ -47,25 +58,42 @@ export function embedForRetrieval(encoders: Encoders, parts: readonly ModelPart[
  */
 export function sideBySide(embeddings: readonly Float32Array[], count: number): Float32Array {
   const dims = embeddings.map((v) => v.length / Math.max(1, count));
-  const D = dims.reduce((a, b) => a + b, 0), scale = 1 / Math.sqrt(embeddings.length);
+  const D = dims.reduce((a, b) => a + b, 0),
+    scale = 1 / Math.sqrt(embeddings.length);
   const out = new Float32Array(count * D);
   for (let i = 0; i < count; i++) {
     let o = i * D;
-    embeddings.forEach((v, m) => { for (let d = 0; d < dims[m]; d++) out[o++] = v[i * dims[m] + d] * scale; });
+    embeddings.forEach((v, m) => {
+      for (let d = 0; d < dims[m]; d++) out[o++] = v[i * dims[m] + d] * scale;
+    });
   }
   return out;
 }
 
-function embedInPose(encoder: Encoder, parts: readonly ModelPart[], n: number, pose: SinglePose, resamplings: number): Float32Array {
-  if (!(Number.isInteger(resamplings) && resamplings >= 1)) throw new RangeError(`embedForRetrieval: resamplings must be a whole number ≥ 1, got ${resamplings}`);
+function embedInPose(
+  encoder: Encoder,
+  parts: readonly ModelPart[],
+  n: number,
+  pose: SinglePose,
+  resamplings: number,
+): Float32Array {
+  if (!(Number.isInteger(resamplings) && resamplings >= 1))
+    throw new RangeError(`embedForRetrieval: resamplings must be a whole number ≥ 1, got ${resamplings}`);
   const ready = posed(parts, pose);
   let sum: Float32Array | null = null;
   for (let r = 0; r < resamplings; r++) {
     const subset = ready.map((p) => resampled(p, r, n));
     for (const flip of pose === 'as-is' ? [null] : SIGN_FLIPS) {
-      const turned = flip ? subset.map((p) => ({ ...p, points: transformPoints(flip, p.points), normals: transformPoints(flip, p.normals) })) : subset;
+      const turned = flip
+        ? subset.map((p) => ({
+            ...p,
+            points: transformPoints(flip, p.points),
+            normals: transformPoints(flip, p.normals),
+          }))
+        : subset;
       const e = embedParts(encoder, turned, n);
-      if (!sum) sum = e; else for (let i = 0; i < e.length; i++) sum[i] += e[i];
+      if (!sum) sum = e;
+      else for (let i = 0; i < e.length; i++) sum[i] += e[i];
     }
   }
   return normaliseRows(sum!, sum!.length / Math.max(1, parts.length));
@@ -87,6 +115,9 @@ export function embedParts(encoder: Encoder, parts: readonly ModelPart[], n: num
   }
   const all = new Float32Array(parts.length * D);
   let o = 0;
-  for (const c of chunks) { all.set(c, o); o += c.length; }
+  for (const c of chunks) {
+    all.set(c, o);
+    o += c.length;
+  }
   return all;
 }

@@ -70,18 +70,26 @@ export function validateEncoderConfig(c: EncoderConfig): void {
   if (c.retrieval !== undefined && !['projection', 'pooled'].includes(c.retrieval)) {
     throw new RangeError(`encoder: retrieval must be projection or pooled, got ${c.retrieval}`);
   }
-  if (!['max', 'max+mean'].includes(c.pooling)) throw new RangeError(`encoder: pooling must be max or max+mean, got ${c.pooling}`);
+  if (!['max', 'max+mean'].includes(c.pooling))
+    throw new RangeError(`encoder: pooling must be max or max+mean, got ${c.pooling}`);
   const e = c.edge;
   if (e != null) {
     const whole = (v: unknown, hi: number) => Number.isInteger(v) && (v as number) >= 1 && (v as number) <= hi;
     const extra = Object.keys(e).filter((key) => key !== 'k' && key !== 'width');
     if (!whole(e.k, 64) || !whole(e.width, 4096) || extra.length > 0) {
-      throw new RangeError(`encoder: edge needs whole numbers k in [1, 64] and width in [1, 4096] and nothing else, got ${JSON.stringify(e)}`);
+      throw new RangeError(
+        `encoder: edge needs whole numbers k in [1, 64] and width in [1, 4096] and nothing else, got ${JSON.stringify(e)}`,
+      );
     }
   }
-  for (const [name, list] of [['widths', c.widths], ['projection', c.projection]] as const) {
+  for (const [name, list] of [
+    ['widths', c.widths],
+    ['projection', c.projection],
+  ] as const) {
     if (!Array.isArray(list) || list.length === 0 || list.some((w) => !Number.isInteger(w) || w < 1 || w > 4096)) {
-      throw new RangeError(`encoder: ${name} must be a non-empty list of whole numbers in [1, 4096], got ${JSON.stringify(list)}`);
+      throw new RangeError(
+        `encoder: ${name} must be a non-empty list of whole numbers in [1, 4096], got ${JSON.stringify(list)}`,
+      );
     }
   }
 }

@@ -68,7 +68,10 @@ export class Encoder {
   pooled(x: tf.Tensor3D): tf.Tensor2D {
     const [B, N, F] = x.shape;
     const expected = inputChannels(this.config.inputFeatures);
-    if (F !== expected) throw new RangeError(`encoder: input has ${F} channels per point, expected ${expected} (${this.config.inputFeatures})`);
+    if (F !== expected)
+      throw new RangeError(
+        `encoder: input has ${F} channels per point, expected ${expected} (${this.config.inputFeatures})`,
+      );
     if (!this.edge) return pointMlpPool(tf.reshape(x, [B * N, F]), B, N, this.layers, this.config.pooling);
     return tf.tidy(() => pointMlpPool(this.edgeOutput(x), B, N, this.layers, this.config.pooling));
   }

@@ -43,7 +43,12 @@ export interface ModelJson {
 }
 
 /** model.json for a manifest and its weights (one file, WEIGHTS_FILE), with the weights' CRC-32. */
-export function modelJsonFor(manifest: RunManifest, weightSpecs: readonly WeightSpec[], weightData: ArrayBuffer, adamStep: number): ModelJson {
+export function modelJsonFor(
+  manifest: RunManifest,
+  weightSpecs: readonly WeightSpec[],
+  weightData: ArrayBuffer,
+  adamStep: number,
+): ModelJson {
   return {
     format: CHECKPOINT_FORMAT,
     generatedBy: 'Shapekin',
@@ -55,11 +60,20 @@ export function modelJsonFor(manifest: RunManifest, weightSpecs: readonly Weight
 }
 
 /** A model the user hands over (model.json parsed, weights file read): its parts, checked; throws naming `where`. */
-export function readModelJson(json: ModelJson, weightData: ArrayBuffer, where: string): { manifest: RunManifest; weightSpecs: WeightSpec[]; adamStep: number } {
+export function readModelJson(
+  json: ModelJson,
+  weightData: ArrayBuffer,
+  where: string,
+): { manifest: RunManifest; weightSpecs: WeightSpec[]; adamStep: number } {
   const manifest = (json?.modelTopology as { shapekin?: RunManifest } | undefined)?.shapekin;
   if (json?.format !== CHECKPOINT_FORMAT || !manifest) throw new RangeError(`${where} is not a Shapekin model`);
-  if (manifest.version !== CHECKPOINT_VERSION) throw new RangeError(`${where}: unsupported Shapekin model version ${manifest.version}`);
+  if (manifest.version !== CHECKPOINT_VERSION)
+    throw new RangeError(`${where}: unsupported Shapekin model version ${manifest.version}`);
   checkWeightData(weightData, json.userDefinedMetadata, where);
   const weightSpecs = (json.weightsManifest ?? []).flatMap((g) => g.weights);
-  return { manifest, weightSpecs, adamStep: Number((json.userDefinedMetadata as { adamStep?: number } | undefined)?.adamStep ?? 0) };
+  return {
+    manifest,
+    weightSpecs,
+    adamStep: Number((json.userDefinedMetadata as { adamStep?: number } | undefined)?.adamStep ?? 0),
+  };
 }

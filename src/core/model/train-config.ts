@@ -93,12 +93,14 @@ export function validateTrainConfig(c: TrainConfig, partCount: number): void {
   if (!LOSS_NAMES.includes(c.loss.name)) throw new RangeError(`training: unknown loss "${c.loss.name}"`);
   if (!POSES.includes(c.pose)) throw new RangeError(`training: pose must be one of ${POSES.join(', ')}, got ${c.pose}`);
   const whole = (v: number, lo: number, name: string) => {
-    if (!Number.isInteger(v) || v < lo) throw new RangeError(`training: ${name} must be a whole number ≥ ${lo}, got ${v}`);
+    if (!Number.isInteger(v) || v < lo)
+      throw new RangeError(`training: ${name} must be a whole number ≥ ${lo}, got ${v}`);
   };
   whole(c.points, 16, 'points');
   whole(c.batchSize, 2, 'batch size (parts per step; NT-Xent needs a negative)');
   whole(c.epochs, 1, 'epochs');
-  if (!(c.learningRate > 0 && c.learningRate < 1)) throw new RangeError(`training: learning rate must be in (0, 1), got ${c.learningRate}`);
+  if (!(c.learningRate > 0 && c.learningRate < 1))
+    throw new RangeError(`training: learning rate must be in (0, 1), got ${c.learningRate}`);
   if (!(c.loss.temperature > 0)) throw new RangeError(`training: temperature must be > 0, got ${c.loss.temperature}`);
   if (c.pose === 'file-and-principal' && c.patience > 0) {
     throw new RangeError('training: early stopping (patience) is not available with two encoders (file-and-principal)');

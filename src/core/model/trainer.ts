@@ -12,7 +12,16 @@ import { Encoder } from './encoder';
 import { inputChannels } from './encoder-config';
 import { computeLoss } from './losses';
 import { LABELLED_LOSSES } from './losses/names';
-import { memberPoses, stepsPerEpoch, validateTrainConfig, type HeldOutCheck, type TrainConfig, type TrainProgress, type TrainResult, type TrainStatus } from './train-config';
+import {
+  memberPoses,
+  stepsPerEpoch,
+  validateTrainConfig,
+  type HeldOutCheck,
+  type TrainConfig,
+  type TrainProgress,
+  type TrainResult,
+  type TrainStatus,
+} from './train-config';
 import { posed, type ModelPart } from './views';
 
 export interface TrainEvents {
@@ -26,7 +35,12 @@ export interface TrainerOptions {
   readonly labels?: readonly number[] | null;
   /** Start from these weights (a checkpoint). */
   readonly initialWeights?: readonly Float32Array[];
-  readonly resume?: { readonly step: number; readonly adam: AdamState; readonly history: TrainResult['history']; readonly checks: readonly HeldOutCheck[] };
+  readonly resume?: {
+    readonly step: number;
+    readonly adam: AdamState;
+    readonly history: TrainResult['history'];
+    readonly checks: readonly HeldOutCheck[];
+  };
 }
 
 export class Trainer {
@@ -67,18 +81,26 @@ export class Trainer {
     this.stepsPerEpoch = stepsPerEpoch(this.trainIdx.length, config.batchSize);
     this.memberSteps = this.stepsPerEpoch * config.epochs;
     this.totalSteps = this.memberSteps * this.memberParts.length;
-    const settings = { pipeline: config.pipeline, inputFeatures: config.encoder.inputFeatures, points: config.points, batchSize: config.batchSize, seed: config.seed };
+    const settings = {
+      pipeline: config.pipeline,
+      inputFeatures: config.encoder.inputFeatures,
+      points: config.points,
+      batchSize: config.batchSize,
+      seed: config.seed,
+    };
     this.batches = this.memberParts.map((ps) => new BatchMaker(ps, this.trainIdx, settings, this.stepsPerEpoch));
     // Every encoder starts from the seed's initial weights: each is the encoder a one-pose run with this seed would train.
     this.encoders = this.memberParts.map(() => new Encoder(config.encoder, createRng(hashString('init', config.seed))));
     if (options.initialWeights) {
-      const w = options.initialWeights, per = this.encoders[0].variables.length;
+      const w = options.initialWeights,
+        per = this.encoders[0].variables.length;
       // One encoder's weights start every encoder; otherwise each encoder takes its own share, in order.
       this.encoders.forEach((e, m) => setWeights(e, w.length === per ? w : w.slice(m * per, (m + 1) * per)));
     }
     this.adams = this.encoders.map((e) => new Adam(e.variables));
     if (options.resume) {
-      const { adam, step } = options.resume, per = this.encoders[0].variables.length;
+      const { adam, step } = options.resume,
+        per = this.encoders[0].variables.length;
       if (this.adams.length === 1) this.adams[0].restore(adam);
       else {
         this.adams.forEach((a, m) =>
@@ -127,8 +149,14 @@ export class Trainer {
     const B = parts.length;
     const F = inputChannels(this.config.encoder.inputFeatures);
     const { member, step } = this.memberOf(k);
-    const encoder = this.encoders[member], adam = this.adams[member];
-    const lr = cosineWithWarmup(step, this.memberSteps, this.config.learningRate, Math.round(this.memberSteps * this.config.warmupFraction));
+    const encoder = this.encoders[member],
+      adam = this.adams[member];
+    const lr = cosineWithWarmup(
+      step,
+      this.memberSteps,
+      this.config.learningRate,
+      Math.round(this.memberSteps * this.config.warmupFraction),
+    );
     const labels = this.labels ? parts.map((i) => this.labels![i]) : null;
     const vars = encoder.variables;
     const lossValue = tf.tidy(() => {
@@ -140,10 +168,15 @@ export class Trainer {
         return computeLoss(this.config.loss, za, zb, labels);
       }, vars);
       const loss = value.dataSync()[0];
-      if (Number.isFinite(loss)) adam.apply(vars.map((v) => grads[v.name]), lr);
+      if (Number.isFinite(loss))
+        adam.apply(
+          vars.map((v) => grads[v.name]),
+          lr,
+        );
       return loss;
     });
-    if (!Number.isFinite(lossValue)) throw new RangeError(`training diverged at step ${k + 1}: the loss is ${lossValue} (try a lower learning rate)`);
+    if (!Number.isFinite(lossValue))
+      throw new RangeError(`training diverged at step ${k + 1}: the loss is ${lossValue} (try a lower learning rate)`);
     this.step = k + 1;
     this.history.push({ step: this.step, loss: lossValue, lr });
     return lossValue;
@@ -160,7 +193,8 @@ export class Trainer {
     const D = clean.length / held.length;
     let hits = 0;
     for (let i = 0; i < held.length; i++) {
-      let best = -Infinity, bestJ = -1;
+      let best = -Infinity,
+        bestJ = -1;
       for (let j = 0; j < held.length; j++) {
         let s = 0;
         for (let d = 0; d < D; d++) s += viewEmb[i * D + d] * clean[j * D + d];
@@ -191,15 +225,23 @@ export class Trainer {
     this.status = 'running';
     const yieldEvery = events.yieldEvery ?? 1;
     const recent: number[] = [];
-    let best = -Infinity, sinceBest = 0, bestWeights: Float32Array[] | null = null;
+    let best = -Infinity,
+      sinceBest = 0,
+      bestWeights: Float32Array[] | null = null;
     try {
       while (this.step < this.totalSteps) {
-        if (this.cancelRequested) { this.status = 'cancelled'; break; }
+        if (this.cancelRequested) {
+          this.status = 'cancelled';
+          break;
+        }
         if (this.pauseRequested) {
           this.status = 'paused';
           await new Promise<void>((resolve) => (this.resumeGate = resolve));
           this.resumeGate = null;
-          if (this.cancelRequested) { this.status = 'cancelled'; break; }
+          if (this.cancelRequested) {
+            this.status = 'cancelled';
+            break;
+          }
           this.status = 'running';
         }
         const t0 = performance.now();
@@ -210,18 +252,27 @@ export class Trainer {
         const avg = recent.reduce((s, v) => s + v, 0) / recent.length;
         const B = Math.min(this.config.batchSize, this.trainIdx.length);
         events.onProgress?.({
-          step: this.step, totalSteps: this.totalSteps, epoch: Math.floor(this.memberOf(this.step - 1).step / this.stepsPerEpoch), loss,
-          learningRate: this.history[this.history.length - 1].lr, samplesPerSec: (B * 1000) / avg,
-          etaSec: ((this.totalSteps - this.step) * avg) / 1000, msPerStep: avg,
-          member: this.memberOf(this.step - 1).member, members: this.encoders.length,
+          step: this.step,
+          totalSteps: this.totalSteps,
+          epoch: Math.floor(this.memberOf(this.step - 1).step / this.stepsPerEpoch),
+          loss,
+          learningRate: this.history[this.history.length - 1].lr,
+          samplesPerSec: (B * 1000) / avg,
+          etaSec: ((this.totalSteps - this.step) * avg) / 1000,
+          msPerStep: avg,
+          member: this.memberOf(this.step - 1).member,
+          members: this.encoders.length,
         });
         const due = this.config.evalEvery > 0 ? this.step % this.config.evalEvery === 0 : false;
         if ((due || this.step === this.totalSteps) && this.heldIdx.length >= 2) {
           const check = this.heldOutCheck()!;
           this.checks.push(check);
           events.onCheck?.(check);
-          if (check.instanceTop1 > best) { best = check.instanceTop1; sinceBest = 0; if (this.config.patience > 0) bestWeights = getWeights(this.encoder); }
-          else if (this.config.patience > 0 && ++sinceBest >= this.config.patience) {
+          if (check.instanceTop1 > best) {
+            best = check.instanceTop1;
+            sinceBest = 0;
+            if (this.config.patience > 0) bestWeights = getWeights(this.encoder);
+          } else if (this.config.patience > 0 && ++sinceBest >= this.config.patience) {
             if (bestWeights) setWeights(this.encoder, bestWeights);
             this.status = 'stopped-early';
             break;
@@ -239,7 +290,14 @@ export class Trainer {
 
   private result(message?: string): TrainResult {
     const last = this.history[this.history.length - 1];
-    return { status: this.status, steps: this.step, finalLoss: last ? last.loss : NaN, history: this.history, checks: this.checks, ...(message ? { message } : {}) };
+    return {
+      status: this.status,
+      steps: this.step,
+      finalLoss: last ? last.loss : NaN,
+      history: this.history,
+      checks: this.checks,
+      ...(message ? { message } : {}),
+    };
   }
 
   /** The optimiser's state: one encoder's, or every encoder's moments in order with the overall step. */
@@ -261,10 +319,16 @@ export function getWeights(encoder: Encoder): Float32Array[] {
 
 export function setWeights(encoder: Encoder, weights: readonly Float32Array[]): void {
   const vars = encoder.variables;
-  if (weights.length !== vars.length) throw new RangeError(`weights: ${weights.length} arrays for ${vars.length} variables (a different encoder configuration?)`);
+  if (weights.length !== vars.length)
+    throw new RangeError(
+      `weights: ${weights.length} arrays for ${vars.length} variables (a different encoder configuration?)`,
+    );
   vars.forEach((v, i) => {
     const size = v.shape.reduce((a, b) => a * b, 1);
-    if (weights[i].length !== size) throw new RangeError(`weights: ${encoder.weightNames[i]} has ${weights[i].length} values, expected ${size} (shape ${v.shape})`);
+    if (weights[i].length !== size)
+      throw new RangeError(
+        `weights: ${encoder.weightNames[i]} has ${weights[i].length} values, expected ${size} (shape ${v.shape})`,
+      );
     tf.tidy(() => v.assign(tf.tensor(weights[i], v.shape)));
   });
 }

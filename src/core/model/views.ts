@@ -16,7 +16,14 @@ export interface ModelPart {
  * Write the first n points of a cloud (repeated in order when it has fewer) into slot `slot` of a batch
  * buffer (B, n, F). Pools are random surface samples, so their first n points are a random subset already.
  */
-export function fillSlot(out: Float32Array, slot: number, n: number, features: InputFeatures, points: Float32Array, normals: Float32Array): void {
+export function fillSlot(
+  out: Float32Array,
+  slot: number,
+  n: number,
+  features: InputFeatures,
+  points: Float32Array,
+  normals: Float32Array,
+): void {
   const F = inputChannels(features);
   const count = points.length / 3;
   for (let i = 0; i < n; i++) {
@@ -30,7 +37,9 @@ export function fillSlot(out: Float32Array, slot: number, n: number, features: I
       out[o + 4] = normals[src * 3 + 1];
       out[o + 5] = normals[src * 3 + 2];
     } else if (features === 'xyz+unsigned-normal') {
-      const nx = normals[src * 3], ny = normals[src * 3 + 1], nz = normals[src * 3 + 2];
+      const nx = normals[src * 3],
+        ny = normals[src * 3 + 1],
+        nz = normals[src * 3 + 2];
       out[o + 3] = nx * nx;
       out[o + 4] = ny * ny;
       out[o + 5] = nz * nz;

@@ -24,9 +24,18 @@ export function cloudDistances(a: PointCloud, b: PointCloud): CloudDistances {
   assertValidCloud(b, 'cloudDistances (second cloud)');
   const ab = nearestSqFrom(a, new PointIndex(b.positions));
   const ba = nearestSqFrom(b, new PointIndex(a.positions));
-  let sab = 0, sba = 0, mab = 0, mba = 0;
-  for (const d of ab) { sab += d; if (d > mab) mab = d; }
-  for (const d of ba) { sba += d; if (d > mba) mba = d; }
+  let sab = 0,
+    sba = 0,
+    mab = 0,
+    mba = 0;
+  for (const d of ab) {
+    sab += d;
+    if (d > mab) mab = d;
+  }
+  for (const d of ba) {
+    sba += d;
+    if (d > mba) mba = d;
+  }
   return { chamfer: sab / a.count + sba / b.count, hausdorff: Math.sqrt(Math.max(mab, mba)) };
 }
 

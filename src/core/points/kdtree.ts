@@ -29,14 +29,17 @@ export class PointIndex {
     }
     this.count = positions.length / 3;
     const nodes: Node3[] = new Array(this.count);
-    for (let i = 0; i < this.count; i++) nodes[i] = { x: positions[i * 3], y: positions[i * 3 + 1], z: positions[i * 3 + 2], i };
+    for (let i = 0; i < this.count; i++)
+      nodes[i] = { x: positions[i * 3], y: positions[i * 3 + 1], z: positions[i * 3 + 2], i };
     this.tree = new kd.kdTree<Node3>(nodes, distanceSq, ['x', 'y', 'z']);
   }
 
   /** The k nearest points to (x, y, z), nearest first. */
   nearest(x: number, y: number, z: number, k: number): Neighbour[] {
     if (!(k >= 1) || k > this.count) throw new RangeError(`PointIndex.nearest: k = ${k} with ${this.count} points`);
-    this.probe.x = x; this.probe.y = y; this.probe.z = z;
+    this.probe.x = x;
+    this.probe.y = y;
+    this.probe.z = z;
     const found = this.tree.nearest(this.probe, k);
     return found
       .map(([node, d]) => ({ index: node.i, distanceSq: d }))
@@ -45,7 +48,9 @@ export class PointIndex {
 
   /** Squared distance to the nearest point. */
   nearestDistanceSq(x: number, y: number, z: number): number {
-    this.probe.x = x; this.probe.y = y; this.probe.z = z;
+    this.probe.x = x;
+    this.probe.y = y;
+    this.probe.z = z;
     return this.tree.nearest(this.probe, 1)[0][1];
   }
 }

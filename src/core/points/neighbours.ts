@@ -12,12 +12,16 @@ export function neighbourIndex(x: Float32Array, B: number, N: number, F: number,
     const base = b * N * F;
     for (let i = 0; i < N; i++) {
       const xi = base + i * F;
-      const x0 = x[xi], x1 = x[xi + 1], x2 = x[xi + 2];
+      const x0 = x[xi],
+        x1 = x[xi + 1],
+        x2 = x[xi + 2];
       best.start(i);
       for (let j = 0; j < N; j++) {
         if (j === i) continue;
         const xj = base + j * F;
-        const d0 = x[xj] - x0, d1 = x[xj + 1] - x1, d2 = x[xj + 2] - x2;
+        const d0 = x[xj] - x0,
+          d1 = x[xj + 1] - x1,
+          d2 = x[xj + 2] - x2;
         best.offer(d0 * d0 + d1 * d1 + d2 * d2, j);
       }
       best.write(out, (b * N + i) * k, b * N);
@@ -37,15 +41,22 @@ class NearestK {
     this.row = new Int32Array(k);
   }
   start(self: number): void {
-    this.key[0] = -Infinity; this.row[0] = self; this.n = 1;
+    this.key[0] = -Infinity;
+    this.row[0] = self;
+    this.n = 1;
     this.worst = this.k === 1 ? -Infinity : Infinity;
   }
   offer(v: number, j: number): void {
     if (!(v < this.worst)) return;
     const { key, row, k } = this;
     let at = this.n < k ? this.n++ : k - 1;
-    while (at > 0 && v < key[at - 1]) { key[at] = key[at - 1]; row[at] = row[at - 1]; at--; }
-    key[at] = v; row[at] = j;
+    while (at > 0 && v < key[at - 1]) {
+      key[at] = key[at - 1];
+      row[at] = row[at - 1];
+      at--;
+    }
+    key[at] = v;
+    row[at] = j;
     if (this.n === k) this.worst = key[k - 1];
   }
   /** Rows (offset by `base`) into out[o … o + k). */
@@ -59,10 +70,13 @@ export function edgeFeatures(x: Float32Array, B: number, N: number, F: number, k
   const nbr = neighbourIndex(x, B, N, F, k);
   const out = new Float32Array(B * N * k * (F + 3));
   for (let e = 0; e < B * N * k; e++) {
-    const xi = Math.floor(e / k) * F, xj = nbr[e] * F, o = e * (F + 3);
+    const xi = Math.floor(e / k) * F,
+      xj = nbr[e] * F,
+      o = e * (F + 3);
     for (let f = 0; f < F; f++) out[o + f] = x[xi + f];
-    out[o + F] = x[xj] - x[xi]; out[o + F + 1] = x[xj + 1] - x[xi + 1]; out[o + F + 2] = x[xj + 2] - x[xi + 2];
+    out[o + F] = x[xj] - x[xi];
+    out[o + F + 1] = x[xj + 1] - x[xi + 1];
+    out[o + F + 2] = x[xj + 2] - x[xi + 2];
   }
   return out;
 }
-

@@ -29,8 +29,14 @@ export function samplePart(part: ImportedMesh, points: number, seed: number): Sa
   } else {
     raw = resamplePoints(makeCloud(mesh.positions), points, rng);
     const all = mesh.positions;
-    let x = 0, y = 0, z = 0;
-    for (let i = 0; i < all.length; i += 3) { x += all[i]; y += all[i + 1]; z += all[i + 2]; }
+    let x = 0,
+      y = 0,
+      z = 0;
+    for (let i = 0; i < all.length; i += 3) {
+      x += all[i];
+      y += all[i + 1];
+      z += all[i + 2];
+    }
     const n = all.length / 3;
     centre = [x / n, y / n, z / n];
   }
@@ -58,9 +64,20 @@ export function samplePart(part: ImportedMesh, points: number, seed: number): Sa
  * Open meshes have no inside, so their face normals point either way: turn each to face away from the
  * centroid (common practice for unoriented normals). Closed meshes keep their true outward normals.
  */
-export function orientAwayFromCentre(points: Float32Array, normals: Float32Array, centre: readonly [number, number, number]): void {
+export function orientAwayFromCentre(
+  points: Float32Array,
+  normals: Float32Array,
+  centre: readonly [number, number, number],
+): void {
   for (let i = 0; i < points.length; i += 3) {
-    const d = (points[i] - centre[0]) * normals[i] + (points[i + 1] - centre[1]) * normals[i + 1] + (points[i + 2] - centre[2]) * normals[i + 2];
-    if (d < 0) { normals[i] = -normals[i]; normals[i + 1] = -normals[i + 1]; normals[i + 2] = -normals[i + 2]; }
+    const d =
+      (points[i] - centre[0]) * normals[i] +
+      (points[i + 1] - centre[1]) * normals[i + 1] +
+      (points[i + 2] - centre[2]) * normals[i + 2];
+    if (d < 0) {
+      normals[i] = -normals[i];
+      normals[i + 1] = -normals[i + 1];
+      normals[i + 2] = -normals[i + 2];
+    }
   }
 }

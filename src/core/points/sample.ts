@@ -16,10 +16,18 @@ export function cumulativeAreas(mesh: Mesh): Float64Array {
   const cum = new Float64Array(n);
   let sum = 0;
   for (let t = 0; t < n; t++) {
-    const a = idx[t * 3] * 3, b = idx[t * 3 + 1] * 3, c = idx[t * 3 + 2] * 3;
-    const ux = p[b] - p[a], uy = p[b + 1] - p[a + 1], uz = p[b + 2] - p[a + 2];
-    const vx = p[c] - p[a], vy = p[c + 1] - p[a + 1], vz = p[c + 2] - p[a + 2];
-    const cx = uy * vz - uz * vy, cy = uz * vx - ux * vz, cz = ux * vy - uy * vx;
+    const a = idx[t * 3] * 3,
+      b = idx[t * 3 + 1] * 3,
+      c = idx[t * 3 + 2] * 3;
+    const ux = p[b] - p[a],
+      uy = p[b + 1] - p[a + 1],
+      uz = p[b + 2] - p[a + 2];
+    const vx = p[c] - p[a],
+      vy = p[c + 1] - p[a + 1],
+      vz = p[c + 2] - p[a + 2];
+    const cx = uy * vz - uz * vy,
+      cy = uz * vx - ux * vz,
+      cz = ux * vy - uy * vx;
     sum += 0.5 * Math.sqrt(cx * cx + cy * cy + cz * cz);
     cum[t] = sum;
   }
@@ -28,7 +36,8 @@ export function cumulativeAreas(mesh: Mesh): Float64Array {
 
 /** Smallest t with cum[t] > target (binary search). */
 function searchTriangle(cum: Float64Array, target: number): number {
-  let lo = 0, hi = cum.length - 1;
+  let lo = 0,
+    hi = cum.length - 1;
   while (lo < hi) {
     const mid = (lo + hi) >>> 1;
     if (cum[mid] > target) hi = mid;
@@ -58,16 +67,26 @@ export function sampleSurface(mesh: Mesh, n: number, rng: Rng, options: SurfaceS
   for (let i = 0; i < n; i++) {
     const t = searchTriangle(cum, rng.next() * total);
     if (options.triangleOut) options.triangleOut[i] = t;
-    const a = idx[t * 3] * 3, b = idx[t * 3 + 1] * 3, c = idx[t * 3 + 2] * 3;
+    const a = idx[t * 3] * 3,
+      b = idx[t * 3 + 1] * 3,
+      c = idx[t * 3 + 2] * 3;
     const s1 = Math.sqrt(rng.next());
     const r2 = rng.next();
-    const wa = 1 - s1, wb = s1 * (1 - r2), wc = s1 * r2;
+    const wa = 1 - s1,
+      wb = s1 * (1 - r2),
+      wc = s1 * r2;
     out[i * 3] = wa * p[a] + wb * p[b] + wc * p[c];
     out[i * 3 + 1] = wa * p[a + 1] + wb * p[b + 1] + wc * p[c + 1];
     out[i * 3 + 2] = wa * p[a + 2] + wb * p[b + 2] + wc * p[c + 2];
-    const ux = p[b] - p[a], uy = p[b + 1] - p[a + 1], uz = p[b + 2] - p[a + 2];
-    const vx = p[c] - p[a], vy = p[c + 1] - p[a + 1], vz = p[c + 2] - p[a + 2];
-    const nx = uy * vz - uz * vy, ny = uz * vx - ux * vz, nz = ux * vy - uy * vx;
+    const ux = p[b] - p[a],
+      uy = p[b + 1] - p[a + 1],
+      uz = p[b + 2] - p[a + 2];
+    const vx = p[c] - p[a],
+      vy = p[c + 1] - p[a + 1],
+      vz = p[c + 2] - p[a + 2];
+    const nx = uy * vz - uz * vy,
+      ny = uz * vx - ux * vz,
+      nz = ux * vy - uy * vx;
     const len = Math.sqrt(nx * nx + ny * ny + nz * nz) || 1;
     normals[i * 3] = nx / len;
     normals[i * 3 + 1] = ny / len;
@@ -86,13 +105,23 @@ export function resamplePoints(cloud: PointCloud, n: number, rng: Rng): PointClo
 }
 
 /** n indices into a pool of `count`: distinct when the pool is large enough (partial Fisher–Yates). */
-export function drawIndices(count: number, n: number, rng: Rng, scratch: Uint32Array = new Uint32Array(count)): Uint32Array {
+export function drawIndices(
+  count: number,
+  n: number,
+  rng: Rng,
+  scratch: Uint32Array = new Uint32Array(count),
+): Uint32Array {
   const out = new Uint32Array(n);
-  if (count < n) { for (let i = 0; i < n; i++) out[i] = i < count ? i : rng.int(count); return out; }
+  if (count < n) {
+    for (let i = 0; i < n; i++) out[i] = i < count ? i : rng.int(count);
+    return out;
+  }
   for (let i = 0; i < count; i++) scratch[i] = i;
   for (let i = 0; i < n; i++) {
     const j = i + rng.int(count - i);
-    const t = scratch[i]; scratch[i] = scratch[j]; scratch[j] = t;
+    const t = scratch[i];
+    scratch[i] = scratch[j];
+    scratch[j] = t;
     out[i] = scratch[i];
   }
   return out;
@@ -104,8 +133,14 @@ export function gather(cloud: PointCloud, order: ArrayLike<number>): PointCloud 
   const normals = cloud.normals ? new Float32Array(n * 3) : null;
   for (let i = 0; i < n; i++) {
     const s = order[i] * 3;
-    out[i * 3] = cloud.positions[s]; out[i * 3 + 1] = cloud.positions[s + 1]; out[i * 3 + 2] = cloud.positions[s + 2];
-    if (normals) { normals[i * 3] = cloud.normals![s]; normals[i * 3 + 1] = cloud.normals![s + 1]; normals[i * 3 + 2] = cloud.normals![s + 2]; }
+    out[i * 3] = cloud.positions[s];
+    out[i * 3 + 1] = cloud.positions[s + 1];
+    out[i * 3 + 2] = cloud.positions[s + 2];
+    if (normals) {
+      normals[i * 3] = cloud.normals![s];
+      normals[i * 3 + 1] = cloud.normals![s + 1];
+      normals[i * 3 + 2] = cloud.normals![s + 2];
+    }
   }
   return makeCloud(out, normals);
 }
@@ -124,13 +159,21 @@ export function farthestPointSample(cloud: PointCloud, m: number, rng: Rng): Poi
   let current = rng.int(n);
   for (let k = 0; k < m; k++) {
     chosen[k] = current;
-    const cx = p[current * 3], cy = p[current * 3 + 1], cz = p[current * 3 + 2];
-    let best = -1, bestIdx = 0;
+    const cx = p[current * 3],
+      cy = p[current * 3 + 1],
+      cz = p[current * 3 + 2];
+    let best = -1,
+      bestIdx = 0;
     for (let i = 0; i < n; i++) {
-      const dx = p[i * 3] - cx, dy = p[i * 3 + 1] - cy, dz = p[i * 3 + 2] - cz;
+      const dx = p[i * 3] - cx,
+        dy = p[i * 3 + 1] - cy,
+        dz = p[i * 3 + 2] - cz;
       const d = dx * dx + dy * dy + dz * dz;
       if (d < nearestSq[i]) nearestSq[i] = d;
-      if (nearestSq[i] > best) { best = nearestSq[i]; bestIdx = i; }
+      if (nearestSq[i] > best) {
+        best = nearestSq[i];
+        bestIdx = i;
+      }
     }
     current = bestIdx;
   }
@@ -146,13 +189,25 @@ export interface Normalised {
 }
 
 /** Centre on the centroid and scale into the unit sphere; the centre and radius are kept for real sizes. */
-export function normaliseToUnitSphere(cloud: PointCloud, centre?: readonly [number, number, number], radius?: number): Normalised {
+export function normaliseToUnitSphere(
+  cloud: PointCloud,
+  centre?: readonly [number, number, number],
+  radius?: number,
+): Normalised {
   const p = cloud.positions;
-  let cx = 0, cy = 0, cz = 0;
+  let cx = 0,
+    cy = 0,
+    cz = 0;
   if (centre) [cx, cy, cz] = centre;
   else {
-    for (let i = 0; i < p.length; i += 3) { cx += p[i]; cy += p[i + 1]; cz += p[i + 2]; }
-    cx /= cloud.count; cy /= cloud.count; cz /= cloud.count;
+    for (let i = 0; i < p.length; i += 3) {
+      cx += p[i];
+      cy += p[i + 1];
+      cz += p[i + 2];
+    }
+    cx /= cloud.count;
+    cy /= cloud.count;
+    cz /= cloud.count;
   }
   let r = radius ?? 0;
   if (radius === undefined) {
@@ -165,7 +220,9 @@ export function normaliseToUnitSphere(cloud: PointCloud, centre?: readonly [numb
   if (!(r > 0)) throw new RangeError('normaliseToUnitSphere: all points coincide, the cloud has no size');
   const out = new Float32Array(p.length);
   for (let i = 0; i < p.length; i += 3) {
-    out[i] = (p[i] - cx) / r; out[i + 1] = (p[i + 1] - cy) / r; out[i + 2] = (p[i + 2] - cz) / r;
+    out[i] = (p[i] - cx) / r;
+    out[i + 1] = (p[i + 1] - cy) / r;
+    out[i + 2] = (p[i + 2] - cz) / r;
   }
   return { cloud: makeCloud(out, cloud.normals), centre: [cx, cy, cz], radius: r };
 }
@@ -174,14 +231,27 @@ export function normaliseToUnitSphere(cloud: PointCloud, centre?: readonly [numb
 export function surfaceCentroid(mesh: Mesh): [number, number, number] {
   const idx = mesh.indices!;
   const p = mesh.positions;
-  let sx = 0, sy = 0, sz = 0, sa = 0;
+  let sx = 0,
+    sy = 0,
+    sz = 0,
+    sa = 0;
   for (let t = 0; t < idx.length / 3; t++) {
-    const a = idx[t * 3] * 3, b = idx[t * 3 + 1] * 3, c = idx[t * 3 + 2] * 3;
-    const ux = p[b] - p[a], uy = p[b + 1] - p[a + 1], uz = p[b + 2] - p[a + 2];
-    const vx = p[c] - p[a], vy = p[c + 1] - p[a + 1], vz = p[c + 2] - p[a + 2];
-    const cx = uy * vz - uz * vy, cy = uz * vx - ux * vz, cz = ux * vy - uy * vx;
+    const a = idx[t * 3] * 3,
+      b = idx[t * 3 + 1] * 3,
+      c = idx[t * 3 + 2] * 3;
+    const ux = p[b] - p[a],
+      uy = p[b + 1] - p[a + 1],
+      uz = p[b + 2] - p[a + 2];
+    const vx = p[c] - p[a],
+      vy = p[c + 1] - p[a + 1],
+      vz = p[c + 2] - p[a + 2];
+    const cx = uy * vz - uz * vy,
+      cy = uz * vx - ux * vz,
+      cz = ux * vy - uy * vx;
     const area = 0.5 * Math.sqrt(cx * cx + cy * cy + cz * cz);
-    sx += area * (p[a] + p[b] + p[c]) / 3; sy += area * (p[a + 1] + p[b + 1] + p[c + 1]) / 3; sz += area * (p[a + 2] + p[b + 2] + p[c + 2]) / 3;
+    sx += (area * (p[a] + p[b] + p[c])) / 3;
+    sy += (area * (p[a + 1] + p[b + 1] + p[c + 1])) / 3;
+    sz += (area * (p[a + 2] + p[b + 2] + p[c + 2])) / 3;
     sa += area;
   }
   return [sx / sa, sy / sa, sz / sa];

@@ -45,7 +45,14 @@ export function untrainedEncoders(config: EncoderConfig, pose: Pose, seed = 0): 
 }
 
 export function evaluateMethods(input: EvaluationInput): EvaluationReport {
-  const strip = (m: RetrievalMetrics) => ({ nn: m.nn, first_tier: m.first_tier, second_tier: m.second_tier, dcg: m.dcg, map: m.map, p_at_5: m.p_at_5 });
+  const strip = (m: RetrievalMetrics) => ({
+    nn: m.nn,
+    first_tier: m.first_tier,
+    second_tier: m.second_tier,
+    dcg: m.dcg,
+    map: m.map,
+    p_at_5: m.p_at_5,
+  });
   const methods: EvaluationReport['methods'] = {};
   const n = input.parts.length;
   const score = (d: Descriptors) => {
@@ -53,7 +60,9 @@ export function evaluateMethods(input: EvaluationInput): EvaluationReport {
     if (!input.diffusion) return;
     // D2's similarity is −L1 in [−2, 0]; its graph uses 1 − L1/2 in [0, 1], cosine-like.
     const graphSimilarity = d.method === 'd2' ? (i: number, j: number) => 1 + d.similarity(i, j) / 2 : d.similarity;
-    methods[`${d.method}+diffusion`] = strip(evaluateRetrieval(input.labels, throughLibrary(n, graphSimilarity, input.diffusion)));
+    methods[`${d.method}+diffusion`] = strip(
+      evaluateRetrieval(input.labels, throughLibrary(n, graphSimilarity, input.diffusion)),
+    );
   };
   if (input.learned) score(encoderDescriptors('learned', input.learned, input.parts, input.points, input.pose));
   const untrained = untrainedEncoders(input.untrainedConfig, input.pose, input.seed ?? 0);

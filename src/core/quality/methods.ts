@@ -18,7 +18,13 @@ export interface Descriptors {
   readonly similarity: (i: number, j: number) => number;
 }
 
-export function encoderDescriptors(method: 'learned' | 'untrained', encoder: Encoders, parts: readonly ModelPart[], points: number, pose: Pose): Descriptors {
+export function encoderDescriptors(
+  method: 'learned' | 'untrained',
+  encoder: Encoders,
+  parts: readonly ModelPart[],
+  points: number,
+  pose: Pose,
+): Descriptors {
   const vectors = embedForRetrieval(encoder, parts, points, pose);
   const dim = vectors.length / Math.max(1, parts.length);
   return { method, vectors, dim, similarity: cosineSimilarity(vectors, dim) };

@@ -43,12 +43,29 @@ export interface StudyInput {
 
 type Describe = (parts: readonly ModelPart[]) => { vectors: Float32Array; dim: number };
 
-function nearestTwo(q: Float32Array, qo: number, lib: Float32Array, dim: number, n: number, sim: (a: Float32Array, ao: number, b: Float32Array, bo: number) => number, self: number) {
-  let best = -Infinity, bestI = -1, other = -Infinity, otherI = -1;
+function nearestTwo(
+  q: Float32Array,
+  qo: number,
+  lib: Float32Array,
+  dim: number,
+  n: number,
+  sim: (a: Float32Array, ao: number, b: Float32Array, bo: number) => number,
+  self: number,
+) {
+  let best = -Infinity,
+    bestI = -1,
+    other = -Infinity,
+    otherI = -1;
   for (let j = 0; j < n; j++) {
     const s = sim(q, qo, lib, j * dim);
-    if (s > best) { best = s; bestI = j; }
-    if (j !== self && s > other) { other = s; otherI = j; }
+    if (s > best) {
+      best = s;
+      bestI = j;
+    }
+    if (j !== self && s > other) {
+      other = s;
+      otherI = j;
+    }
   }
   return { bestI, otherI };
 }
@@ -58,18 +75,38 @@ export function runStudy(input: StudyInput): StudyRow[] {
   const kinds = input.kinds ?? AUGMENT_KINDS;
   const strengths = input.strengths ?? STUDY_STRENGTHS;
   const seed = input.seed ?? 0;
-  const methods: [MethodName, Describe, (a: Float32Array, ao: number, b: Float32Array, bo: number, dim: number) => number][] = [];
-  const cosine = (a: Float32Array, ao: number, b: Float32Array, bo: number, dim: number) => { let s = 0; for (let d = 0; d < dim; d++) s += a[ao + d] * b[bo + d]; return s; };
+  const methods: [
+    MethodName,
+    Describe,
+    (a: Float32Array, ao: number, b: Float32Array, bo: number, dim: number) => number,
+  ][] = [];
+  const cosine = (a: Float32Array, ao: number, b: Float32Array, bo: number, dim: number) => {
+    let s = 0;
+    for (let d = 0; d < dim; d++) s += a[ao + d] * b[bo + d];
+    return s;
+  };
   for (const name of ['learned', 'untrained'] as const) {
     const enc = input.encoders[name];
-    if (enc) methods.push([name, (ps) => { const v = embedForRetrieval(enc, ps, points, input.pose); return { vectors: v, dim: v.length / ps.length }; }, cosine]);
+    if (enc)
+      methods.push([
+        name,
+        (ps) => {
+          const v = embedForRetrieval(enc, ps, points, input.pose);
+          return { vectors: v, dim: v.length / ps.length };
+        },
+        cosine,
+      ]);
   }
-  methods.push(['d2', (ps) => {
-    const dim = 64;
-    const v = new Float32Array(ps.length * dim);
-    ps.forEach((p, i) => v.set(d2Histogram(p.points, createRng(hashString(`d2:${i}`, seed))), i * dim));
-    return { vectors: v, dim };
-  }, (a, ao, b, bo, dim) => 1 - l1(a, b, ao, bo, dim) / 2]);
+  methods.push([
+    'd2',
+    (ps) => {
+      const dim = 64;
+      const v = new Float32Array(ps.length * dim);
+      ps.forEach((p, i) => v.set(d2Histogram(p.points, createRng(hashString(`d2:${i}`, seed))), i * dim));
+      return { vectors: v, dim };
+    },
+    (a, ao, b, bo, dim) => 1 - l1(a, b, ao, bo, dim) / 2,
+  ]);
 
   const clean = methods.map(([, describe]) => describe(parts));
   const rows: StudyRow[] = [];
@@ -77,7 +114,11 @@ export function runStudy(input: StudyInput): StudyRow[] {
   let done = 0;
   for (const kind of kinds) {
     for (const strength of strengths) {
-      const pipeline = { version: 1 as const, upAxis: input.upAxis ?? 'z', steps: [{ kind, strength, probability: 1 }] };
+      const pipeline = {
+        version: 1 as const,
+        upAxis: input.upAxis ?? 'z',
+        steps: [{ kind, strength, probability: 1 }],
+      };
       const rng = createRng(hashString(`study:${kind}:${strength}`, seed));
       let chamfer = 0;
       const views: ModelPart[] = parts.map((p) => {
@@ -89,14 +130,32 @@ export function runStudy(input: StudyInput): StudyRow[] {
       methods.forEach(([method, describe, sim], m) => {
         const { vectors, dim } = describe(views);
         const lib = clean[m].vectors;
-        let inst = 0, lab = 0, simSum = 0;
+        let inst = 0,
+          lab = 0,
+          simSum = 0;
         for (let i = 0; i < parts.length; i++) {
-          const { bestI, otherI } = nearestTwo(vectors, i * dim, lib, dim, parts.length, (a, ao, b, bo) => sim(a, ao, b, bo, dim), i);
+          const { bestI, otherI } = nearestTwo(
+            vectors,
+            i * dim,
+            lib,
+            dim,
+            parts.length,
+            (a, ao, b, bo) => sim(a, ao, b, bo, dim),
+            i,
+          );
           if (bestI === i) inst++;
           if (otherI >= 0 && labels[otherI] === labels[i]) lab++;
           simSum += sim(vectors, i * dim, lib, i * dim, dim);
         }
-        rows.push({ augmentation: kind, strength, method, instance_top1: inst / parts.length, label_top1: lab / parts.length, mean_similarity: simSum / parts.length, mean_chamfer: chamfer / parts.length });
+        rows.push({
+          augmentation: kind,
+          strength,
+          method,
+          instance_top1: inst / parts.length,
+          label_top1: lab / parts.length,
+          mean_similarity: simSum / parts.length,
+          mean_chamfer: chamfer / parts.length,
+        });
       });
       input.onProgress?.(++done, total, `${kind} at ${strength}`);
     }

@@ -7,7 +7,13 @@ import type { Rng } from '../rng';
 export const D2_BINS = 64;
 export const D2_PAIRS = 16384;
 
-export function d2Histogram(points: Float32Array, rng: Rng, pairs = D2_PAIRS, bins = D2_BINS, maxDistance = 2): Float32Array {
+export function d2Histogram(
+  points: Float32Array,
+  rng: Rng,
+  pairs = D2_PAIRS,
+  bins = D2_BINS,
+  maxDistance = 2,
+): Float32Array {
   const n = points.length / 3;
   if (n < 2) throw new RangeError('d2Histogram: need at least 2 points');
   const h = new Float32Array(bins);
@@ -15,7 +21,9 @@ export function d2Histogram(points: Float32Array, rng: Rng, pairs = D2_PAIRS, bi
     const i = rng.int(n);
     let j = rng.int(n - 1);
     if (j >= i) j++;
-    const dx = points[i * 3] - points[j * 3], dy = points[i * 3 + 1] - points[j * 3 + 1], dz = points[i * 3 + 2] - points[j * 3 + 2];
+    const dx = points[i * 3] - points[j * 3],
+      dy = points[i * 3 + 1] - points[j * 3 + 1],
+      dz = points[i * 3 + 2] - points[j * 3 + 2];
     const d = Math.sqrt(dx * dx + dy * dy + dz * dz);
     h[Math.min(bins - 1, Math.floor((d / maxDistance) * bins))] += 1;
   }

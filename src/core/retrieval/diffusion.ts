@@ -27,7 +27,8 @@ export function validateDiffusion(o: DiffusionOptions): void {
   if (!(Number.isInteger(o.k) && o.k >= 1)) throw new RangeError(`diffusion: k must be a whole number ≥ 1, got ${o.k}`);
   if (!(o.alpha > 0 && o.alpha < 1)) throw new RangeError(`diffusion: alpha must be in (0, 1), got ${o.alpha}`);
   if (!(o.gamma > 0)) throw new RangeError(`diffusion: gamma must be > 0, got ${o.gamma}`);
-  if (!(Number.isInteger(o.iterations) && o.iterations >= 1)) throw new RangeError(`diffusion: iterations must be a whole number ≥ 1, got ${o.iterations}`);
+  if (!(Number.isInteger(o.iterations) && o.iterations >= 1))
+    throw new RangeError(`diffusion: iterations must be a whole number ≥ 1, got ${o.iterations}`);
 }
 
 /**
@@ -59,8 +60,13 @@ export class DiffusionGraph {
     this.weights = new Float64Array(this.rowStart[size]);
     this.invSqrtDegree = new Float64Array(size);
     for (let i = 0; i < size; i++) {
-      let degree = 0, e = this.rowStart[i];
-      for (const [j, w] of [...rows[i].entries()].sort((p, q) => p[0] - q[0])) { this.cols[e] = j; this.weights[e++] = w; degree += w; }
+      let degree = 0,
+        e = this.rowStart[i];
+      for (const [j, w] of [...rows[i].entries()].sort((p, q) => p[0] - q[0])) {
+        this.cols[e] = j;
+        this.weights[e++] = w;
+        degree += w;
+      }
       this.invSqrtDegree[i] = degree > 0 ? 1 / Math.sqrt(degree) : 0;
     }
   }
@@ -69,7 +75,11 @@ export class DiffusionGraph {
    * The graph over n parts from their pairwise similarity (higher is closer; `similarity(i, j)` for i ≠ j).
    * Cost: n² similarity calls and n partial selections of k.
    */
-  static build(n: number, similarity: (i: number, j: number) => number, options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
+  static build(
+    n: number,
+    similarity: (i: number, j: number) => number,
+    options: DiffusionOptions = DIFFUSION_DEFAULTS,
+  ): DiffusionGraph {
     validateDiffusion(options);
     const k = Math.min(options.k, n - 1);
     const directed: Edge[] = [];
@@ -90,11 +100,15 @@ export class DiffusionGraph {
    */
   withQuery(similarityToParts: ArrayLike<number>): DiffusionGraph {
     const n = this.size;
-    if (similarityToParts.length !== n) throw new RangeError(`diffusion: ${similarityToParts.length} similarities for ${n} parts`);
+    if (similarityToParts.length !== n)
+      throw new RangeError(`diffusion: ${similarityToParts.length} similarities for ${n} parts`);
     const { gamma, k } = this.options;
     const directed = [...this.directed];
-    for (const h of topK(similarityToParts, Math.min(k, n))) directed.push({ i: n, j: h.index, w: affinity(h.score, gamma) });
-    for (let j = 0; j < n; j++) if (similarityToParts[j] > this.kthSimilarity[j]) directed.push({ i: j, j: n, w: affinity(similarityToParts[j], gamma) });
+    for (const h of topK(similarityToParts, Math.min(k, n)))
+      directed.push({ i: n, j: h.index, w: affinity(h.score, gamma) });
+    for (let j = 0; j < n; j++)
+      if (similarityToParts[j] > this.kthSimilarity[j])
+        directed.push({ i: j, j: n, w: affinity(similarityToParts[j], gamma) });
     const kth = new Float64Array(n + 1).fill(-Infinity);
     kth.set(this.kthSimilarity);
     return new DiffusionGraph(n + 1, directed, kth, this.options);
@@ -105,10 +119,12 @@ export class DiffusionGraph {
    * f ← αSf + (1 − α)y, starting from y.
    */
   scoresFrom(source: number): Float64Array {
-    if (!(Number.isInteger(source) && source >= 0 && source < this.size)) throw new RangeError(`diffusion: no node ${source} in a graph of ${this.size}`);
+    if (!(Number.isInteger(source) && source >= 0 && source < this.size))
+      throw new RangeError(`diffusion: no node ${source} in a graph of ${this.size}`);
     const { alpha, iterations } = this.options;
     const { rowStart, cols, weights, invSqrtDegree: r } = this;
-    let f = new Float64Array(this.size), next = new Float64Array(this.size);
+    let f = new Float64Array(this.size),
+      next = new Float64Array(this.size);
     f[source] = 1;
     for (let t = 0; t < iterations; t++) {
       for (let i = 0; i < this.size; i++) {
@@ -146,7 +162,12 @@ function affinity(similarity: number, gamma: number): number {
  * because diffusion favours parts central to a family: alone it can put a file's exact twin second, and over
  * three libraries it lowered the nearest-neighbour rate about as often as it raised it (docs/results.md).
  */
-export function rankingKeys(f: ArrayLike<number>, cosine: ArrayLike<number>, n: number, accept?: (j: number) => boolean): Float64Array {
+export function rankingKeys(
+  f: ArrayLike<number>,
+  cosine: ArrayLike<number>,
+  n: number,
+  accept?: (j: number) => boolean,
+): Float64Array {
   const keys = new Float64Array(n);
   let nearest = -1;
   for (let j = 0; j < n; j++) {
@@ -162,7 +183,11 @@ export function rankingKeys(f: ArrayLike<number>, cosine: ArrayLike<number>, n: 
  * built from `similarity`, computed once per query row and kept until the next one (queries go row by row).
  * `similarity` must be cosine-like (higher is closer, affinity from its positive part).
  */
-export function diffusedSimilarity(n: number, similarity: (i: number, j: number) => number, options: DiffusionOptions = DIFFUSION_DEFAULTS): (i: number, j: number) => number {
+export function diffusedSimilarity(
+  n: number,
+  similarity: (i: number, j: number) => number,
+  options: DiffusionOptions = DIFFUSION_DEFAULTS,
+): (i: number, j: number) => number {
   const graph = DiffusionGraph.build(n, similarity, options);
   let row = -1;
   let keys: Float64Array = new Float64Array(0);

@@ -15,11 +15,15 @@ export class UnionFind {
     this.size = new Int32Array(n).fill(1);
   }
   find(x: number): number {
-    while (this.parent[x] !== x) { this.parent[x] = this.parent[this.parent[x]]; x = this.parent[x]; }
+    while (this.parent[x] !== x) {
+      this.parent[x] = this.parent[this.parent[x]];
+      x = this.parent[x];
+    }
     return x;
   }
   union(a: number, b: number): void {
-    let ra = this.find(a), rb = this.find(b);
+    let ra = this.find(a),
+      rb = this.find(b);
     if (ra === rb) return;
     if (this.size[ra] < this.size[rb]) [ra, rb] = [rb, ra];
     this.parent[rb] = ra;
@@ -27,13 +31,20 @@ export class UnionFind {
   }
 }
 
-export function duplicateGroups(count: number, similarity: (i: number, j: number) => number, threshold: number): DuplicateGroup[] {
+export function duplicateGroups(
+  count: number,
+  similarity: (i: number, j: number) => number,
+  threshold: number,
+): DuplicateGroup[] {
   const uf = new UnionFind(count);
   const pairs: { a: number; b: number; similarity: number }[] = [];
   for (let i = 0; i < count; i++) {
     for (let j = i + 1; j < count; j++) {
       const s = similarity(i, j);
-      if (s >= threshold) { pairs.push({ a: i, b: j, similarity: s }); uf.union(i, j); }
+      if (s >= threshold) {
+        pairs.push({ a: i, b: j, similarity: s });
+        uf.union(i, j);
+      }
     }
   }
   const groups = new Map<number, DuplicateGroup>();
@@ -43,5 +54,9 @@ export function duplicateGroups(count: number, similarity: (i: number, j: number
     groups.get(r)!.pairs.push(p);
   }
   for (let i = 0; i < count; i++) groups.get(uf.find(i))?.members.push(i);
-  return [...groups.values()].sort((a, b) => b.members.length - a.members.length || Math.max(...b.pairs.map((p) => p.similarity)) - Math.max(...a.pairs.map((p) => p.similarity)));
+  return [...groups.values()].sort(
+    (a, b) =>
+      b.members.length - a.members.length ||
+      Math.max(...b.pairs.map((p) => p.similarity)) - Math.max(...a.pairs.map((p) => p.similarity)),
+  );
 }

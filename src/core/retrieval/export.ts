@@ -16,7 +16,15 @@ export interface EmbeddingRow {
 
 /** CSV with a header: file, label, extent_x, extent_y, extent_z, units, e0 … e(D−1); 6 significant digits. */
 export function embeddingsCsv(rows: readonly EmbeddingRow[], vectors: Float32Array, dim: number): string {
-  const head = ['file', 'label', 'extent_x', 'extent_y', 'extent_z', 'units', ...Array.from({ length: dim }, (_, d) => `e${d}`)].join(',');
+  const head = [
+    'file',
+    'label',
+    'extent_x',
+    'extent_y',
+    'extent_z',
+    'units',
+    ...Array.from({ length: dim }, (_, d) => `e${d}`),
+  ].join(',');
   const lines = rows.map((r, i) =>
     [
       csvField(r.file),

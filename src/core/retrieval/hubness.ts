@@ -23,7 +23,11 @@ export function meanOfTop(similarities: ArrayLike<number>, k: number, keep?: (j:
 }
 
 /** r(i) for every part of a library: the mean of its k highest similarities to the other parts. */
-export function neighbourhoodMeans(n: number, similarity: (i: number, j: number) => number, k = HUB_NEIGHBOURS): Float64Array {
+export function neighbourhoodMeans(
+  n: number,
+  similarity: (i: number, j: number) => number,
+  k = HUB_NEIGHBOURS,
+): Float64Array {
   if (!(Number.isInteger(k) && k >= 1)) throw new RangeError(`hub correction: k must be a whole number ≥ 1, got ${k}`);
   const r = new Float64Array(n);
   const row = new Float64Array(n);
@@ -35,7 +39,11 @@ export function neighbourhoodMeans(n: number, similarity: (i: number, j: number)
 }
 
 /** CSLS between library parts: 2·s(i, j) − r(i) − r(j). */
-export function hubCorrected(n: number, similarity: (i: number, j: number) => number, k = HUB_NEIGHBOURS): (i: number, j: number) => number {
+export function hubCorrected(
+  n: number,
+  similarity: (i: number, j: number) => number,
+  k = HUB_NEIGHBOURS,
+): (i: number, j: number) => number {
   const r = neighbourhoodMeans(n, similarity, k);
   return (i, j) => 2 * similarity(i, j) - r[i] - r[j];
 }
@@ -44,6 +52,11 @@ export function hubCorrected(n: number, similarity: (i: number, j: number) => nu
  * A similarity (i, j) → ranking key as the search orders results through the library, for leave-one-out
  * evaluation: hub-corrected, then diffused over the graph built from the corrected scores (most similar first).
  */
-export function throughLibrary(n: number, similarity: (i: number, j: number) => number, options: DiffusionOptions = DIFFUSION_DEFAULTS, k = HUB_NEIGHBOURS): (i: number, j: number) => number {
+export function throughLibrary(
+  n: number,
+  similarity: (i: number, j: number) => number,
+  options: DiffusionOptions = DIFFUSION_DEFAULTS,
+  k = HUB_NEIGHBOURS,
+): (i: number, j: number) => number {
   return diffusedSimilarity(n, hubCorrected(n, similarity, k), options);
 }

@@ -35,7 +35,8 @@ export class EmbeddingIndex {
   readonly entries: readonly IndexEntry[];
 
   constructor(vectors: Float32Array, dim: number, entries: readonly IndexEntry[]) {
-    if (vectors.length !== dim * entries.length) throw new RangeError(`EmbeddingIndex: ${vectors.length} values for ${entries.length} × ${dim}`);
+    if (vectors.length !== dim * entries.length)
+      throw new RangeError(`EmbeddingIndex: ${vectors.length} values for ${entries.length} × ${dim}`);
     this.dim = dim;
     this.entries = entries;
     this.vectors = normaliseRows(vectors, dim);
@@ -89,7 +90,10 @@ export class EmbeddingIndex {
     let row = -1;
     const scores = new Float32Array(this.count);
     return (i, j) => {
-      if (i !== row) { this.scores(this.vector(i), scores); row = i; }
+      if (i !== row) {
+        this.scores(this.vector(i), scores);
+        row = i;
+      }
       return scores[j];
     };
   }
@@ -123,7 +127,12 @@ export class EmbeddingIndex {
    * similarity. A library part queries from its own node (pass it as `filter.exclude`); any other vector first
    * joins the graph as one more node.
    */
-  queryDiffused(query: ArrayLike<number>, k: number, filter: QueryFilter = {}, options: DiffusionOptions = DIFFUSION_DEFAULTS): Hit[] {
+  queryDiffused(
+    query: ArrayLike<number>,
+    k: number,
+    filter: QueryFilter = {},
+    options: DiffusionOptions = DIFFUSION_DEFAULTS,
+  ): Hit[] {
     if (query.length !== this.dim) throw new RangeError(`query has ${query.length} values, the index ${this.dim}`);
     const cosine = this.scores(query);
     const graph = this.diffusionGraph(options);
@@ -167,7 +176,9 @@ export class EmbeddingIndex {
 
   /** `query` or `queryDiffused`, by ranking; diffusion falls back to cosine where it does not apply. */
   ranked(ranking: Ranking, query: ArrayLike<number>, k: number, filter: QueryFilter = {}): Hit[] {
-    return ranking === 'diffusion' && this.diffusionApplies() ? this.queryDiffused(query, k, filter) : this.query(query, k, filter);
+    return ranking === 'diffusion' && this.diffusionApplies()
+      ? this.queryDiffused(query, k, filter)
+      : this.query(query, k, filter);
   }
 }
 
@@ -180,7 +191,11 @@ export const DIFFUSION_MAX_MEAN_COSINE = 0.2;
  */
 export function dot4(v: ArrayLike<number>, o: number, q: ArrayLike<number>, D: number): number {
   const D4 = D - (D % 4);
-  let s0 = 0, s1 = 0, s2 = 0, s3 = 0, d = 0;
+  let s0 = 0,
+    s1 = 0,
+    s2 = 0,
+    s3 = 0,
+    d = 0;
   for (; d < D4; d += 4) {
     s0 += v[o + d] * q[d];
     s1 += v[o + d + 1] * q[d + 1];

@@ -19,10 +19,18 @@ export interface RetrievalMetrics {
 }
 
 /** Metrics for one query from the labels of its ranked results (the query itself excluded). */
-export function queryMetrics(rankedLabels: readonly string[], queryLabel: string): Omit<RetrievalMetrics, 'queries'> | null {
+export function queryMetrics(
+  rankedLabels: readonly string[],
+  queryLabel: string,
+): Omit<RetrievalMetrics, 'queries'> | null {
   const R = rankedLabels.filter((l) => l === queryLabel).length;
   if (R === 0) return null;
-  let hitsR = 0, hits2R = 0, hits5 = 0, dcg = 0, ap = 0, found = 0;
+  let hitsR = 0,
+    hits2R = 0,
+    hits5 = 0,
+    dcg = 0,
+    ap = 0,
+    found = 0;
   rankedLabels.forEach((label, i) => {
     const rank = i + 1;
     if (label !== queryLabel) return;
@@ -46,7 +54,10 @@ export function queryMetrics(rankedLabels: readonly string[], queryLabel: string
 }
 
 /** Leave-one-out over all items, given a similarity function (higher is closer). */
-export function evaluateRetrieval(labels: readonly string[], similarity: (i: number, j: number) => number): RetrievalMetrics {
+export function evaluateRetrieval(
+  labels: readonly string[],
+  similarity: (i: number, j: number) => number,
+): RetrievalMetrics {
   const n = labels.length;
   const sums = { nn: 0, first_tier: 0, second_tier: 0, dcg: 0, map: 0, p_at_5: 0 };
   let queries = 0;
@@ -54,22 +65,38 @@ export function evaluateRetrieval(labels: readonly string[], similarity: (i: num
   const scores = new Float64Array(n);
   for (let q = 0; q < n; q++) {
     let k = 0;
-    for (let j = 0; j < n; j++) if (j !== q) { scores[j] = similarity(q, j); order[k++] = j; }
+    for (let j = 0; j < n; j++)
+      if (j !== q) {
+        scores[j] = similarity(q, j);
+        order[k++] = j;
+      }
     order.sort((a, b) => scores[b] - scores[a] || a - b);
-    const m = queryMetrics(order.map((j) => labels[j]), labels[q]);
+    const m = queryMetrics(
+      order.map((j) => labels[j]),
+      labels[q],
+    );
     if (!m) continue;
     queries++;
     for (const key of Object.keys(sums) as (keyof typeof sums)[]) sums[key] += m[key];
   }
   const mean = (v: number) => (queries ? v / queries : 0);
-  return { nn: mean(sums.nn), first_tier: mean(sums.first_tier), second_tier: mean(sums.second_tier), dcg: mean(sums.dcg), map: mean(sums.map), p_at_5: mean(sums.p_at_5), queries };
+  return {
+    nn: mean(sums.nn),
+    first_tier: mean(sums.first_tier),
+    second_tier: mean(sums.second_tier),
+    dcg: mean(sums.dcg),
+    map: mean(sums.map),
+    p_at_5: mean(sums.p_at_5),
+    queries,
+  };
 }
 
 /** Cosine similarity between rows of a (n × dim) matrix of unit vectors. */
 export function cosineSimilarity(vectors: Float32Array, dim: number): (i: number, j: number) => number {
   return (i, j) => {
     let s = 0;
-    const a = i * dim, b = j * dim;
+    const a = i * dim,
+      b = j * dim;
     for (let d = 0; d < dim; d++) s += vectors[a + d] * vectors[b + d];
     return s;
   };

@@ -16,16 +16,29 @@ export function pca2d(vectors: Float32Array, dim: number, iterations = 100): Flo
     for (let it = 0; it < iterations; it++) {
       // w = Xᵀ (X v), with earlier components projected out.
       const xv = new Float64Array(n);
-      for (let i = 0; i < n; i++) { let s = 0; for (let d = 0; d < dim; d++) s += centred[i * dim + d] * v[d]; xv[i] = s; }
+      for (let i = 0; i < n; i++) {
+        let s = 0;
+        for (let d = 0; d < dim; d++) s += centred[i * dim + d] * v[d];
+        xv[i] = s;
+      }
       const w = new Float64Array(dim);
       for (let i = 0; i < n; i++) for (let d = 0; d < dim; d++) w[d] += centred[i * dim + d] * xv[i];
-      for (const u of components) { let dot = 0; for (let d = 0; d < dim; d++) dot += w[d] * u[d]; for (let d = 0; d < dim; d++) w[d] -= dot * u[d]; }
+      for (const u of components) {
+        let dot = 0;
+        for (let d = 0; d < dim; d++) dot += w[d] * u[d];
+        for (let d = 0; d < dim; d++) w[d] -= dot * u[d];
+      }
       const norm = Math.hypot(...w) || 1;
       v = w.map((x) => x / norm);
     }
     components.push(v);
   }
   const out = new Float32Array(n * 2);
-  for (let i = 0; i < n; i++) for (let c = 0; c < 2; c++) { let s = 0; for (let d = 0; d < dim; d++) s += centred[i * dim + d] * components[c][d]; out[i * 2 + c] = s; }
+  for (let i = 0; i < n; i++)
+    for (let c = 0; c < 2; c++) {
+      let s = 0;
+      for (let d = 0; d < dim; d++) s += centred[i * dim + d] * components[c][d];
+      out[i * 2 + c] = s;
+    }
   return out;
 }

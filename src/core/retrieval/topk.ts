@@ -15,14 +15,18 @@ export function topK(scores: ArrayLike<number>, k: number, keep?: (i: number) =>
   const worse = (sa: number, ia: number, sb: number, ib: number) => sa < sb || (sa === sb && ia > ib);
   const siftDown = (pos: number) => {
     for (;;) {
-      const l = 2 * pos + 1, r = l + 1;
+      const l = 2 * pos + 1,
+        r = l + 1;
       let m = pos;
       if (l < size && worse(heapScore[l], heapIndex[l], heapScore[m], heapIndex[m])) m = l;
       if (r < size && worse(heapScore[r], heapIndex[r], heapScore[m], heapIndex[m])) m = r;
       if (m === pos) return;
-      const ts = heapScore[m], ti = heapIndex[m];
-      heapScore[m] = heapScore[pos]; heapIndex[m] = heapIndex[pos];
-      heapScore[pos] = ts; heapIndex[pos] = ti;
+      const ts = heapScore[m],
+        ti = heapIndex[m];
+      heapScore[m] = heapScore[pos];
+      heapIndex[m] = heapIndex[pos];
+      heapScore[pos] = ts;
+      heapIndex[pos] = ti;
       pos = m;
     }
   };
@@ -32,17 +36,22 @@ export function topK(scores: ArrayLike<number>, k: number, keep?: (i: number) =>
     if (keep && !keep(i)) continue;
     if (size < k) {
       let pos = size++;
-      heapScore[pos] = s; heapIndex[pos] = i;
+      heapScore[pos] = s;
+      heapIndex[pos] = i;
       while (pos > 0) {
         const parent = (pos - 1) >> 1;
         if (!worse(heapScore[pos], heapIndex[pos], heapScore[parent], heapIndex[parent])) break;
-        const ts = heapScore[parent], ti = heapIndex[parent];
-        heapScore[parent] = heapScore[pos]; heapIndex[parent] = heapIndex[pos];
-        heapScore[pos] = ts; heapIndex[pos] = ti;
+        const ts = heapScore[parent],
+          ti = heapIndex[parent];
+        heapScore[parent] = heapScore[pos];
+        heapIndex[parent] = heapIndex[pos];
+        heapScore[pos] = ts;
+        heapIndex[pos] = ti;
         pos = parent;
       }
     } else if (worse(heapScore[0], heapIndex[0], s, i)) {
-      heapScore[0] = s; heapIndex[0] = i;
+      heapScore[0] = s;
+      heapIndex[0] = i;
       siftDown(0);
     }
   }

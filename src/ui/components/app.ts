@@ -34,7 +34,16 @@ export function initialState(): AppState {
     panel: 'library',
     notice: '',
     library: { parts: [], failures: [], status: IDLE, thumbnails: new Map(), selected: '' },
-    training: { config: DEFAULT_TRAIN, pipeline: DEFAULT_TRAIN.pipeline, status: IDLE, progress: null, history: [], checks: [], backend: '', model: null },
+    training: {
+      config: DEFAULT_TRAIN,
+      pipeline: DEFAULT_TRAIN.pipeline,
+      status: IDLE,
+      progress: null,
+      history: [],
+      checks: [],
+      backend: '',
+      model: null,
+    },
     search: { index: null, query: null, hits: [], filters: DEFAULT_FILTERS, status: IDLE },
     measure: { report: null, status: IDLE, rows: [], study: IDLE },
   };
@@ -123,7 +132,8 @@ export class SkApp extends LitElement {
           <button ?disabled=${!m} @click=${() => this.training.exportModel()}>Export model</button>
           <select aria-label="Export embeddings" ?disabled=${!search.index} @change=${(e: Event) => {
             const t = e.target as HTMLSelectElement;
-            if (t.value && search.index) exportEmbeddings(t.value as EmbeddingFormat, this.state.library.parts, search.index);
+            if (t.value && search.index)
+              exportEmbeddings(t.value as EmbeddingFormat, this.state.library.parts, search.index);
             t.value = '';
           }}>
             <option value="">Export embeddings…</option><option value="csv">as CSV</option><option value="json">as JSON</option><option value="npy">as .npy</option>

@@ -4,7 +4,15 @@
 import { LitElement, css, html } from 'lit';
 import type { Object3D } from 'three';
 import type { LibraryPart } from '../../core/library';
-import { AUGMENT_KINDS, PRESETS, STRENGTH_RANGES, viewPair, type AugmentKind, type AugmentStep, type Pipeline } from '../../core/points/augment';
+import {
+  AUGMENT_KINDS,
+  PRESETS,
+  STRENGTH_RANGES,
+  viewPair,
+  type AugmentKind,
+  type AugmentStep,
+  type Pipeline,
+} from '../../core/points/augment';
 import { makeCloud } from '../../core/points/cloud';
 import { cloudDistances } from '../../core/points/distance';
 import { createRng } from '../../core/rng';
@@ -27,7 +35,13 @@ export class SkAugmentPanel extends LitElement {
   declare pose: Pose;
   declare roll: number;
   private readonly link = new CameraLink();
-  private views: { original: Object3D; a: Object3D; b: Object3D; chamfer: [number, number]; hausdorff: [number, number] } | null = null;
+  private views: {
+    original: Object3D;
+    a: Object3D;
+    b: Object3D;
+    chamfer: [number, number];
+    hausdorff: [number, number];
+  } | null = null;
 
   constructor() {
     super();
@@ -66,12 +80,17 @@ export class SkAugmentPanel extends LitElement {
   }
 
   protected override willUpdate(changed: Map<string, unknown>): void {
-    if (!this.subject || !(changed.has('subject') || changed.has('pipeline') || changed.has('roll') || changed.has('pose'))) return;
+    if (
+      !this.subject ||
+      !(changed.has('subject') || changed.has('pipeline') || changed.has('roll') || changed.has('pose'))
+    )
+      return;
     // Training sees parts in the model's pose, so the preview starts from the same pose.
     const raw = makeCloud(this.subject.points, this.subject.normals);
     const cloud = this.pose === 'principal-axes' ? alignToPrincipalAxes(raw) : raw;
     const [a, b] = viewPair(cloud, this.pipeline, createRng(this.roll));
-    const da = cloudDistances(cloud, a), db = cloudDistances(cloud, b);
+    const da = cloudDistances(cloud, a),
+      db = cloudDistances(cloud, b);
     this.views = {
       original: pointsObject(cloud.positions, 0.03),
       a: pointsObject(a.positions, 0.03),
@@ -95,7 +114,8 @@ export class SkAugmentPanel extends LitElement {
             ${(['z', 'y', 'x'] as const).map((a) => html`<option ?selected=${p.upAxis === a}>${a}</option>`)}
           </select></label>
         </fieldset>
-        ${p.steps.map((s, i) => html`<fieldset>
+        ${p.steps.map(
+          (s, i) => html`<fieldset>
           <legend>${i + 1}. ${s.kind}</legend>
           <div class="step">
             <label>strength ${s.strength.toFixed(2)}<input type="range" min="0" max="1" step="0.05" .value=${String(s.strength)} aria-label="${s.kind} strength"
@@ -106,7 +126,8 @@ export class SkAugmentPanel extends LitElement {
             <span></span>
             <div class="hint">${STRENGTH_RANGES[s.kind]}</div>
           </div>
-        </fieldset>`)}
+        </fieldset>`,
+        )}
         <select aria-label="Add a step" @change=${(e: Event) => {
           const kind = (e.target as HTMLSelectElement).value as AugmentKind;
           (e.target as HTMLSelectElement).value = '';
@@ -118,7 +139,9 @@ export class SkAugmentPanel extends LitElement {
       </div>
       <div>
         <div class="top"><button @click=${() => (this.roll += 1)}>Roll new views</button><span>each roll draws two fresh views of the same part</span></div>
-        ${this.subject && this.views ? html`
+        ${
+          this.subject && this.views
+            ? html`
           <div class="views">
             <sk-viewer .object=${this.views.original} .link=${this.link} caption="original${this.pose === 'principal-axes' ? ' (principal-axes pose)' : ''}: ${this.subject.name}"></sk-viewer>
             <sk-viewer .object=${this.views.a} .link=${this.link} caption="view A"></sk-viewer>
@@ -128,7 +151,9 @@ export class SkAugmentPanel extends LitElement {
             Moved from the original — view A: Chamfer ${this.views.chamfer[0].toFixed(4)}, Hausdorff ${this.views.hausdorff[0].toFixed(3)};
             view B: Chamfer ${this.views.chamfer[1].toFixed(4)}, Hausdorff ${this.views.hausdorff[1].toFixed(3)}
             (unit-sphere units; roll ${this.roll}). Drag any view to turn all three.
-          </div>` : html`<div class="empty">Pick a part in the library to preview its augmentations.</div>`}
+          </div>`
+            : html`<div class="empty">Pick a part in the library to preview its augmentations.</div>`
+        }
       </div>
     </div>`;
   }

@@ -79,7 +79,9 @@ export class SkLibraryPanel extends LitElement {
   protected override render() {
     const s = this.status;
     const q = this.filter.toLowerCase();
-    const shown = q ? this.parts.filter((p) => p.name.toLowerCase().includes(q) || p.label.toLowerCase().includes(q)) : this.parts;
+    const shown = q
+      ? this.parts.filter((p) => p.name.toLowerCase().includes(q) || p.label.toLowerCase().includes(q))
+      : this.parts;
     const families = new Set(this.parts.map((p) => p.label)).size;
     return html`
       <div class="bar">
@@ -87,23 +89,34 @@ export class SkLibraryPanel extends LitElement {
         <label class="button">Add a folder…<input type="file" webkitdirectory @change=${this.onFiles} /></label>
         <button @click=${() => this.emit('reload-demo')}>Reload the demo library</button>
         <button @click=${() => this.emit('clear-library')}>Empty the library</button>
-        <div class="drop" @dragover=${(e: DragEvent) => { e.preventDefault(); (e.currentTarget as HTMLElement).classList.add('over'); }}
+        <div class="drop" @dragover=${(e: DragEvent) => {
+          e.preventDefault();
+          (e.currentTarget as HTMLElement).classList.add('over');
+        }}
              @dragleave=${(e: DragEvent) => (e.currentTarget as HTMLElement).classList.remove('over')} @drop=${this.onDrop}>
           Drop part files or whole folders here (${FORMAT_NAMES})
         </div>
       </div>
-      ${s.kind === 'running' && s.progress ? html`<progress max=${s.progress.total} value=${s.progress.done} aria-label="import progress"></progress>
-        <div class="summary">Reading ${s.progress.done} of ${s.progress.total}: ${s.progress.what}</div>` : null}
+      ${
+        s.kind === 'running' && s.progress
+          ? html`<progress max=${s.progress.total} value=${s.progress.done} aria-label="import progress"></progress>
+        <div class="summary">Reading ${s.progress.done} of ${s.progress.total}: ${s.progress.what}</div>`
+          : null
+      }
       ${s.kind === 'failed' ? html`<div class="failures" role="alert">${s.message}</div>` : null}
       <div class="summary" data-testid="library-summary">
         ${this.parts.length} parts in ${families} folders${this.failures.length ? html`, <strong>${this.failures.length} files could not be read</strong>` : ''}
         ${s.kind === 'done' && s.ms > 0 ? html` · read in ${(s.ms / 1000).toFixed(1)} s` : ''}
         <input type="search" placeholder="Filter by name or folder" aria-label="Filter parts" .value=${this.filter} @input=${(e: Event) => (this.filter = (e.target as HTMLInputElement).value)} />
       </div>
-      ${this.failures.length ? html`<div class="failures" data-testid="failures">
+      ${
+        this.failures.length
+          ? html`<div class="failures" data-testid="failures">
           <h3>Files not imported (the rest of the library is unaffected)</h3>
           <ul>${this.failures.map((f) => html`<li><code>${f.file}</code>: ${f.reason}</li>`)}</ul>
-        </div>` : null}
+        </div>`
+          : null
+      }
       <div class="grid">
         ${shown.map((p) => {
           const thumb = this.thumbnails.get(p.name);

@@ -4,7 +4,12 @@
 import { LitElement, css, html, svg } from 'lit';
 
 export class SkLossChart extends LitElement {
-  static override properties = { history: { attribute: false }, checks: { attribute: false }, totalSteps: { type: Number }, starts: { attribute: false } };
+  static override properties = {
+    history: { attribute: false },
+    checks: { attribute: false },
+    totalSteps: { type: Number },
+    starts: { attribute: false },
+  };
   declare history: readonly { step: number; loss: number }[];
   declare checks: readonly { step: number; instanceTop1: number }[];
   declare totalSteps: number;
@@ -31,18 +36,27 @@ export class SkLossChart extends LitElement {
   `;
 
   protected override render() {
-    const W = 640, H = 220, L = 44, R = 44, T = 12, B = 26;
+    const W = 640,
+      H = 220,
+      L = 44,
+      R = 44,
+      T = 12,
+      B = 26;
     const h = this.history;
     const total = Math.max(this.totalSteps, h.length ? h[h.length - 1].step : 1, 1);
     const losses = h.map((p) => p.loss);
-    const hi = losses.length ? Math.max(...losses) : 1, lo = losses.length ? Math.min(...losses) : 0;
+    const hi = losses.length ? Math.max(...losses) : 1,
+      lo = losses.length ? Math.min(...losses) : 0;
     const span = hi - lo || 1;
     const x = (step: number) => L + ((W - L - R) * step) / total;
     const y = (loss: number) => T + (H - T - B) * (1 - (loss - lo) / span);
     const yCheck = (v: number) => T + (H - T - B) * (1 - v);
     let ema = losses[0] ?? 0;
     const restarts = new Set(this.starts.map((s) => s.step + 1));
-    const smooth = h.map((p) => { ema = restarts.has(p.step) ? p.loss : 0.9 * ema + 0.1 * p.loss; return `${x(p.step).toFixed(1)},${y(ema).toFixed(1)}`; });
+    const smooth = h.map((p) => {
+      ema = restarts.has(p.step) ? p.loss : 0.9 * ema + 0.1 * p.loss;
+      return `${x(p.step).toFixed(1)},${y(ema).toFixed(1)}`;
+    });
     return html`<svg viewBox="0 0 ${W} ${H}" role="img" aria-label="training loss by step${this.checks.length ? ' and held-out recognition' : ''}">
       ${svg`<line class="axis" x1=${L} y1=${H - B} x2=${W - R} y2=${H - B}></line><line class="axis" x1=${L} y1=${T} x2=${L} y2=${H - B}></line>`}
       ${svg`<text x=${L - 4} y=${T + 8} text-anchor="end">${hi.toFixed(2)}</text><text x=${L - 4} y=${H - B} text-anchor="end">${lo.toFixed(2)}</text>`}

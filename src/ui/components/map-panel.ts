@@ -13,7 +13,12 @@ export function familyColour(i: number): string {
 }
 
 export class SkMapPanel extends LitElement {
-  static override properties = { parts: { attribute: false }, index: { attribute: false }, thumbnails: { attribute: false }, hover: { state: true } };
+  static override properties = {
+    parts: { attribute: false },
+    index: { attribute: false },
+    thumbnails: { attribute: false },
+    hover: { state: true },
+  };
   declare parts: readonly LibraryPart[];
   declare index: EmbeddingIndex | null;
   declare thumbnails: ReadonlyMap<string, string>;
@@ -42,31 +47,54 @@ export class SkMapPanel extends LitElement {
   `;
 
   protected override willUpdate(changed: Map<string, unknown>): void {
-    if (changed.has('index') && this.index && this.index.count >= 3) this.xy = pca2d(this.index.vectors, this.index.dim, 60);
+    if (changed.has('index') && this.index && this.index.count >= 3)
+      this.xy = pca2d(this.index.vectors, this.index.dim, 60);
   }
 
   protected override render() {
     const idx = this.index;
-    if (!idx || !this.xy || idx.count !== this.parts.length) return html`<div class="empty">The map appears once the library has embeddings.</div>`;
+    if (!idx || !this.xy || idx.count !== this.parts.length)
+      return html`<div class="empty">The map appears once the library has embeddings.</div>`;
     const families = [...new Set(this.parts.map((p) => p.label))].sort();
-    const W = 900, H = 620, pad = 24;
-    let x0 = Infinity, x1 = -Infinity, y0 = Infinity, y1 = -Infinity;
-    for (let i = 0; i < idx.count; i++) { const x = this.xy[i * 2], y = this.xy[i * 2 + 1]; x0 = Math.min(x0, x); x1 = Math.max(x1, x); y0 = Math.min(y0, y); y1 = Math.max(y1, y); }
+    const W = 900,
+      H = 620,
+      pad = 24;
+    let x0 = Infinity,
+      x1 = -Infinity,
+      y0 = Infinity,
+      y1 = -Infinity;
+    for (let i = 0; i < idx.count; i++) {
+      const x = this.xy[i * 2],
+        y = this.xy[i * 2 + 1];
+      x0 = Math.min(x0, x);
+      x1 = Math.max(x1, x);
+      y0 = Math.min(y0, y);
+      y1 = Math.max(y1, y);
+    }
     const sx = (x: number) => pad + ((W - 2 * pad) * (x - x0)) / (x1 - x0 || 1);
     const sy = (y: number) => H - pad - ((H - 2 * pad) * (y - y0)) / (y1 - y0 || 1);
     const h = this.hover >= 0 ? this.parts[this.hover] : null;
     return html`
       <svg viewBox="0 0 ${W} ${H}" role="img" aria-label="map of the library by embedding">
-        ${this.parts.map((p, i) => svg`<circle cx=${sx(this.xy![i * 2])} cy=${sy(this.xy![i * 2 + 1])} r=${i === this.hover ? 9 : 6}
+        ${this.parts.map(
+          (p, i) => svg`<circle cx=${sx(this.xy![i * 2])} cy=${sy(this.xy![i * 2 + 1])} r=${i === this.hover ? 9 : 6}
           fill=${familyColour(families.indexOf(p.label))} tabindex="0" aria-label=${p.name}
           @mouseenter=${() => (this.hover = i)} @focus=${() => (this.hover = i)}
           @click=${() => this.dispatchEvent(new CustomEvent('search-query', { detail: p.name, bubbles: true, composed: true }))}
-          @keydown=${(e: KeyboardEvent) => { if (e.key === 'Enter') this.dispatchEvent(new CustomEvent('search-query', { detail: p.name, bubbles: true, composed: true })); }}><title>${p.name}</title></circle>`)}
+          @keydown=${(e: KeyboardEvent) => {
+            if (e.key === 'Enter')
+              this.dispatchEvent(new CustomEvent('search-query', { detail: p.name, bubbles: true, composed: true }));
+          }}><title>${p.name}</title></circle>`,
+        )}
       </svg>
       <div>
         <div class="legend">${families.map((f, i) => html`<div><span class="swatch" style="background:${familyColour(i)}"></span>${f || '(top level)'}</div>`)}</div>
-        ${h ? html`<div class="card">${this.thumbnails.get(h.name) ? html`<img src=${this.thumbnails.get(h.name)} alt="" />` : null}
-          <div><strong>${h.name}</strong></div><div>${h.info.extents.map((v) => v.toPrecision(3)).join(' × ')} ${unitsLabel(h.info)}</div><div>click to find its look-alikes</div></div>` : html`<div class="card">Point at a dot to see the part; click it to search from it. Axes are the embedding's two main directions of spread.</div>`}
+        ${
+          h
+            ? html`<div class="card">${this.thumbnails.get(h.name) ? html`<img src=${this.thumbnails.get(h.name)} alt="" />` : null}
+          <div><strong>${h.name}</strong></div><div>${h.info.extents.map((v) => v.toPrecision(3)).join(' × ')} ${unitsLabel(h.info)}</div><div>click to find its look-alikes</div></div>`
+            : html`<div class="card">Point at a dot to see the part; click it to search from it. Axes are the embedding's two main directions of spread.</div>`
+        }
       </div>`;
   }
 }

@@ -15,8 +15,17 @@ import './viewer';
 
 export class SkSearchPanel extends LitElement {
   static override properties = {
-    parts: { attribute: false }, query: { attribute: false }, hits: { attribute: false }, thumbnails: { attribute: false },
-    filters: { attribute: false }, families: { attribute: false }, source: { type: String }, chosen: { state: true }, busy: { type: Boolean }, failure: { type: String }, diffusionApplies: { type: Boolean },
+    parts: { attribute: false },
+    query: { attribute: false },
+    hits: { attribute: false },
+    thumbnails: { attribute: false },
+    filters: { attribute: false },
+    families: { attribute: false },
+    source: { type: String },
+    chosen: { state: true },
+    busy: { type: Boolean },
+    failure: { type: String },
+    diffusionApplies: { type: Boolean },
   };
   declare parts: readonly LibraryPart[];
   declare query: LibraryPart | null;
@@ -99,14 +108,34 @@ export class SkSearchPanel extends LitElement {
             ${q && !this.parts.some((p) => p.name === q.name) ? html`<option selected>${q.name} (dropped file)</option>` : null}
             ${this.parts.map((p) => html`<option value=${p.name} ?selected=${q?.name === p.name}>${p.name}</option>`)}
           </select></label>
-        <label class="button">…or a new file<input type="file" accept=${ACCEPT} @change=${(e: Event) => { const file = (e.target as HTMLInputElement).files?.[0]; if (file) this.emit('search-file', file); }} /></label>
-        <span class="drop" @dragover=${(e: DragEvent) => { e.preventDefault(); (e.currentTarget as HTMLElement).classList.add('over'); }}
+        <label class="button">…or a new file<input type="file" accept=${ACCEPT} @change=${(e: Event) => {
+          const file = (e.target as HTMLInputElement).files?.[0];
+          if (file) this.emit('search-file', file);
+        }} /></label>
+        <span class="drop" @dragover=${(e: DragEvent) => {
+          e.preventDefault();
+          (e.currentTarget as HTMLElement).classList.add('over');
+        }}
           @dragleave=${(e: DragEvent) => (e.currentTarget as HTMLElement).classList.remove('over')}
-          @drop=${(e: DragEvent) => { e.preventDefault(); (e.currentTarget as HTMLElement).classList.remove('over'); const file = e.dataTransfer?.files?.[0]; if (file) this.emit('search-file', file); }}>or drop one here</span>
+          @drop=${(e: DragEvent) => {
+            e.preventDefault();
+            (e.currentTarget as HTMLElement).classList.remove('over');
+            const file = e.dataTransfer?.files?.[0];
+            if (file) this.emit('search-file', file);
+          }}>or drop one here</span>
         <label>results <input type="number" min="1" max="100" .value=${String(f.k)} aria-label="number of results" @change=${(e: Event) => this.emit('search-filters', { ...f, k: Number((e.target as HTMLInputElement).value) })} style="width:60px" /></label>
         <label>size within
-          <select aria-label="Size filter" @change=${(e: Event) => { const v = (e.target as HTMLSelectElement).value; this.emit('search-filters', { ...f, sizeRatio: v ? Number(v) : null }); }}>
-            ${[['', 'any size'], ['1.25', '±25%'], ['1.5', '×1.5'], ['2', '×2'], ['5', '×5']].map(([v, t]) => html`<option value=${v} ?selected=${String(f.sizeRatio ?? '') === v}>${t}</option>`)}
+          <select aria-label="Size filter" @change=${(e: Event) => {
+            const v = (e.target as HTMLSelectElement).value;
+            this.emit('search-filters', { ...f, sizeRatio: v ? Number(v) : null });
+          }}>
+            ${[
+              ['', 'any size'],
+              ['1.25', '±25%'],
+              ['1.5', '×1.5'],
+              ['2', '×2'],
+              ['5', '×5'],
+            ].map(([v, t]) => html`<option value=${v} ?selected=${String(f.sizeRatio ?? '') === v}>${t}</option>`)}
           </select></label>
         <label>folder
           <select aria-label="Folder filter" @change=${(e: Event) => this.emit('search-filters', { ...f, family: (e.target as HTMLSelectElement).value })}>
@@ -115,13 +144,20 @@ export class SkSearchPanel extends LitElement {
           </select></label>
         <label title="through the library: parts reached by chains of close neighbours come first (diffusion); or by similarity to the query alone">order
           <select aria-label="Result order" @change=${(e: Event) => this.emit('search-filters', { ...f, ranking: (e.target as HTMLSelectElement).value as SearchFilters['ranking'] })}>
-            ${([['diffusion', 'through the library'], ['cosine', 'by similarity alone']] as const).map(([v, t]) => html`<option value=${v} ?selected=${f.ranking === v}>${t}</option>`)}
+            ${(
+              [
+                ['diffusion', 'through the library'],
+                ['cosine', 'by similarity alone'],
+              ] as const
+            ).map(([v, t]) => html`<option value=${v} ?selected=${f.ranking === v}>${t}</option>`)}
           </select></label>
         ${f.ranking === 'diffusion' && !this.diffusionApplies ? html`<span class="small" data-testid="order-note">ordered by similarity: this embedding is too concentrated to order through the library (train a model)</span>` : null}
         <span class="small">${this.busy ? 'embedding the library…' : this.source}</span>
         ${this.failure ? html`<span class="small error" role="alert">${this.failure}</span>` : null}
       </div>
-      ${q ? html`<div class="main">
+      ${
+        q
+          ? html`<div class="main">
         <ol data-testid="search-results" aria-label="most similar parts">
           ${this.hits.map((h, i) => {
             const p = this.parts[h.index];
@@ -144,12 +180,16 @@ export class SkSearchPanel extends LitElement {
           </div>
           <div class="small">Both views are scaled to the unit sphere and linked: drag either to turn both. Real sizes are listed beside each result.</div>
         </div>
-      </div>` : html`<div class="empty">Choose a part or a file to search with.</div>`}`;
+      </div>`
+          : html`<div class="empty">Choose a part or a file to search with.</div>`
+      }`;
   }
 }
 
 function objectFor(p: LibraryPart, colour: number): Object3D {
-  return p.meshIndices.length > 0 ? meshObject(p.meshPositions, p.meshIndices, p.centre, p.radius, colour) : pointsObject(p.points, 0.03);
+  return p.meshIndices.length > 0
+    ? meshObject(p.meshPositions, p.meshIndices, p.centre, p.radius, colour)
+    : pointsObject(p.points, 0.03);
 }
 
 customElements.define('sk-search-panel', SkSearchPanel);

@@ -10,7 +10,14 @@ const METHOD_COLOUR: Record<string, string> = { learned: '#c2571a', untrained: '
 
 export class SkStudyPanel extends LitElement {
   static override properties = {
-    report: { attribute: false }, rows: { attribute: false }, progress: { attribute: false }, busy: { type: Boolean }, measuring: { type: Boolean }, failure: { type: String }, hasModel: { type: Boolean }, measure: { state: true },
+    report: { attribute: false },
+    rows: { attribute: false },
+    progress: { attribute: false },
+    busy: { type: Boolean },
+    measuring: { type: Boolean },
+    failure: { type: String },
+    hasModel: { type: Boolean },
+    measure: { state: true },
   };
   declare report: EvaluationReport | null;
   declare rows: readonly StudyRow[];
@@ -73,21 +80,34 @@ export class SkStudyPanel extends LitElement {
         ${this.hasModel ? null : html`<span class="small">No trained model yet: only the baselines are measured.</span>`}
       </div>
       ${this.failure ? html`<div class="error" role="alert">${this.failure}</div>` : null}
-      ${r ? html`<table data-testid="metrics-table" aria-label="retrieval quality, leave-one-out">
+      ${
+        r
+          ? html`<table data-testid="metrics-table" aria-label="retrieval quality, leave-one-out">
           <tr><th>method (${r.parts} parts, ${r.labels} folders)</th><th>NN</th><th>1st tier</th><th>2nd tier</th><th>DCG</th><th>mAP</th><th>P@5</th></tr>
           ${Object.entries(r.methods).map(([m, v]) => html`<tr><td>${m.replace('+diffusion', ', ordered through the library')}</td>${[v.nn, v.first_tier, v.second_tier, v.dcg, v.map, v.p_at_5].map((x) => html`<td>${x.toFixed(3)}</td>`)}</tr>`)}
         </table>
-        <div class="small">Labels are the folders; each part queries all the others (leave-one-out). "Ordered through the library": as the search orders results by default — similarities corrected for parts that are near everything, then spread over the library's neighbour graph.</div>` : null}
-      ${this.rows.length ? html`
+        <div class="small">Labels are the folders; each part queries all the others (leave-one-out). "Ordered through the library": as the search orders results by default — similarities corrected for parts that are near everything, then spread over the library's neighbour graph.</div>`
+          : null
+      }
+      ${
+        this.rows.length
+          ? html`
         <div class="bar"><label>measure <select @change=${(e: Event) => (this.measure = (e.target as HTMLSelectElement).value as SkStudyPanel['measure'])}>
           <option value="instance_top1">recognised as itself</option><option value="label_top1">nearest other part in the same folder</option><option value="mean_similarity">similarity to the original</option>
         </select></label>
         <span class="key">${methods.map((m) => html`<span><i style="background:${METHOD_COLOUR[m]}"></i>${m}</span>`)}</span></div>
-        <div class="charts" data-testid="study-charts">${kinds.map((k) => this.chart(k, methods))}</div>` : null}`;
+        <div class="charts" data-testid="study-charts">${kinds.map((k) => this.chart(k, methods))}</div>`
+          : null
+      }`;
   }
 
   private chart(kind: string, methods: string[]) {
-    const W = 230, H = 130, L = 28, B = 18, T = 6, R = 6;
+    const W = 230,
+      H = 130,
+      L = 28,
+      B = 18,
+      T = 6,
+      R = 6;
     const x = (s: number) => L + (W - L - R) * s;
     const y = (v: number) => T + (H - T - B) * (1 - v);
     return html`<div class="chart"><h4>${kind}</h4>
@@ -96,7 +116,9 @@ export class SkStudyPanel extends LitElement {
           <text x=${L - 3} y=${T + 8} text-anchor="end" font-size="10">1</text><text x=${L - 3} y=${H - B} text-anchor="end" font-size="10">0</text>
           <text x=${L} y=${H - 4} font-size="10">strength 0</text><text x=${W - R} y=${H - 4} text-anchor="end" font-size="10">1</text>`}
         ${methods.map((m) => {
-          const pts = this.rows.filter((r) => r.augmentation === kind && r.method === m).sort((a, b) => a.strength - b.strength);
+          const pts = this.rows
+            .filter((r) => r.augmentation === kind && r.method === m)
+            .sort((a, b) => a.strength - b.strength);
           return svg`<polyline fill="none" stroke=${METHOD_COLOUR[m]} stroke-width="2" points=${pts.map((p) => `${x(p.strength).toFixed(1)},${y(Math.max(0, Math.min(1, p[this.measure]))).toFixed(1)}`).join(' ')}></polyline>`;
         })}
       </svg></div>`;

@@ -13,9 +13,16 @@ import './loss-chart';
 
 export class SkTrainPanel extends LitElement {
   static override properties = {
-    config: { attribute: false }, status: { attribute: false }, progress: { attribute: false },
-    history: { attribute: false }, checks: { attribute: false }, backend: { type: String },
-    savedStep: { type: Number }, savedTotal: { type: Number }, partCount: { type: Number }, hasLabels: { type: Boolean },
+    config: { attribute: false },
+    status: { attribute: false },
+    progress: { attribute: false },
+    history: { attribute: false },
+    checks: { attribute: false },
+    backend: { type: String },
+    savedStep: { type: Number },
+    savedTotal: { type: Number },
+    partCount: { type: Number },
+    hasLabels: { type: Boolean },
     inputsNote: { type: String },
     poseNote: { type: String },
   };
@@ -106,7 +113,13 @@ export class SkTrainPanel extends LitElement {
           <label for="pose">pose</label><select id="pose" title=${this.poseNote} ?disabled=${busy} @change=${(e: Event) => this.set('pose', (e.target as HTMLSelectElement).value as TrainConfig['pose'])}>
             ${POSES.map((p) => html`<option value=${p} ?selected=${c.pose === p}>${POSE_LABELS[p]}</option>`)}
           </select>
-          <label for="nbrs" title="a first layer that looks at each point's nearest neighbours (EdgeConv); a step takes about 3× (16) to 5× (32) as long as without it">neighbour layer</label><select id="nbrs" ?disabled=${busy} @change=${(e: Event) => { const k = Number((e.target as HTMLSelectElement).value); const { edge: _edge, ...rest } = c.encoder; this.set('encoder', k > 0 ? { ...rest, edge: { k, width: EDGE_WIDTH } } : rest); }}>
+          <label for="nbrs" title="a first layer that looks at each point's nearest neighbours (EdgeConv); a step takes about 3× (16) to 5× (32) as long as without it">neighbour layer</label><select id="nbrs" ?disabled=${busy} @change=${(
+            e: Event,
+          ) => {
+            const k = Number((e.target as HTMLSelectElement).value);
+            const { edge: _edge, ...rest } = c.encoder;
+            this.set('encoder', k > 0 ? { ...rest, edge: { k, width: EDGE_WIDTH } } : rest);
+          }}>
             ${[0, 8, 16, 32].map((k) => html`<option value=${k} ?selected=${(c.encoder.edge?.k ?? 0) === k}>${k === 0 ? 'off' : `${k} neighbours`}</option>`)}
           </select>
           <label for="seed">seed</label><input id="seed" type="number" min="0" step="1" .value=${String(c.seed)} ?disabled=${busy} @change=${(e: Event) => this.set('seed', this.num(e))} />
@@ -129,7 +142,16 @@ export class SkTrainPanel extends LitElement {
         </div>
         ${s.kind === 'failed' ? html`<div class="error" role="alert">${s.message}</div>` : null}
         <sk-loss-chart .history=${this.history} .checks=${this.checks} .totalSteps=${chartTotal}
-          .starts=${chartTotal > 0 ? memberPoses(c.pose).slice(1).map((pose, m) => ({ step: ((m + 1) * chartTotal) / members, label: `${POSE_LABELS[pose]} encoder from here` })) : []}></sk-loss-chart>
+          .starts=${
+            chartTotal > 0
+              ? memberPoses(c.pose)
+                  .slice(1)
+                  .map((pose, m) => ({
+                    step: ((m + 1) * chartTotal) / members,
+                    label: `${POSE_LABELS[pose]} encoder from here`,
+                  }))
+              : []
+          }></sk-loss-chart>
       </div>
     </div>`;
   }
@@ -137,17 +159,24 @@ export class SkTrainPanel extends LitElement {
 
 function statusLine(s: TrainingState['status'], stepped: boolean): string {
   switch (s.kind) {
-    case 'idle': return 'not started';
-    case 'running': return s.progress || stepped ? 'training' : 'starting the worker…';
-    case 'paused': return 'paused';
-    case 'done': return s.early ? 'finished early: the held-out check stopped improving' : 'finished';
-    case 'cancelled': return 'stopped';
-    case 'failed': return 'stopped with an error';
+    case 'idle':
+      return 'not started';
+    case 'running':
+      return s.progress || stepped ? 'training' : 'starting the worker…';
+    case 'paused':
+      return 'paused';
+    case 'done':
+      return s.early ? 'finished early: the held-out check stopped improving' : 'finished';
+    case 'cancelled':
+      return 'stopped';
+    case 'failed':
+      return 'stopped with an error';
   }
 }
 
 function formatEta(sec: number): string {
-  const m = Math.floor(sec / 60), r = Math.round(sec % 60);
+  const m = Math.floor(sec / 60),
+    r = Math.round(sec % 60);
   return m ? `${m} min ${r} s` : `${r} s`;
 }
 

@@ -14,7 +14,13 @@ export function exportEmbeddings(kind: EmbeddingFormat, parts: readonly LibraryP
     download(new Blob([writeNpyFloat32(index.vectors, index.count, D) as Uint8Array<ArrayBuffer>]), 'embeddings.npy');
     return;
   }
-  const rows = parts.map((p) => ({ file: p.name, label: p.label, extents: p.info.extents, diagonal: p.diagonal, units: p.info.units }));
+  const rows = parts.map((p) => ({
+    file: p.name,
+    label: p.label,
+    extents: p.info.extents,
+    diagonal: p.diagonal,
+    units: p.info.units,
+  }));
   const text = kind === 'json' ? embeddingsJson(rows, index.vectors, D) : embeddingsCsv(rows, index.vectors, D);
   download(new Blob([text], { type: kind === 'json' ? 'application/json' : 'text/csv' }), `embeddings.${kind}`);
 }

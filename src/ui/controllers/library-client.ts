@@ -52,7 +52,9 @@ export class LibraryClient {
   }
 
   private worker(slot: number): Worker {
-    return (this.workers[slot] ??= new Worker(new URL('../../worker/library.worker.ts', import.meta.url), { type: 'module' }));
+    return (this.workers[slot] ??= new Worker(new URL('../../worker/library.worker.ts', import.meta.url), {
+      type: 'module',
+    }));
   }
 
   private endWorker(slot: number): void {
@@ -65,7 +67,8 @@ export class LibraryClient {
     this.current = batch;
     const t0 = performance.now();
     const outcomes = new Array<Outcome | undefined>(files.length);
-    let next = 0, delivered = 0;
+    let next = 0,
+      delivered = 0;
     // Hand results on in file order as soon as the ones before them are in.
     const deliver = () => {
       while (delivered < files.length && outcomes[delivered] && this.current === batch) {
@@ -76,7 +79,11 @@ export class LibraryClient {
           if (o.failure) callbacks.onFailure(o.failure);
         } else if (o.kind === 'timed-out') {
           const s = o.limitMs < 10_000 ? (o.limitMs / 1000).toFixed(1) : String(Math.round(o.limitMs / 1000));
-          callbacks.onFailure({ file: file.name, code: 'timed-out', reason: `reading took longer than ${s} s and was stopped; the rest of the library carries on` });
+          callbacks.onFailure({
+            file: file.name,
+            code: 'timed-out',
+            reason: `reading took longer than ${s} s and was stopped; the rest of the library carries on`,
+          });
         }
         delivered++;
         callbacks.onProgress(delivered, files.length, file.name);
@@ -90,17 +97,26 @@ export class LibraryClient {
         deliver();
       }
     };
-    await Promise.all(this.workers.slice(0, Math.max(1, Math.min(this.workers.length, files.length))).map((_, slot) => run(slot)));
+    await Promise.all(
+      this.workers.slice(0, Math.max(1, Math.min(this.workers.length, files.length))).map((_, slot) => run(slot)),
+    );
     if (this.current !== batch) throw new Error('superseded');
     return performance.now() - t0;
   }
 
-  private importOne(slot: number, file: FileInput, sampling: SamplingSettings, limitMs: number, batch: number): Promise<Outcome> {
+  private importOne(
+    slot: number,
+    file: FileInput,
+    sampling: SamplingSettings,
+    limitMs: number,
+    batch: number,
+  ): Promise<Outcome> {
     const worker = this.worker(slot);
     const id = this.nextId++;
     return new Promise((resolve, reject) => {
       let timer: ReturnType<typeof setTimeout> | undefined;
-      let part: LibraryPart | null = null, failure: ImportFailure | null = null;
+      let part: LibraryPart | null = null,
+        failure: ImportFailure | null = null;
       const finish = (outcome: Outcome) => {
         clearTimeout(timer);
         worker.removeEventListener('message', onMessage);
@@ -110,7 +126,10 @@ export class LibraryClient {
       const onMessage = (event: MessageEvent<LibraryReply>) => {
         const msg = event.data;
         if (msg.id !== id) return;
-        if (this.current !== batch) { finish({ kind: 'superseded' }); return; }
+        if (this.current !== batch) {
+          finish({ kind: 'superseded' });
+          return;
+        }
         if (msg.type === 'reading') {
           timer = setTimeout(() => {
             // The worker is busy inside a parser and cannot be interrupted: end it; the slot gets a new one.

@@ -21,8 +21,14 @@ async function tx<T>(mode: IDBTransactionMode, fn: (s: IDBObjectStore) => IDBReq
   return new Promise((resolve, reject) => {
     const t = db.transaction(STORE, mode);
     const req = fn(t.objectStore(STORE));
-    t.oncomplete = () => { db.close(); resolve(req.result); };
-    t.onerror = () => { db.close(); reject(t.error); };
+    t.oncomplete = () => {
+      db.close();
+      resolve(req.result);
+    };
+    t.onerror = () => {
+      db.close();
+      reject(t.error);
+    };
   });
 }
 

@@ -44,23 +44,39 @@ export class LibraryController {
   async restore(): Promise<void> {
     const stored = await loadStoredLibrary();
     if (!stored || stored.parts.length === 0) return this.loadDemo();
-    this.store.patch('library', { parts: stored.parts, failures: stored.failures, selected: stored.parts[0].name, status: { kind: 'done', ms: 0 } });
+    this.store.patch('library', {
+      parts: stored.parts,
+      failures: stored.failures,
+      selected: stored.parts[0].name,
+      status: { kind: 'done', ms: 0 },
+    });
     stored.parts.forEach((p) => this.queueThumbnail(p));
     this.events.onChanged();
   }
 
   async loadDemo(): Promise<void> {
-    this.store.patch('library', { parts: [], failures: [], thumbnails: new Map(), status: { kind: 'running', progress: { done: 0, total: 1, what: 'fetching the demo library' } } });
+    this.store.patch('library', {
+      parts: [],
+      failures: [],
+      thumbnails: new Map(),
+      status: { kind: 'running', progress: { done: 0, total: 1, what: 'fetching the demo library' } },
+    });
     try {
       await this.importInputs(await fetchDemoLibrary(), [], 'demo');
     } catch (err) {
-      this.store.patch('library', { status: { kind: 'failed', message: `The demo library could not be loaded: ${(err as Error).message}` } });
+      this.store.patch('library', {
+        status: { kind: 'failed', message: `The demo library could not be loaded: ${(err as Error).message}` },
+      });
     }
   }
 
   async add(named: NamedFile[]): Promise<void> {
     const { inputs, skipped } = await readFiles(named);
-    const refused = skipped.map((file): ImportFailure => ({ file, code: 'unsupported-type', reason: `not a file Shapekin reads (${FORMAT_NAMES})` }));
+    const refused = skipped.map((file): ImportFailure => ({
+      file,
+      code: 'unsupported-type',
+      reason: `not a file Shapekin reads (${FORMAT_NAMES})`,
+    }));
     await this.importInputs(inputs, refused, 'user');
   }
 
@@ -98,12 +114,19 @@ export class LibraryController {
       this.store.patch('library', { status: { kind: 'done', ms: 0 } });
       return;
     }
-    this.store.patch('library', { status: { kind: 'running', progress: { done: 0, total: inputs.length, what: inputs[0].name } } });
+    this.store.patch('library', {
+      status: { kind: 'running', progress: { done: 0, total: inputs.length, what: inputs[0].name } },
+    });
     let flushAt = 0;
     const flush = (progress: { done: number; total: number; what: string } | null) => {
       flushAt = performance.now();
       const selected = this.state.selected || parts[0]?.name || '';
-      this.store.patch('library', { parts: [...parts], failures: [...failures], selected, ...(progress ? { status: { kind: 'running', progress } } : {}) });
+      this.store.patch('library', {
+        parts: [...parts],
+        failures: [...failures],
+        selected,
+        ...(progress ? { status: { kind: 'running', progress } } : {}),
+      });
     };
     try {
       const ms = await this.client.importFiles(inputs, SAMPLING, {
@@ -121,7 +144,8 @@ export class LibraryController {
       await saveLibrary({ parts, failures, source });
       this.events.onChanged();
     } catch (err) {
-      if ((err as Error).message !== 'superseded') this.store.patch('library', { status: { kind: 'failed', message: (err as Error).message } });
+      if ((err as Error).message !== 'superseded')
+        this.store.patch('library', { status: { kind: 'failed', message: (err as Error).message } });
     }
   }
 

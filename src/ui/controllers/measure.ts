@@ -21,14 +21,21 @@ export class MeasureController {
 
   private inputs() {
     const parts = this.store.value.library.parts;
-    return { parts: parts.map((p) => ({ points: p.points, normals: p.normals })), labels: parts.map((p) => p.label), ...this.training.state };
+    return {
+      parts: parts.map((p) => ({ points: p.points, normals: p.normals })),
+      labels: parts.map((p) => p.label),
+      ...this.training.state,
+    };
   }
 
   async measureQuality(): Promise<void> {
     this.patch({ status: STARTED });
     try {
       const { parts, labels, model, config } = this.inputs();
-      this.patch({ report: await this.training.client.evaluate(parts, labels, model, config), status: { kind: 'done' } });
+      this.patch({
+        report: await this.training.client.evaluate(parts, labels, model, config),
+        status: { kind: 'done' },
+      });
     } catch (err) {
       this.patch({ status: { kind: 'failed', message: `Quality not measured: ${(err as Error).message}` } });
     }
@@ -38,7 +45,14 @@ export class MeasureController {
     this.patch({ study: { kind: 'running', progress: { done: 0, total: 1, what: 'starting' } } });
     try {
       const { parts, labels, model, config } = this.inputs();
-      const rows = await this.training.client.study(parts, labels, model, config, (done, total, what) => this.patch({ study: { kind: 'running', progress: { done, total, what } } }), STUDY_STRENGTHS);
+      const rows = await this.training.client.study(
+        parts,
+        labels,
+        model,
+        config,
+        (done, total, what) => this.patch({ study: { kind: 'running', progress: { done, total, what } } }),
+        STUDY_STRENGTHS,
+      );
       this.patch({ rows, study: { kind: 'done' } });
     } catch (err) {
       this.patch({ study: { kind: 'failed', message: `Study not run: ${(err as Error).message}` } });
@@ -46,7 +60,15 @@ export class MeasureController {
   }
 
   exportStudy(): void {
-    const keys = ['augmentation', 'strength', 'method', 'instance_top1', 'label_top1', 'mean_similarity', 'mean_chamfer'] as const;
+    const keys = [
+      'augmentation',
+      'strength',
+      'method',
+      'instance_top1',
+      'label_top1',
+      'mean_similarity',
+      'mean_chamfer',
+    ] as const;
     const rows = this.store.value.measure.rows;
     const lines = [keys.join(','), ...rows.map((r) => keys.map((k) => csvField(String(r[k]))).join(','))];
     download(new Blob([lines.join('\n') + '\n'], { type: 'text/csv' }), 'augmentation-study.csv');

@@ -2,8 +2,17 @@
 // a colour ramp for points, and disposal.
 
 import {
-  AmbientLight, BufferAttribute, BufferGeometry, Color, DirectionalLight, Mesh, MeshStandardMaterial,
-  Points, PointsMaterial, Scene, type Object3D,
+  AmbientLight,
+  BufferAttribute,
+  BufferGeometry,
+  Color,
+  DirectionalLight,
+  Mesh,
+  MeshStandardMaterial,
+  Points,
+  PointsMaterial,
+  Scene,
+  type Object3D,
 } from 'three';
 
 export const PALETTE = {
@@ -17,15 +26,25 @@ export const PALETTE = {
 /** Height ramp for points (teal → sand → rust), so depth and shape read without lighting. */
 export function rampColours(points: Float32Array, axis = 2): Float32Array {
   const n = points.length / 3;
-  let lo = Infinity, hi = -Infinity;
-  for (let i = 0; i < n; i++) { const v = points[i * 3 + axis]; if (v < lo) lo = v; if (v > hi) hi = v; }
-  const a = new Color(PALETTE.teal), b = new Color(0xd9b26f), c = new Color(PALETTE.rust);
+  let lo = Infinity,
+    hi = -Infinity;
+  for (let i = 0; i < n; i++) {
+    const v = points[i * 3 + axis];
+    if (v < lo) lo = v;
+    if (v > hi) hi = v;
+  }
+  const a = new Color(PALETTE.teal),
+    b = new Color(0xd9b26f),
+    c = new Color(PALETTE.rust);
   const out = new Float32Array(n * 3);
   const tmp = new Color();
   for (let i = 0; i < n; i++) {
     const t = hi > lo ? (points[i * 3 + axis] - lo) / (hi - lo) : 0.5;
-    if (t < 0.5) tmp.copy(a).lerp(b, t * 2); else tmp.copy(b).lerp(c, (t - 0.5) * 2);
-    out[i * 3] = tmp.r; out[i * 3 + 1] = tmp.g; out[i * 3 + 2] = tmp.b;
+    if (t < 0.5) tmp.copy(a).lerp(b, t * 2);
+    else tmp.copy(b).lerp(c, (t - 0.5) * 2);
+    out[i * 3] = tmp.r;
+    out[i * 3 + 1] = tmp.g;
+    out[i * 3 + 2] = tmp.b;
   }
   return out;
 }
@@ -34,12 +53,23 @@ export function pointsObject(points: Float32Array, size = 0.025, colour?: number
   const g = new BufferGeometry();
   g.setAttribute('position', new BufferAttribute(points, 3));
   if (colour === undefined) g.setAttribute('color', new BufferAttribute(rampColours(points), 3));
-  const m = new PointsMaterial({ size, vertexColors: colour === undefined, color: colour ?? 0xffffff, sizeAttenuation: true });
+  const m = new PointsMaterial({
+    size,
+    vertexColors: colour === undefined,
+    color: colour ?? 0xffffff,
+    sizeAttenuation: true,
+  });
   return new Points(g, m);
 }
 
 /** The mesh in unit-sphere coordinates (same frame as the sampled cloud). */
-export function meshObject(positions: Float32Array, indices: Uint32Array, centre: readonly number[], radius: number, colour: number = PALETTE.steel): Mesh {
+export function meshObject(
+  positions: Float32Array,
+  indices: Uint32Array,
+  centre: readonly number[],
+  radius: number,
+  colour: number = PALETTE.steel,
+): Mesh {
   const p = new Float32Array(positions.length);
   for (let i = 0; i < positions.length; i++) p[i] = (positions[i] - centre[i % 3]) / radius;
   const g = new BufferGeometry();

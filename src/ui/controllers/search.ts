@@ -30,7 +30,9 @@ export class SearchController {
   private modelKey(): string {
     const { model, config } = this.training.state;
     const m = model?.manifest;
-    return m ? `run ${m.step}/${m.totalSteps} ${m.status} loss ${m.history[m.history.length - 1]?.loss ?? ''}` : `untrained ${JSON.stringify(config.encoder)} ${config.seed}`;
+    return m
+      ? `run ${m.step}/${m.totalSteps} ${m.status} loss ${m.history[m.history.length - 1]?.loss ?? ''}`
+      : `untrained ${JSON.stringify(config.encoder)} ${config.seed}`;
   }
 
   /** Re-embed the library (or reuse the stored embeddings), then repeat the current search. */
@@ -46,21 +48,36 @@ export class SearchController {
       const key = this.modelKey();
       const stored = await loadEmbeddings();
       let vectors: Float32Array, dim: number;
-      if (stored && stored.model === key && stored.names.length === parts.length && stored.names.every((n, i) => n === parts[i].name)) {
+      if (
+        stored &&
+        stored.model === key &&
+        stored.names.length === parts.length &&
+        stored.names.every((n, i) => n === parts[i].name)
+      ) {
         ({ vectors, dim } = stored);
       } else {
         const { model, config } = this.training.state;
-        ({ vectors, dim } = await this.training.client.embed(parts.map((p) => ({ points: p.points, normals: p.normals })), model, config));
-        if (version === this.version) await saveEmbeddings({ model: key, names: parts.map((p) => p.name), vectors, dim });
+        ({ vectors, dim } = await this.training.client.embed(
+          parts.map((p) => ({ points: p.points, normals: p.normals })),
+          model,
+          config,
+        ));
+        if (version === this.version)
+          await saveEmbeddings({ model: key, names: parts.map((p) => p.name), vectors, dim });
       }
       if (version !== this.version) return;
-      const index = new EmbeddingIndex(vectors, dim, parts.map((p) => ({ name: p.name, label: p.label, diagonal: p.diagonal })));
+      const index = new EmbeddingIndex(
+        vectors,
+        dim,
+        parts.map((p) => ({ name: p.name, label: p.label, diagonal: p.diagonal })),
+      );
       const selected = this.store.value.library.selected;
       const query = this.state.query ?? parts.find((p) => p.name === selected) ?? parts[0];
       this.patch({ index, query, status: { kind: 'done' } });
       this.searchLibraryPart(query);
     } catch (err) {
-      if (version === this.version) this.patch({ status: { kind: 'failed', message: `Embedding failed: ${(err as Error).message}` } });
+      if (version === this.version)
+        this.patch({ status: { kind: 'failed', message: `Embedding failed: ${(err as Error).message}` } });
     }
   }
 
@@ -71,7 +88,11 @@ export class SearchController {
     if (parts.some((p) => p.name === part.name)) return this.searchLibraryPart(part);
     if (!this.state.index) return;
     const { model, config } = this.training.state;
-    const { vectors } = await this.training.client.embed([{ points: part.points, normals: part.normals }], model, config);
+    const { vectors } = await this.training.client.embed(
+      [{ points: part.points, normals: part.normals }],
+      model,
+      config,
+    );
     this.rank(vectors, -1);
   }
 

@@ -26,9 +26,10 @@ export function thumbnail(part: LibraryPart): string {
   const r = getRenderer();
   if (!r) return pointsThumbnail(part.points);
   const scene = litScene();
-  const object = part.meshIndices.length > 0 && part.meshIndices.length / 3 <= MAX_THUMBNAIL_TRIANGLES
-    ? meshObject(part.meshPositions, part.meshIndices, part.centre, part.radius)
-    : pointsObject(part.points, 0.04);
+  const object =
+    part.meshIndices.length > 0 && part.meshIndices.length / 3 <= MAX_THUMBNAIL_TRIANGLES
+      ? meshObject(part.meshPositions, part.meshIndices, part.centre, part.radius)
+      : pointsObject(part.points, 0.04);
   scene.add(object);
   const camera = new PerspectiveCamera(30, SIZE.w / SIZE.h, 0.1, 20);
   camera.position.set(2.4, -2.9, 2.1);
@@ -43,14 +44,18 @@ export function thumbnail(part: LibraryPart): string {
 /** 2-D fallback: an oblique projection of the points, shaded by depth. */
 function pointsThumbnail(points: Float32Array): string {
   const canvas = document.createElement('canvas');
-  canvas.width = SIZE.w; canvas.height = SIZE.h;
+  canvas.width = SIZE.w;
+  canvas.height = SIZE.h;
   const ctx = canvas.getContext('2d')!;
   ctx.fillStyle = '#f4f1ea';
   ctx.fillRect(0, 0, SIZE.w, SIZE.h);
   const s = SIZE.h * 0.42;
   for (let i = 0; i < points.length; i += 3) {
-    const x = points[i], y = points[i + 1], z = points[i + 2];
-    const u = (x - y) * 0.707, v = z * 0.8 - (x + y) * 0.35;
+    const x = points[i],
+      y = points[i + 1],
+      z = points[i + 2];
+    const u = (x - y) * 0.707,
+      v = z * 0.8 - (x + y) * 0.35;
     const depth = (x + y) * 0.5 + 0.5;
     ctx.fillStyle = `rgba(47,111,115,${0.35 + 0.5 * (1 - depth / 2)})`;
     ctx.fillRect(SIZE.w / 2 + u * s, SIZE.h / 2 - v * s, 2, 2);

@@ -18,7 +18,10 @@ export class TrainClient {
     if (!this.worker) {
       this.worker = new Worker(new URL('../../worker/train.worker.ts', import.meta.url), { type: 'module' });
       this.worker.onmessage = (e: MessageEvent<TrainReply>) => this.listeners.forEach((l) => l(e.data));
-      this.worker.onerror = (e) => this.listeners.forEach((l) => l({ type: 'error', id: this.runId, message: `training worker failed: ${e.message}` }));
+      this.worker.onerror = (e) =>
+        this.listeners.forEach((l) =>
+          l({ type: 'error', id: this.runId, message: `training worker failed: ${e.message}` }),
+        );
     }
     return this.worker;
   }
@@ -33,33 +36,77 @@ export class TrainClient {
   }
 
   /** Copies the clouds (the page keeps its own) and starts a run; returns its id. */
-  start(parts: readonly PartArrays[], labels: readonly number[] | null, config: TrainConfig, sampling: { points: number; seed: number }, resume?: CheckpointMessage): number {
+  start(
+    parts: readonly PartArrays[],
+    labels: readonly number[] | null,
+    config: TrainConfig,
+    sampling: { points: number; seed: number },
+    resume?: CheckpointMessage,
+  ): number {
     const id = this.nextId++;
     this.runId = id;
     const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
-    this.send({ type: 'start', id, parts: copies, labels, config, sampling, ...(resume ? { resume: { ...resume, weightData: resume.weightData.slice(0) } } : {}) }, copies.flatMap((c) => [c.points.buffer, c.normals.buffer]));
+    this.send(
+      {
+        type: 'start',
+        id,
+        parts: copies,
+        labels,
+        config,
+        sampling,
+        ...(resume ? { resume: { ...resume, weightData: resume.weightData.slice(0) } } : {}),
+      },
+      copies.flatMap((c) => [c.points.buffer, c.normals.buffer]),
+    );
     return id;
   }
 
-  pause(): void { this.send({ type: 'pause', id: this.runId }); }
-  resume(): void { this.send({ type: 'resume', id: this.runId }); }
-  cancel(): void { this.send({ type: 'cancel', id: this.runId }); }
+  pause(): void {
+    this.send({ type: 'pause', id: this.runId });
+  }
+  resume(): void {
+    this.send({ type: 'resume', id: this.runId });
+  }
+  cancel(): void {
+    this.send({ type: 'cancel', id: this.runId });
+  }
 
-  private request<T extends TrainReply['type']>(msg: TrainRequest, expect: T): Promise<Extract<TrainReply, { type: T }>> {
+  private request<T extends TrainReply['type']>(
+    msg: TrainRequest,
+    expect: T,
+  ): Promise<Extract<TrainReply, { type: T }>> {
     return new Promise((resolve, reject) => {
       const off = this.on((reply) => {
         if (reply.id !== msg.id) return;
-        if (reply.type === 'error') { off(); reject(new Error(reply.message)); }
-        else if (reply.type === expect) { off(); resolve(reply as Extract<TrainReply, { type: T }>); }
+        if (reply.type === 'error') {
+          off();
+          reject(new Error(reply.message));
+        } else if (reply.type === expect) {
+          off();
+          resolve(reply as Extract<TrainReply, { type: T }>);
+        }
       });
       this.send(msg);
     });
   }
 
-  async embed(parts: readonly PartArrays[], checkpoint: CheckpointMessage | null, config: TrainConfig): Promise<{ vectors: Float32Array; dim: number }> {
+  async embed(
+    parts: readonly PartArrays[],
+    checkpoint: CheckpointMessage | null,
+    config: TrainConfig,
+  ): Promise<{ vectors: Float32Array; dim: number }> {
     const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
     const id = this.nextId++;
-    const reply = await this.request({ type: 'embed', id, parts: copies, checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null, config }, 'embeddings');
+    const reply = await this.request(
+      {
+        type: 'embed',
+        id,
+        parts: copies,
+        checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
+        config,
+      },
+      'embeddings',
+    );
     return { vectors: reply.vectors, dim: reply.dim };
   }
 
@@ -68,21 +115,61 @@ export class TrainClient {
   }
 
   async save(checkpoint: CheckpointMessage): Promise<void> {
-    await this.request({ type: 'save', id: this.nextId++, checkpoint: { ...checkpoint, weightData: checkpoint.weightData.slice(0) } }, 'saved');
+    await this.request(
+      { type: 'save', id: this.nextId++, checkpoint: { ...checkpoint, weightData: checkpoint.weightData.slice(0) } },
+      'saved',
+    );
   }
 
-  async evaluate(parts: readonly PartArrays[], labels: readonly string[], checkpoint: CheckpointMessage | null, config: TrainConfig): Promise<EvaluationReport> {
+  async evaluate(
+    parts: readonly PartArrays[],
+    labels: readonly string[],
+    checkpoint: CheckpointMessage | null,
+    config: TrainConfig,
+  ): Promise<EvaluationReport> {
     const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
-    const r = await this.request({ type: 'evaluate', id: this.nextId++, parts: copies, labels, checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null, config }, 'evaluation');
+    const r = await this.request(
+      {
+        type: 'evaluate',
+        id: this.nextId++,
+        parts: copies,
+        labels,
+        checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
+        config,
+      },
+      'evaluation',
+    );
     return r.report;
   }
 
-  async study(parts: readonly PartArrays[], labels: readonly string[], checkpoint: CheckpointMessage | null, config: TrainConfig, onProgress: (done: number, total: number, what: string) => void, strengths?: readonly number[]): Promise<StudyRow[]> {
+  async study(
+    parts: readonly PartArrays[],
+    labels: readonly string[],
+    checkpoint: CheckpointMessage | null,
+    config: TrainConfig,
+    onProgress: (done: number, total: number, what: string) => void,
+    strengths?: readonly number[],
+  ): Promise<StudyRow[]> {
     const id = this.nextId++;
-    const off = this.on((m) => { if (m.id === id && m.type === 'study-progress') onProgress(m.done, m.total, m.what); });
+    const off = this.on((m) => {
+      if (m.id === id && m.type === 'study-progress') onProgress(m.done, m.total, m.what);
+    });
     try {
       const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
-      return (await this.request({ type: 'study', id, parts: copies, labels, checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null, config, ...(strengths ? { strengths } : {}) }, 'study')).rows;
+      return (
+        await this.request(
+          {
+            type: 'study',
+            id,
+            parts: copies,
+            labels,
+            checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
+            config,
+            ...(strengths ? { strengths } : {}),
+          },
+          'study',
+        )
+      ).rows;
     } finally {
       off();
     }

@@ -2,7 +2,13 @@
 // continue in the training worker, progress, and the saved model (restore, import, export). The worker client
 // is shared with the embedding and measurement jobs, which run in the same worker between training runs.
 
-import { defaultEpochs, defaultInputs, defaultPose, libraryTraits, type LibraryTraits } from '../../core/model/defaults';
+import {
+  defaultEpochs,
+  defaultInputs,
+  defaultPose,
+  libraryTraits,
+  type LibraryTraits,
+} from '../../core/model/defaults';
 import { modelJsonFor, readModelJson, WEIGHTS_FILE, type ModelJson } from '../../core/model/model-json';
 import type { TrainConfig } from '../../core/model/train-config';
 import type { LibraryPart } from '../../core/library';
@@ -31,14 +37,27 @@ export class TrainingController {
       const t = this.state;
       if (msg.type === 'backend') this.patch({ backend: msg.backend });
       else if (msg.type === 'progress') {
-        this.patch({ progress: msg.progress, status: { kind: 'running', progress: { done: msg.progress.step, total: msg.progress.totalSteps, what: 'training' } }, history: [...t.history, { step: msg.progress.step, loss: msg.progress.loss }] });
+        this.patch({
+          progress: msg.progress,
+          status: {
+            kind: 'running',
+            progress: { done: msg.progress.step, total: msg.progress.totalSteps, what: 'training' },
+          },
+          history: [...t.history, { step: msg.progress.step, loss: msg.progress.loss }],
+        });
       } else if (msg.type === 'check') this.patch({ checks: [...t.checks, msg.check] });
-      else if (msg.type === 'status') this.patch({ status: msg.status === 'paused' ? { kind: 'paused' } : { kind: 'running', progress: null } });
+      else if (msg.type === 'status')
+        this.patch({ status: msg.status === 'paused' ? { kind: 'paused' } : { kind: 'running', progress: null } });
       else if (msg.type === 'checkpoint') this.patch({ model: msg.checkpoint });
       else if (msg.type === 'done') {
         const r = msg.result;
         this.patch({
-          status: r.status === 'failed' ? { kind: 'failed', message: r.message ?? 'training failed' } : r.status === 'cancelled' ? { kind: 'cancelled' } : { kind: 'done', early: r.status === 'stopped-early' },
+          status:
+            r.status === 'failed'
+              ? { kind: 'failed', message: r.message ?? 'training failed' }
+              : r.status === 'cancelled'
+                ? { kind: 'cancelled' }
+                : { kind: 'done', early: r.status === 'stopped-early' },
         });
         this.events.onModelChanged();
       } else if (msg.type === 'error') this.patch({ status: { kind: 'failed', message: msg.message } });
@@ -66,7 +85,13 @@ export class TrainingController {
       const saved = await this.client.loadSaved();
       if (!saved) return;
       const m = saved.manifest;
-      this.patch({ model: saved, config: m.config, pipeline: m.config.pipeline, history: m.history.map((h) => ({ step: h.step, loss: h.loss })), checks: [...m.checks] });
+      this.patch({
+        model: saved,
+        config: m.config,
+        pipeline: m.config.pipeline,
+        history: m.history.map((h) => ({ step: h.step, loss: h.loss })),
+        checks: [...m.checks],
+      });
       const unfinished = m.step < m.totalSteps && m.status !== 'done' && m.status !== 'stopped-early';
       this.store.set({
         notice: unfinished
@@ -90,7 +115,8 @@ export class TrainingController {
     const inputFeatures = defaultInputs(traits.closed);
     const pose = defaultPose(traits.boxRatios);
     if (!this.chosen.pose && pose !== config.pose) config = { ...config, pose };
-    if (!this.chosen.inputs && inputFeatures !== config.encoder.inputFeatures) config = { ...config, encoder: { ...config.encoder, inputFeatures } };
+    if (!this.chosen.inputs && inputFeatures !== config.encoder.inputFeatures)
+      config = { ...config, encoder: { ...config.encoder, inputFeatures } };
     const epochs = defaultEpochs(parts.length, config.batchSize);
     if (!this.chosen.epochs && epochs !== config.epochs) config = { ...config, epochs };
     if (config !== this.state.config) this.patch({ config });
@@ -110,7 +136,13 @@ export class TrainingController {
     this.patch({ config, status: STARTED, progress: null, ...(resume ? {} : { history: [], checks: [] }) });
     this.store.set({ notice: '' });
     const labels = config.loss.name === 'supervised-contrastive' ? labelIds(parts) : null;
-    this.client.start(parts.map((p) => ({ points: p.points, normals: p.normals })), labels, config, SAMPLING, resume);
+    this.client.start(
+      parts.map((p) => ({ points: p.points, normals: p.normals })),
+      labels,
+      config,
+      SAMPLING,
+      resume,
+    );
   }
 
   continueSaved(): void {
@@ -144,8 +176,16 @@ export class TrainingController {
       const { manifest, weightSpecs, adamStep } = readModelJson(json, weightData, jsonFile.name);
       const ckpt: CheckpointMessage = { manifest, weightSpecs, weightData, adamStep };
       await this.client.save(ckpt);
-      this.patch({ model: ckpt, config: manifest.config, pipeline: manifest.config.pipeline, history: manifest.history.map((h) => ({ step: h.step, loss: h.loss })), checks: [...manifest.checks] });
-      this.store.set({ notice: `Imported a model trained elsewhere (${manifest.step} steps, backend ${manifest.backend}).` });
+      this.patch({
+        model: ckpt,
+        config: manifest.config,
+        pipeline: manifest.config.pipeline,
+        history: manifest.history.map((h) => ({ step: h.step, loss: h.loss })),
+        checks: [...manifest.checks],
+      });
+      this.store.set({
+        notice: `Imported a model trained elsewhere (${manifest.step} steps, backend ${manifest.backend}).`,
+      });
       this.events.onModelChanged();
     } catch (err) {
       this.store.set({ notice: `Model not imported: ${(err as Error).message}` });

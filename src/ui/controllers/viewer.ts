@@ -9,8 +9,12 @@ import { disposeObject, litScene } from './scene';
 export class CameraLink {
   private readonly members = new Set<ViewerController>();
   private syncing = false;
-  add(v: ViewerController): void { this.members.add(v); }
-  remove(v: ViewerController): void { this.members.delete(v); }
+  add(v: ViewerController): void {
+    this.members.add(v);
+  }
+  remove(v: ViewerController): void {
+    this.members.delete(v);
+  }
   moved(source: ViewerController): void {
     if (this.syncing) return;
     this.syncing = true;
@@ -30,7 +34,10 @@ export class ViewerController implements ReactiveController {
   private link: CameraLink | null = null;
   webglMissing = false;
 
-  constructor(private readonly host: ReactiveControllerHost & HTMLElement, private readonly canvasOf: () => HTMLCanvasElement | null) {
+  constructor(
+    private readonly host: ReactiveControllerHost & HTMLElement,
+    private readonly canvasOf: () => HTMLCanvasElement | null,
+  ) {
     host.addController(this);
     this.camera.up.set(0, 0, 1);
     this.camera.position.set(2.2, -2.8, 1.9);
@@ -52,7 +59,10 @@ export class ViewerController implements ReactiveController {
     this.renderer.setPixelRatio(Math.min(2, window.devicePixelRatio || 1));
     this.controls = new OrbitControls(this.camera, canvas);
     this.controls.enableDamping = false;
-    this.controls.addEventListener('change', () => { this.requestRender(); this.link?.moved(this); });
+    this.controls.addEventListener('change', () => {
+      this.requestRender();
+      this.link?.moved(this);
+    });
     this.resize = new ResizeObserver(() => this.fit());
     this.resize.observe(canvas);
     this.fit();
@@ -77,7 +87,10 @@ export class ViewerController implements ReactiveController {
   }
 
   setObject(object: Object3D | null): void {
-    if (this.object) { this.scene.remove(this.object); disposeObject(this.object); }
+    if (this.object) {
+      this.scene.remove(this.object);
+      disposeObject(this.object);
+    }
     this.object = object;
     if (object) this.scene.add(object);
     this.requestRender();
@@ -94,7 +107,8 @@ export class ViewerController implements ReactiveController {
   private fit(): void {
     const canvas = this.canvasOf();
     if (!canvas || !this.renderer) return;
-    const w = canvas.clientWidth || 300, h = canvas.clientHeight || 240;
+    const w = canvas.clientWidth || 300,
+      h = canvas.clientHeight || 240;
     this.renderer.setSize(w, h, false);
     this.camera.aspect = w / h;
     this.camera.updateProjectionMatrix();

@@ -23,14 +23,17 @@ function importError(buffer: ArrayBuffer, name: string): MeshImportError {
   throw new Error(`${name} imported without error`);
 }
 
-
-const PLY_HEAD = 'ply\nformat ascii 1.0\nelement vertex 4\nproperty float x\nproperty float y\nproperty float z\nelement face 4\nproperty list uchar int vertex_indices\nend_header\n';
+const PLY_HEAD =
+  'ply\nformat ascii 1.0\nelement vertex 4\nproperty float x\nproperty float y\nproperty float z\nelement face 4\nproperty list uchar int vertex_indices\nend_header\n';
 const TETRA_BODY = '0 0 0\n1 0 0\n0 1 0\n0 0 1\n3 0 2 1\n3 0 1 3\n3 0 3 2\n3 1 2 3\n';
 
 let printed: string[] = [];
 beforeEach(() => {
   printed = [];
-  const keep = (...a: unknown[]) => { printed.push(a.map(String).join(' ')); return true; };
+  const keep = (...a: unknown[]) => {
+    printed.push(a.map(String).join(' '));
+    return true;
+  };
   for (const m of ['log', 'warn', 'error', 'info', 'debug'] as const) vi.spyOn(console, m).mockImplementation(keep);
   vi.spyOn(process.stdout, 'write').mockImplementation(keep);
   vi.spyOn(process.stderr, 'write').mockImplementation(keep);
@@ -51,7 +54,9 @@ describe('PLY headers that lie or are malformed', () => {
     }
   });
   it('counts larger than the bytes (binary) or lines (ASCII) left are "truncated", before anything is allocated', () => {
-    const binary = 'ply\nformat binary_little_endian 1.0\nelement vertex 1000000000\nproperty float x\nproperty float y\nproperty float z\nend_header\n' + 'x'.repeat(36);
+    const binary =
+      'ply\nformat binary_little_endian 1.0\nelement vertex 1000000000\nproperty float x\nproperty float y\nproperty float z\nend_header\n' +
+      'x'.repeat(36);
     expect(importError(textBuffer(binary), 'lying.ply').code).toBe('truncated');
     const ascii = PLY_HEAD.replace('element face 4', 'element face 100000000') + TETRA_BODY;
     const err = importError(textBuffer(ascii), 'lying-ascii.ply');
@@ -71,8 +76,14 @@ describe('PLY headers that lie or are malformed', () => {
   });
   it('a property before any element, an unknown property type and an unknown format get reasons in our words', () => {
     const cases: [string, RegExp][] = [
-      ['ply\nformat ascii 1.0\nproperty float x\nelement vertex 1\nend_header\n0\n', /property comes before any element/],
-      ['ply\nformat ascii 1.0\nelement vertex 1\nproperty float128 x\nend_header\n0\n', /unknown property type "float128"/],
+      [
+        'ply\nformat ascii 1.0\nproperty float x\nelement vertex 1\nend_header\n0\n',
+        /property comes before any element/,
+      ],
+      [
+        'ply\nformat ascii 1.0\nelement vertex 1\nproperty float128 x\nend_header\n0\n',
+        /unknown property type "float128"/,
+      ],
       ['ply\nformat ebcdic 1.0\nelement vertex 1\nproperty float x\nend_header\n0\n', /unknown format "ebcdic"/],
       ['ply\nformat ascii 1.0\nelement vertex 1\nproperty float x\n', /no "end_header"/],
       ['ply\nformat ascii 1.0\nelement vertex 1\nproperty float x\nend_header\n0\n', /lack an x, y or z/],
@@ -138,13 +149,27 @@ describe('OBJ', () => {
   });
   it('continued lines, v/t/n references and n-gons read as OBJLoader reads them (area agrees)', () => {
     const text = [
-      'mtllib parts.mtl', 'o plate', 'v 0 0 0', 'v 2 0 0', 'v 2 1 0', 'v 0 1 0', 'vt 0 0', 'vn 0 0 1', 'usemtl steel', 's off',
-      'f 1/1/1 2/1/1 \\', '3/1/1 4/1/1', 'v 0 0 1', 'f -1//1 -5//1 -4//1',
+      'mtllib parts.mtl',
+      'o plate',
+      'v 0 0 0',
+      'v 2 0 0',
+      'v 2 1 0',
+      'v 0 1 0',
+      'vt 0 0',
+      'vn 0 0 1',
+      'usemtl steel',
+      's off',
+      'f 1/1/1 2/1/1 \\',
+      '3/1/1 4/1/1',
+      'v 0 0 1',
+      'f -1//1 -5//1 -4//1',
     ].join('\n');
     const ours = importMesh(textBuffer(text), 'plate.obj');
     const reference = new OBJLoader().parse(text.replace('\\\n', ''));
     let area = 0;
-    reference.traverse((c) => { if (c instanceof ThreeMesh) area += areaOf(c.geometry as BufferGeometry); });
+    reference.traverse((c) => {
+      if (c instanceof ThreeMesh) area += areaOf(c.geometry as BufferGeometry);
+    });
     expect(ours.info.triangleCount).toBe(3);
     expectClose(ours.info.area, area, { rtol: 1e-6 });
   });
@@ -157,8 +182,12 @@ describe('OBJ', () => {
     expect(part.mesh.indices).toBeInstanceOf(Uint32Array);
   });
   it('a face with fewer than three vertices or a reference that is not a number names the line', () => {
-    expect(importError(textBuffer('v 0 0 0\nv 1 0 0\nf 1 2\n'), 'short.obj').reason).toMatch(/line 3: a face needs at least 3 vertices/);
-    expect(importError(textBuffer('v 0 0 0\nv 1 0 0\nv 0 1 0\nf 1 x 3\n'), 'bad.obj').reason).toMatch(/line 4: "x" is not a vertex reference/);
+    expect(importError(textBuffer('v 0 0 0\nv 1 0 0\nf 1 2\n'), 'short.obj').reason).toMatch(
+      /line 3: a face needs at least 3 vertices/,
+    );
+    expect(importError(textBuffer('v 0 0 0\nv 1 0 0\nv 0 1 0\nf 1 x 3\n'), 'bad.obj').reason).toMatch(
+      /line 4: "x" is not a vertex reference/,
+    );
   });
 });
 

@@ -20,13 +20,19 @@ import { RAW_JS } from './reasons';
 import { expectClose } from '../../helpers';
 
 const DIR = fileURLToPath(new URL('../../fixtures/kicad/', import.meta.url));
-const NAMES = readdirSync(DIR).filter((f) => f.endsWith('.step')).map((f) => f.slice(0, -5)).sort();
+const NAMES = readdirSync(DIR)
+  .filter((f) => f.endsWith('.step'))
+  .map((f) => f.slice(0, -5))
+  .sort();
 const KICAD_VRML_UNIT_MM = 2.54;
 
 const printed: string[] = [];
 beforeAll(async () => {
   await loadCadReader();
-  const keep = (...a: unknown[]) => { printed.push(a.map(String).join(' ').slice(0, 200)); return true; };
+  const keep = (...a: unknown[]) => {
+    printed.push(a.map(String).join(' ').slice(0, 200));
+    return true;
+  };
   for (const m of ['log', 'warn', 'error', 'info'] as const) vi.spyOn(console, m).mockImplementation(keep);
   vi.spyOn(process.stdout, 'write').mockImplementation(keep);
 }, 60_000);
@@ -38,7 +44,12 @@ describe(`the same ${NAMES.length} KiCad components as STEP and as VRML`, () => 
     for (const name of NAMES) {
       const step = importMesh(fixture(`kicad/${name}.step`), `${name}.step`);
       const vrml = importMesh(fixture(`kicad/${name}.wrl`), `${name}.wrl`);
-      expect([step.info.format, step.info.units, vrml.info.format, vrml.info.units]).toEqual(['step', 'mm', 'vrml', 'file']);
+      expect([step.info.format, step.info.units, vrml.info.format, vrml.info.units]).toEqual([
+        'step',
+        'mm',
+        'vrml',
+        'file',
+      ]);
       expect(step.info.bodies).toBeGreaterThanOrEqual(1);
       step.info.extents.forEach((e, k) => {
         const ratio = e / (vrml.info.extents[k] * KICAD_VRML_UNIT_MM);
@@ -50,18 +61,31 @@ describe(`the same ${NAMES.length} KiCad components as STEP and as VRML`, () => 
   it('each STEP and its VRML find each other as nearest other part, with the untrained encoder', async () => {
     await initBackend({ prefer: 'wasm' });
     const parts: LibraryPart[] = [];
-    for (const name of NAMES) for (const ext of ['step', 'wrl']) parts.push(loadPart(fixture(`kicad/${name}.${ext}`), `${name}.${ext}`, { points: POOL_POINTS, seed: 0 }));
+    for (const name of NAMES)
+      for (const ext of ['step', 'wrl'])
+        parts.push(loadPart(fixture(`kicad/${name}.${ext}`), `${name}.${ext}`, { points: POOL_POINTS, seed: 0 }));
     // The settings the library would get by default (its parts sit square in their files' axes: two encoders).
     const config = defaultTrainFor(libraryTraits(parts));
     expect(config.pose).toBe('file-and-principal');
     const enc = untrainedEncoders(config.encoder, config.pose, 0);
-    const vectors = embedForRetrieval(enc, parts.map((p) => ({ points: p.points, normals: p.normals })), config.points, config.pose);
+    const vectors = embedForRetrieval(
+      enc,
+      parts.map((p) => ({ points: p.points, normals: p.normals })),
+      config.points,
+      config.pose,
+    );
     disposeEncoders(enc);
     const sim = cosineSimilarity(vectors, vectors.length / parts.length);
     const missed: string[] = [];
     parts.forEach((p, i) => {
-      let best = -1, bestSim = -Infinity;
-      parts.forEach((_, j) => { if (j !== i && sim(i, j) > bestSim) { bestSim = sim(i, j); best = j; } });
+      let best = -1,
+        bestSim = -Infinity;
+      parts.forEach((_, j) => {
+        if (j !== i && sim(i, j) > bestSim) {
+          bestSim = sim(i, j);
+          best = j;
+        }
+      });
       if (Math.floor(best / 2) !== Math.floor(i / 2)) missed.push(`${p.name} → ${parts[best].name}`);
     });
     expect(missed).toEqual([]);
@@ -70,7 +94,10 @@ describe(`the same ${NAMES.length} KiCad components as STEP and as VRML`, () => 
 
 describe('files that ship with occt-import-js (its test folder, installed with the package)', () => {
   const dir = fileURLToPath(new URL('../../../node_modules/occt-import-js/test/testfiles/', import.meta.url));
-  const read = (path: string) => { const b = readFileSync(dir + path); return importMesh(b.buffer.slice(b.byteOffset, b.byteOffset + b.length) as ArrayBuffer, path); };
+  const read = (path: string) => {
+    const b = readFileSync(dir + path);
+    return importMesh(b.buffer.slice(b.byteOffset, b.byteOffset + b.length) as ArrayBuffer, path);
+  };
   it('the same 10 mm cube as IGES, STEP and STL: 10 mm across, volume 1000 mm³, closed, in all three', () => {
     for (const f of ['cube-10x10mm/Cube 10x10.igs', 'cube-10x10mm/Cube 10x10.stp', 'cube-10x10mm/Cube 10x10.stl']) {
       const part = read(f);
@@ -80,7 +107,7 @@ describe('files that ship with occt-import-js (its test folder, installed with t
     }
     expect(read('cube-10x10mm/Cube 10x10.igs').info.format).toBe('iges');
   });
-  it('a 1 m cube saved with metre, millimetre and inch units reads 1000 mm across in every file (the package\'s own expectation)', () => {
+  it("a 1 m cube saved with metre, millimetre and inch units reads 1000 mm across in every file (the package's own expectation)", () => {
     for (const f of ['cube-units/cube-m.step', 'cube-units/cube-mm.step', 'cube-units/cube-in.step']) {
       expectClose(read(f).info.extents, [1000, 1000, 1000], { rtol: 1e-6 });
     }
@@ -92,9 +119,19 @@ describe('CAD files that cannot be read', () => {
     const step = new TextDecoder().decode(new Uint8Array(fixture(`kicad/${NAMES[0]}.step`)));
     const cases: [ArrayBuffer, string, RegExp][] = [
       [textBuffer('solid nothing\nendsolid\n'), 'drawing.step', /not a STEP file/],
-      [textBuffer(step.slice(0, Math.floor(step.length / 3))), 'cut.stp', /could not be read by OpenCascade|holds no solid/],
+      [
+        textBuffer(step.slice(0, Math.floor(step.length / 3))),
+        'cut.stp',
+        /could not be read by OpenCascade|holds no solid/,
+      ],
       [textBuffer('#VRML V1.0 ascii\nSeparator {}\n'), 'old.wrl', /VRML 1\.0 is not read/],
-      [textBuffer('#VRML V2.0 utf8\nShape { geometry IndexedFaceSet { coord Coordinate { point [ 0 0 0, 1 0 ] } coordIndex [ 0 1 2 -1 ] } }\n'), 'broken.wrl', /non-finite|VRML/],
+      [
+        textBuffer(
+          '#VRML V2.0 utf8\nShape { geometry IndexedFaceSet { coord Coordinate { point [ 0 0 0, 1 0 ] } coordIndex [ 0 1 2 -1 ] } }\n',
+        ),
+        'broken.wrl',
+        /non-finite|VRML/,
+      ],
     ];
     for (const [buffer, name, reason] of cases) {
       try {

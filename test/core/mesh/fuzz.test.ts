@@ -18,7 +18,8 @@ const HANG_GUARD_MS = 2000;
 
 function binaryPly(littleEndian: boolean): ArrayBuffer {
   const tris = cubeTriangles().slice(0, 4);
-  const header = `ply\nformat binary_${littleEndian ? 'little' : 'big'}_endian 1.0\nelement vertex ${tris.length * 3}\n` +
+  const header =
+    `ply\nformat binary_${littleEndian ? 'little' : 'big'}_endian 1.0\nelement vertex ${tris.length * 3}\n` +
     'property float x\nproperty float y\nproperty float z\nproperty uchar red\n' +
     `element face ${tris.length}\nproperty list uchar int vertex_indices\nend_header\n`;
   const head = new TextEncoder().encode(header);
@@ -26,15 +27,34 @@ function binaryPly(littleEndian: boolean): ArrayBuffer {
   out.set(head);
   const view = new DataView(out.buffer);
   let o = head.length;
-  for (const t of tris) for (let v = 0; v < 3; v++) { for (let k = 0; k < 3; k++) { view.setFloat32(o, t[v * 3 + k], littleEndian); o += 4; } view.setUint8(o++, 200); }
-  tris.forEach((_, f) => { view.setUint8(o++, 3); for (let k = 0; k < 3; k++) { view.setInt32(o, f * 3 + k, littleEndian); o += 4; } });
+  for (const t of tris)
+    for (let v = 0; v < 3; v++) {
+      for (let k = 0; k < 3; k++) {
+        view.setFloat32(o, t[v * 3 + k], littleEndian);
+        o += 4;
+      }
+      view.setUint8(o++, 200);
+    }
+  tris.forEach((_, f) => {
+    view.setUint8(o++, 3);
+    for (let k = 0; k < 3; k++) {
+      view.setInt32(o, f * 3 + k, littleEndian);
+      o += 4;
+    }
+  });
   return out.buffer;
 }
 
 const SEEDS: [string, () => ArrayBuffer][] = [
   ['cube.stl', () => writeBinaryStl(cubeTriangles(), 'solid but binary')],
   ['cube-ascii.stl', () => textBuffer(asciiStl(cubeTriangles().slice(0, 4)))],
-  ['tetra.obj', () => textBuffer('# tetra\no t\nv 0 0 0\nv 1 0 0\nv 0 1 0\nv 0 0 1\nvn 0 0 1\nf 1//1 3//1 2//1\nf 1 2 4\nf -4 -1 -2\nf 2 3 4\n')],
+  [
+    'tetra.obj',
+    () =>
+      textBuffer(
+        '# tetra\no t\nv 0 0 0\nv 1 0 0\nv 0 1 0\nv 0 0 1\nvn 0 0 1\nf 1//1 3//1 2//1\nf 1 2 4\nf -4 -1 -2\nf 2 3 4\n',
+      ),
+  ],
   ['tetra.ply', () => fixture('real-meshes/colored_tetra.ply')],
   ['cube-le.ply', () => binaryPly(true)],
   ['cube-be.ply', () => binaryPly(false)],
@@ -43,14 +63,34 @@ const SEEDS: [string, () => ArrayBuffer][] = [
   ['points.csv', () => textBuffer('x;y;z\n0;0;0\n1,5;0;0\n0;1;0\n0;0;1\n')],
   ['box.glb', () => writeGltf({ translation: [0, 1, 2] }, true)],
   ['box.gltf', () => writeGltf({ scale: [1, 2, 3] }, false)],
-  ['cube.3mf', () => write3mf(`<?xml version="1.0"?><model unit="inch" xmlns="http://schemas.microsoft.com/3dmanufacturing/core/2015/02"><resources>${cubeObject(1)}</resources><build><item objectid="1"/></build></model>`)],
+  [
+    'cube.3mf',
+    () =>
+      write3mf(
+        `<?xml version="1.0"?><model unit="inch" xmlns="http://schemas.microsoft.com/3dmanufacturing/core/2015/02"><resources>${cubeObject(1)}</resources><build><item objectid="1"/></build></model>`,
+      ),
+  ],
   ['led.wrl', () => fixture('kicad/LED_01005_0402Metric.wrl')],
   ['led.step', () => fixture('kicad/LED_01005_0402Metric.step')],
 ];
 /** OpenCascade takes tens of milliseconds a file: fewer mutations of the STEP file keep the test to seconds. */
-const MUTATIONS_FOR = (name: string) => (name.endsWith('.step') ? Math.ceil(MUTATIONS_PER_FILE / 4) : MUTATIONS_PER_FILE);
+const MUTATIONS_FOR = (name: string) =>
+  name.endsWith('.step') ? Math.ceil(MUTATIONS_PER_FILE / 4) : MUTATIONS_PER_FILE;
 
-const NUMBERS = ['0', '-1', '4294967295', '9007199254740991', '1e308', '-1e-320', 'nan', 'inf', '1.5', '999999999', '', 'x'];
+const NUMBERS = [
+  '0',
+  '-1',
+  '4294967295',
+  '9007199254740991',
+  '1e308',
+  '-1e-320',
+  'nan',
+  'inf',
+  '1.5',
+  '999999999',
+  '',
+  'x',
+];
 
 function mutate(src: Uint8Array, rng: Rng): Uint8Array {
   const b = Array.from(src);
@@ -58,12 +98,23 @@ function mutate(src: Uint8Array, rng: Rng): Uint8Array {
   for (let r = 0; r < rounds; r++) {
     const at = rng.int(Math.max(1, b.length));
     switch (rng.int(6)) {
-      case 0: b.length = at; break; // truncate
-      case 1: b[at] = rng.int(256); break; // flip a byte
-      case 2: b.splice(at, 1 + rng.int(16)); break; // delete a run
-      case 3: b.splice(at, 0, ...b.slice(rng.int(b.length), rng.int(b.length) + 1 + rng.int(32))); break; // splice in a copy
-      case 4: b.splice(at, 0, ...Array.from({ length: 1 + rng.int(8) }, () => rng.int(256))); break; // random bytes
-      default: { // replace the next number-like run with a lying value
+      case 0:
+        b.length = at;
+        break; // truncate
+      case 1:
+        b[at] = rng.int(256);
+        break; // flip a byte
+      case 2:
+        b.splice(at, 1 + rng.int(16));
+        break; // delete a run
+      case 3:
+        b.splice(at, 0, ...b.slice(rng.int(b.length), rng.int(b.length) + 1 + rng.int(32)));
+        break; // splice in a copy
+      case 4:
+        b.splice(at, 0, ...Array.from({ length: 1 + rng.int(8) }, () => rng.int(256)));
+        break; // random bytes
+      default: {
+        // replace the next number-like run with a lying value
         let s = at;
         while (s < b.length && !(b[s] >= 48 && b[s] <= 57)) s++;
         let e = s;
@@ -78,7 +129,10 @@ function mutate(src: Uint8Array, rng: Rng): Uint8Array {
 let printed: string[] = [];
 beforeAll(async () => {
   await loadCadReader();
-  const keep = (...a: unknown[]) => { printed.push(a.map(String).join(' ').slice(0, 200)); return true; };
+  const keep = (...a: unknown[]) => {
+    printed.push(a.map(String).join(' ').slice(0, 200));
+    return true;
+  };
   for (const m of ['log', 'warn', 'error', 'info', 'debug'] as const) vi.spyOn(console, m).mockImplementation(keep);
   vi.spyOn(process.stdout, 'write').mockImplementation(keep);
   vi.spyOn(process.stderr, 'write').mockImplementation(keep);
@@ -105,7 +159,11 @@ describe(`mutation fuzzing: up to ${MUTATIONS_PER_FILE} seeded mutations of each
         for (const v of part.points) expect(Number.isFinite(v)).toBe(true);
         outcomes.imported++;
       } catch (err) {
-        if (!(err instanceof MeshImportError)) throw new Error(`mutation ${i} of ${name} threw ${String(err)} (bytes: ${Buffer.from(input).toString('base64')})`, { cause: err });
+        if (!(err instanceof MeshImportError))
+          throw new Error(
+            `mutation ${i} of ${name} threw ${String(err)} (bytes: ${Buffer.from(input).toString('base64')})`,
+            { cause: err },
+          );
         expect(err.file).toBe(name);
         expect(err.reason, `mutation ${i}: ${err.reason}`).not.toMatch(RAW_JS);
         outcomes.refused++;

@@ -76,7 +76,10 @@ describe('bad input: a typed error naming the file and the reason', () => {
     expect(off.code).toBe('index-out-of-range');
   });
   it('zero-area meshes, while degenerate triangles in a good mesh are skipped and counted', () => {
-    const flat = [[0, 0, 0, 1, 0, 0, 2, 0, 0], [0, 0, 0, 0, 0, 0, 1, 1, 1]];
+    const flat = [
+      [0, 0, 0, 1, 0, 0, 2, 0, 0],
+      [0, 0, 0, 0, 0, 0, 1, 1, 1],
+    ];
     expect(importError(writeBinaryStl(flat), 'sliver.stl').code).toBe('zero-area');
     const part = importMesh(writeBinaryStl([...cubeTriangles(), ...flat]), 'cube-with-slivers.stl');
     expect(part.info.degenerateSkipped).toBe(2);
@@ -99,7 +102,10 @@ describe('bad input: a typed error naming the file and the reason', () => {
       { name: 'd.stl', buffer: textBuffer('not a mesh') },
     ]);
     expect(result.parts.map((p) => p.name)).toEqual(['a.stl', 'c.off']);
-    expect(result.failures.map((f) => [f.file, f.code])).toEqual([['b.stl', 'empty'], ['d.stl', 'unrecognised']]);
+    expect(result.failures.map((f) => [f.file, f.code])).toEqual([
+      ['b.stl', 'empty'],
+      ['d.stl', 'unrecognised'],
+    ]);
   });
 });
 
@@ -196,20 +202,35 @@ describe('PLY binary little- and big-endian, written byte by byte', () => {
       const f: number[] = [];
       for (let k = 0; k < 3; k++) {
         const v = t.slice(k * 3, k * 3 + 3);
-        if (!seen.has(key(v))) { seen.set(key(v), verts.length); verts.push(v); }
+        if (!seen.has(key(v))) {
+          seen.set(key(v), verts.length);
+          verts.push(v);
+        }
         f.push(seen.get(key(v))!);
       }
       faces.push(f);
     }
-    const header = `ply\nformat binary_${littleEndian ? 'little' : 'big'}_endian 1.0\nelement vertex ${verts.length}\n` +
+    const header =
+      `ply\nformat binary_${littleEndian ? 'little' : 'big'}_endian 1.0\nelement vertex ${verts.length}\n` +
       'property float x\nproperty float y\nproperty float z\n' +
       `element face ${faces.length}\nproperty list uchar int vertex_indices\nend_header\n`;
     const head = new TextEncoder().encode(header);
     const body = new ArrayBuffer(verts.length * 12 + faces.length * 13);
     const view = new DataView(body);
     let o = 0;
-    for (const v of verts) for (const c of v) { view.setFloat32(o, c, littleEndian); o += 4; }
-    for (const f of faces) { view.setUint8(o, 3); o += 1; for (const i of f) { view.setInt32(o, i, littleEndian); o += 4; } }
+    for (const v of verts)
+      for (const c of v) {
+        view.setFloat32(o, c, littleEndian);
+        o += 4;
+      }
+    for (const f of faces) {
+      view.setUint8(o, 3);
+      o += 1;
+      for (const i of f) {
+        view.setInt32(o, i, littleEndian);
+        o += 4;
+      }
+    }
     const out = new Uint8Array(head.length + body.byteLength);
     out.set(head, 0);
     out.set(new Uint8Array(body), head.length);
@@ -235,7 +256,11 @@ describe('a real mesh from the npm registry (the Stanford bunny, package "bunny"
     const tri = new Triangle();
     let reference = 0;
     for (const [a, b, c] of bunny.cells) {
-      tri.set(new Vector3(...bunny.positions[a]), new Vector3(...bunny.positions[b]), new Vector3(...bunny.positions[c]));
+      tri.set(
+        new Vector3(...bunny.positions[a]),
+        new Vector3(...bunny.positions[b]),
+        new Vector3(...bunny.positions[c]),
+      );
       reference += tri.getArea();
     }
     expect(part.info.triangleCount).toBeGreaterThan(3000);
@@ -245,15 +270,41 @@ describe('a real mesh from the npm registry (the Stanford bunny, package "bunny"
 
 describe('OBJ: n-gons, negative indices and groups', () => {
   it('faces survive polyline records in the same object (OBJLoader alone would keep only lines)', () => {
-    const text = ['o part', 'v 0 0 0', 'v 1 0 0', 'v 0 1 0', 'v 0 0 1', 'f 1 3 2', 'f 1 2 4', 'l 1 2', 'f 1 4 3', 'f 2 3 4'].join('\n');
+    const text = [
+      'o part',
+      'v 0 0 0',
+      'v 1 0 0',
+      'v 0 1 0',
+      'v 0 0 1',
+      'f 1 3 2',
+      'f 1 2 4',
+      'l 1 2',
+      'f 1 4 3',
+      'f 2 3 4',
+    ].join('\n');
     const part = importMesh(textBuffer(text), 'with-lines.obj');
     expect(part.info.triangleCount).toBe(4);
     expectClose(part.info.volume!, 1 / 6, { atol: 1e-9 });
   });
   it('a cube written as quads with relative indices', () => {
     const text = [
-      'o cube', 'v -1 -1 -1', 'v 1 -1 -1', 'v 1 1 -1', 'v -1 1 -1', 'v -1 -1 1', 'v 1 -1 1', 'v 1 1 1', 'v -1 1 1',
-      'g bottom', 'f -8 -5 -6 -7', 'g top', 'f 5 6 7 8', 'f 1 2 6 5', 'f 2 3 7 6', 'f 3 4 8 7', 'f 4 1 5 8',
+      'o cube',
+      'v -1 -1 -1',
+      'v 1 -1 -1',
+      'v 1 1 -1',
+      'v -1 1 -1',
+      'v -1 -1 1',
+      'v 1 -1 1',
+      'v 1 1 1',
+      'v -1 1 1',
+      'g bottom',
+      'f -8 -5 -6 -7',
+      'g top',
+      'f 5 6 7 8',
+      'f 1 2 6 5',
+      'f 2 3 7 6',
+      'f 3 4 8 7',
+      'f 4 1 5 8',
     ].join('\n');
     const part = importMesh(textBuffer(text), 'cube.obj');
     expect(part.info.triangleCount).toBe(12);

@@ -11,7 +11,9 @@ import { createRng } from '../../../src/core/rng';
 import { expectClose } from '../../helpers';
 import { expectNoLeak, useBackend } from '../../tf-helpers';
 
-beforeAll(async () => { await useBackend('wasm'); });
+beforeAll(async () => {
+  await useBackend('wasm');
+});
 
 const tiny: EncoderConfig = { inputFeatures: 'xyz', widths: [8, 16, 12], pooling: 'max', projection: [10, 6] };
 
@@ -26,7 +28,9 @@ function naivePooled(enc: Encoder, x: tf.Tensor3D): tf.Tensor2D {
   let h: tf.Tensor2D = tf.reshape(x, [B * N, F]);
   for (const l of enc.layers) h = tf.relu(tf.add(tf.matMul(h, l.w), l.b)) as tf.Tensor2D;
   const h3 = tf.reshape(h, [B, N, -1]);
-  return enc.config.pooling === 'max' ? (tf.max(h3, 1) as tf.Tensor2D) : tf.concat([tf.max(h3, 1) as tf.Tensor2D, tf.mean(h3, 1) as tf.Tensor2D], 1);
+  return enc.config.pooling === 'max'
+    ? (tf.max(h3, 1) as tf.Tensor2D)
+    : tf.concat([tf.max(h3, 1) as tf.Tensor2D, tf.mean(h3, 1) as tf.Tensor2D], 1);
 }
 
 describe('fused per-point MLP + pooling: hand-written gradients equal tfjs autodiff of the plain formulation', () => {
@@ -37,10 +41,17 @@ describe('fused per-point MLP + pooling: hand-written gradients equal tfjs autod
       const target = tf.randomNormal([3, pooling === 'max' ? 12 : 24], 0, 1, 'float32', 3);
       const objective = (f: () => tf.Tensor2D) => () => tf.sum(tf.mul(f(), target)) as tf.Scalar;
       const pointVars = enc.layers.flatMap((l) => [l.w, l.b]);
-      const fast = tf.variableGrads(objective(() => enc.pooled(x)), pointVars);
-      const slow = tf.variableGrads(objective(() => naivePooled(enc, x)), pointVars);
+      const fast = tf.variableGrads(
+        objective(() => enc.pooled(x)),
+        pointVars,
+      );
+      const slow = tf.variableGrads(
+        objective(() => naivePooled(enc, x)),
+        pointVars,
+      );
       expectClose(fast.value.dataSync(), slow.value.dataSync(), { rtol: 1e-5, atol: 1e-5 });
-      for (const v of pointVars) expectClose(fast.grads[v.name].dataSync(), slow.grads[v.name].dataSync(), { rtol: 1e-4, atol: 1e-5 });
+      for (const v of pointVars)
+        expectClose(fast.grads[v.name].dataSync(), slow.grads[v.name].dataSync(), { rtol: 1e-4, atol: 1e-5 });
       tf.dispose([x, target, fast.value, slow.value, ...Object.values(fast.grads), ...Object.values(slow.grads)]);
     });
     enc.dispose();
@@ -55,7 +66,12 @@ describe('fused per-point MLP + pooling: hand-written gradients equal tfjs autod
     const w0 = enc.layers[0].w.dataSync().slice();
     const h = 1e-3;
     const numeric = Array.from({ length: 6 }, (_, i) => {
-      const at = (d: number) => { const w = w0.slice(); w[i] += d; enc.layers[0].w.assign(tf.tensor2d(w, [3, 8])); return tf.tidy(() => f().dataSync()[0]); };
+      const at = (d: number) => {
+        const w = w0.slice();
+        w[i] += d;
+        enc.layers[0].w.assign(tf.tensor2d(w, [3, 8]));
+        return tf.tidy(() => f().dataSync()[0]);
+      };
       const g = (at(h) - at(-h)) / (2 * h);
       enc.layers[0].w.assign(tf.tensor2d(w0, [3, 8]));
       return g;
@@ -73,7 +89,10 @@ describe('symmetries of the architecture', () => {
     const pts = cloudBatch(1, 64, 8);
     const rng = createRng(9);
     const order = Array.from({ length: 64 }, (_, i) => i);
-    for (let i = 63; i > 0; i--) { const j = rng.int(i + 1); [order[i], order[j]] = [order[j], order[i]]; }
+    for (let i = 63; i > 0; i--) {
+      const j = rng.int(i + 1);
+      [order[i], order[j]] = [order[j], order[i]];
+    }
     const shuffled = new Float32Array(pts.length);
     order.forEach((src, dst) => shuffled.set(pts.subarray(src * 3, src * 3 + 3), dst * 3));
     const e1 = tf.tidy(() => enc.embed(tf.tensor3d(pts, [1, 64, 3])).dataSync());
@@ -101,9 +120,11 @@ describe('symmetries of the architecture', () => {
     enc.dispose();
   });
   it('the same seed builds the same weights', () => {
-    const a = new Encoder(tiny, createRng(5)), b = new Encoder(tiny, createRng(5));
+    const a = new Encoder(tiny, createRng(5)),
+      b = new Encoder(tiny, createRng(5));
     expect(Array.from(a.layers[1].w.dataSync())).toEqual(Array.from(b.layers[1].w.dataSync()));
-    a.dispose(); b.dispose();
+    a.dispose();
+    b.dispose();
   });
 });
 
@@ -113,12 +134,17 @@ describe('unsigned-normal inputs', () => {
     // the length of (a11, a22, a33, √2·a12, √2·a23, √2·a31) (the usual symmetric-matrix vectorisation).
     const n = [0.36, -0.48, 0.8]; // unit: 0.1296 + 0.2304 + 0.64 = 1
     const points = Float32Array.from([0.1, 0.2, 0.3]);
-    const a = new Float32Array(9), b = new Float32Array(9);
+    const a = new Float32Array(9),
+      b = new Float32Array(9);
     fillSlot(a, 0, 1, 'xyz+unsigned-normal', points, Float32Array.from(n));
     fillSlot(b, 0, 1, 'xyz+unsigned-normal', points, Float32Array.from(n.map((v) => -v)));
     expect([...a]).toEqual([...b]);
     expectClose([...a.slice(0, 3)], [0.1, 0.2, 0.3], { atol: 1e-7 });
-    expectClose([...a.slice(3)], [0.1296, 0.2304, 0.64, Math.SQRT2 * 0.36 * -0.48, Math.SQRT2 * -0.48 * 0.8, Math.SQRT2 * 0.8 * 0.36], { atol: 1e-6 });
+    expectClose(
+      [...a.slice(3)],
+      [0.1296, 0.2304, 0.64, Math.SQRT2 * 0.36 * -0.48, Math.SQRT2 * -0.48 * 0.8, Math.SQRT2 * 0.8 * 0.36],
+      { atol: 1e-6 },
+    );
     expect(Math.hypot(...a.slice(3))).toBeCloseTo(1, 6);
   });
 
@@ -147,7 +173,9 @@ describe('what retrieval compares', () => {
         const out = retrieval === 'projection' ? enc.project(pooled) : pooled;
         return tf.div(out, tf.norm(out, 'euclidean', 1, true)).arraySync();
       }) as number[][];
-      expect(got[0].length).toBe(retrieval === 'projection' ? tiny.projection[tiny.projection.length - 1] : tiny.widths[tiny.widths.length - 1]);
+      expect(got[0].length).toBe(
+        retrieval === 'projection' ? tiny.projection[tiny.projection.length - 1] : tiny.widths[tiny.widths.length - 1],
+      );
       expectClose(got.flat(), want.flat(), { atol: 1e-6 });
       enc.dispose();
     }
@@ -157,20 +185,29 @@ describe('what retrieval compares', () => {
 
 describe('EdgeConv first layer (Wang et al. 2019, eq. 8, on the input points)', () => {
   it('edge inputs are [x_i, x_j − x_i] over the k nearest points, the same set kd-tree-javascript finds', () => {
-    const B = 2, N = 40, k = 6;
+    const B = 2,
+      N = 40,
+      k = 6;
     const x = cloudBatch(B, N, 11);
     const e = edgeFeatures(x, B, N, 3, k);
     for (let b = 0; b < B; b++) {
       const cloud = x.slice(b * N * 3, (b + 1) * N * 3);
       const index = new PointIndex(cloud);
       for (const i of [0, 17, 39]) {
-        const ref = index.nearest(cloud[3 * i], cloud[3 * i + 1], cloud[3 * i + 2], k).map((n) => n.index).sort((p, q) => p - q);
+        const ref = index
+          .nearest(cloud[3 * i], cloud[3 * i + 1], cloud[3 * i + 2], k)
+          .map((n) => n.index)
+          .sort((p, q) => p - q);
         const got: number[] = [];
         for (let m = 0; m < k; m++) {
           const o = ((b * N + i) * k + m) * 6;
           expect([e[o], e[o + 1], e[o + 2]]).toEqual([cloud[3 * i], cloud[3 * i + 1], cloud[3 * i + 2]]);
           // Recover j from x_j = x_i + (x_j − x_i).
-          const j = ref.find((c) => Math.abs(cloud[3 * c] - (e[o] + e[o + 3])) < 1e-6 && Math.abs(cloud[3 * c + 1] - (e[o + 1] + e[o + 4])) < 1e-6);
+          const j = ref.find(
+            (c) =>
+              Math.abs(cloud[3 * c] - (e[o] + e[o + 3])) < 1e-6 &&
+              Math.abs(cloud[3 * c + 1] - (e[o + 1] + e[o + 4])) < 1e-6,
+          );
           expect(j).toBeDefined();
           got.push(j!);
         }
@@ -182,32 +219,51 @@ describe('EdgeConv first layer (Wang et al. 2019, eq. 8, on the input points)', 
   it.each([
     ['xyz', 3],
     ['xyz+normal', 6],
-  ] as const)('the split layer relu(A_i + max_j C_j) and its gradients equal tfjs autodiff of max_j relu(e_ij·W + b) (%s inputs)', async (inputFeatures, F) => {
-    const cfg: EncoderConfig = { ...tiny, inputFeatures, edge: { k: 5, width: 7 } };
-    const enc = new Encoder(cfg, createRng(12));
-    expect(enc.weightNames.slice(0, 2)).toEqual(['edge/w', 'edge/b']);
-    await expectNoLeak(() => {
-      const B = 2, N = 15;
-      const data = cloudBatch(B, N, 13, F);
-      const x = tf.tensor3d(data, [B, N, F]);
-      const edges = tf.tensor2d(edgeFeatures(data, B, N, F, 5), [B * N * 5, F + 3]);
-      const target = tf.randomNormal([B, 12], 0, 1, 'float32', 14);
-      const naive = () => {
-        const h = tf.max(tf.reshape(tf.relu(tf.add(tf.matMul(edges, enc.edge!.w), enc.edge!.b)), [B * N, 5, 7]), 1) as tf.Tensor2D;
-        let g: tf.Tensor2D = h;
-        for (const l of enc.layers) g = tf.relu(tf.add(tf.matMul(g, l.w), l.b)) as tf.Tensor2D;
-        return tf.max(tf.reshape(g, [B, N, -1]), 1) as tf.Tensor2D;
-      };
-      const objective = (f: () => tf.Tensor2D) => () => tf.sum(tf.mul(f(), target)) as tf.Scalar;
-      const vars = [enc.edge!.w, enc.edge!.b, ...enc.layers.flatMap((l) => [l.w, l.b])];
-      const fast = tf.variableGrads(objective(() => enc.pooled(x)), vars);
-      const slow = tf.variableGrads(objective(naive), vars);
-      expectClose(fast.value.dataSync(), slow.value.dataSync(), { rtol: 1e-5, atol: 1e-5 });
-      for (const v of vars) expectClose(fast.grads[v.name].dataSync(), slow.grads[v.name].dataSync(), { rtol: 1e-4, atol: 1e-5 });
-      tf.dispose([x, edges, target, fast.value, slow.value, ...Object.values(fast.grads), ...Object.values(slow.grads)]);
-    });
-    enc.dispose();
-  });
+  ] as const)(
+    'the split layer relu(A_i + max_j C_j) and its gradients equal tfjs autodiff of max_j relu(e_ij·W + b) (%s inputs)',
+    async (inputFeatures, F) => {
+      const cfg: EncoderConfig = { ...tiny, inputFeatures, edge: { k: 5, width: 7 } };
+      const enc = new Encoder(cfg, createRng(12));
+      expect(enc.weightNames.slice(0, 2)).toEqual(['edge/w', 'edge/b']);
+      await expectNoLeak(() => {
+        const B = 2,
+          N = 15;
+        const data = cloudBatch(B, N, 13, F);
+        const x = tf.tensor3d(data, [B, N, F]);
+        const edges = tf.tensor2d(edgeFeatures(data, B, N, F, 5), [B * N * 5, F + 3]);
+        const target = tf.randomNormal([B, 12], 0, 1, 'float32', 14);
+        const naive = () => {
+          const h = tf.max(
+            tf.reshape(tf.relu(tf.add(tf.matMul(edges, enc.edge!.w), enc.edge!.b)), [B * N, 5, 7]),
+            1,
+          ) as tf.Tensor2D;
+          let g: tf.Tensor2D = h;
+          for (const l of enc.layers) g = tf.relu(tf.add(tf.matMul(g, l.w), l.b)) as tf.Tensor2D;
+          return tf.max(tf.reshape(g, [B, N, -1]), 1) as tf.Tensor2D;
+        };
+        const objective = (f: () => tf.Tensor2D) => () => tf.sum(tf.mul(f(), target)) as tf.Scalar;
+        const vars = [enc.edge!.w, enc.edge!.b, ...enc.layers.flatMap((l) => [l.w, l.b])];
+        const fast = tf.variableGrads(
+          objective(() => enc.pooled(x)),
+          vars,
+        );
+        const slow = tf.variableGrads(objective(naive), vars);
+        expectClose(fast.value.dataSync(), slow.value.dataSync(), { rtol: 1e-5, atol: 1e-5 });
+        for (const v of vars)
+          expectClose(fast.grads[v.name].dataSync(), slow.grads[v.name].dataSync(), { rtol: 1e-4, atol: 1e-5 });
+        tf.dispose([
+          x,
+          edges,
+          target,
+          fast.value,
+          slow.value,
+          ...Object.values(fast.grads),
+          ...Object.values(slow.grads),
+        ]);
+      });
+      enc.dispose();
+    },
+  );
   it('gives a repeated point (dropout refills by repeating) the gradient once, as the autodiff reference does', () => {
     const enc = new Encoder({ ...tiny, edge: { k: 4, width: 5 } }, createRng(21));
     const data = cloudBatch(1, 12, 22);
@@ -224,28 +280,53 @@ describe('EdgeConv first layer (Wang et al. 2019, eq. 8, on the input points)', 
     }, vars);
     const fast = tf.variableGrads(() => tf.sum(enc.edgeOutput(x)) as tf.Scalar, vars);
     expectClose(fast.value.dataSync(), slow.value.dataSync(), { rtol: 1e-5 });
-    for (const v of vars) expectClose(fast.grads[v.name].dataSync(), slow.grads[v.name].dataSync(), { rtol: 1e-4, atol: 1e-5 });
+    for (const v of vars)
+      expectClose(fast.grads[v.name].dataSync(), slow.grads[v.name].dataSync(), { rtol: 1e-4, atol: 1e-5 });
     // The case has real ties: tfjs's Max gradient (every tie credited) gives a larger bias gradient.
-    const tied = tf.variableGrads(() => tf.sum(tf.max(tf.reshape(tf.relu(tf.add(tf.matMul(edges, enc.edge!.w), enc.edge!.b)), [12, 4, 5]), 1)) as tf.Scalar, vars);
-    expect(tf.sum(tied.grads[enc.edge!.b.name]).dataSync()[0]).toBeGreaterThan(tf.sum(fast.grads[enc.edge!.b.name]).dataSync()[0] + 0.5);
-    tf.dispose([x, edges, slow.value, fast.value, tied.value, ...Object.values(slow.grads), ...Object.values(fast.grads), ...Object.values(tied.grads)]);
+    const tied = tf.variableGrads(
+      () =>
+        tf.sum(
+          tf.max(tf.reshape(tf.relu(tf.add(tf.matMul(edges, enc.edge!.w), enc.edge!.b)), [12, 4, 5]), 1),
+        ) as tf.Scalar,
+      vars,
+    );
+    expect(tf.sum(tied.grads[enc.edge!.b.name]).dataSync()[0]).toBeGreaterThan(
+      tf.sum(fast.grads[enc.edge!.b.name]).dataSync()[0] + 0.5,
+    );
+    tf.dispose([
+      x,
+      edges,
+      slow.value,
+      fast.value,
+      tied.value,
+      ...Object.values(slow.grads),
+      ...Object.values(fast.grads),
+      ...Object.values(tied.grads),
+    ]);
     enc.dispose();
   });
   it('neighbour lists are the first k of a full sort by (squared distance, index), the point itself first, repeated points included', () => {
     // The definition, by Array.prototype.sort (stable, ECMAScript 2019) over all points: the selection must give the
     // same rows in the same order, since the order decides which of tied neighbours wins a max.
-    const B = 3, N = 48;
+    const B = 3,
+      N = 48;
     const x = cloudBatch(B, N, 43);
     for (let i = 0; i < 10; i++) x.copyWithin(3 * (2 * i + 1), 3 * (2 * i), 3 * (2 * i) + 3); // ten repeated pairs in cloud 0
     x.copyWithin(3 * (N + 5), 3 * (N + 4), 3 * (N + 5)); // and one in cloud 1
     for (const k of [1, 2, 7, 16, 33, N]) {
       const got = neighbourIndex(x, B, N, 3, k);
-      for (let b = 0; b < B; b++) for (let i = 0; i < N; i++) {
-        const d = (j: number) => (x[(b * N + j) * 3] - x[(b * N + i) * 3]) ** 2 + (x[(b * N + j) * 3 + 1] - x[(b * N + i) * 3 + 1]) ** 2 + (x[(b * N + j) * 3 + 2] - x[(b * N + i) * 3 + 2]) ** 2;
-        const others = Array.from({ length: N }, (_, j) => j).filter((j) => j !== i).sort((p, q) => d(p) - d(q) || p - q);
-        const ref = [i, ...others].slice(0, k).map((j) => b * N + j);
-        expect(Array.from(got.subarray((b * N + i) * k, (b * N + i + 1) * k))).toEqual(ref);
-      }
+      for (let b = 0; b < B; b++)
+        for (let i = 0; i < N; i++) {
+          const d = (j: number) =>
+            (x[(b * N + j) * 3] - x[(b * N + i) * 3]) ** 2 +
+            (x[(b * N + j) * 3 + 1] - x[(b * N + i) * 3 + 1]) ** 2 +
+            (x[(b * N + j) * 3 + 2] - x[(b * N + i) * 3 + 2]) ** 2;
+          const others = Array.from({ length: N }, (_, j) => j)
+            .filter((j) => j !== i)
+            .sort((p, q) => d(p) - d(q) || p - q);
+          const ref = [i, ...others].slice(0, k).map((j) => b * N + j);
+          expect(Array.from(got.subarray((b * N + i) * k, (b * N + i + 1) * k))).toEqual(ref);
+        }
     }
   });
   it('keeps the embedding the same when the points are shuffled, and refuses a bad k', () => {

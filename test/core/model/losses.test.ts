@@ -8,7 +8,9 @@ import { multiViewSupConLoss } from '../../../src/core/model/losses/supcon';
 import { expectClose } from '../../helpers';
 import { expectNoLeak, useBackend } from '../../tf-helpers';
 
-beforeAll(async () => { await useBackend('wasm'); });
+beforeAll(async () => {
+  await useBackend('wasm');
+});
 
 const unit = (deg: number) => [Math.cos((deg * Math.PI) / 180), Math.sin((deg * Math.PI) / 180)];
 
@@ -27,7 +29,8 @@ describe('NT-Xent (Chen et al. 2020, eq. 1)', () => {
     const [za, zb] = worked();
     const loss = await expectNoLeak(() => tf.tidy(() => ntXentLoss(za, zb, 0.5).dataSync()[0]));
     expectClose(loss, 0.464236, { atol: 1e-5 });
-    za.dispose(); zb.dispose();
+    za.dispose();
+    zb.dispose();
   });
   it('equals an independent formulation through tf.losses.softmaxCrossEntropy', () => {
     const za = tf.randomNormal([6, 5], 0, 1, 'float32', 1) as tf.Tensor2D;
@@ -40,7 +43,11 @@ describe('NT-Xent (Chen et al. 2020, eq. 1)', () => {
       const labels = tf.oneHot(tf.tensor1d([6, 7, 8, 9, 10, 11, 0, 1, 2, 3, 4, 5], 'int32'), 12);
       return tf.losses.softmaxCrossEntropy(labels, logits).dataSync()[0];
     });
-    expectClose(tf.tidy(() => ntXentLoss(za, zb, tau).dataSync()[0]), reference, { rtol: 1e-5 });
+    expectClose(
+      tf.tidy(() => ntXentLoss(za, zb, tau).dataSync()[0]),
+      reference,
+      { rtol: 1e-5 },
+    );
   });
   it('refuses a batch of one, a zero temperature and mismatched views', () => {
     expect(() => ntXentLoss(tf.ones([1, 3]), tf.ones([1, 3]), 0.1)).toThrow(/at least 2 parts/);
@@ -52,7 +59,11 @@ describe('NT-Xent (Chen et al. 2020, eq. 1)', () => {
 describe('supervised contrastive (Khosla et al. 2020, eq. 2)', () => {
   it('with every part its own label equals NT-Xent', () => {
     const [za, zb] = worked();
-    expectClose(tf.tidy(() => supConLoss(za, zb, [0, 1], 0.5).dataSync()[0]), 0.464236, { atol: 1e-5 });
+    expectClose(
+      tf.tidy(() => supConLoss(za, zb, [0, 1], 0.5).dataSync()[0]),
+      0.464236,
+      { atol: 1e-5 },
+    );
   });
   it('with both parts sharing a label: hand-worked', () => {
     // Same two pairs, one label: each anchor has P(i) = the other three views.
@@ -61,12 +72,24 @@ describe('supervised contrastive (Khosla et al. 2020, eq. 2)', () => {
     // b1: logits {a1: 1, a2: −1, b2: 1}, ln(5.804443) = 1.758627: mean(−0.758627, −2.758627, −0.758627) = −1.425294
     // L = −(2·(−1.836513) + 2·(−1.425294)) / 4 = 1.630903
     const [za, zb] = worked();
-    expectClose(tf.tidy(() => supConLoss(za, zb, [3, 3], 0.5).dataSync()[0]), 1.630903, { atol: 1e-5 });
+    expectClose(
+      tf.tidy(() => supConLoss(za, zb, [3, 3], 0.5).dataSync()[0]),
+      1.630903,
+      { atol: 1e-5 },
+    );
   });
   it('its many-view form gives the same hand-worked values on the views stacked [a; b]', () => {
     const [za, zb] = worked();
-    expectClose(tf.tidy(() => multiViewSupConLoss(tf.concat([za, zb]), [0, 1, 0, 1], 0.5).dataSync()[0]), 0.464236, { atol: 1e-5 });
-    expectClose(tf.tidy(() => multiViewSupConLoss(tf.concat([za, zb]), [3, 3, 3, 3], 0.5).dataSync()[0]), 1.630903, { atol: 1e-5 });
+    expectClose(
+      tf.tidy(() => multiViewSupConLoss(tf.concat([za, zb]), [0, 1, 0, 1], 0.5).dataSync()[0]),
+      0.464236,
+      { atol: 1e-5 },
+    );
+    expectClose(
+      tf.tidy(() => multiViewSupConLoss(tf.concat([za, zb]), [3, 3, 3, 3], 0.5).dataSync()[0]),
+      1.630903,
+      { atol: 1e-5 },
+    );
   });
 });
 
@@ -79,8 +102,16 @@ describe('triplet loss (Schroff et al. 2015) with in-batch mining', () => {
     // hard mean = (0.5 + 0.5 + 2.5 + 2.5)/4 = 1.5.
     // semi-hard: for b1, negatives farther than d_pos = 1 are {a2: 3} → 1 − 3 + 2.5 = 0.5; all four give 0.5.
     const [za, zb] = worked();
-    expectClose(tf.tidy(() => tripletLoss(za, zb, 2.5, 'hard').dataSync()[0]), 1.5, { atol: 1e-5 });
-    expectClose(tf.tidy(() => tripletLoss(za, zb, 2.5, 'semi-hard').dataSync()[0]), 0.5, { atol: 1e-5 });
+    expectClose(
+      tf.tidy(() => tripletLoss(za, zb, 2.5, 'hard').dataSync()[0]),
+      1.5,
+      { atol: 1e-5 },
+    );
+    expectClose(
+      tf.tidy(() => tripletLoss(za, zb, 2.5, 'semi-hard').dataSync()[0]),
+      0.5,
+      { atol: 1e-5 },
+    );
   });
 });
 
@@ -90,7 +121,11 @@ describe('margin contrastive loss (Hadsell, Chopra & LeCun 2006, eq. 4)', () => 
     // Negatives: (a1,a2) d = 2 → 0; (a1,b2) d = √3 = 1.732 → 0; (a2,b1) d = √3 → 0; (b1,b2) d = 1 → ½(1.5 − 1)² = 0.125.
     // L = (0.5 + 0.5 + 0.125) / 6 = 0.1875
     const [za, zb] = worked();
-    expectClose(tf.tidy(() => marginContrastiveLoss(za, zb, 1.5).dataSync()[0]), 0.1875, { atol: 1e-5 });
+    expectClose(
+      tf.tidy(() => marginContrastiveLoss(za, zb, 1.5).dataSync()[0]),
+      0.1875,
+      { atol: 1e-5 },
+    );
   });
 });
 
@@ -107,13 +142,19 @@ describe('gradients of each loss against central finite differences', () => {
     const b0 = Float32Array.from([0.7, 0.5, -0.1, -0.6, 0.6, 0.4, 0.1, -0.8, 0.5]);
     await expectNoLeak(() => {
       const zb = tf.tensor2d(b0, [3, 3]);
-      const grad = tf.tidy(() => tf.grad((a: tf.Tensor) => loss(a as tf.Tensor2D, zb))(tf.tensor2d(a0, [3, 3])).dataSync());
+      const grad = tf.tidy(() =>
+        tf
+          .grad((a: tf.Tensor) => loss(a as tf.Tensor2D, zb))(tf.tensor2d(a0, [3, 3]))
+          .dataSync(),
+      );
       const h = 1e-2; // float32: a large step keeps round-off below the curvature error
       const numeric = Array.from(a0, (_, i) => {
-        const f = (delta: number) => tf.tidy(() => {
-          const a = a0.slice(); a[i] += delta;
-          return loss(tf.tensor2d(a, [3, 3]), zb).dataSync()[0];
-        });
+        const f = (delta: number) =>
+          tf.tidy(() => {
+            const a = a0.slice();
+            a[i] += delta;
+            return loss(tf.tensor2d(a, [3, 3]), zb).dataSync()[0];
+          });
         return (f(h) - f(-h)) / (2 * h);
       });
       zb.dispose();

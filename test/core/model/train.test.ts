@@ -2,7 +2,18 @@ import * as tf from '@tensorflow/tfjs';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { Adam, cosineWithWarmup } from '../../../src/core/model/adam';
 import { encoderFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../../../src/core/model/checkpoint';
-import { DEFAULT_STEP_BUDGET, DEFAULT_TRAIN, defaultEpochs, defaultInputs, defaultPose, defaultTrainFor, FILE_FRAME_FIT, inputsReason, MIN_DEFAULT_EPOCHS, poseReason } from '../../../src/core/model/defaults';
+import {
+  DEFAULT_STEP_BUDGET,
+  DEFAULT_TRAIN,
+  defaultEpochs,
+  defaultInputs,
+  defaultPose,
+  defaultTrainFor,
+  FILE_FRAME_FIT,
+  inputsReason,
+  MIN_DEFAULT_EPOCHS,
+  poseReason,
+} from '../../../src/core/model/defaults';
 import { embedParts } from '../../../src/core/model/embed';
 import { type ModelPart } from '../../../src/core/model/views';
 import { getWeights, Trainer } from '../../../src/core/model/trainer';
@@ -65,8 +76,15 @@ describe('training on the demo library', () => {
     t.dispose();
   });
   it('a seeded run is bit-for-bit repeatable on the same backend', () => {
-    const run = () => { const t = new Trainer(demo, small); for (let i = 0; i < 3; i++) t.trainStep(); const w = getWeights(t.encoder); t.dispose(); return w; };
-    const a = run(), b = run();
+    const run = () => {
+      const t = new Trainer(demo, small);
+      for (let i = 0; i < 3; i++) t.trainStep();
+      const w = getWeights(t.encoder);
+      t.dispose();
+      return w;
+    };
+    const a = run(),
+      b = run();
     a.forEach((w, i) => expect(Buffer.from(w.buffer).equals(Buffer.from(b[i].buffer))).toBe(true));
   });
   it('the loss falls within a few hundred steps', async () => {
@@ -92,7 +110,10 @@ describe('training on the demo library', () => {
       },
     });
     await new Promise((r) => setTimeout(r, 300));
-    if (t.status === 'paused') { pausedAt = t.step; t.resume(); }
+    if (t.status === 'paused') {
+      pausedAt = t.step;
+      t.resume();
+    }
     const result = await done;
     expect(pausedAt).toBe(2);
     expect(result.status).toBe('cancelled');
@@ -104,16 +125,33 @@ describe('training on the demo library', () => {
     const straight = new Trainer(demo, small);
     for (let i = 0; i < 4; i++) straight.trainStep();
     const first = new Trainer(demo, small);
-    first.trainStep(); first.trainStep();
+    first.trainStep();
+    first.trainStep();
     const ckpt: Checkpoint = {
-      manifest: { format: 'shapekin-encoder', version: 1, config: small, sampling: { points: 512, seed: 0 }, step: first.step, totalSteps: first.totalSteps, status: 'paused', backend: tf.getBackend(), history: first.history, checks: [] },
+      manifest: {
+        format: 'shapekin-encoder',
+        version: 1,
+        config: small,
+        sampling: { points: 512, seed: 0 },
+        step: first.step,
+        totalSteps: first.totalSteps,
+        status: 'paused',
+        backend: tf.getBackend(),
+        history: first.history,
+        checks: [],
+      },
       weights: getWeights(first.encoder),
       adam: first.adamState(),
     };
     const restored = fromArtifacts(toArtifacts(ckpt));
-    const second = new Trainer(demo, restored.manifest.config, { initialWeights: restored.weights, resume: { step: restored.manifest.step, adam: restored.adam!, history: restored.manifest.history, checks: [] } });
-    second.trainStep(); second.trainStep();
-    const a = getWeights(straight.encoder), b = getWeights(second.encoder);
+    const second = new Trainer(demo, restored.manifest.config, {
+      initialWeights: restored.weights,
+      resume: { step: restored.manifest.step, adam: restored.adam!, history: restored.manifest.history, checks: [] },
+    });
+    second.trainStep();
+    second.trainStep();
+    const a = getWeights(straight.encoder),
+      b = getWeights(second.encoder);
     a.forEach((w, i) => expect(Buffer.from(b[i].buffer).equals(Buffer.from(w.buffer)), `weight ${i}`).toBe(true));
     const enc = encoderFromCheckpoint(restored);
     expect(enc.variables.length).toBe(10);
@@ -125,14 +163,27 @@ describe('training on the demo library', () => {
     const t = new Trainer(demo, cfg);
     t.trainStep();
     const ckpt: Checkpoint = {
-      manifest: { format: 'shapekin-encoder', version: 1, config: cfg, sampling: { points: 512, seed: 0 }, step: t.step, totalSteps: t.totalSteps, status: 'paused', backend: tf.getBackend(), history: t.history, checks: [] },
-      weights: getWeights(t.encoder), adam: null,
+      manifest: {
+        format: 'shapekin-encoder',
+        version: 1,
+        config: cfg,
+        sampling: { points: 512, seed: 0 },
+        step: t.step,
+        totalSteps: t.totalSteps,
+        status: 'paused',
+        backend: tf.getBackend(),
+        history: t.history,
+        checks: [],
+      },
+      weights: getWeights(t.encoder),
+      adam: null,
     };
     const enc = encoderFromCheckpoint(fromArtifacts(toArtifacts(ckpt)));
     expect(enc.variables.length).toBe(12);
     const few = demo.slice(0, 4);
     expect(embedParts(enc, few, 128)).toEqual(embedParts(t.encoder, few, 128));
-    t.dispose(); enc.dispose();
+    t.dispose();
+    enc.dispose();
   });
 });
 
@@ -140,8 +191,12 @@ describe('bad input and failures end cleanly', () => {
   it('too few parts, a batch of one, an unknown loss, supervised loss without labels', () => {
     expect(() => new Trainer(demo.slice(0, 1), small)).toThrow(/at least 2 parts/);
     expect(() => new Trainer(demo, { ...small, batchSize: 1 })).toThrow(/batch size/);
-    expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'hinge' as 'nt-xent' } })).toThrow(/unknown loss "hinge"/);
-    expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'supervised-contrastive' } })).toThrow(/needs labels/);
+    expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'hinge' as 'nt-xent' } })).toThrow(
+      /unknown loss "hinge"/,
+    );
+    expect(() => new Trainer(demo, { ...small, loss: { ...small.loss, name: 'supervised-contrastive' } })).toThrow(
+      /needs labels/,
+    );
   });
   it('a NaN loss stops the run with status failed and a message, not a hang', async () => {
     const t = new Trainer(demo, small);
@@ -156,11 +211,28 @@ describe('bad input and failures end cleanly', () => {
   it('a checkpoint from an incompatible configuration is refused with a reason', () => {
     const t = new Trainer(demo, small);
     const ckpt: Checkpoint = {
-      manifest: { format: 'shapekin-encoder', version: 1, config: small, sampling: { points: 512, seed: 0 }, step: 0, totalSteps: 1, status: 'idle', backend: 'wasm', history: [], checks: [] },
-      weights: getWeights(t.encoder), adam: null,
+      manifest: {
+        format: 'shapekin-encoder',
+        version: 1,
+        config: small,
+        sampling: { points: 512, seed: 0 },
+        step: 0,
+        totalSteps: 1,
+        status: 'idle',
+        backend: 'wasm',
+        history: [],
+        checks: [],
+      },
+      weights: getWeights(t.encoder),
+      adam: null,
     };
     const art = toArtifacts(ckpt);
-    const wider = { ...art, modelTopology: { shapekin: { ...ckpt.manifest, config: { ...small, encoder: { ...small.encoder, widths: [32, 64, 256] } } } } };
+    const wider = {
+      ...art,
+      modelTopology: {
+        shapekin: { ...ckpt.manifest, config: { ...small, encoder: { ...small.encoder, widths: [32, 64, 256] } } },
+      },
+    };
     expect(() => fromArtifacts(wider as typeof art)).toThrow(/wrong size|shorter/);
     expect(() => fromArtifacts({ ...art, format: 'layers-model' })).toThrow(/not a Shapekin model/);
     t.dispose();
@@ -176,7 +248,10 @@ describe('default inputs follow the library', () => {
     expect(defaultInputs(lib(49, 103))).toBe('xyz'); // the furniture set
     expect(defaultInputs(lib(112, 0))).toBe('xyz+normal'); // the demo library
     expect(defaultInputs([])).toBe(DEFAULT_TRAIN.encoder.inputFeatures);
-    expect(defaultTrainFor({ closed: lib(0, 3), boxRatios: [] }).encoder).toEqual({ ...DEFAULT_TRAIN.encoder, inputFeatures: 'xyz' });
+    expect(defaultTrainFor({ closed: lib(0, 3), boxRatios: [] }).encoder).toEqual({
+      ...DEFAULT_TRAIN.encoder,
+      inputFeatures: 'xyz',
+    });
     expect(inputsReason(lib(49, 103))).toMatch(/49 of 152/);
   });
 });
@@ -184,7 +259,7 @@ describe('default inputs follow the library', () => {
 describe('default pose follows how square the parts sit in their files', () => {
   // The thresholds are our own, from measurements (docs/results.md: both real furniture sets, 96 % and 90 % of
   // parts square, retrieve better in their files' frame; the demo library, 66 %, keeps principal axes).
-  it('uses the files\' frame (beside principal axes) from 80 % of parts within 5 % of their principal box, principal axes alone below', () => {
+  it("uses the files' frame (beside principal axes) from 80 % of parts within 5 % of their principal box, principal axes alone below", () => {
     const lib = (square: number, turned: number) => [...Array(square).fill(0.9), ...Array(turned).fill(2)];
     expect(defaultPose(lib(8, 2))).toBe('file-and-principal');
     expect(defaultPose(lib(7, 3))).toBe('principal-axes');

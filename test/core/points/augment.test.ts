@@ -1,6 +1,16 @@
 import { describe, expect, it } from 'vitest';
 import { makeCloud, type PointCloud } from '../../../src/core/points/cloud';
-import { augment, blendLocalTransforms, pipelineFromJson, pipelineToJson, PRESETS, viewPair, WARP_SIGMA, type LocalTransform, type Pipeline } from '../../../src/core/points/augment';
+import {
+  augment,
+  blendLocalTransforms,
+  pipelineFromJson,
+  pipelineToJson,
+  PRESETS,
+  viewPair,
+  WARP_SIGMA,
+  type LocalTransform,
+  type Pipeline,
+} from '../../../src/core/points/augment';
 import { cloudDistances } from '../../../src/core/points/distance';
 import { PointIndex } from '../../../src/core/points/kdtree';
 import { axisAngle, randomRotation, rotationAngle, type Mat3 } from '../../../src/core/points/rotation';
@@ -17,13 +27,19 @@ function sphereCloud(n: number, seed: number): PointCloud {
   const rng = createRng(seed);
   const p = new Float32Array(n * 3);
   for (let i = 0; i < n; i++) {
-    const z = rng.uniform(-1, 1), a = rng.uniform(0, 2 * Math.PI), r = Math.sqrt(1 - z * z);
+    const z = rng.uniform(-1, 1),
+      a = rng.uniform(0, 2 * Math.PI),
+      r = Math.sqrt(1 - z * z);
     p.set([r * Math.cos(a), r * Math.sin(a), z], i * 3);
   }
   return makeCloud(p, p.slice());
 }
 
-const only = (kind: Pipeline['steps'][number]['kind'], strength: number): Pipeline => ({ version: 1, upAxis: 'z', steps: [{ kind, strength, probability: 1 }] });
+const only = (kind: Pipeline['steps'][number]['kind'], strength: number): Pipeline => ({
+  version: 1,
+  upAxis: 'z',
+  steps: [{ kind, strength, probability: 1 }],
+});
 
 function det(m: Mat3): number {
   return m[0] * (m[4] * m[8] - m[5] * m[7]) - m[1] * (m[3] * m[8] - m[5] * m[6]) + m[2] * (m[3] * m[7] - m[4] * m[6]);
@@ -35,7 +51,9 @@ describe('rotations', () => {
     for (let t = 0; t < 200; t++) {
       const m = t % 2 ? randomRotation(rng) : axisAngle([0, 0, 1], rng.uniform(-4, 4));
       const mmt: number[] = [];
-      for (let r = 0; r < 3; r++) for (let c = 0; c < 3; c++) mmt.push(m[r * 3] * m[c * 3] + m[r * 3 + 1] * m[c * 3 + 1] + m[r * 3 + 2] * m[c * 3 + 2]);
+      for (let r = 0; r < 3; r++)
+        for (let c = 0; c < 3; c++)
+          mmt.push(m[r * 3] * m[c * 3] + m[r * 3 + 1] * m[c * 3 + 1] + m[r * 3 + 2] * m[c * 3 + 2]);
       expectClose(mmt, [1, 0, 0, 0, 1, 0, 0, 0, 1], { atol: 1e-12 });
       expectClose(det(m), 1, { atol: 1e-12 });
     }
@@ -47,13 +65,23 @@ describe('rotations', () => {
     const cdf = (t: number) => (t - Math.sin(t)) / Math.PI;
     expect(ksStatistic(angles, cdf)).toBeLessThan(ksCritical(n));
     // The test can fail: angles uniform on [0, π] (a common mistake) are rejected.
-    expect(ksStatistic(angles.map((_, i) => (Math.PI * (i + 0.5)) / n), cdf)).toBeGreaterThan(ksCritical(n));
+    expect(
+      ksStatistic(
+        angles.map((_, i) => (Math.PI * (i + 0.5)) / n),
+        cdf,
+      ),
+    ).toBeGreaterThan(ksCritical(n));
   });
   it('rotation about the up axis keeps the up coordinate and every pairwise distance', () => {
     const cloud = randomCloud(64, 3);
     const out = augment(cloud, only('rotate-up', 1), createRng(4));
     for (let i = 0; i < 64; i++) expect(out.positions[i * 3 + 2]).toBeCloseTo(cloud.positions[i * 3 + 2], 6);
-    const d = (c: PointCloud, i: number, j: number) => Math.hypot(c.positions[i * 3] - c.positions[j * 3], c.positions[i * 3 + 1] - c.positions[j * 3 + 1], c.positions[i * 3 + 2] - c.positions[j * 3 + 2]);
+    const d = (c: PointCloud, i: number, j: number) =>
+      Math.hypot(
+        c.positions[i * 3] - c.positions[j * 3],
+        c.positions[i * 3 + 1] - c.positions[j * 3 + 1],
+        c.positions[i * 3 + 2] - c.positions[j * 3 + 2],
+      );
     expectClose(d(out, 3, 40), d(cloud, 3, 40), { atol: 1e-6 });
   });
   it('rotate-any at strength s turns by at most s·180°', () => {
@@ -61,7 +89,17 @@ describe('rotations', () => {
     const rng = createRng(5);
     for (let t = 0; t < 100; t++) {
       const out = augment(cloud, only('rotate-any', 0.25), rng);
-      const m = Float64Array.from([out.positions[0], out.positions[3], out.positions[6], out.positions[1], out.positions[4], out.positions[7], out.positions[2], out.positions[5], out.positions[8]]);
+      const m = Float64Array.from([
+        out.positions[0],
+        out.positions[3],
+        out.positions[6],
+        out.positions[1],
+        out.positions[4],
+        out.positions[7],
+        out.positions[2],
+        out.positions[5],
+        out.positions[8],
+      ]);
       expect(rotationAngle(m)).toBeLessThanOrEqual(0.25 * Math.PI + 1e-5);
     }
   });
@@ -74,12 +112,25 @@ describe('kd-tree wrapper (kd-tree-javascript) against brute force', () => {
       const index = new PointIndex(cloud.positions);
       const rng = createRng(seed + 10);
       for (let q = 0; q < 50; q++) {
-        const x = rng.uniform(-1, 1), y = rng.uniform(-1, 1), z = rng.uniform(-1, 1);
-        const brute = Array.from({ length: 500 }, (_, i) => ({ i, d: (cloud.positions[i * 3] - x) ** 2 + (cloud.positions[i * 3 + 1] - y) ** 2 + (cloud.positions[i * 3 + 2] - z) ** 2 }))
-          .sort((a, b) => a.d - b.d).slice(0, 8);
+        const x = rng.uniform(-1, 1),
+          y = rng.uniform(-1, 1),
+          z = rng.uniform(-1, 1);
+        const brute = Array.from({ length: 500 }, (_, i) => ({
+          i,
+          d:
+            (cloud.positions[i * 3] - x) ** 2 +
+            (cloud.positions[i * 3 + 1] - y) ** 2 +
+            (cloud.positions[i * 3 + 2] - z) ** 2,
+        }))
+          .sort((a, b) => a.d - b.d)
+          .slice(0, 8);
         const found = index.nearest(x, y, z, 8);
         expect(found.map((f) => f.index)).toEqual(brute.map((b) => b.i));
-        expectClose(found.map((f) => f.distanceSq), brute.map((b) => b.d), { rtol: 1e-12, atol: 1e-15 });
+        expectClose(
+          found.map((f) => f.distanceSq),
+          brute.map((b) => b.d),
+          { rtol: 1e-12, atol: 1e-15 },
+        );
       }
     }
   });
@@ -154,16 +205,33 @@ describe('dropout, occlusion and partial view keep N points', () => {
     for (let i = 0; i < out.count; i++) for (let k = 0; k < 3; k++) m[k] += out.normals![i * 3 + k];
     const len = Math.hypot(m[0], m[1], m[2]);
     let minDot = Infinity;
-    for (let i = 0; i < out.count; i++) minDot = Math.min(minDot, (m[0] * out.normals![i * 3] + m[1] * out.normals![i * 3 + 1] + m[2] * out.normals![i * 3 + 2]) / len);
+    for (let i = 0; i < out.count; i++)
+      minDot = Math.min(
+        minDot,
+        (m[0] * out.normals![i * 3] + m[1] * out.normals![i * 3 + 1] + m[2] * out.normals![i * 3 + 2]) / len,
+      );
     expect(minDot).toBeGreaterThan(-0.1);
-    const distinct = new Set(Array.from({ length: out.count }, (_, i) => out.positions.slice(i * 3, i * 3 + 3).join(',')));
+    const distinct = new Set(
+      Array.from({ length: out.count }, (_, i) => out.positions.slice(i * 3, i * 3 + 3).join(',')),
+    );
     expect(distinct.size).toBeGreaterThan(900);
     expect(distinct.size).toBeLessThan(1100);
     expect(out.count).toBe(2000);
   });
   it('strength 0 leaves a cloud unchanged for every step kind', () => {
     const cloud = sphereCloud(200, 19);
-    for (const kind of ['rotate-up', 'rotate-any', 'scale', 'translate', 'jitter', 'dropout', 'occlude', 'partial-view', 'mirror', 'local-warp'] as const) {
+    for (const kind of [
+      'rotate-up',
+      'rotate-any',
+      'scale',
+      'translate',
+      'jitter',
+      'dropout',
+      'occlude',
+      'partial-view',
+      'mirror',
+      'local-warp',
+    ] as const) {
       const out = augment(cloud, only(kind, 0), createRng(20));
       expectClose(out.positions, cloud.positions, { atol: 1e-6 });
     }
@@ -176,15 +244,25 @@ describe('local warp (PointWOLF: Kim, Lee, Hwang & Kim 2021, weighted local tran
     // T_j(p) = L(p − c_j) + c_j + t_j equals L·p + t0 for every anchor when t_j = t0 + L·c_j − c_j.
     const L = Float64Array.from([1.3, 0.2, 0, -0.1, 0.9, 0.3, 0, 0.4, 1.1]);
     const t0 = [0.05, -0.1, 0.2];
-    const transforms: LocalTransform[] = [[0.5, 0, 0], [-0.4, 0.3, 0.1], [0, -0.6, 0.5]].map((c) => {
+    const transforms: LocalTransform[] = [
+      [0.5, 0, 0],
+      [-0.4, 0.3, 0.1],
+      [0, -0.6, 0.5],
+    ].map((c) => {
       const Lc = [0, 1, 2].map((r) => L[r * 3] * c[0] + L[r * 3 + 1] * c[1] + L[r * 3 + 2] * c[2]);
-      return { centre: c as [number, number, number], linear: L, shift: [0, 1, 2].map((r) => t0[r] + Lc[r] - c[r]) as [number, number, number] };
+      return {
+        centre: c as [number, number, number],
+        linear: L,
+        shift: [0, 1, 2].map((r) => t0[r] + Lc[r] - c[r]) as [number, number, number],
+      };
     });
     const cloud = randomCloud(50, 31);
     const p = cloud.positions.slice();
     blendLocalTransforms(p, null, transforms, 7);
     const expected = Array.from({ length: 150 }, (_, e) => {
-      const i = Math.floor(e / 3), r = e % 3, q = cloud.positions;
+      const i = Math.floor(e / 3),
+        r = e % 3,
+        q = cloud.positions;
       return L[r * 3] * q[i * 3] + L[r * 3 + 1] * q[i * 3 + 1] + L[r * 3 + 2] * q[i * 3 + 2] + t0[r];
     });
     expectClose(p, expected, { atol: 1e-5 });
@@ -214,22 +292,47 @@ describe('local warp (PointWOLF: Kim, Lee, Hwang & Kim 2021, weighted local tran
       const unit = n.map((v) => v / len);
       // Two tangents orthogonal to the normal, mapped by A; their cross product is the mapped surface's normal.
       const helper = Math.abs(unit[0]) < 0.9 ? [1, 0, 0] : [0, 1, 0];
-      const cross = (a: number[], b: number[]) => [a[1] * b[2] - a[2] * b[1], a[2] * b[0] - a[0] * b[2], a[0] * b[1] - a[1] * b[0]];
-      const u = cross(unit, helper), v = cross(unit, u);
+      const cross = (a: number[], b: number[]) => [
+        a[1] * b[2] - a[2] * b[1],
+        a[2] * b[0] - a[0] * b[2],
+        a[0] * b[1] - a[1] * b[0],
+      ];
+      const u = cross(unit, helper),
+        v = cross(unit, u);
       const map = (w: number[]) => [0, 1, 2].map((r) => A[r * 3] * w[0] + A[r * 3 + 1] * w[1] + A[r * 3 + 2] * w[2]);
       const want = cross(map(u), map(v));
       const wl = Math.hypot(want[0], want[1], want[2]);
       const normals = Float32Array.from(unit);
-      blendLocalTransforms(Float32Array.from([0.1, 0.2, 0.3]), normals, [{ centre: [0, 0, 0], linear: A, shift: [0, 0, 0] }], 7);
-      expectClose(normals, want.map((w) => w / wl), { atol: 1e-5 });
+      blendLocalTransforms(
+        Float32Array.from([0.1, 0.2, 0.3]),
+        normals,
+        [{ centre: [0, 0, 0], linear: A, shift: [0, 0, 0] }],
+        7,
+      );
+      expectClose(
+        normals,
+        want.map((w) => w / wl),
+        { atol: 1e-5 },
+      );
     }
   });
   it('at full strength the view is deformed, then back in the unit sphere about its centroid', () => {
     const cloud = sphereCloud(500, 34);
     const out = augment(cloud, only('local-warp', 1), createRng(35));
-    let mx = 0, my = 0, mz = 0, r = 0;
-    for (let i = 0; i < 500; i++) { mx += out.positions[i * 3] / 500; my += out.positions[i * 3 + 1] / 500; mz += out.positions[i * 3 + 2] / 500; }
-    for (let i = 0; i < 500; i++) r = Math.max(r, Math.hypot(out.positions[i * 3] - mx, out.positions[i * 3 + 1] - my, out.positions[i * 3 + 2] - mz));
+    let mx = 0,
+      my = 0,
+      mz = 0,
+      r = 0;
+    for (let i = 0; i < 500; i++) {
+      mx += out.positions[i * 3] / 500;
+      my += out.positions[i * 3 + 1] / 500;
+      mz += out.positions[i * 3 + 2] / 500;
+    }
+    for (let i = 0; i < 500; i++)
+      r = Math.max(
+        r,
+        Math.hypot(out.positions[i * 3] - mx, out.positions[i * 3 + 1] - my, out.positions[i * 3 + 2] - mz),
+      );
     expectClose([mx, my, mz, r], [0, 0, 0, 1], { atol: 1e-5 });
     expect(cloudDistances(out, cloud).chamfer).toBeGreaterThan(1e-3);
   });
@@ -251,7 +354,11 @@ describe('pipelines, presets and view pairs', () => {
   });
   it('a step with probability 0 never applies', () => {
     const cloud = sphereCloud(100, 23);
-    const out = augment(cloud, { version: 1, upAxis: 'z', steps: [{ kind: 'translate', strength: 1, probability: 0 }] }, createRng(1));
+    const out = augment(
+      cloud,
+      { version: 1, upAxis: 'z', steps: [{ kind: 'translate', strength: 1, probability: 0 }] },
+      createRng(1),
+    );
     expect(Array.from(out.positions)).toEqual(Array.from(cloud.positions));
   });
 });
@@ -259,10 +366,22 @@ describe('pipelines, presets and view pairs', () => {
 describe('bad input gets a clear error, never a silent NaN cloud', () => {
   it('empty cloud, NaN point, strengths and probabilities outside [0, 1], unknown kinds, bad JSON', () => {
     expect(() => augment(makeCloud(new Float32Array(0)), PRESETS.gentle, createRng(1))).toThrow(/empty/);
-    expect(() => augment(makeCloud(Float32Array.from([0, 0, NaN])), PRESETS.gentle, createRng(1))).toThrow(/point 0 has a non-finite/);
-    expect(() => augment(sphereCloud(10, 1), only('jitter', 1.5), createRng(1))).toThrow(/jitter: strength must be in \[0, 1\], got 1.5/);
-    expect(() => augment(sphereCloud(10, 1), { version: 1, upAxis: 'z', steps: [{ kind: 'scale', strength: 0.5, probability: -1 }] }, createRng(1))).toThrow(/probability/);
-    expect(() => pipelineFromJson('{"version":1,"upAxis":"z","steps":[{"kind":"twist","strength":1,"probability":1}]}')).toThrow(/unknown kind "twist"/);
+    expect(() => augment(makeCloud(Float32Array.from([0, 0, NaN])), PRESETS.gentle, createRng(1))).toThrow(
+      /point 0 has a non-finite/,
+    );
+    expect(() => augment(sphereCloud(10, 1), only('jitter', 1.5), createRng(1))).toThrow(
+      /jitter: strength must be in \[0, 1\], got 1.5/,
+    );
+    expect(() =>
+      augment(
+        sphereCloud(10, 1),
+        { version: 1, upAxis: 'z', steps: [{ kind: 'scale', strength: 0.5, probability: -1 }] },
+        createRng(1),
+      ),
+    ).toThrow(/probability/);
+    expect(() =>
+      pipelineFromJson('{"version":1,"upAxis":"z","steps":[{"kind":"twist","strength":1,"probability":1}]}'),
+    ).toThrow(/unknown kind "twist"/);
     expect(() => pipelineFromJson('{oops')).toThrow(/not valid JSON/);
     expect(() => cloudDistances(makeCloud(new Float32Array(0)), sphereCloud(3, 1))).toThrow(/empty/);
   });

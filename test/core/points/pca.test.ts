@@ -5,13 +5,21 @@ import { embedForRetrieval, embedParts, RETRIEVAL_RESAMPLINGS } from '../../../s
 import { resampled } from '../../../src/core/model/views';
 import { makeCloud } from '../../../src/core/points/cloud';
 import { defaultPose } from '../../../src/core/model/defaults';
-import { alignToPrincipalAxes, boxVolume, fileFrameBoxRatio, principalFrame, symmetricEigen3 } from '../../../src/core/points/pca';
+import {
+  alignToPrincipalAxes,
+  boxVolume,
+  fileFrameBoxRatio,
+  principalFrame,
+  symmetricEigen3,
+} from '../../../src/core/points/pca';
 import { axisAngle, randomRotation, transformPoints } from '../../../src/core/points/rotation';
 import { createRng } from '../../../src/core/rng';
 import { expectClose } from '../../helpers';
 import { useBackend } from '../../tf-helpers';
 
-beforeAll(async () => { await useBackend('wasm'); });
+beforeAll(async () => {
+  await useBackend('wasm');
+});
 
 /** Points spread unevenly along three axes (a skewed box), so the principal axes are well defined. */
 function skewedCloud(n: number, seed: number): Float32Array {
@@ -21,9 +29,19 @@ function skewedCloud(n: number, seed: number): Float32Array {
     const u = rng.next();
     p.set([3 * u * u - 1, rng.uniform(-0.6, 0.6) * (0.5 + u), rng.uniform(-0.2, 0.2)], i * 3);
   }
-  let cx = 0, cy = 0, cz = 0;
-  for (let i = 0; i < n; i++) { cx += p[i * 3]; cy += p[i * 3 + 1]; cz += p[i * 3 + 2]; }
-  for (let i = 0; i < n; i++) { p[i * 3] -= cx / n; p[i * 3 + 1] -= cy / n; p[i * 3 + 2] -= cz / n; }
+  let cx = 0,
+    cy = 0,
+    cz = 0;
+  for (let i = 0; i < n; i++) {
+    cx += p[i * 3];
+    cy += p[i * 3 + 1];
+    cz += p[i * 3 + 2];
+  }
+  for (let i = 0; i < n; i++) {
+    p[i * 3] -= cx / n;
+    p[i * 3 + 1] -= cy / n;
+    p[i * 3 + 2] -= cz / n;
+  }
   return p;
 }
 
@@ -32,7 +50,8 @@ describe('symmetric 3×3 eigen-decomposition (Jacobi)', () => {
     const r = axisAngle([0.6, 0.8, 0], 0.7);
     const lam = [5, 2, 0.5];
     const m = new Float64Array(9);
-    for (let i = 0; i < 3; i++) for (let j = 0; j < 3; j++) for (let k = 0; k < 3; k++) m[i * 3 + j] += r[i * 3 + k] * lam[k] * r[j * 3 + k];
+    for (let i = 0; i < 3; i++)
+      for (let j = 0; j < 3; j++) for (let k = 0; k < 3; k++) m[i * 3 + j] += r[i * 3 + k] * lam[k] * r[j * 3 + k];
     const { values, vectors } = symmetricEigen3(m);
     expectClose(values, lam, { atol: 1e-10 });
     for (let k = 0; k < 3; k++) {
@@ -47,7 +66,8 @@ describe('principal-axes pose', () => {
   it('is a proper rotation, and a rotated copy lands in the same pose', () => {
     const p = skewedCloud(3000, 1);
     const m = principalFrame(p);
-    const det = m[0] * (m[4] * m[8] - m[5] * m[7]) - m[1] * (m[3] * m[8] - m[5] * m[6]) + m[2] * (m[3] * m[7] - m[4] * m[6]);
+    const det =
+      m[0] * (m[4] * m[8] - m[5] * m[7]) - m[1] * (m[3] * m[8] - m[5] * m[6]) + m[2] * (m[3] * m[7] - m[4] * m[6]);
     expectClose(det, 1, { atol: 1e-9 });
     const a = alignToPrincipalAxes(makeCloud(p)).positions;
     const rng = createRng(2);
@@ -80,9 +100,11 @@ describe('how square a part sits in its file (file-frame box over principal box)
   /** A centred lattice filling a cuboid with half-extents a: symmetric, so its principal axes are the cuboid's. */
   function cuboidLattice(a: readonly [number, number, number], steps = 8): Float32Array {
     const out: number[] = [];
-    for (let i = 0; i <= steps; i++) for (let j = 0; j <= steps; j++) for (let k = 0; k <= steps; k++) {
-      out.push(a[0] * (2 * i / steps - 1), a[1] * (2 * j / steps - 1), a[2] * (2 * k / steps - 1));
-    }
+    for (let i = 0; i <= steps; i++)
+      for (let j = 0; j <= steps; j++)
+        for (let k = 0; k <= steps; k++) {
+          out.push(a[0] * ((2 * i) / steps - 1), a[1] * ((2 * j) / steps - 1), a[2] * ((2 * k) / steps - 1));
+        }
     return Float32Array.from(out);
   }
   const a: [number, number, number] = [1, 0.5, 0.25];
@@ -100,7 +122,8 @@ describe('how square a part sits in its file (file-frame box over principal box)
     for (let t = 0; t < 5; t++) {
       const r = randomRotation(rng);
       let expected = 1;
-      for (let i = 0; i < 3; i++) expected *= (Math.abs(r[i * 3]) * a[0] + Math.abs(r[i * 3 + 1]) * a[1] + Math.abs(r[i * 3 + 2]) * a[2]) / a[i];
+      for (let i = 0; i < 3; i++)
+        expected *= (Math.abs(r[i * 3]) * a[0] + Math.abs(r[i * 3 + 1]) * a[1] + Math.abs(r[i * 3 + 2]) * a[2]) / a[i];
       expectClose(fileFrameBoxRatio(transformPoints(r, cuboidLattice(a))), expected, { rtol: 1e-5 });
     }
   });
@@ -109,7 +132,9 @@ describe('how square a part sits in its file (file-frame box over principal box)
     const rng = createRng(12);
     const parts = Array.from({ length: 20 }, (_, i) => cuboidLattice([1, 0.4 + 0.02 * i, 0.2], 5));
     expect(defaultPose(parts.map((p) => fileFrameBoxRatio(p)))).toBe('file-and-principal');
-    expect(defaultPose(parts.map((p) => fileFrameBoxRatio(transformPoints(randomRotation(rng), p))))).toBe('principal-axes');
+    expect(defaultPose(parts.map((p) => fileFrameBoxRatio(transformPoints(randomRotation(rng), p))))).toBe(
+      'principal-axes',
+    );
   });
 
   it('gives a flat part a thin box instead of a zero one', () => {
@@ -148,11 +173,17 @@ describe('retrieval embedding averaged over resamplings', () => {
     const other = skewedCloud(512, 9);
     const a = embedForRetrieval(enc, [{ points: other, normals: zeros }], 128, 'as-is', 1);
     const b = embedForRetrieval(enc, [{ points: other, normals: zeros }], 128, 'as-is', RETRIEVAL_RESAMPLINGS);
-    let cos = 0, len = 0;
-    for (let i = 0; i < a.length; i++) { cos += a[i] * b[i]; len += b[i] * b[i]; }
+    let cos = 0,
+      len = 0;
+    for (let i = 0; i < a.length; i++) {
+      cos += a[i] * b[i];
+      len += b[i] * b[i];
+    }
     expect(cos).toBeLessThan(0.99999);
     expectClose(len, 1, { atol: 1e-5 });
-    expect(() => embedForRetrieval(enc, [{ points: other, normals: zeros }], 128, 'as-is', 0)).toThrow(/resamplings must be a whole number/);
+    expect(() => embedForRetrieval(enc, [{ points: other, normals: zeros }], 128, 'as-is', 0)).toThrow(
+      /resamplings must be a whole number/,
+    );
     enc.dispose();
   });
 });

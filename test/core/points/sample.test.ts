@@ -5,12 +5,20 @@ import { finishMesh } from '../../../src/core/mesh/geometry';
 import type { Mesh } from '../../../src/core/mesh/types';
 import { makeCloud } from '../../../src/core/points/cloud';
 import { samplePart } from '../../../src/core/points/part';
-import { farthestPointSample, normaliseToUnitSphere, resamplePoints, sampleSurface } from '../../../src/core/points/sample';
+import {
+  farthestPointSample,
+  normaliseToUnitSphere,
+  resamplePoints,
+  sampleSurface,
+} from '../../../src/core/points/sample';
 import { createRng } from '../../../src/core/rng';
 import { chiSquare, chiSquareCritical, expectClose, ksCritical, ksStatistic } from '../../helpers';
 import { fromThree } from '../../meshes';
 
-const triangle: Mesh = { positions: Float32Array.from([0, 0, 0, 1, 0, 0, 0, 1, 0]), indices: Uint32Array.from([0, 1, 2]) };
+const triangle: Mesh = {
+  positions: Float32Array.from([0, 0, 0, 1, 0, 0, 0, 1, 0]),
+  indices: Uint32Array.from([0, 1, 2]),
+};
 
 describe('uniform surface sampling (Osada et al. 2002, square-root barycentric formula)', () => {
   it("Archimedes' hat-box theorem: z of points uniform on a sphere is uniform on [−r, r] (KS, α = 0.001)", () => {
@@ -20,7 +28,12 @@ describe('uniform surface sampling (Osada et al. 2002, square-root barycentric f
     const z = Array.from({ length: n }, (_, i) => cloud.positions[i * 3 + 2]);
     expect(ksStatistic(z, (x) => (x + 1) / 2)).toBeLessThan(ksCritical(n));
     // The test can fail: the same KS test rejects z² (not uniform).
-    expect(ksStatistic(z.map((v) => v * Math.abs(v)), (x) => (x + 1) / 2)).toBeGreaterThan(ksCritical(n));
+    expect(
+      ksStatistic(
+        z.map((v) => v * Math.abs(v)),
+        (x) => (x + 1) / 2,
+      ),
+    ).toBeGreaterThan(ksCritical(n));
   });
   it('inside a triangle: x has the marginal CDF 1 − (1 − x)² of the uniform density on the unit right triangle (KS)', () => {
     const n = 20000;
@@ -29,14 +42,20 @@ describe('uniform surface sampling (Osada et al. 2002, square-root barycentric f
     expect(ksStatistic(x, (v) => 1 - (1 - v) ** 2)).toBeLessThan(ksCritical(n));
     // The naive formula (r1, r2 as barycentric weights, folded) is not uniform in the same sense — check
     // that the test would notice an unfolded u ~ U(0,1) marginal.
-    expect(ksStatistic(x.map((_, i) => (i + 0.5) / n), (v) => 1 - (1 - v) ** 2)).toBeGreaterThan(ksCritical(n));
+    expect(
+      ksStatistic(
+        x.map((_, i) => (i + 0.5) / n),
+        (v) => 1 - (1 - v) ** 2,
+      ),
+    ).toBeGreaterThan(ksCritical(n));
   });
   it('the four midpoint sub-triangles (equal areas) receive equal counts (chi-square, 3 dof, α = 0.001)', () => {
     const n = 40000;
     const cloud = sampleSurface(triangle, n, createRng(3));
     const counts = [0, 0, 0, 0];
     for (let i = 0; i < n; i++) {
-      const x = cloud.positions[i * 3], y = cloud.positions[i * 3 + 1];
+      const x = cloud.positions[i * 3],
+        y = cloud.positions[i * 3 + 1];
       counts[x > 0.5 ? 1 : y > 0.5 ? 2 : x + y < 0.5 ? 0 : 3]++;
     }
     expect(chiSquare(counts, [n / 4, n / 4, n / 4, n / 4])).toBeLessThan(chiSquareCritical(3));
@@ -60,9 +79,15 @@ describe('uniform surface sampling (Osada et al. 2002, square-root barycentric f
     }
     const expected = Array.from(areas, (a) => (a / total) * n);
     const keep = expected.map((e, i) => [e, observed[i]]).filter(([e]) => e >= 5); // the usual E ≥ 5 rule
-    expect(chiSquare(keep.map((k) => k[1]), keep.map((k) => k[0]))).toBeLessThan(chiSquareCritical(keep.length - 1));
+    expect(
+      chiSquare(
+        keep.map((k) => k[1]),
+        keep.map((k) => k[0]),
+      ),
+    ).toBeLessThan(chiSquareCritical(keep.length - 1));
     // And every sample lies on its triangle (three.js Triangle.closestPointToPoint).
-    const p = new Vector3(), q = new Vector3();
+    const p = new Vector3(),
+      q = new Vector3();
     let worst = 0;
     for (let i = 0; i < 2000; i++) {
       const t = which[i];
@@ -106,17 +131,28 @@ describe('point-only inputs and down-sampling', () => {
       let worst = 0;
       for (let i = 0; i < pts.count; i++) {
         let best = Infinity;
-        for (const c of chosen) best = Math.min(best, Math.hypot(pts.positions[i * 3] - pts.positions[c * 3], pts.positions[i * 3 + 1] - pts.positions[c * 3 + 1], pts.positions[i * 3 + 2] - pts.positions[c * 3 + 2]));
+        for (const c of chosen)
+          best = Math.min(
+            best,
+            Math.hypot(
+              pts.positions[i * 3] - pts.positions[c * 3],
+              pts.positions[i * 3 + 1] - pts.positions[c * 3 + 1],
+              pts.positions[i * 3 + 2] - pts.positions[c * 3 + 2],
+            ),
+          );
         worst = Math.max(worst, best);
       }
       return worst;
     };
     let optimal = Infinity; // brute force over all 220 triples
-    for (let a = 0; a < 12; a++) for (let b = a + 1; b < 12; b++) for (let c = b + 1; c < 12; c++) optimal = Math.min(optimal, radius([a, b, c]));
+    for (let a = 0; a < 12; a++)
+      for (let b = a + 1; b < 12; b++) for (let c = b + 1; c < 12; c++) optimal = Math.min(optimal, radius([a, b, c]));
     for (let seed = 0; seed < 5; seed++) {
       const fps = farthestPointSample(pts, k, createRng(seed));
       const chosen = Array.from({ length: k }, (_, j) => {
-        for (let i = 0; i < pts.count; i++) if (pts.positions[i * 3] === fps.positions[j * 3] && pts.positions[i * 3 + 1] === fps.positions[j * 3 + 1]) return i;
+        for (let i = 0; i < pts.count; i++)
+          if (pts.positions[i * 3] === fps.positions[j * 3] && pts.positions[i * 3 + 1] === fps.positions[j * 3 + 1])
+            return i;
         throw new Error('FPS returned a point not in the input');
       });
       expect(radius(chosen)).toBeLessThanOrEqual(2 * optimal + 1e-12);
@@ -140,7 +176,11 @@ describe('normalisation to the unit sphere keeps the real size', () => {
     expectClose(a.radius, 25, { rtol: 1e-6 });
     expectClose(a.diagonal, Math.sqrt(3) * 50, { rtol: 1e-3 });
     let maxR = 0;
-    for (let i = 0; i < 256; i++) maxR = Math.max(maxR, Math.hypot(a.cloud.positions[i * 3], a.cloud.positions[i * 3 + 1], a.cloud.positions[i * 3 + 2]));
+    for (let i = 0; i < 256; i++)
+      maxR = Math.max(
+        maxR,
+        Math.hypot(a.cloud.positions[i * 3], a.cloud.positions[i * 3 + 1], a.cloud.positions[i * 3 + 2]),
+      );
     expect(maxR).toBeLessThanOrEqual(1 + 1e-6);
   });
 });

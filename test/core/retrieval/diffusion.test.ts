@@ -1,6 +1,13 @@
 import { describe, expect, it } from 'vitest';
 import { Matrix, inverse } from 'ml-matrix';
-import { DIFFUSION_DEFAULTS, DiffusionGraph, diffusedSimilarity, rankingKeys, validateDiffusion, type DiffusionOptions } from '../../../src/core/retrieval/diffusion';
+import {
+  DIFFUSION_DEFAULTS,
+  DiffusionGraph,
+  diffusedSimilarity,
+  rankingKeys,
+  validateDiffusion,
+  type DiffusionOptions,
+} from '../../../src/core/retrieval/diffusion';
 import { throughLibrary } from '../../../src/core/retrieval/hubness';
 import { EmbeddingIndex } from '../../../src/core/retrieval/index';
 import { createRng } from '../../../src/core/rng';
@@ -20,7 +27,11 @@ const dot = (a: number[], b: number[]) => a.reduce((s, x, i) => s + x * b[i], 0)
 function referenceW(sim: number[][], k: number, gamma: number): number[][] {
   const n = sim.length;
   const A = sim.map((row, i) => {
-    const order = row.map((_, j) => j).filter((j) => j !== i).sort((a, b) => row[b] - row[a] || a - b).slice(0, k);
+    const order = row
+      .map((_, j) => j)
+      .filter((j) => j !== i)
+      .sort((a, b) => row[b] - row[a] || a - b)
+      .slice(0, k);
     const out = new Array<number>(n).fill(0);
     for (const j of order) out[j] = Math.max(0, row[j]) ** gamma;
     return out;
@@ -34,7 +45,9 @@ function closedForm(W: number[][], alpha: number, source: number): number[] {
   const d = W.map((row) => row.reduce((a, b) => a + b, 0));
   const S = new Matrix(W.map((row, i) => row.map((w, j) => w / Math.sqrt(d[i] * d[j]))));
   const M = Matrix.eye(n).sub(S.mul(alpha));
-  return inverse(M).getColumn(source).map((v) => (1 - alpha) * v);
+  return inverse(M)
+    .getColumn(source)
+    .map((v) => (1 - alpha) * v);
 }
 
 describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', () => {
@@ -45,13 +58,19 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
   it('builds W = (A + Aᵀ)/2 with A_ij = max(0, cos)^γ over each part’s k nearest', () => {
     const graph = DiffusionGraph.build(V.length, (i, j) => sim[i][j], options);
     const W = referenceW(sim, options.k, options.gamma);
-    for (let i = 0; i < V.length; i++) expectClose(W[i].map((_, j) => graph.weight(i, j)), W[i], { atol: 1e-12 });
+    for (let i = 0; i < V.length; i++)
+      expectClose(
+        W[i].map((_, j) => graph.weight(i, j)),
+        W[i],
+        { atol: 1e-12 },
+      );
   });
 
   it('converges to the closed form (1 − α)(I − αS)⁻¹ e_i, inverted by ml-matrix', () => {
     const graph = DiffusionGraph.build(V.length, (i, j) => sim[i][j], options);
     const W = referenceW(sim, options.k, options.gamma);
-    for (const source of [0, 7, 29]) expectClose(graph.scoresFrom(source), closedForm(W, options.alpha, source), { atol: 1e-9 });
+    for (const source of [0, 7, 29])
+      expectClose(graph.scoresFrom(source), closedForm(W, options.alpha, source), { atol: 1e-9 });
     // Fewer iterations stop short by at most α^t of the start (here the start is e_i with norm 1).
     const short = DiffusionGraph.build(V.length, (i, j) => sim[i][j], { ...options, iterations: 10 }).scoresFrom(7);
     const exact = closedForm(W, options.alpha, 7);
@@ -70,14 +89,26 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
     const n = V.length;
     const A: number[][] = Array.from({ length: n + 1 }, () => new Array<number>(n + 1).fill(0));
     sim.forEach((row, i) => {
-      const order = row.map((_, j) => j).filter((j) => j !== i).sort((a, b) => row[b] - row[a] || a - b);
+      const order = row
+        .map((_, j) => j)
+        .filter((j) => j !== i)
+        .sort((a, b) => row[b] - row[a] || a - b);
       for (const j of order.slice(0, options.k)) A[i][j] = Math.max(0, row[j]) ** 3;
       if (s[i] > row[order[options.k - 1]]) A[i][n] = Math.max(0, s[i]) ** 3;
     });
-    for (const j of s.map((_, j) => j).sort((a, b) => s[b] - s[a] || a - b).slice(0, options.k)) A[n][j] = Math.max(0, s[j]) ** 3;
+    for (const j of s
+      .map((_, j) => j)
+      .sort((a, b) => s[b] - s[a] || a - b)
+      .slice(0, options.k))
+      A[n][j] = Math.max(0, s[j]) ** 3;
     const W = A.map((row, i) => row.map((a, j) => (a + A[j][i]) / 2));
     expect(W[n].filter((w) => w > 0).length).toBeGreaterThanOrEqual(options.k);
-    for (let i = 0; i <= n; i++) expectClose(W[i].map((_, j) => joined.weight(i, j)), W[i], { atol: 1e-12 });
+    for (let i = 0; i <= n; i++)
+      expectClose(
+        W[i].map((_, j) => joined.weight(i, j)),
+        W[i],
+        { atol: 1e-12 },
+      );
     expectClose(joined.scoresFrom(n), closedForm(W, options.alpha, n), { atol: 1e-9 });
   });
 
@@ -102,7 +133,12 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
     const deg = [0, -4, 6, 8, 10, 12, 14];
     const P = deg.map((d) => [Math.cos((d * Math.PI) / 180), Math.sin((d * Math.PI) / 180)]);
     const s = P.map((a) => P.map((b) => dot(a, b)));
-    const f = DiffusionGraph.build(P.length, (i, j) => s[i][j], { k: 3, alpha: 0.9, gamma: 3, iterations: 400 }).scoresFrom(0);
+    const f = DiffusionGraph.build(P.length, (i, j) => s[i][j], {
+      k: 3,
+      alpha: 0.9,
+      gamma: 3,
+      iterations: 400,
+    }).scoresFrom(0);
     const byDiffusion = [1, 2, 3, 4, 5, 6].sort((a, b) => f[b] - f[a]);
     expect(byDiffusion).toEqual([2, 3, 1, 4, 5, 6]); // the twin third by diffusion alone
     const keys = rankingKeys(f, s[0], P.length, (j) => j !== 0);
@@ -113,7 +149,11 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
     expect([1, 2, 3, 4, 5, 6].sort((a, b) => loo(0, b) - loo(0, a))).toEqual([1, 2, 3, 4, 5, 6]);
     // The index orders through the library, hub-corrected before diffusion: the twin still comes first, and the
     // order is the leave-one-out one from the same steps.
-    const index = new EmbeddingIndex(Float32Array.from(P.flat()), 2, P.map((_, i) => ({ name: `p${i}`, label: i === 1 ? 'twin' : 'family', diagonal: 1 })));
+    const index = new EmbeddingIndex(
+      Float32Array.from(P.flat()),
+      2,
+      P.map((_, i) => ({ name: `p${i}`, label: i === 1 ? 'twin' : 'family', diagonal: 1 })),
+    );
     const through = throughLibrary(P.length, (i, j) => s[i][j], opts);
     const wanted = [1, 2, 3, 4, 5, 6].sort((a, b) => through(0, b) - through(0, a) || a - b);
     expect(wanted[0]).toBe(1);
@@ -132,12 +172,23 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
 
   it('the index orders hits through the library (hub-corrected, diffused) and reports their cosine; leave-one-out keys come from the same graph', () => {
     const flat = Float32Array.from(V.flat());
-    const index = new EmbeddingIndex(flat, 6, V.map((_, i) => ({ name: `p${i}`, label: 'x', diagonal: 1 })));
+    const index = new EmbeddingIndex(
+      flat,
+      6,
+      V.map((_, i) => ({ name: `p${i}`, label: 'x', diagonal: 1 })),
+    );
     const graph = index.diffusionGraph();
     expect(index.diffusionGraph()).toBe(graph); // built once
     const fromPart = index.queryDiffused(index.vector(4), 29, { exclude: 4 });
-    const keys = rankingKeys(graph.scoresFrom(4), index.hubCorrected(index.scores(index.vector(4)), 4), V.length, (j) => j !== 4);
-    expect(fromPart.map((h) => h.index)).toEqual([...keys.keys()].filter((j) => j !== 4).sort((a, b) => keys[b] - keys[a] || a - b));
+    const keys = rankingKeys(
+      graph.scoresFrom(4),
+      index.hubCorrected(index.scores(index.vector(4)), 4),
+      V.length,
+      (j) => j !== 4,
+    );
+    expect(fromPart.map((h) => h.index)).toEqual(
+      [...keys.keys()].filter((j) => j !== 4).sort((a, b) => keys[b] - keys[a] || a - b),
+    );
     fromPart.forEach((h) => expectClose(h.score, dot(V[4], V[h.index]), { atol: 1e-6 }));
     const loo = throughLibrary(V.length, (i, j) => sim[i][j], DIFFUSION_DEFAULTS);
     const viaLoo = [...Array(V.length).keys()].filter((j) => j !== 4).sort((a, b) => loo(4, b) - loo(4, a) || a - b);
@@ -145,9 +196,17 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
     // A vector from outside the library ranks as its node in the joined graph.
     const [q] = unitVectors(1, 6, 3);
     const outside = index.queryDiffused(q, 5);
-    const cos = index.scores(q), corrected = index.hubCorrected(cos);
-    const joinedKeys = rankingKeys(graph.withQuery(corrected).scoresFrom(V.length), corrected, V.length, (j) => j < V.length);
-    expect(outside.map((h) => h.index)).toEqual([...joinedKeys.keys()].sort((a, b) => joinedKeys[b] - joinedKeys[a] || a - b).slice(0, 5));
+    const cos = index.scores(q),
+      corrected = index.hubCorrected(cos);
+    const joinedKeys = rankingKeys(
+      graph.withQuery(corrected).scoresFrom(V.length),
+      corrected,
+      V.length,
+      (j) => j < V.length,
+    );
+    expect(outside.map((h) => h.index)).toEqual(
+      [...joinedKeys.keys()].sort((a, b) => joinedKeys[b] - joinedKeys[a] || a - b).slice(0, 5),
+    );
     expect(index.ranked('cosine', q, 5)).toEqual(index.query(q, 5));
   });
 });
@@ -157,11 +216,27 @@ describe('when diffusion applies', () => {
     const rng = createRng(7);
     const spread = Array.from({ length: 20 }, () => Array.from({ length: 5 }, () => rng.normal())); // mean cosine near 0
     const concentrated = unitVectors(20, 5, 8).map((v) => v.map((x, d) => (d === 0 ? x + 20 : x)));
-    for (const [set, applies] of [[spread, true], [concentrated, false]] as const) {
-      const index = new EmbeddingIndex(Float32Array.from(set.flat()), 5, set.map((_, i) => ({ name: `p${i}`, label: 'x', diagonal: 1 })));
-      const unit = set.map((v) => { const s = Math.hypot(...v); return v.map((x) => x / s); });
-      let sum = 0, pairs = 0;
-      for (let i = 0; i < unit.length; i++) for (let j = 0; j < unit.length; j++) if (i !== j) { sum += dot(unit[i], unit[j]); pairs++; }
+    for (const [set, applies] of [
+      [spread, true],
+      [concentrated, false],
+    ] as const) {
+      const index = new EmbeddingIndex(
+        Float32Array.from(set.flat()),
+        5,
+        set.map((_, i) => ({ name: `p${i}`, label: 'x', diagonal: 1 })),
+      );
+      const unit = set.map((v) => {
+        const s = Math.hypot(...v);
+        return v.map((x) => x / s);
+      });
+      let sum = 0,
+        pairs = 0;
+      for (let i = 0; i < unit.length; i++)
+        for (let j = 0; j < unit.length; j++)
+          if (i !== j) {
+            sum += dot(unit[i], unit[j]);
+            pairs++;
+          }
       expectClose(index.meanPairCosine(), sum / pairs, { atol: 1e-6 });
       expect(index.diffusionApplies()).toBe(applies);
       const q = index.vector(3);

@@ -28,8 +28,16 @@ describe('CSLS (Conneau et al. 2018, eq. 6)', () => {
     // apart; every other pair is 0.1. r(0) = (0.9 + 0.9)/2 = 0.9, r(1) = (0.8 + 0.75)/2 = 0.775,
     // r(2) = (0.75 + 0.5)/2 = 0.625. CSLS(1, 0) = 1.6 − 0.775 − 0.9 = −0.075; CSLS(1, 2) = 1.5 − 0.775 − 0.625 = 0.1.
     const S = Array.from({ length: 6 }, () => new Array(6).fill(0.1));
-    const set = (i: number, j: number, v: number) => { S[i][j] = v; S[j][i] = v; };
-    set(0, 1, 0.8); set(0, 2, 0.5); set(0, 3, 0.9); set(0, 4, 0.9); set(0, 5, 0.9); set(1, 2, 0.75);
+    const set = (i: number, j: number, v: number) => {
+      S[i][j] = v;
+      S[j][i] = v;
+    };
+    set(0, 1, 0.8);
+    set(0, 2, 0.5);
+    set(0, 3, 0.9);
+    set(0, 4, 0.9);
+    set(0, 5, 0.9);
+    set(1, 2, 0.75);
     const sim = (i: number, j: number) => S[i][j];
     const r = neighbourhoodMeans(6, sim, 2);
     expectClose([r[0], r[1], r[2]], [0.9, 0.775, 0.625], { atol: 1e-12 });
@@ -51,11 +59,17 @@ describe('CSLS (Conneau et al. 2018, eq. 6)', () => {
   it('the index scores a query as 2·cos − r(q) − r(j), with r(q) leaving the query part out when it is in the library', () => {
     const deg = [0, 10, 20, 90, 100];
     const flat = Float32Array.from(deg.flatMap((d) => [Math.cos(rad(d)), Math.sin(rad(d))]));
-    const index = new EmbeddingIndex(flat, 2, deg.map((d) => ({ name: `${d}°`, label: 'x', diagonal: 1 })));
+    const index = new EmbeddingIndex(
+      flat,
+      2,
+      deg.map((d) => ({ name: `${d}°`, label: 'x', diagonal: 1 })),
+    );
     const cos = (i: number, j: number) => Math.cos(rad(deg[i] - deg[j]));
     const r = neighbourhoodMeans(5, cos); // k = 30 > 4 others: the mean over all other parts
     expectClose(index.neighbourhoodMeans(), r, { atol: 1e-6 });
-    expectClose(r[0], (Math.cos(rad(10)) + Math.cos(rad(20)) + Math.cos(rad(90)) + Math.cos(rad(100))) / 4, { atol: 1e-12 });
+    expectClose(r[0], (Math.cos(rad(10)) + Math.cos(rad(20)) + Math.cos(rad(90)) + Math.cos(rad(100))) / 4, {
+      atol: 1e-12,
+    });
     const fromPart = index.hubCorrected(index.scores(index.vector(1)), 1);
     deg.forEach((_, j) => expectClose(fromPart[j], 2 * cos(1, j) - r[1] - r[j], { atol: 1e-6 }));
     const q = [Math.cos(rad(5)), Math.sin(rad(5))];

@@ -35,17 +35,27 @@ describe('retrieval metrics on hand-worked rankings (Shilane et al. 2004 definit
     const rng = createRng(5);
     const labels = Array.from({ length: 30 }, (_, i) => 'ABC'[i % 3]);
     const v = Float32Array.from({ length: 30 * 4 }, () => rng.normal());
-    const sim = (i: number, j: number) => { let s = 0; for (let d = 0; d < 4; d++) s += v[i * 4 + d] * v[j * 4 + d]; return s; };
+    const sim = (i: number, j: number) => {
+      let s = 0;
+      for (let d = 0; d < 4; d++) s += v[i * 4 + d] * v[j * 4 + d];
+      return s;
+    };
     const ours = evaluateRetrieval(labels, sim).map;
     // Independent: for each query, AP = Σ_k (recall_k − recall_{k−1}) · precision_k.
     let total = 0;
     for (let q = 0; q < 30; q++) {
-      const others = labels.map((_, j) => j).filter((j) => j !== q).sort((a, b) => sim(q, b) - sim(q, a) || a - b);
+      const others = labels
+        .map((_, j) => j)
+        .filter((j) => j !== q)
+        .sort((a, b) => sim(q, b) - sim(q, a) || a - b);
       const R = others.filter((j) => labels[j] === labels[q]).length;
-      let tp = 0, prevRecall = 0, ap = 0;
+      let tp = 0,
+        prevRecall = 0,
+        ap = 0;
       others.forEach((j, k) => {
         if (labels[j] === labels[q]) tp++;
-        const recall = tp / R, precision = tp / (k + 1);
+        const recall = tp / R,
+          precision = tp / (k + 1);
         ap += (recall - prevRecall) * precision;
         prevRecall = recall;
       });
@@ -66,13 +76,16 @@ describe('D2 shape distribution (Osada et al. 2002)', () => {
     const n = 4000;
     const p = new Float32Array(n * 3);
     for (let i = 0; i < n; i++) {
-      const z = rng.uniform(-1, 1), a = rng.uniform(0, 2 * Math.PI), r = Math.sqrt(1 - z * z);
+      const z = rng.uniform(-1, 1),
+        a = rng.uniform(0, 2 * Math.PI),
+        r = Math.sqrt(1 - z * z);
       p.set([r * Math.cos(a), r * Math.sin(a), z], i * 3);
     }
-    const pairs = 200000, bins = 20;
+    const pairs = 200000,
+      bins = 20;
     const h = d2Histogram(p, createRng(2), pairs, bins);
     // Expected mass of bin [a, b): ∫ d/2 dd = (b² − a²)/4.
-    const expected = Array.from({ length: bins }, (_, k) => (((k + 1) * 0.1) ** 2 - (k * 0.1) ** 2) / 4 * pairs);
+    const expected = Array.from({ length: bins }, (_, k) => ((((k + 1) * 0.1) ** 2 - (k * 0.1) ** 2) / 4) * pairs);
     const observed = Array.from(h, (f) => f * pairs);
     expect(chiSquare(observed, expected)).toBeLessThan(chiSquareCritical(bins - 1));
     const mean = Array.from(h).reduce((s, f, k) => s + f * (k + 0.5) * 0.1, 0);
@@ -86,19 +99,25 @@ describe('exact top-k by partial selection', () => {
     for (const n of [1, 10, 1000]) {
       const scores = Float32Array.from({ length: n }, () => Math.round(rng.uniform(0, 50)));
       for (const k of [1, 5, 10]) {
-        const full = Array.from(scores, (s, i) => ({ index: i, score: s })).sort((a, b) => b.score - a.score || a.index - b.index).slice(0, k);
+        const full = Array.from(scores, (s, i) => ({ index: i, score: s }))
+          .sort((a, b) => b.score - a.score || a.index - b.index)
+          .slice(0, k);
         expect(topK(scores, k)).toEqual(full);
       }
     }
   });
   it('index queries filter by size ratio, by folder, and leave out the query', () => {
     const entries = [
-      { name: 'a', label: 'washer', diagonal: 10 }, { name: 'b', label: 'washer', diagonal: 30 },
-      { name: 'c', label: 'nut', diagonal: 11 }, { name: 'd', label: 'washer', diagonal: 12 },
+      { name: 'a', label: 'washer', diagonal: 10 },
+      { name: 'b', label: 'washer', diagonal: 30 },
+      { name: 'c', label: 'nut', diagonal: 11 },
+      { name: 'd', label: 'washer', diagonal: 12 },
     ];
     const index = new EmbeddingIndex(Float32Array.from([1, 0, 0.9, 0.1, 0.8, 0.2, 0.7, 0.3]), 2, entries);
     expect(index.query([1, 0], 4).map((h) => h.index)).toEqual([0, 1, 2, 3]);
-    expect(index.query([1, 0], 4, { exclude: 0, sizeRatio: 1.5, queryDiagonal: 10 }).map((h) => h.index)).toEqual([2, 3]);
+    expect(index.query([1, 0], 4, { exclude: 0, sizeRatio: 1.5, queryDiagonal: 10 }).map((h) => h.index)).toEqual([
+      2, 3,
+    ]);
     expect(index.query([1, 0], 4, { labels: ['washer'], exclude: 0 }).map((h) => h.index)).toEqual([1, 3]);
     expect(index.query([1, 0], 1)[0].score).toBeCloseTo(1, 6);
   });
@@ -120,7 +139,12 @@ describe('NumPy .npy v1.0 (NEP 1) header, byte for byte', () => {
 
 describe('near-duplicate groups (union-find)', () => {
   it('joins chains above the threshold into one group and leaves the rest alone', () => {
-    const s = [[1, 0.99, 0.2, 0.1], [0.99, 1, 0.97, 0.1], [0.2, 0.97, 1, 0.1], [0.1, 0.1, 0.1, 1]];
+    const s = [
+      [1, 0.99, 0.2, 0.1],
+      [0.99, 1, 0.97, 0.1],
+      [0.2, 0.97, 1, 0.1],
+      [0.1, 0.1, 0.1, 1],
+    ];
     const groups = duplicateGroups(4, (i, j) => s[i][j], 0.95);
     expect(groups.map((g) => g.members)).toEqual([[0, 1, 2]]);
     expect(groups[0].pairs.length).toBe(2);
@@ -134,23 +158,48 @@ describe('2-D map by principal components', () => {
     // Points along e0 (spread 10) and e1 (spread 3) plus small noise in 4 other dims: the map's first
     // coordinate must carry the e0 spread and the second the e1 spread (up to sign).
     const rng = createRng(9);
-    const n = 300, dim = 6;
+    const n = 300,
+      dim = 6;
     const v = new Float32Array(n * dim);
-    const a: number[] = [], b: number[] = [];
+    const a: number[] = [],
+      b: number[] = [];
     for (let i = 0; i < n; i++) {
-      a.push(rng.normal() * 10); b.push(rng.normal() * 3);
-      v[i * dim] = a[i]; v[i * dim + 1] = b[i];
+      a.push(rng.normal() * 10);
+      b.push(rng.normal() * 3);
+      v[i * dim] = a[i];
+      v[i * dim + 1] = b[i];
       for (let d = 2; d < dim; d++) v[i * dim + d] = rng.normal() * 0.1;
     }
     const m = pca2d(v, dim);
     const corr = (x: number[], y: number[]) => {
-      const mx = x.reduce((s, t) => s + t, 0) / x.length, my = y.reduce((s, t) => s + t, 0) / y.length;
-      let sxy = 0, sxx = 0, syy = 0;
-      x.forEach((t, i) => { sxy += (t - mx) * (y[i] - my); sxx += (t - mx) ** 2; syy += (y[i] - my) ** 2; });
+      const mx = x.reduce((s, t) => s + t, 0) / x.length,
+        my = y.reduce((s, t) => s + t, 0) / y.length;
+      let sxy = 0,
+        sxx = 0,
+        syy = 0;
+      x.forEach((t, i) => {
+        sxy += (t - mx) * (y[i] - my);
+        sxx += (t - mx) ** 2;
+        syy += (y[i] - my) ** 2;
+      });
       return sxy / Math.sqrt(sxx * syy);
     };
-    expect(Math.abs(corr(Array.from({ length: n }, (_, i) => m[i * 2]), a))).toBeGreaterThan(0.999);
-    expect(Math.abs(corr(Array.from({ length: n }, (_, i) => m[i * 2 + 1]), b))).toBeGreaterThan(0.99);
+    expect(
+      Math.abs(
+        corr(
+          Array.from({ length: n }, (_, i) => m[i * 2]),
+          a,
+        ),
+      ),
+    ).toBeGreaterThan(0.999);
+    expect(
+      Math.abs(
+        corr(
+          Array.from({ length: n }, (_, i) => m[i * 2 + 1]),
+          b,
+        ),
+      ),
+    ).toBeGreaterThan(0.99);
   });
 });
 
@@ -161,17 +210,27 @@ describe('tensor-backed index', () => {
   it('returns the same top-k as the plain index (the matMul scan agrees with the JS scan)', async () => {
     await initBackend({ prefer: 'wasm' });
     const rng = createRng(12);
-    const n = 500, dim = 32;
+    const n = 500,
+      dim = 32;
     const v = Float32Array.from({ length: n * dim }, () => rng.normal());
-    const entries = Array.from({ length: n }, (_, i) => ({ name: String(i), label: 'abc'[i % 3], diagonal: 1 + (i % 7) }));
-    const plain = new EmbeddingIndex(v, dim, entries), fast = new TensorIndex(v, dim, entries);
+    const entries = Array.from({ length: n }, (_, i) => ({
+      name: String(i),
+      label: 'abc'[i % 3],
+      diagonal: 1 + (i % 7),
+    }));
+    const plain = new EmbeddingIndex(v, dim, entries),
+      fast = new TensorIndex(v, dim, entries);
     for (let t = 0; t < 5; t++) {
       const q = Float32Array.from({ length: dim }, () => rng.normal());
-      const a = plain.query(q, 10, { labels: ['a', 'b'] }), b = fast.query(q, 10, { labels: ['a', 'b'] });
+      const a = plain.query(q, 10, { labels: ['a', 'b'] }),
+        b = fast.query(q, 10, { labels: ['a', 'b'] });
       expect(b.map((h) => h.index)).toEqual(a.map((h) => h.index));
-      expectClose(b.map((h) => h.score), a.map((h) => h.score), { atol: 1e-5 });
+      expectClose(
+        b.map((h) => h.score),
+        a.map((h) => h.score),
+        { atol: 1e-5 },
+      );
     }
     fast.dispose();
   });
 });
-

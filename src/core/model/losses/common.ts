@@ -7,7 +7,8 @@ export const MASKED_LOGIT = -1e9;
 
 export function assertPairs(za: tf.Tensor2D, zb: tf.Tensor2D, loss: string): number {
   const [B, D] = za.shape;
-  if (zb.shape[0] !== B || zb.shape[1] !== D) throw new RangeError(`${loss}: the two views have shapes ${za.shape} and ${zb.shape}`);
+  if (zb.shape[0] !== B || zb.shape[1] !== D)
+    throw new RangeError(`${loss}: the two views have shapes ${za.shape} and ${zb.shape}`);
   if (B < 2) throw new RangeError(`${loss}: a batch needs at least 2 parts (so each has a negative), got ${B}`);
   return B;
 }

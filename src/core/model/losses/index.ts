@@ -9,7 +9,12 @@ import { ntXentLoss } from './ntxent';
 import { supConLoss } from './supcon';
 import { tripletLoss } from './triplet';
 
-export type LossFn = (za: tf.Tensor2D, zb: tf.Tensor2D, settings: LossSettings, labels: ArrayLike<number> | null) => tf.Scalar;
+export type LossFn = (
+  za: tf.Tensor2D,
+  zb: tf.Tensor2D,
+  settings: LossSettings,
+  labels: ArrayLike<number> | null,
+) => tf.Scalar;
 
 function needLabels(labels: ArrayLike<number> | null): ArrayLike<number> {
   if (!labels) throw new RangeError('supervised-contrastive loss needs labels (folders or labels.csv)');
@@ -24,7 +29,12 @@ export const LOSSES: Record<LossName, LossFn> = {
   'margin-contrastive': (za, zb, s) => marginContrastiveLoss(za, zb, s.margin),
 };
 
-export function computeLoss(s: LossSettings, za: tf.Tensor2D, zb: tf.Tensor2D, labels: ArrayLike<number> | null): tf.Scalar {
+export function computeLoss(
+  s: LossSettings,
+  za: tf.Tensor2D,
+  zb: tf.Tensor2D,
+  labels: ArrayLike<number> | null,
+): tf.Scalar {
   const fn = LOSSES[s.name];
   if (!fn) throw new RangeError(`unknown loss "${s.name}" (expected one of ${LOSS_NAMES.join(', ')})`);
   return fn(za, zb, s, labels);

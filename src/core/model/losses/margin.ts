@@ -17,7 +17,10 @@ export function marginContrastiveLoss(za: tf.Tensor2D, zb: tf.Tensor2D, margin: 
     const part = tf.mod(idx, B);
     const y = tf.cast(tf.equal(part.reshape([2 * B, 1]), part.reshape([1, 2 * B])), 'float32');
     const upper = tf.cast(tf.greater(idx.reshape([1, 2 * B]), idx.reshape([2 * B, 1])), 'float32'); // i < j
-    const term = tf.add(tf.mul(y, tf.mul(0.5, d2)), tf.mul(tf.sub(1, y), tf.mul(0.5, tf.square(tf.relu(tf.sub(margin, d))))));
+    const term = tf.add(
+      tf.mul(y, tf.mul(0.5, d2)),
+      tf.mul(tf.sub(1, y), tf.mul(0.5, tf.square(tf.relu(tf.sub(margin, d))))),
+    );
     const pairs = (2 * B * (2 * B - 1)) / 2;
     return tf.div(tf.sum(tf.mul(term, upper)), pairs) as tf.Scalar;
   });

@@ -1,6 +1,12 @@
 // The losses by name and their settings, without tfjs: what the command line and the workbench offer.
 
-export const LOSS_NAMES = ['nt-xent', 'supervised-contrastive', 'triplet-hard', 'triplet-semi-hard', 'margin-contrastive'] as const;
+export const LOSS_NAMES = [
+  'nt-xent',
+  'supervised-contrastive',
+  'triplet-hard',
+  'triplet-semi-hard',
+  'margin-contrastive',
+] as const;
 export type LossName = (typeof LOSS_NAMES)[number];
 
 export interface LossSettings {

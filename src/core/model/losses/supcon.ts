@@ -28,9 +28,20 @@ export function multiViewSupConLoss(z: tf.Tensor2D, labels: ArrayLike<number>, t
   });
 }
 
-export function supConLoss(za: tf.Tensor2D, zb: tf.Tensor2D, labels: ArrayLike<number>, temperature: number): tf.Scalar {
+export function supConLoss(
+  za: tf.Tensor2D,
+  zb: tf.Tensor2D,
+  labels: ArrayLike<number>,
+  temperature: number,
+): tf.Scalar {
   if (!(temperature > 0)) throw new RangeError(`supConLoss: temperature must be > 0, got ${temperature}`);
   const B = assertPairs(za, zb, 'supConLoss');
   if (labels.length !== B) throw new RangeError(`supConLoss: ${labels.length} labels for ${B} parts`);
-  return tf.tidy(() => multiViewSupConLoss(tf.concat([za, zb], 0), Int32Array.from({ length: 2 * B }, (_, i) => labels[i % B]), temperature));
+  return tf.tidy(() =>
+    multiViewSupConLoss(
+      tf.concat([za, zb], 0),
+      Int32Array.from({ length: 2 * B }, (_, i) => labels[i % B]),
+      temperature,
+    ),
+  );
 }

@@ -64,17 +64,26 @@ function neighbourMax(c: tf.Tensor2D, neighbours: Int32Array, k: number): tf.Ten
     for (let p = 0; p < P; p++) {
       const o = p * W;
       const first = neighbours[p * k] * W;
-      for (let ch = 0; ch < W; ch++) { out[o + ch] = v[first + ch]; win[o + ch] = neighbours[p * k]; }
+      for (let ch = 0; ch < W; ch++) {
+        out[o + ch] = v[first + ch];
+        win[o + ch] = neighbours[p * k];
+      }
       for (let m = 1; m < k; m++) {
-        const j = neighbours[p * k + m], r = j * W;
-        for (let ch = 0; ch < W; ch++) if (v[r + ch] > out[o + ch]) { out[o + ch] = v[r + ch]; win[o + ch] = j; }
+        const j = neighbours[p * k + m],
+          r = j * W;
+        for (let ch = 0; ch < W; ch++)
+          if (v[r + ch] > out[o + ch]) {
+            out[o + ch] = v[r + ch];
+            win[o + ch] = j;
+          }
       }
     }
     save([tf.tensor1d(win, 'int32')]);
     return {
       value: tf.tensor2d(out, [P, W]),
       gradFunc: (dy: tf.Tensor, saved: tf.Tensor[]) => {
-        const g = dy.dataSync(), wins = saved[0].dataSync();
+        const g = dy.dataSync(),
+          wins = saved[0].dataSync();
         const d = new Float32Array(P * W);
         for (let i = 0; i < P * W; i++) d[wins[i] * W + (i % W)] += g[i];
         return [tf.tensor2d(d, [P, W])];

@@ -18,7 +18,13 @@ export interface Layer {
  * Forward: for layer l, H_l = relu(H_{l−1}·W_l + b_l) on all B·N points; pooled = max over N (and mean).
  * Returns the pooled features (B, C) with a gradient for x and every W, b.
  */
-export function pointMlpPool(x: tf.Tensor2D, B: number, N: number, layers: readonly Layer[], pooling: Pooling): tf.Tensor2D {
+export function pointMlpPool(
+  x: tf.Tensor2D,
+  B: number,
+  N: number,
+  layers: readonly Layer[],
+  pooling: Pooling,
+): tf.Tensor2D {
   const inputs: tf.Tensor[] = [x];
   for (const l of layers) inputs.push(l.w, l.b);
   const L = layers.length;
@@ -28,7 +34,8 @@ export function pointMlpPool(x: tf.Tensor2D, B: number, N: number, layers: reado
     const acts: tf.Tensor2D[] = [xs];
     let h = xs;
     for (let l = 0; l < L; l++) {
-      const w = args[1 + 2 * l] as tf.Tensor2D, b = args[2 + 2 * l] as tf.Tensor1D;
+      const w = args[1 + 2 * l] as tf.Tensor2D,
+        b = args[2 + 2 * l] as tf.Tensor1D;
       h = tf.fused.matMul({ a: h, b: w, bias: b, activation: 'relu' }) as tf.Tensor2D; // (B·N, C_{l−1}) x (C_{l−1}, C_l) -> (B·N, C_l)
       acts.push(h);
     }
@@ -36,11 +43,13 @@ export function pointMlpPool(x: tf.Tensor2D, B: number, N: number, layers: reado
     // Max and argmax over the N points of each cloud in one plain loop: tfjs-wasm's Max and ArgMax over
     // axis 1 of (B, N, C) take ~50 ms each on a reference batch; this pass takes ~15 ms.
     const { maxed, argmax } = maxOverPoints(h, B, N, C);
-    const value = pooling === 'max' ? maxed : tf.concat([maxed, tf.mean(tf.reshape(h, [B, N, C]), 1) as tf.Tensor2D], 1);
+    const value =
+      pooling === 'max' ? maxed : tf.concat([maxed, tf.mean(tf.reshape(h, [B, N, C]), 1) as tf.Tensor2D], 1);
     save([...acts, argmax, maxed]);
     return {
       value,
-      gradFunc: (dy: tf.Tensor, saved: tf.Tensor[]) => backward(dy as tf.Tensor2D, saved, args.slice(1, 1 + 2 * L) as tf.Tensor2D[], B, N, C, pooling),
+      gradFunc: (dy: tf.Tensor, saved: tf.Tensor[]) =>
+        backward(dy as tf.Tensor2D, saved, args.slice(1, 1 + 2 * L) as tf.Tensor2D[], B, N, C, pooling),
     };
   });
   return op(...inputs) as tf.Tensor2D;
@@ -57,7 +66,10 @@ function maxOverPoints(h: tf.Tensor2D, B: number, N: number, C: number): { maxed
       const r = (b * N + n) * C;
       for (let c = 0; c < C; c++) {
         const v = data[r + c];
-        if (v > best[o + c]) { best[o + c] = v; arg[o + c] = n; }
+        if (v > best[o + c]) {
+          best[o + c] = v;
+          arg[o + c] = n;
+        }
       }
     }
   }
@@ -65,13 +77,18 @@ function maxOverPoints(h: tf.Tensor2D, B: number, N: number, C: number): { maxed
 }
 
 interface Winners {
-  readonly B: number; readonly N: number; readonly C: number; readonly K: number;
+  readonly B: number;
+  readonly N: number;
+  readonly C: number;
+  readonly K: number;
   readonly win: ArrayLike<number>; // (B, C) winning point of each channel
   readonly winValue: ArrayLike<number>; // (B, C) its value after the ReLU
   readonly gMax: ArrayLike<number>; // (B, C) upstream gradient of the max-pooled features
   readonly prevData: ArrayLike<number>; // (B·N, K) input of the last layer
   readonly wData: ArrayLike<number>; // (K, C) last-layer weights
-  readonly dW: Float32Array; readonly db: Float32Array; readonly dPrev: Float32Array;
+  readonly dW: Float32Array;
+  readonly db: Float32Array;
+  readonly dPrev: Float32Array;
   /** Row of dPrev that receives point `row` of the flattened batch. */
   readonly slotOf: (row: number) => number;
 }
@@ -92,7 +109,8 @@ function accumulateWinners(w: Winners): void {
       if (g === 0) continue;
       const row = b * N + win[i];
       db[c] += g;
-      const pr = row * K, pc = slotOf(row) * K;
+      const pr = row * K,
+        pc = slotOf(row) * K;
       for (let k = 0; k < K; k++) {
         dW[k * C + c] += prevData[pr + k] * g;
         dPrev[pc + k] += g * wData[k * C + c];
@@ -106,7 +124,15 @@ export function columnSums(x: tf.Tensor2D): tf.Tensor1D {
   return tf.reshape(tf.matMul(tf.ones([1, x.shape[0]]), x), [x.shape[1]]);
 }
 
-function backward(dy: tf.Tensor2D, saved: tf.Tensor[], params: tf.Tensor2D[], B: number, N: number, C: number, pooling: Pooling): tf.Tensor[] {
+function backward(
+  dy: tf.Tensor2D,
+  saved: tf.Tensor[],
+  params: tf.Tensor2D[],
+  B: number,
+  N: number,
+  C: number,
+  pooling: Pooling,
+): tf.Tensor[] {
   const L = params.length / 2;
   const acts = saved.slice(0, L + 1) as tf.Tensor2D[];
   const argmax = saved[L + 1] as tf.Tensor2D;
@@ -131,11 +157,28 @@ function backward(dy: tf.Tensor2D, saved: tf.Tensor[], params: tf.Tensor2D[], B:
     for (let i = 0; i < B * C; i++) {
       if (!(winValue[i] > 0) || gMax[i] === 0) continue;
       const row = Math.floor(i / C) * N + win[i];
-      if (slot[row] < 0) { slot[row] = rows.length; rows.push(row); }
+      if (slot[row] < 0) {
+        slot[row] = rows.length;
+        rows.push(row);
+      }
     }
     const R = rows.length;
     const dPrevR = new Float32Array(R * K);
-    accumulateWinners({ B, N, C, K, win, winValue, gMax, prevData, wData, dW, db, dPrev: dPrevR, slotOf: (row) => slot[row] });
+    accumulateWinners({
+      B,
+      N,
+      C,
+      K,
+      win,
+      winValue,
+      gMax,
+      prevData,
+      wData,
+      dW,
+      db,
+      dPrev: dPrevR,
+      slotOf: (row) => slot[row],
+    });
     grads[1 + 2 * (L - 1)] = tf.tensor2d(dW, [K, C]);
     grads[2 + 2 * (L - 1)] = tf.tensor1d(db);
     const gatherRows = (data: Float32Array | Int32Array | Uint8Array, width: number): tf.Tensor2D => {
@@ -164,7 +207,21 @@ function backward(dy: tf.Tensor2D, saved: tf.Tensor[], params: tf.Tensor2D[], B:
   }
   // With a mean term every point gets gradient: the last layer's dZ is dense (sparse max part + dy_mean/N).
   const dPrevData = new Float32Array(B * N * K);
-  accumulateWinners({ B, N, C, K, win, winValue, gMax, prevData, wData, dW, db, dPrev: dPrevData, slotOf: (row) => row });
+  accumulateWinners({
+    B,
+    N,
+    C,
+    K,
+    win,
+    winValue,
+    gMax,
+    prevData,
+    wData,
+    dW,
+    db,
+    dPrev: dPrevData,
+    slotOf: (row) => row,
+  });
   const gMean = tf.slice(dy, [0, C], [B, C]);
   const dense = tf.reshape(tf.tile(tf.reshape(tf.div(gMean, N), [B, 1, C]), [1, N, 1]), [B * N, C]);
   const dZLast = tf.mul(dense, tf.step(last)) as tf.Tensor2D;
