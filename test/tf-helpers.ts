@@ -1,7 +1,7 @@
 // tfjs test helpers: backend set-up once per file, and a leak guard for every tensor test.
 
 import * as tf from '@tensorflow/tfjs';
-import { expect } from 'vitest';
+import { afterEach, beforeEach, expect } from 'vitest';
 import { initBackend, type BackendName } from '../src/core/model/backend';
 
 export async function useBackend(prefer: BackendName = 'wasm'): Promise<BackendName> {
@@ -14,4 +14,19 @@ export async function expectNoLeak<T>(fn: () => T | Promise<T>): Promise<T> {
   const out = await fn();
   expect(tf.memory().numTensors, 'tensors leaked').toBe(before);
   return out;
+}
+
+/**
+ * Every test of the calling file must end with as many tensors as it started with: call once at the top of a
+ * file whose tests touch tfjs (encoders, training, embedding, the command line in-process).
+ */
+export function guardTensorLeaks(): void {
+  let before = 0;
+  beforeEach(() => {
+    before = tf.memory().numTensors;
+  });
+  afterEach((ctx) => {
+    const now = tf.memory().numTensors;
+    expect(now - before, `${ctx.task.name}: tensors leaked`).toBe(0);
+  });
 }

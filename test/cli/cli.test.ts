@@ -11,6 +11,9 @@ import { afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
 import { main } from '../../src/cli/main';
 import { crc32 } from '../../src/core/checksum';
 import { cpSync } from 'node:fs';
+import { guardTensorLeaks } from '../tf-helpers';
+
+guardTensorLeaks();
 
 const DEMO = 'demo-shapes';
 let run = '';

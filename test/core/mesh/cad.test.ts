@@ -18,6 +18,9 @@ import { cosineSimilarity } from '../../../src/core/retrieval/metrics';
 import { fixture, textBuffer } from '../../meshes';
 import { RAW_JS } from './reasons';
 import { expectClose } from '../../helpers';
+import { guardTensorLeaks } from '../../tf-helpers';
+
+guardTensorLeaks();
 
 const DIR = fileURLToPath(new URL('../../fixtures/kicad/', import.meta.url));
 const NAMES = readdirSync(DIR)

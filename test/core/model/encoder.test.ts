@@ -9,7 +9,9 @@ import { fillSlot } from '../../../src/core/model/views';
 import { axisAngle, transformPoints } from '../../../src/core/points/rotation';
 import { createRng } from '../../../src/core/rng';
 import { expectClose } from '../../helpers';
-import { expectNoLeak, useBackend } from '../../tf-helpers';
+import { expectNoLeak, useBackend, guardTensorLeaks } from '../../tf-helpers';
+
+guardTensorLeaks();
 
 beforeAll(async () => {
   await useBackend('wasm');

@@ -6,7 +6,9 @@ import { supConLoss } from '../../../src/core/model/losses/supcon';
 import { tripletLoss } from '../../../src/core/model/losses/triplet';
 import { multiViewSupConLoss } from '../../../src/core/model/losses/supcon';
 import { expectClose } from '../../helpers';
-import { expectNoLeak, useBackend } from '../../tf-helpers';
+import { expectNoLeak, useBackend, guardTensorLeaks } from '../../tf-helpers';
+
+guardTensorLeaks();
 
 beforeAll(async () => {
   await useBackend('wasm');

@@ -20,8 +20,10 @@ import { getWeights, Trainer } from '../../../src/core/model/trainer';
 import { type TrainConfig } from '../../../src/core/model/train-config';
 import { PRESETS } from '../../../src/core/points/augment';
 import { expectClose } from '../../helpers';
-import { useBackend } from '../../tf-helpers';
+import { useBackend, guardTensorLeaks } from '../../tf-helpers';
 import { demoModelParts } from '../../meshes';
+
+guardTensorLeaks();
 
 let demo: ModelPart[] = [];
 beforeAll(async () => {

@@ -15,7 +15,9 @@ import {
 import { axisAngle, randomRotation, transformPoints } from '../../../src/core/points/rotation';
 import { createRng } from '../../../src/core/rng';
 import { expectClose } from '../../helpers';
-import { useBackend } from '../../tf-helpers';
+import { useBackend, guardTensorLeaks } from '../../tf-helpers';
+
+guardTensorLeaks();
 
 beforeAll(async () => {
   await useBackend('wasm');

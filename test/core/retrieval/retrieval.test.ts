@@ -205,6 +205,9 @@ describe('2-D map by principal components', () => {
 
 import { TensorIndex } from '../../../src/core/retrieval/tensor-index';
 import { initBackend } from '../../../src/core/model/backend';
+import { guardTensorLeaks } from '../../tf-helpers';
+
+guardTensorLeaks();
 
 describe('tensor-backed index', () => {
   it('returns the same top-k as the plain index (the matMul scan agrees with the JS scan)', async () => {
