@@ -1,4 +1,4 @@
-// A large procedural corpus for pre-training experiments (scripts/pretrain.ts, docs/results.md): thousands of
+// A large procedural corpus for pre-training experiments (research/pretrain.ts, docs/results.md): thousands of
 // varied solids, to learn geometry before a user's library arrives. (No pre-trained encoder ships: this corpus
 // did not transfer to the real furniture set.) Five generic assembly kinds (stacks of
 // round and square sections, slabs on posts, frames with bars, clusters of boxes, bent tubes) plus the demo

@@ -1,6 +1,6 @@
 // Train with the defaults plus JSON overrides, then evaluate against the baselines; prints one JSON line.
-//   npx tsx scripts/experiment.ts <library-dir> '{"epochs": 60, "encoder": {"inputFeatures": "xyz+normal"}}' [--embed-points N] [--init <run-dir>]
-// --save <dir> keeps the trained encoder as a run folder (for scripts/dev/rerank.ts and the CLI).
+//   npx tsx research/experiment.ts <library-dir> '{"epochs": 60, "encoder": {"inputFeatures": "xyz+normal"}}' [--embed-points N] [--init <run-dir>]
+// --save <dir> keeps the trained encoder as a run folder (for research/scripts/rerank.ts and the CLI).
 // --init starts training from a saved encoder (e.g. the pre-trained one) and also reports it before fine-tuning.
 // Used for the ablation tables in docs/: every row there names the command that produced it.
 

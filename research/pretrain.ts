@@ -1,5 +1,5 @@
 // Pre-train the shipped encoder on the procedural corpus (src/gen/corpus.ts), then save it as a run folder.
-//   npx tsx scripts/pretrain.ts [--parts 3000] [--epochs 12] [--seed 0] [--out src/core/model/pretrained] ['<json overrides>']
+//   npx tsx research/pretrain.ts [--parts 3000] [--epochs 12] [--seed 0] [--out src/core/model/pretrained] ['<json overrides>']
 // Every corpus solid goes through the same path as a user's file (binary STL bytes → import → sampling), so
 // the pre-trained encoder sees clouds and normals exactly as it will see real parts.
 

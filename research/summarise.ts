@@ -1,7 +1,7 @@
-// Turn experiment JSON lines (scripts/experiment.ts output, one run per line) into markdown table rows:
+// Turn experiment JSON lines (research/experiment.ts output, one run per line) into markdown table rows:
 // runs with the same overrides, inputs, retrieval, points and steps apart from the seed are grouped, and each metric is given as mean ± standard
 // deviation over the seeds (sample standard deviation, n − 1).
-//   npx tsx scripts/summarise.ts runs-*.jsonl
+//   npx tsx research/summarise.ts runs-*.jsonl
 import { readFileSync } from 'node:fs';
 
 interface Run {

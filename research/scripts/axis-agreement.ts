@@ -1,7 +1,7 @@
 // Diagnostic: do a library's files agree on their axes? For each part that sits square in its file (box ratio
 // ≤ FILE_FRAME_FIT) and has one clearly distinct extent, take its nearest square part by D2 (which ignores the pose)
 // and check whether that distinct extent (longest or shortest) lies along the same file axis. Chance is about 1/3.
-//   npx tsx scripts/dev/axis-agreement.ts <library-dir>
+//   npx tsx research/scripts/axis-agreement.ts <library-dir>
 import { FILE_FRAME_FIT, POOL_POINTS } from '../../src/core/model/defaults';
 import { loadLibrary } from '../../src/cli/library-dir';
 import { boundingBox } from '../../src/core/mesh/geometry';

@@ -1,7 +1,7 @@
 // Developer aid: empty the workbench's library, add a folder of parts, train with the Training tab's defaults in
 // headless Chromium and print how long the worker took; screenshots to /tmp/shot-folder-*.png. Needs the built
 // workbench served (npm run build && npx vite preview --port 5173).
-//   npx tsx scripts/dev/browser-train.ts <folder> <part-count> [url]
+//   npx tsx research/scripts/browser-train.ts <folder> <part-count> [url]
 import { launch } from '../../test/browser/chromium';
 const [dir, count, url = 'http://localhost:5173/'] = process.argv.slice(2);
 if (!dir || !count) throw new Error('usage: browser-train.ts <folder> <part-count> [url]');

@@ -1,5 +1,5 @@
 // Dev aid: sample some corpus solids to a text file of clouds for a quick look (one "kind x y z" row per point).
-//   npx tsx scripts/dev/corpus-dump.ts <count> <out.txt>
+//   npx tsx research/scripts/corpus-dump.ts <count> <out.txt>
 import { writeFileSync } from 'node:fs';
 import { writeStlBinary } from '../../src/core/mesh/write';
 import { loadPart } from '../../src/core/library';

@@ -1,5 +1,5 @@
 // Diagnostic: leave-one-out quality of simple non-learned descriptors on a library (no training).
-//   npx tsx scripts/dev/descriptors.ts <library-dir>
+//   npx tsx research/scripts/descriptors.ts <library-dir>
 import { initBackend } from '../../src/core/model/backend';
 import { POOL_POINTS, DEFAULT_TRAIN } from '../../src/core/model/defaults';
 import { loadLibrary } from '../../src/cli/library-dir';

@@ -1,6 +1,6 @@
 // Diagnostic: write a saved encoder's retrieval embeddings (head output and pooled features, principal-axes
 // pose with sign-flip averaging, as retrieval does) and the folder labels as JSON, for analysis outside.
-//   npx tsx scripts/dev/dump-embeddings.ts <library-dir> <run-dir> <out.json>
+//   npx tsx research/scripts/dump-embeddings.ts <library-dir> <run-dir> <out.json>
 import { writeFileSync } from 'node:fs';
 import { initBackend } from '../../src/core/model/backend';
 import { POOL_POINTS } from '../../src/core/model/defaults';

@@ -1,6 +1,6 @@
 // Diagnostic: leave-one-out quality of several saved encoders alone and with their embeddings concatenated,
 // by cosine and through the library.
-//   npx tsx scripts/dev/ensemble.ts <library-dir> <run-dir> <run-dir>...
+//   npx tsx research/scripts/ensemble.ts <library-dir> <run-dir> <run-dir>...
 import { initBackend } from '../../src/core/model/backend';
 import { POOL_POINTS } from '../../src/core/model/defaults';
 import { loadLibrary } from '../../src/cli/library-dir';

@@ -1,7 +1,7 @@
 // Diagnostic: how much the hub correction (CSLS, Conneau et al. 2018; src/core/retrieval/hubness.ts) does on a saved
 // run, for several k: each line is "by itself · diffused over the graph built from it". The "no correction" line is
 // the ordering before the correction became part of the search; the k = 30 line is what the search does now.
-//   [KS=10,20,30,40] npx tsx scripts/dev/hubness.ts <library-dir> <run-dir>...
+//   [KS=10,20,30,40] npx tsx research/scripts/hubness.ts <library-dir> <run-dir>...
 import { disposeEncoders, embedForRetrieval } from '../../src/core/model/embed';
 import { encodersFromCheckpoint } from '../../src/core/model/checkpoint';
 import { DIFFUSION_DEFAULTS, diffusedSimilarity } from '../../src/core/retrieval/diffusion';

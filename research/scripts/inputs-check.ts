@@ -1,5 +1,5 @@
 // Dev aid: clear the library, add some open-mesh files, and read the Training tab's default inputs.
-//   npx tsx scripts/dev/inputs-check.ts <url> <file>...
+//   npx tsx research/scripts/inputs-check.ts <url> <file>...
 import { launch } from '../../test/browser/chromium';
 const [url, ...files] = process.argv.slice(2);
 const ctx = await launch();

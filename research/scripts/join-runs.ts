@@ -1,7 +1,7 @@
 // Dev tool: a file-and-principal run from a files'-axes run and a principal-axes run of the same seed and settings.
 // It equals what `shapekin train --pose file-and-principal --seed S` trains (test/core/model/two-encoders.test.ts; the
 // furniture seed-0 pair has byte-identical weights), without training again.
-//   npx tsx scripts/dev/join-runs.ts <file-axes-run> <principal-axes-run> <out-run>
+//   npx tsx research/scripts/join-runs.ts <file-axes-run> <principal-axes-run> <out-run>
 import { loadRun, saveRun } from '../../src/cli/run-dir';
 
 const [a, b, out] = process.argv.slice(2);

@@ -1,6 +1,6 @@
 // Diagnostic: a saved run's retrieval embedding also averaged over the mirror images of each part (the four
 // improper sign choices beside the four proper ones), by cosine and through the library.
-//   npx tsx scripts/dev/mirror-tta.ts <library-dir> <run-dir>
+//   npx tsx research/scripts/mirror-tta.ts <library-dir> <run-dir>
 import { embedForRetrieval } from '../../src/core/model/embed';
 import { normaliseRows } from '../../src/core/vectors';
 import { embeddingReadings, openSavedRun } from './saved-run';

@@ -1,7 +1,7 @@
 // Diagnostic: which parts' first hit (as the search orders through the library: the highest hub-corrected score)
 // is from another class, over several saved runs of one library (e.g. the seeds), and what they are taken for;
 // a miss in every run is a look-alike, not a seed's accident.
-//   npx tsx scripts/dev/nn-misses.ts <library-dir> <run-dir>...
+//   npx tsx research/scripts/nn-misses.ts <library-dir> <run-dir>...
 import { disposeEncoders, embedForRetrieval } from '../../src/core/model/embed';
 import { encodersFromCheckpoint } from '../../src/core/model/checkpoint';
 import { hubCorrected } from '../../src/core/retrieval/hubness';

@@ -1,8 +1,8 @@
 // Diagnostic: score two parts by their best relative axis order. A principal-axes pose fixes the order of the
-// axes by spread, which parts of one family do not always share (scripts/dev/pose-check.ts); here the library
+// axes by spread, which parts of one family do not always share (research/scripts/pose-check.ts); here the library
 // part is also embedded in the five other orders (each averaged over the four sign flips, as retrieval does)
 // and a pair scores its best order, with a penalty w for leaving the pose's own order.
-//   npx tsx scripts/dev/order-match.ts <library-dir> <run-dir>
+//   npx tsx research/scripts/order-match.ts <library-dir> <run-dir>
 import { embedParts } from '../../src/core/model/embed';
 import { posed } from '../../src/core/model/views';
 import { type SinglePose } from '../../src/core/model/train-config';

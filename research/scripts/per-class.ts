@@ -1,5 +1,5 @@
 // Diagnostic: per-class nearest-neighbour rate, mAP and what the wrong first hits are, for a saved encoder.
-//   npx tsx scripts/dev/per-class.ts <library-dir> <run-dir>
+//   npx tsx research/scripts/per-class.ts <library-dir> <run-dir>
 import { initBackend } from '../../src/core/model/backend';
 import { POOL_POINTS } from '../../src/core/model/defaults';
 import { loadLibrary } from '../../src/cli/library-dir';

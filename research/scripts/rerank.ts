@@ -1,5 +1,5 @@
 // Diagnostic: retrieval-time variants on a saved encoder, without retraining. Leave-one-out on a labelled library.
-//   npx tsx scripts/dev/rerank.ts <library-dir> <run-dir> [--points N]
+//   npx tsx research/scripts/rerank.ts <library-dir> <run-dir> [--points N]
 // Variants: plain cosine; α-query expansion (Radenović, Tolias & Chum 2018) with the query's neighbours taken
 // from the library without the query; database-side augmentation (Arandjelović & Zisserman 2012); more points
 // or several resamplings at embedding time; the best sign flip instead of their average; fusion with the D2

@@ -1,6 +1,6 @@
 // Diagnostic: retrieval with the embedding averaged over R disjoint point subsets of each part, on a saved run,
 // by cosine and through the library (diffusion, nearest first), for the learned and the untrained encoder.
-//   npx tsx scripts/dev/resamplings.ts <library-dir> <run-dir> [R ...]
+//   npx tsx research/scripts/resamplings.ts <library-dir> <run-dir> [R ...]
 import { embedForRetrieval } from '../../src/core/model/embed';
 import { untrainedEncoder } from '../../src/core/quality/evaluate';
 import { embeddingReadings, openSavedRun } from './saved-run';

@@ -1,6 +1,6 @@
 // Diagnostic: a saved encoder scored on its pooled features and on its projection head output, whatever the
 // saved config says (e.g. encoders saved before the retrieval choice existed).
-//   npx tsx scripts/dev/retrieval-readings.ts <library-dir> <run-dir>...
+//   npx tsx research/scripts/retrieval-readings.ts <library-dir> <run-dir>...
 import { initBackend } from '../../src/core/model/backend';
 import { POOL_POINTS } from '../../src/core/model/defaults';
 import { loadLibrary } from '../../src/cli/library-dir';

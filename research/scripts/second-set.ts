@@ -2,7 +2,7 @@
 // furniture validation set in ../shared does not use, in classes of its own (beds, cars, people, plants, …):
 // a check that defaults chosen on one set hold on real shapes they were not chosen on.
 //   apt-get install -y sweethome3d-furniture unzip
-//   npx tsx scripts/dev/second-set.ts <out-dir> [<first-set-dir>]
+//   npx tsx research/scripts/second-set.ts <out-dir> [<first-set-dir>]
 // Labels are ours, assigned from each model's catalogue name by the rules below; labels.csv keeps the catalogue
 // name, creator, collection and licence of every file (CC-BY needs the attribution kept with any copy).
 // Not committed: like the first set, it stays outside the project.
@@ -92,7 +92,7 @@ function firstSetModels(dir: string): Set<string> {
 }
 
 const [out, firstSet = '../shared/data/furniture-validation'] = process.argv.slice(2);
-if (!out) throw new Error('usage: npx tsx scripts/dev/second-set.ts <out-dir> [<first-set-dir>]');
+if (!out) throw new Error('usage: npx tsx research/scripts/second-set.ts <out-dir> [<first-set-dir>]');
 if (!existsSync(PACKAGE_DIR)) throw new Error(`${PACKAGE_DIR} not found: apt-get install -y sweethome3d-furniture`);
 const used = existsSync(join(firstSet, 'labels.csv')) ? firstSetModels(firstSet) : new Set<string>();
 if (used.size === 0) console.error(`warning: no first set at ${firstSet}; nothing is excluded`);

@@ -1,6 +1,6 @@
 // Diagnostic: retrieval embeddings also averaged over small turns of each part (test-time augmentation), on a
 // saved run, by cosine and through the library; and the same model read without the sign-flip average.
-//   npx tsx scripts/dev/turns-tta.ts <library-dir> <run-dir> [degrees ...]
+//   npx tsx research/scripts/turns-tta.ts <library-dir> <run-dir> [degrees ...]
 import { embedForRetrieval } from '../../src/core/model/embed';
 import { axisAngle, transformPoints } from '../../src/core/points/rotation';
 import { normaliseRows } from '../../src/core/vectors';

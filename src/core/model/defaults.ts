@@ -1,6 +1,6 @@
 // Default training settings: sized so a library of a hundred or so parts trains in about three minutes on two
 // CPU cores, with the per-point inputs chosen from the library itself (normals only where the meshes make them
-// trustworthy) and the training length from its size (a step budget). Measured in docs/results.md.
+// trustworthy) and the training length from its size (a step budget). Measured in docs/log/.
 
 import { PRESETS } from '../points/augment';
 import { DEFAULT_ENCODER, type InputFeatures } from './encoder-config';
@@ -30,7 +30,7 @@ export const POOL_POINTS = 2048;
 /**
  * Share of closed meshes from which the default inputs include normals. A closed mesh is re-wound outward on
  * import, so its normals are exact; an open one only gets the away-from-the-centroid guess. Measured (three
- * seeds each, docs/results.md): on the closed demo library normals lift the trained encoder's mAP from 0.57 to
+ * seeds each, docs/log/): on the closed demo library normals lift the trained encoder's mAP from 0.57 to
  * 0.84, while on the furniture set (49 of 152 closed) the trained encoder does better without them.
  */
 export const NORMALS_MIN_CLOSED_SHARE = 0.5;
@@ -51,7 +51,7 @@ export function inputsReason(closed: readonly boolean[]): string {
 }
 
 /**
- * Training length in steps that the default epochs aim for. Measured on the furniture set (docs/results.md):
+ * Training length in steps that the default epochs aim for. Measured on the furniture set (docs/log/):
  * retrieval improves up to about 600 steps and then levels off (1 280 steps were no better than 640).
  */
 export const DEFAULT_STEP_BUDGET = 640;
@@ -69,7 +69,7 @@ export function defaultEpochs(partCount: number, batchSize = DEFAULT_TRAIN.batch
 export const FILE_FRAME_FIT = 1.05;
 /**
  * Share of parts that must sit square in their files' axes for the default pose to use the files' frame.
- * Measured (docs/results.md): both real furniture sets (96 % and 90 % square) retrieve better in their files'
+ * Measured (docs/log/): both real furniture sets (96 % and 90 % square) retrieve better in their files'
  * frame, where a chair's seat is up whatever its proportions; the demo library (66 %: a third of its parts were
  * exported turned) keeps the principal-axes pose.
  */
@@ -78,7 +78,7 @@ export const FILE_FRAME_MIN_SHARE = 0.8;
 /**
  * Default pose for a library from each part's file-frame box ratio (points/pca.ts `fileFrameBoxRatio`). A square
  * library gets two encoders, one in the files' axes and one in principal axes: on both real sets (five seeds
- * each, docs/results.md) the pair beat the files'-axes encoder alone, and its twice-as-long training stays
+ * each, docs/log/) the pair beat the files'-axes encoder alone, and its twice-as-long training stays
  * within the time budget. Other libraries get principal axes.
  */
 export function defaultPose(boxRatios: readonly number[]): Pose {

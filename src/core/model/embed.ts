@@ -23,7 +23,7 @@ export function disposeEncoders(e: Encoders): void {
 
 /**
  * Disjoint point subsets of each part whose embeddings retrieval averages (test-time augmentation). Measured
- * on both real sets, three seeds each (docs/results.md): 4 lifted first tier and mAP over 1.
+ * on both real sets, three seeds each (docs/log/): 4 lifted first tier and mAP over 1.
  */
 export const RETRIEVAL_RESAMPLINGS = 4;
 

@@ -25,7 +25,7 @@ export interface EncoderConfig {
   readonly projection: readonly number[];
   /**
    * What retrieval compares: the projection head's output (what the contrastive loss shapes) or the pooled
-   * features under it. Absent (models saved before the choice existed): pooled. Measured in docs/results.md.
+   * features under it. Absent (models saved before the choice existed): pooled. Measured in docs/log/.
    */
   readonly retrieval?: 'projection' | 'pooled';
   /**
@@ -44,7 +44,7 @@ export const EDGE_WIDTH = 64;
  * max pooling and head 256-128, on points and normals (inputs are then chosen per library). The neighbour layer
  * lifted furniture retrieval in every seed; 32 neighbours rather than 16 kept the nearest-neighbour rate with the
  * stronger stretching of the `principal-pose` augmentations. A step costs about 1.9× the one at 16 neighbours and
- * 5× a step without the layer, most of it the neighbour search and max in plain JS (docs/results.md).
+ * 5× a step without the layer, most of it the neighbour search and max in plain JS (docs/log/).
  */
 export const DEFAULT_ENCODER: EncoderConfig = {
   inputFeatures: 'xyz+normal',

@@ -142,7 +142,7 @@ export const PRESETS: Record<
   /**
    * For parts put in a canonical pose first (principal axes, or their files' axes): the pose's sign ambiguity,
    * small pose errors, proportions that vary within a family (each axis stretched by up to 1.5×: on two real
-   * sets this lifted mAP by 0.02–0.03 over 1.2×; docs/results.md), scan damage.
+   * sets this lifted mAP by 0.02–0.03 over 1.2×; docs/log/), scan damage.
    */
   'principal-pose': {
     version: 1,

@@ -18,7 +18,7 @@ export interface DiffusionOptions {
 }
 
 /**
- * k, α and γ measured on the furniture validation set (docs/results.md), near the settings of Iscen et al. 2017
+ * k, α and γ measured on the furniture validation set (docs/log/), near the settings of Iscen et al. 2017
  * (γ = 3); 40 iterations leave α^40 ≈ 10⁻⁴ of the start at α = 0.8.
  */
 export const DIFFUSION_DEFAULTS: DiffusionOptions = { k: 15, alpha: 0.8, gamma: 3, iterations: 40 };
@@ -160,7 +160,7 @@ function affinity(similarity: number, gamma: number): number {
  * cosine, among those `accept` lets through, first (nearest first); then f where the diffusion reached a part;
  * below all of those, parts it never reached (another component of the graph) in cosine order. Nearest first
  * because diffusion favours parts central to a family: alone it can put a file's exact twin second, and over
- * three libraries it lowered the nearest-neighbour rate about as often as it raised it (docs/results.md).
+ * three libraries it lowered the nearest-neighbour rate about as often as it raised it (docs/log/).
  */
 export function rankingKeys(
   f: ArrayLike<number>,

@@ -8,7 +8,7 @@ import { topK } from './topk';
 import { DIFFUSION_DEFAULTS, diffusedSimilarity, type DiffusionOptions } from './diffusion';
 
 /**
- * Neighbours behind r. Measured on both real sets and the demo (docs/results.md, "Hub correction"): 20, 30 and
+ * Neighbours behind r. Measured on both real sets and the demo (docs/log/2026-12-03-two-encoders.md): 20, 30 and
  * 40 all helped the two-encoder models, 30 most evenly; a library smaller than 31 parts uses all its other parts.
  */
 export const HUB_NEIGHBOURS = 30;

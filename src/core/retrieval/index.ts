@@ -168,7 +168,7 @@ export class EmbeddingIndex {
    * Whether diffusion can order this library: its edge weights max(0, cos)³ only tell neighbours apart when the
    * embedding is spread out. On the demo and furniture libraries, models trained 60 steps or more measured a mean
    * pair cosine of 0.00–0.05, where diffusion helped or changed little; a 9-step model measured 0.37 and untrained
-   * encoders 0.98–0.99, where it lowered NN and mAP (docs/results.md). The cut sits between.
+   * encoders 0.98–0.99, where it lowered NN and mAP (docs/log/). The cut sits between.
    */
   diffusionApplies(): boolean {
     return this.meanPairCosine() < DIFFUSION_MAX_MEAN_COSINE;
