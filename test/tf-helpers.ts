@@ -21,12 +21,29 @@ export async function expectNoLeak<T>(fn: () => T | Promise<T>): Promise<T> {
  * file whose tests touch tfjs (encoders, training, embedding, the command line in-process).
  */
 export function guardTensorLeaks(): void {
+  // Tests that run before any backend is set (pure-JS parts of a file) hold no tensors.
+  const count = () => (tf.engine().backendName ? tf.memory().numTensors : 0);
   let before = 0;
   beforeEach(() => {
-    before = tf.memory().numTensors;
+    before = count();
   });
   afterEach((ctx) => {
-    const now = tf.memory().numTensors;
+    const now = count();
     expect(now - before, `${ctx.task.name}: tensors leaked`).toBe(0);
   });
+}
+
+/**
+ * Tensors a test makes as fixed inputs, disposed after each test (before the leak guard counts): call once at the
+ * top of a file, after guardTensorLeaks(), and pass inputs through the returned function.
+ */
+export function disposedAfterEach(): <T extends tf.Tensor | tf.Tensor[]>(t: T) => T {
+  const made: tf.Tensor[] = [];
+  afterEach(() => {
+    tf.dispose(made.splice(0));
+  });
+  return (t) => {
+    made.push(...(Array.isArray(t) ? t : [t]));
+    return t;
+  };
 }

@@ -1,6 +1,6 @@
 // The command line end to end on the demo library: a tiny training run, then every command on its output.
 
-import { existsSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { zlibSync } from './zlib-crc';
 import { CylinderGeometry, PlaneGeometry } from 'three';
 import { DIFFUSION_MAX_MEAN_COSINE } from '../../src/core/retrieval/index';
@@ -14,6 +14,8 @@ import { cpSync } from 'node:fs';
 import { guardTensorLeaks } from '../tf-helpers';
 
 guardTensorLeaks();
+
+const firstFile = (family: string) => readdirSync(join(DEMO, family)).sort()[0];
 
 const DEMO = 'demo-shapes';
 let run = '';
@@ -240,11 +242,21 @@ describe('shapekin embed, query, duplicates, study', () => {
     for (let i = 1; i < 5; i++) expect(c.results[i].score).toBeLessThanOrEqual(c.results[i - 1].score);
     expect(c.results[0].label).toBe('washer');
   }, 120_000);
-  it('duplicates groups look-alikes above a threshold', async () => {
+  it('duplicates puts a re-saved copy of a part in a group with its original', async () => {
     capture();
-    expect(await main(['duplicates', DEMO, '--model', run, '--threshold', '0.999', '--json'])).toBe(0);
+    // A small library: one washer saved twice under two part numbers, and parts of three other families.
+    const lib = mkdtempSync(join(tmpdir(), 'shapekin-dup-'));
+    for (const f of ['washer/BC01-100A.stl', 'hex-nut/' + firstFile('hex-nut'), 'angle/' + firstFile('angle'), 'i-beam/' + firstFile('i-beam')]) {
+      cpSync(join(DEMO, f), join(lib, f.replace('/', '-')));
+    }
+    cpSync(join(DEMO, 'washer/BC01-100A.stl'), join(lib, 'washer-copy-BC99-100A.stl'));
+    expect(await main(['duplicates', lib, '--model', run, '--threshold', '0.99', '--json'])).toBe(0);
     const r = JSON.parse(out.join('\n'));
-    expect(r.threshold).toBe(0.999);
+    expect(r.threshold).toBe(0.99);
+    const files = (g: { parts: { file: string }[] }) => g.parts.map((p) => p.file);
+    const twin = r.groups.find((g: { parts: { file: string }[] }) => files(g).includes('washer-copy-BC99-100A.stl'));
+    expect(twin, 'the copy is in no group').toBeDefined();
+    expect(files(twin)).toContain('washer-BC01-100A.stl');
     for (const g of r.groups) expect(g.parts.length).toBeGreaterThanOrEqual(2);
   }, 120_000);
   it('study reports rows per augmentation, strength and method', async () => {

@@ -21,8 +21,9 @@ export class Adam {
     readonly beta2 = 0.999,
     readonly epsilon = 1e-8,
   ) {
-    this.m = params.map((p) => tf.variable(tf.zerosLike(p), false));
-    this.v = params.map((p) => tf.variable(tf.zerosLike(p), false));
+    // Inside tidy: the zero tensors that seed each variable are let go (the variable keeps its own reference).
+    this.m = params.map((p) => tf.tidy(() => tf.variable(tf.zerosLike(p), false)));
+    this.v = params.map((p) => tf.tidy(() => tf.variable(tf.zerosLike(p), false)));
   }
 
   /** One update with gradients in the order of the parameters. */

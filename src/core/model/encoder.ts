@@ -30,10 +30,15 @@ export class Encoder {
     validateEncoderConfig(config);
     this.config = config;
     const id = `enc${++instances}`;
-    const make = (fanIn: number, fanOut: number, name: string, gain: number): Layer => ({
-      w: tf.variable(tf.tensor2d(heNormal(rng, fanIn, fanOut, gain), [fanIn, fanOut]), true, `${id}/${name}/w`),
-      b: tf.variable(tf.zeros([fanOut]), true, `${id}/${name}/b`),
-    });
+    // tf.variable keeps its own reference to the initial values; the tensors that carried them are let go here,
+    // or every encoder built would leave two tensors per layer behind after its dispose().
+    const make = (fanIn: number, fanOut: number, name: string, gain: number): Layer => {
+      const w0 = tf.tensor2d(heNormal(rng, fanIn, fanOut, gain), [fanIn, fanOut]);
+      const b0 = tf.zeros([fanOut]);
+      const layer = { w: tf.variable(w0, true, `${id}/${name}/w`), b: tf.variable(b0, true, `${id}/${name}/b`) };
+      tf.dispose([w0, b0]);
+      return layer;
+    };
     let c = inputChannels(config.inputFeatures);
     this.edge = config.edge ? make(c + 3, config.edge.width, 'edge', 2) : null;
     if (config.edge) c = config.edge.width;

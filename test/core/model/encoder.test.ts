@@ -71,16 +71,17 @@ describe('fused per-point MLP + pooling: hand-written gradients equal tfjs autod
       const at = (d: number) => {
         const w = w0.slice();
         w[i] += d;
-        enc.layers[0].w.assign(tf.tensor2d(w, [3, 8]));
+        tf.tidy(() => enc.layers[0].w.assign(tf.tensor2d(w, [3, 8])));
         return tf.tidy(() => f().dataSync()[0]);
       };
       const g = (at(h) - at(-h)) / (2 * h);
-      enc.layers[0].w.assign(tf.tensor2d(w0, [3, 8]));
+      tf.tidy(() => enc.layers[0].w.assign(tf.tensor2d(w0, [3, 8])));
       return g;
     });
     // Max pooling is piecewise linear: a step this small rarely changes a winning point, so agreement is close.
     expectClose(Array.from(analytic.slice(0, 6)), numeric, { atol: 2e-3, rtol: 2e-2 });
     tf.dispose([x, target, value, ...Object.values(grads)]);
+    enc.dispose();
     enc.dispose();
   });
 });
@@ -117,7 +118,7 @@ describe('symmetries of the architecture', () => {
     const enc = new Encoder(tiny, createRng(12));
     const e = tf.tidy(() => enc.embed(tf.tensor3d(cloudBatch(2, 16, 13), [2, 16, 3])).dataSync());
     expectClose(Math.hypot(...e.slice(0, 12)), 1, { atol: 1e-5 });
-    expect(() => enc.pooled(tf.zeros([1, 4, 6]) as tf.Tensor3D)).toThrow(/6 channels per point, expected 3/);
+    expect(() => tf.tidy(() => enc.pooled(tf.zeros([1, 4, 6]) as tf.Tensor3D))).toThrow(/6 channels per point, expected 3/);
     expect(() => new Encoder({ ...tiny, widths: [] }, createRng(1))).toThrow(/widths/);
     enc.dispose();
   });
@@ -158,7 +159,7 @@ describe('unsigned-normal inputs', () => {
     const flipped = normals.map((v) => -v);
     const [e1, e2] = [normals, flipped].map((nrm) => embedParts(enc, [{ points, normals: nrm }], 64));
     expectClose([...e1], [...e2], { atol: 1e-6 });
-    expect(() => enc.embed(tf.zeros([1, 8, 6]) as tf.Tensor3D)).toThrow(/9/);
+    expect(() => tf.tidy(() => enc.embed(tf.zeros([1, 8, 6]) as tf.Tensor3D))).toThrow(/9/);
     enc.dispose();
   });
 });
@@ -292,9 +293,8 @@ describe('EdgeConv first layer (Wang et al. 2019, eq. 8, on the input points)', 
         ) as tf.Scalar,
       vars,
     );
-    expect(tf.sum(tied.grads[enc.edge!.b.name]).dataSync()[0]).toBeGreaterThan(
-      tf.sum(fast.grads[enc.edge!.b.name]).dataSync()[0] + 0.5,
-    );
+    const biasSum = (g: tf.NamedTensorMap) => tf.tidy(() => tf.sum(g[enc.edge!.b.name]).dataSync()[0]);
+    expect(biasSum(tied.grads)).toBeGreaterThan(biasSum(fast.grads) + 0.5);
     tf.dispose([
       x,
       edges,

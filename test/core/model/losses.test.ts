@@ -6,9 +6,10 @@ import { supConLoss } from '../../../src/core/model/losses/supcon';
 import { tripletLoss } from '../../../src/core/model/losses/triplet';
 import { multiViewSupConLoss } from '../../../src/core/model/losses/supcon';
 import { expectClose } from '../../helpers';
-import { expectNoLeak, useBackend, guardTensorLeaks } from '../../tf-helpers';
+import { disposedAfterEach, expectNoLeak, useBackend, guardTensorLeaks } from '../../tf-helpers';
 
 guardTensorLeaks();
+const input = disposedAfterEach();
 
 beforeAll(async () => {
   await useBackend('wasm');
@@ -20,7 +21,7 @@ const unit = (deg: number) => [Math.cos((deg * Math.PI) / 180), Math.sin((deg * 
 function worked(): [tf.Tensor2D, tf.Tensor2D] {
   // a1 = 0°, a2 = 180°, b1 = 60°, b2 = 120°  → cos(a1,b1) = 0.5, cos(a1,a2) = −1, cos(a1,b2) = −0.5,
   // cos(b1,a2) = −0.5, cos(b1,b2) = 0.5, cos(a2,b2) = 0.5.
-  return [tf.tensor2d([unit(0), unit(180)]), tf.tensor2d([unit(60), unit(120)])];
+  return input([tf.tensor2d([unit(0), unit(180)]), tf.tensor2d([unit(60), unit(120)])]);
 }
 
 describe('NT-Xent (Chen et al. 2020, eq. 1)', () => {
@@ -35,8 +36,8 @@ describe('NT-Xent (Chen et al. 2020, eq. 1)', () => {
     zb.dispose();
   });
   it('equals an independent formulation through tf.losses.softmaxCrossEntropy', () => {
-    const za = tf.randomNormal([6, 5], 0, 1, 'float32', 1) as tf.Tensor2D;
-    const zb = tf.randomNormal([6, 5], 0, 1, 'float32', 2) as tf.Tensor2D;
+    const za = input(tf.randomNormal([6, 5], 0, 1, 'float32', 1) as tf.Tensor2D);
+    const zb = input(tf.randomNormal([6, 5], 0, 1, 'float32', 2) as tf.Tensor2D);
     const tau = 0.2;
     const reference = tf.tidy(() => {
       const z = tf.concat([za, zb]);
@@ -52,9 +53,10 @@ describe('NT-Xent (Chen et al. 2020, eq. 1)', () => {
     );
   });
   it('refuses a batch of one, a zero temperature and mismatched views', () => {
-    expect(() => ntXentLoss(tf.ones([1, 3]), tf.ones([1, 3]), 0.1)).toThrow(/at least 2 parts/);
-    expect(() => ntXentLoss(tf.ones([2, 3]), tf.ones([2, 3]), 0)).toThrow(/temperature must be > 0/);
-    expect(() => ntXentLoss(tf.ones([2, 3]), tf.ones([3, 3]), 0.1)).toThrow(/shapes/);
+    const ones = (rows: number) => input(tf.ones([rows, 3]) as tf.Tensor2D);
+    expect(() => ntXentLoss(ones(1), ones(1), 0.1)).toThrow(/at least 2 parts/);
+    expect(() => ntXentLoss(ones(2), ones(2), 0)).toThrow(/temperature must be > 0/);
+    expect(() => ntXentLoss(ones(2), ones(3), 0.1)).toThrow(/shapes/);
   });
 });
 

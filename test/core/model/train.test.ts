@@ -44,17 +44,22 @@ const small: TrainConfig = {
 describe('Adam (Kingma & Ba 2015) against tf.train.adam', () => {
   it('gives the same parameters after five steps on a quadratic', () => {
     const target = tf.tensor1d([1, -2, 3]);
-    const a = tf.variable(tf.tensor1d([0.5, 0.5, 0.5]));
-    const b = tf.variable(tf.tensor1d([0.5, 0.5, 0.5]));
+    const a = tf.tidy(() => tf.variable(tf.tensor1d([0.5, 0.5, 0.5])));
+    const b = tf.tidy(() => tf.variable(tf.tensor1d([0.5, 0.5, 0.5])));
     const ours = new Adam([a]);
     const theirs = tf.train.adam(0.05, 0.9, 0.999, 1e-8);
     for (let i = 0; i < 5; i++) {
-      const { grads } = tf.variableGrads(() => tf.sum(tf.square(tf.sub(a, target))) as tf.Scalar, [a]);
-      ours.apply([grads[a.name]], 0.05);
-      theirs.minimize(() => tf.sum(tf.square(tf.sub(b, target))) as tf.Scalar, false, [b]);
+      tf.tidy(() => {
+        const { grads } = tf.variableGrads(() => tf.sum(tf.square(tf.sub(a, target))) as tf.Scalar, [a]);
+        ours.apply([grads[a.name]], 0.05);
+        theirs.minimize(() => tf.sum(tf.square(tf.sub(b, target))) as tf.Scalar, false, [b]);
+      });
     }
     // float32 rounding differs in the order of operations (tfjs keeps β^t as running products): 1e-5.
     expectClose(a.dataSync(), b.dataSync(), { atol: 1e-5 });
+    tf.dispose([target, a, b]);
+    ours.dispose();
+    theirs.dispose();
   });
 });
 
