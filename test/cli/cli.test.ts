@@ -246,7 +246,12 @@ describe('shapekin embed, query, duplicates, study', () => {
     capture();
     // A small library: one washer saved twice under two part numbers, and parts of three other families.
     const lib = mkdtempSync(join(tmpdir(), 'shapekin-dup-'));
-    for (const f of ['washer/BC01-100A.stl', 'hex-nut/' + firstFile('hex-nut'), 'angle/' + firstFile('angle'), 'i-beam/' + firstFile('i-beam')]) {
+    for (const f of [
+      'washer/BC01-100A.stl',
+      'hex-nut/' + firstFile('hex-nut'),
+      'angle/' + firstFile('angle'),
+      'i-beam/' + firstFile('i-beam'),
+    ]) {
       cpSync(join(DEMO, f), join(lib, f.replace('/', '-')));
     }
     cpSync(join(DEMO, 'washer/BC01-100A.stl'), join(lib, 'washer-copy-BC99-100A.stl'));

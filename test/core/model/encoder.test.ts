@@ -118,7 +118,9 @@ describe('symmetries of the architecture', () => {
     const enc = new Encoder(tiny, createRng(12));
     const e = tf.tidy(() => enc.embed(tf.tensor3d(cloudBatch(2, 16, 13), [2, 16, 3])).dataSync());
     expectClose(Math.hypot(...e.slice(0, 12)), 1, { atol: 1e-5 });
-    expect(() => tf.tidy(() => enc.pooled(tf.zeros([1, 4, 6]) as tf.Tensor3D))).toThrow(/6 channels per point, expected 3/);
+    expect(() => tf.tidy(() => enc.pooled(tf.zeros([1, 4, 6]) as tf.Tensor3D))).toThrow(
+      /6 channels per point, expected 3/,
+    );
     expect(() => new Encoder({ ...tiny, widths: [] }, createRng(1))).toThrow(/widths/);
     enc.dispose();
   });
