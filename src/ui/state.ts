@@ -69,6 +69,8 @@ export interface TrainingState {
   readonly backend: string;
   /** The saved model (the worker keeps it in IndexedDB), or null before any training. */
   readonly model: CheckpointMessage | null;
+  /** Whether the saved model has been looked for yet: until then `model` null means "not known", not "none". */
+  readonly modelKnown: boolean;
 }
 
 export interface SearchState {
@@ -78,6 +80,15 @@ export interface SearchState {
   readonly filters: SearchFilters;
   /** Embedding the library with the current model. */
   readonly status: JobStatus;
+  /** Why the chosen result matches the query: each part's first points weighted by their share of the similarity. */
+  readonly explanation: MatchExplanation | null;
+}
+
+export interface MatchExplanation {
+  readonly query: string;
+  readonly result: string;
+  readonly a: Float32Array;
+  readonly b: Float32Array;
 }
 
 export interface MeasureState {

@@ -66,6 +66,15 @@ export type TrainRequest =
       readonly checkpoint: CheckpointMessage | null;
       readonly config: TrainConfig;
     }
+  /** Which points of two parts carry their similarity (core/model/explain.ts). */
+  | {
+      readonly type: 'explain';
+      readonly id: number;
+      readonly a: PartArrays;
+      readonly b: PartArrays;
+      readonly checkpoint: CheckpointMessage | null;
+      readonly config: TrainConfig;
+    }
   /** The checkpoint kept in IndexedDB (tfjs's browser handler), if any. */
   | { readonly type: 'load-saved'; readonly id: number }
   /** Keep this checkpoint (e.g. a model trained by the command line) as the current one. */
@@ -110,6 +119,15 @@ export type TrainReply =
       readonly learned: boolean;
     }
   | { readonly type: 'saved'; readonly id: number; readonly checkpoint: CheckpointMessage | null }
+  | {
+      readonly type: 'explanation';
+      readonly id: number;
+      readonly a: Float32Array;
+      readonly b: Float32Array;
+      readonly pooledCosine: number;
+      /** How many of each part's first points the contributions cover. */
+      readonly points: number;
+    }
   | { readonly type: 'evaluation'; readonly id: number; readonly report: EvaluationReport }
   | {
       readonly type: 'study-progress';

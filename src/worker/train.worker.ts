@@ -8,6 +8,7 @@ import wasmThreaded from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm-t
 import { initBackend } from '../core/model/backend';
 import { encodersFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../core/model/checkpoint';
 import { disposeEncoders, embedForRetrieval } from '../core/model/embed';
+import { explainMatch } from '../core/model/explain';
 import { Trainer } from '../core/model/trainer';
 import { evaluateMethods, untrainedEncoders } from '../core/quality/evaluate';
 import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
@@ -218,6 +219,21 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         fromMessage(req.checkpoint); // validates before it replaces anything
         await keep(req.checkpoint);
         post({ type: 'saved', id: req.id, checkpoint: req.checkpoint });
+        return;
+      }
+      case 'explain': {
+        const ckpt = req.checkpoint ? fromMessage(req.checkpoint) : null;
+        const cfg = ckpt ? ckpt.manifest.config : req.config;
+        const enc = ckpt ? encodersFromCheckpoint(ckpt) : untrainedEncoders(cfg.encoder, cfg.pose, cfg.seed);
+        try {
+          const e = explainMatch(enc, req.a, req.b, cfg.points, cfg.pose);
+          post({ type: 'explanation', id: req.id, a: e.a, b: e.b, pooledCosine: e.pooledCosine, points: cfg.points }, [
+            e.a.buffer as ArrayBuffer,
+            e.b.buffer as ArrayBuffer,
+          ]);
+        } finally {
+          disposeEncoders(enc);
+        }
         return;
       }
       case 'embed': {

@@ -125,6 +125,34 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await expect.poll(async () => page.getByTestId('order-note').count(), { timeout: 10_000 }).toBe(0);
     expect(await page.getByText(/qualified person/).count()).toBeGreaterThan(0);
     await page.screenshot({ path: `${ARTIFACTS}/search.png` });
+    // Why this match: the views switch to the sampled points, weighted by their share of the similarity.
+    await page.getByTestId('why-toggle').check();
+    const why = () =>
+      page.evaluate(() => {
+        const app = document.querySelector('sk-app') as unknown as {
+          state: { search: { explanation: { a: Float32Array; b: Float32Array } | null } };
+          shadowRoot: ShadowRoot;
+        };
+        const panel = app.shadowRoot.querySelector('sk-search-panel') as unknown as {
+          objects: { query: { type: string } | null };
+        };
+        const e = app.state.search.explanation;
+        if (!e) return null;
+        const carrying = Array.from(e.a).filter((v) => v > 0).length;
+        return {
+          carrying,
+          points: e.a.length,
+          sum: Array.from(e.a).reduce((s, v) => s + v, 0),
+          view: panel.objects.query?.type,
+        };
+      });
+    await expect.poll(async () => (await why())?.view, { timeout: 30_000 }).toBe('Points');
+    const w = (await why())!;
+    expect(w.carrying).toBeGreaterThan(0);
+    expect(w.carrying).toBeLessThan(w.points); // only critical points carry weight
+    expect(w.sum).toBeGreaterThan(0);
+    await page.screenshot({ path: `${ARTIFACTS}/search-why.png` });
+    await page.getByTestId('why-toggle').uncheck();
     // A new file, not in the library, as the query.
     await page.locator('sk-search-panel input[type=file]').setInputFiles('demo-shapes/spur-gear/BC06-311C.obj');
     await expect
@@ -151,6 +179,29 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       /learned.*learned, ordered through the library.*untrained.*d2.*d2, ordered through the library/s,
     );
     await page.screenshot({ path: `${ARTIFACTS}/quality.png` });
+    // The augmentation study can be cancelled: it stops, says nothing failed, and the table measured before stays.
+    await page.getByRole('button', { name: 'Run the augmentation study' }).click();
+    const cancel = page.getByTestId('cancel-measure');
+    await cancel.waitFor({ timeout: 30_000 });
+    await cancel.click();
+    await expect
+      .poll(async () => page.getByRole('button', { name: 'Run the augmentation study' }).isEnabled(), {
+        timeout: 10_000,
+      })
+      .toBe(true);
+    expect(await page.locator('sk-study-panel [role=alert]').count()).toBe(0);
+    expect(await table.locator('tr').count()).toBe(7);
+    // and the worker it ended is replaced: a file from outside the library is still embedded and searched with.
+    await page.getByRole('tab', { name: 'Look-alikes' }).click();
+    await page.locator('sk-search-panel input[type=file]').setInputFiles('demo-shapes/hex-nut/BC04-224B.stl');
+    await expect
+      .poll(async () => page.locator('sk-search-panel select[aria-label="Query part"]').inputValue(), {
+        timeout: 60_000,
+      })
+      .toMatch(/BC04-224B\.stl \(dropped file\)/);
+    await expect
+      .poll(async () => page.getByTestId('search-results').locator('li').count(), { timeout: 60_000 })
+      .toBe(10);
   }, 180_000);
 
   it('a reload keeps the library and the trained model', async () => {
@@ -160,7 +211,12 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       .toMatch(/112 parts in 14 folders/);
     await expect
       .poll(async () => page.getByTestId('model-status').textContent(), { timeout: 60_000 })
-      .toMatch(/model: 9 of 9 steps \(done\)/);
+      .toMatch(/model: trained \(9 steps\)/);
+    // The banner says the same as the header, and nothing claims to be running.
+    expect(await page.locator('sk-app .notice').textContent()).toMatch(/Restored the saved model \(9 training steps\)/);
+    await page.getByRole('tab', { name: 'Training' }).click();
+    expect(await page.getByTestId('train-stats').textContent()).toMatch(/no training running/);
+    await page.getByRole('tab', { name: 'Parts library' }).click();
   }, 120_000);
 
   it('broken files dropped into the page get a reason each, a reader that runs too long is stopped, and the page stays responsive', async () => {

@@ -43,8 +43,9 @@ export function initialState(): AppState {
       checks: [],
       backend: '',
       model: null,
+      modelKnown: false,
     },
-    search: { index: null, query: null, hits: [], filters: DEFAULT_FILTERS, status: IDLE },
+    search: { index: null, query: null, hits: [], filters: DEFAULT_FILTERS, status: IDLE, explanation: null },
     measure: { report: null, status: IDLE, rows: [], study: IDLE },
   };
 }
@@ -123,7 +124,7 @@ export class SkApp extends LitElement {
     const m = training.model?.manifest;
     return html`
       <header><h1>Shape<span>kin</span></h1><div class="tagline">find parts that look like a given part — everything stays on this machine</div>
-        <div class="model" data-testid="model-status">${m ? `model: ${m.step} of ${m.totalSteps} steps (${m.status})` : 'no model yet: searching with the untrained encoder'}
+        <div class="model" data-testid="model-status">${modelLine(training)}
           <label>Import model…<input type="file" multiple accept=".json,.bin" @change=${(e: Event) => {
             const t = e.target as HTMLInputElement;
             if (t.files) void this.training.importModel(Array.from(t.files));
@@ -176,20 +177,35 @@ export class SkApp extends LitElement {
       case 'search':
         return html`<sk-search-panel .diffusionApplies=${search.index?.diffusionApplies() ?? true} .parts=${library.parts} .query=${search.query} .hits=${search.hits} .thumbnails=${library.thumbnails}
           .filters=${search.filters} .families=${families} .busy=${isBusy(search.status)} .failure=${search.status.kind === 'failed' ? search.status.message : ''}
+          .trained=${Boolean(training.model)}
           .source=${training.model ? `learned encoder, step ${training.model.manifest.step}` : 'untrained encoder (train one on the Training tab)'}
           @search-query=${(e: CustomEvent<string>) => this.showSearch(e.detail)}
           @search-file=${(e: CustomEvent<File>) => void this.search.searchFile(e.detail)}
-          @search-filters=${(e: CustomEvent<SearchFilters>) => this.search.setFilters(e.detail)}></sk-search-panel>`;
+          @search-filters=${(e: CustomEvent<SearchFilters>) => this.search.setFilters(e.detail)}
+          .explanation=${search.explanation} @explain-match=${(e: CustomEvent<number>) => void this.search.explain(e.detail)}></sk-search-panel>`;
       case 'study':
         return html`<sk-study-panel .report=${measure.report} .rows=${measure.rows} .progress=${measure.study.kind === 'running' ? measure.study.progress : null}
           .busy=${isBusy(measure.status) || isBusy(measure.study) || isBusy(training.status)} .hasModel=${Boolean(training.model)}
           .measuring=${isBusy(measure.status)} .failure=${measure.status.kind === 'failed' ? measure.status.message : measure.study.kind === 'failed' ? measure.study.message : ''}
-          @run-evaluation=${() => void this.measure.measureQuality()} @run-study=${() => void this.measure.runStudy()} @export-study=${() => this.measure.exportStudy()}></sk-study-panel>`;
+          @run-evaluation=${() => void this.measure.measureQuality()} @run-study=${() => void this.measure.runStudy()} @cancel-measure=${() => this.measure.cancel()} @export-study=${() => this.measure.exportStudy()}></sk-study-panel>`;
       case 'map':
         return html`<sk-map-panel .parts=${library.parts} .index=${search.index} .thumbnails=${library.thumbnails}
           @search-query=${(e: CustomEvent<string>) => this.showSearch(e.detail, 'search')}></sk-map-panel>`;
     }
   }
+}
+
+/** The header's one line about the model, from the training job's status (the same numbers as its panel). */
+export function modelLine(t: AppState['training']): string {
+  const p = t.progress;
+  if (t.status.kind === 'running') return p ? `training: step ${p.step} of ${p.totalSteps}` : 'training: starting';
+  if (t.status.kind === 'paused') return p ? `training paused at step ${p.step} of ${p.totalSteps}` : 'training paused';
+  if (!t.modelKnown) return 'looking for a saved model…';
+  const m = t.model?.manifest;
+  if (!m) return 'no model yet: searching with the untrained encoder';
+  return m.step < m.totalSteps
+    ? `model: stopped at step ${m.step} of ${m.totalSteps}`
+    : `model: trained (${m.step} steps)`;
 }
 
 customElements.define('sk-app', SkApp);

@@ -7,9 +7,9 @@ import { ACCEPT } from '../../core/mesh/formats';
 import { LitElement, css, html } from 'lit';
 import type { Object3D } from 'three';
 import type { LibraryPart } from '../../core/library';
-import { DEFAULT_FILTERS, type SearchFilters } from '../state';
+import { DEFAULT_FILTERS, type MatchExplanation, type SearchFilters } from '../state';
 import type { Hit } from '../../core/retrieval/topk';
-import { meshObject, pointsObject, PALETTE } from '../controllers/scene';
+import { meshObject, pointsObject, PALETTE, weightColours } from '../controllers/scene';
 import { CameraLink } from '../controllers/viewer';
 import './viewer';
 
@@ -26,6 +26,9 @@ export class SkSearchPanel extends LitElement {
     busy: { type: Boolean },
     failure: { type: String },
     diffusionApplies: { type: Boolean },
+    trained: { type: Boolean },
+    explanation: { attribute: false },
+    why: { state: true },
   };
   declare parts: readonly LibraryPart[];
   declare query: LibraryPart | null;
@@ -40,6 +43,11 @@ export class SkSearchPanel extends LitElement {
   declare failure: string;
   /** The embedding is spread out enough to order results through the library (else they follow cosine). */
   declare diffusionApplies: boolean;
+  /** A trained model made the embeddings (else the scores of a random encoder mean little). */
+  declare trained: boolean;
+  /** Why the chosen result matches (from the controller), shown when `why` is on. */
+  declare explanation: MatchExplanation | null;
+  declare why: boolean;
   private readonly link = new CameraLink();
   private objects: { query: Object3D | null; result: Object3D | null } = { query: null, result: null };
 
@@ -56,6 +64,9 @@ export class SkSearchPanel extends LitElement {
     this.busy = false;
     this.failure = '';
     this.diffusionApplies = true;
+    this.trained = false;
+    this.explanation = null;
+    this.why = false;
   }
 
   static override styles = css`
@@ -89,12 +100,28 @@ export class SkSearchPanel extends LitElement {
 
   protected override willUpdate(changed: Map<string, unknown>): void {
     if (changed.has('hits') || changed.has('query')) this.chosen = 0;
-    if (changed.has('hits') || changed.has('query') || changed.has('chosen')) {
+    if (['hits', 'query', 'chosen', 'why', 'explanation'].some((k) => changed.has(k))) {
       const q = this.query;
-      this.objects.query = q ? objectFor(q, PALETTE.teal) : null;
       const hit = this.hits[this.chosen];
-      this.objects.result = hit ? objectFor(this.parts[hit.index], PALETTE.rust) : null;
+      const r = hit ? this.parts[hit.index] : null;
+      const e = this.explanation;
+      if (this.why && q && r && e && e.query === q.name && e.result === r.name) {
+        // The points that carry the similarity, on the same scale in both views.
+        const max = Math.max(...e.a, ...e.b);
+        const n = e.a.length;
+        this.objects.query = pointsObject(q.points.subarray(0, 3 * n), 0.07, undefined, weightColours(e.a, max));
+        this.objects.result = pointsObject(r.points.subarray(0, 3 * n), 0.07, undefined, weightColours(e.b, max));
+      } else {
+        this.objects.query = q ? objectFor(q, PALETTE.teal) : null;
+        this.objects.result = r ? objectFor(r, PALETTE.rust) : null;
+      }
     }
+  }
+
+  protected override updated(changed: Map<string, unknown>): void {
+    if (!this.why || !['hits', 'query', 'chosen', 'why'].some((k) => changed.has(k))) return;
+    const hit = this.hits[this.chosen];
+    if (hit) this.emit('explain-match', hit.index);
   }
 
   protected override render() {
@@ -152,12 +179,19 @@ export class SkSearchPanel extends LitElement {
             ).map(([v, t]) => html`<option value=${v} ?selected=${f.ranking === v}>${t}</option>`)}
           </select></label>
         ${f.ranking === 'diffusion' && !this.diffusionApplies ? html`<span class="small" data-testid="order-note">ordered by similarity: this embedding is too concentrated to order through the library (train a model)</span>` : null}
-        <span class="small">${this.busy ? 'embedding the library…' : this.source}</span>
+        <span class="small" data-testid="search-source">${this.busy ? 'embedding the library…' : this.source}</span>
         ${this.failure ? html`<span class="small error" role="alert">${this.failure}</span>` : null}
       </div>
       ${
         q
           ? html`<div class="main">
+        <p class="small order-explained" data-testid="order-explained">${
+          this.trained
+            ? f.ranking === 'diffusion' && this.diffusionApplies
+              ? 'Ordered through the library: a part that the query’s close look-alikes also resemble moves up. The number beside each is its direct similarity to the query (1 = the same shape), so it need not fall down the list.'
+              : 'Ordered by direct similarity to the query (1 = the same shape).'
+            : 'Not trained yet: the encoder has random weights, so every part scores near 1 and the order is rough. Train a model on the Training tab for look-alikes you can rely on.'
+        }</p>
         <ol data-testid="search-results" aria-label="most similar parts">
           ${this.hits.map((h, i) => {
             const p = this.parts[h.index];
@@ -165,8 +199,8 @@ export class SkSearchPanel extends LitElement {
             return html`<li><button aria-pressed=${i === this.chosen} @click=${() => (this.chosen = i)}>
               <span class="rank">${i + 1}</span>
               ${this.thumbnails.get(p.name) ? html`<img src=${this.thumbnails.get(p.name)} alt="" />` : html`<span></span>`}
-              <span><span class="score" title="cosine similarity to the query">${h.score.toFixed(3)}</span> <span class="small">${p.label}</span>
-                <div class="bar-score" style="width:${Math.max(2, Math.round(Math.max(0, h.score) * 100))}%"></div>
+              <span><span class="score" title="direct similarity to the query (cosine of the embeddings)">${this.trained ? h.score.toFixed(3) : '—'}</span> <span class="small">${p.label}</span>
+                ${this.trained ? html`<div class="bar-score" style="width:${Math.max(2, Math.round(Math.max(0, h.score) * 100))}%"></div>` : null}
                 <div class="small">${p.name.split('/').pop()}</div>
                 <div class="small">${p.info.extents.map((v) => v.toPrecision(3)).join(' × ')} ${unitsLabel(p.info)} · size ×${ratio.toFixed(2)}</div></span>
             </button></li>`;
@@ -178,6 +212,8 @@ export class SkSearchPanel extends LitElement {
             <sk-viewer .object=${this.objects.query} .link=${this.link} caption="query: ${q.name}"></sk-viewer>
             <sk-viewer .object=${this.objects.result} .link=${this.link} caption=${this.hits[this.chosen] ? `#${this.chosen + 1}: ${this.parts[this.hits[this.chosen].index].name}` : ''}></sk-viewer>
           </div>
+          <label class="small"><input type="checkbox" data-testid="why-toggle" .checked=${this.why} @change=${(e: Event) => (this.why = (e.target as HTMLInputElement).checked)} />
+            show why they match: the points that carry the likeness, darker the more they carry (the sampled points each part is read from)</label>
           <div class="small">Both views are scaled to the unit sphere and linked: drag either to turn both. Real sizes are listed beside each result.</div>
         </div>
       </div>`

@@ -160,7 +160,7 @@ export class SkTrainPanel extends LitElement {
 function statusLine(s: TrainingState['status'], stepped: boolean): string {
   switch (s.kind) {
     case 'idle':
-      return 'not started';
+      return 'no training running';
     case 'running':
       return s.progress || stepped ? 'training' : 'starting the worker…';
     case 'paused':

@@ -28,6 +28,19 @@ export class MeasureController {
     };
   }
 
+  /** Stops a running measurement or study; what was measured before stays. */
+  cancel(): void {
+    if (this.store.value.training.status.kind === 'running') return; // the worker is training: nothing of ours runs
+    const m = this.store.value.measure;
+    if (m.status.kind === 'running') this.patch({ status: { kind: 'cancelled' } });
+    if (m.study.kind === 'running') this.patch({ study: { kind: 'cancelled' } });
+    this.training.client.abort();
+  }
+
+  private failed(err: unknown): boolean {
+    return (err as Error).message !== 'cancelled';
+  }
+
   async measureQuality(): Promise<void> {
     this.patch({ status: STARTED });
     try {
@@ -37,7 +50,8 @@ export class MeasureController {
         status: { kind: 'done' },
       });
     } catch (err) {
-      this.patch({ status: { kind: 'failed', message: `Quality not measured: ${(err as Error).message}` } });
+      if (this.failed(err))
+        this.patch({ status: { kind: 'failed', message: `Quality not measured: ${(err as Error).message}` } });
     }
   }
 
@@ -55,7 +69,8 @@ export class MeasureController {
       );
       this.patch({ rows, study: { kind: 'done' } });
     } catch (err) {
-      this.patch({ study: { kind: 'failed', message: `Study not run: ${(err as Error).message}` } });
+      if (this.failed(err))
+        this.patch({ study: { kind: 'failed', message: `Study not run: ${(err as Error).message}` } });
     }
   }
 

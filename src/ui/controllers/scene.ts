@@ -49,10 +49,29 @@ export function rampColours(points: Float32Array, axis = 2): Float32Array {
   return out;
 }
 
-export function pointsObject(points: Float32Array, size = 0.025, colour?: number): Points {
+/**
+ * Colours for per-point weights in [0, max]: slate for points that carry nothing, through sand to rust for
+ * the points that carry the most (one hue ramp, so order reads without a legend and survives colour-vision deficiency).
+ */
+export function weightColours(weights: Float32Array, max: number): Float32Array {
+  const zero = new Color(0x7d8b93),
+    mid = new Color(0xd9b26f),
+    top = new Color(PALETTE.rust);
+  const out = new Float32Array(weights.length * 3);
+  const tmp = new Color();
+  for (let i = 0; i < weights.length; i++) {
+    const t = max > 0 ? Math.sqrt(Math.max(0, weights[i]) / max) : 0; // square root: small shares stay visible
+    if (t < 0.5) tmp.copy(zero).lerp(mid, t * 2);
+    else tmp.copy(mid).lerp(top, (t - 0.5) * 2);
+    out.set([tmp.r, tmp.g, tmp.b], i * 3);
+  }
+  return out;
+}
+
+export function pointsObject(points: Float32Array, size = 0.025, colour?: number, colours?: Float32Array): Points {
   const g = new BufferGeometry();
   g.setAttribute('position', new BufferAttribute(points, 3));
-  if (colour === undefined) g.setAttribute('color', new BufferAttribute(rampColours(points), 3));
+  if (colour === undefined) g.setAttribute('color', new BufferAttribute(colours ?? rampColours(points), 3));
   const m = new PointsMaterial({
     size,
     vertexColors: colour === undefined,

@@ -105,6 +105,22 @@ export class SearchController {
     }
   }
 
+  /** Which points of the query and of library part `resultIndex` carry their similarity (in the training worker). */
+  async explain(resultIndex: number): Promise<void> {
+    const query = this.state.query;
+    const result = this.store.value.library.parts[resultIndex];
+    if (!query || !result) return;
+    const { model, config } = this.training.state;
+    try {
+      const e = await this.training.client.explain(query, result, model, config);
+      if (this.state.query === query)
+        this.patch({ explanation: { query: query.name, result: result.name, a: e.a, b: e.b } });
+    } catch (err) {
+      if ((err as Error).message !== 'cancelled')
+        this.store.set({ notice: `Could not show why they match: ${(err as Error).message}` });
+    }
+  }
+
   setFilters(filters: SearchFilters): void {
     this.patch({ filters });
     if (this.last) this.rank(this.last.vector, this.last.exclude);

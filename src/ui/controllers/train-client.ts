@@ -12,6 +12,8 @@ export class TrainClient {
   private worker: Worker | null = null;
   private nextId = 1;
   private readonly listeners = new Set<Listener>();
+  /** Rejecters of the requests still waiting for their reply. */
+  private readonly pending = new Set<() => void>();
   runId = 0;
 
   private get w(): Worker {
@@ -76,16 +78,18 @@ export class TrainClient {
     expect: T,
   ): Promise<Extract<TrainReply, { type: T }>> {
     return new Promise((resolve, reject) => {
+      const settle = (fn: () => void) => {
+        off();
+        this.pending.delete(abort);
+        fn();
+      };
+      const abort = () => settle(() => reject(new Error('cancelled')));
       const off = this.on((reply) => {
         if (reply.id !== msg.id) return;
-        if (reply.type === 'error') {
-          off();
-          reject(new Error(reply.message));
-        } else if (reply.type === expect) {
-          off();
-          resolve(reply as Extract<TrainReply, { type: T }>);
-        }
+        if (reply.type === 'error') settle(() => reject(new Error(reply.message)));
+        else if (reply.type === expect) settle(() => resolve(reply as Extract<TrainReply, { type: T }>));
       });
+      this.pending.add(abort);
       this.send(msg);
     });
   }
@@ -108,6 +112,28 @@ export class TrainClient {
       'embeddings',
     );
     return { vectors: reply.vectors, dim: reply.dim };
+  }
+
+  /** Contributions of the first `points` points of a and b to their similarity. */
+  async explain(
+    a: PartArrays,
+    b: PartArrays,
+    checkpoint: CheckpointMessage | null,
+    config: TrainConfig,
+  ): Promise<{ a: Float32Array; b: Float32Array; pooledCosine: number; points: number }> {
+    const copy = (p: PartArrays) => ({ points: p.points.slice(), normals: p.normals.slice() });
+    const r = await this.request(
+      {
+        type: 'explain',
+        id: this.nextId++,
+        a: copy(a),
+        b: copy(b),
+        checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
+        config,
+      },
+      'explanation',
+    );
+    return { a: r.a, b: r.b, pooledCosine: r.pooledCosine, points: r.points };
   }
 
   async loadSaved(): Promise<CheckpointMessage | null> {
@@ -173,6 +199,17 @@ export class TrainClient {
     } finally {
       off();
     }
+  }
+
+  /**
+   * Stops whatever the worker is doing (a measurement or a study runs as one long call, so the worker itself is
+   * ended); waiting requests fail with "cancelled". The next request starts a fresh worker; the saved model stays
+   * in IndexedDB and every request carries what it needs, so nothing is lost.
+   */
+  abort(): void {
+    this.worker?.terminate();
+    this.worker = null;
+    for (const abort of [...this.pending]) abort();
   }
 
   dispose(): void {

@@ -83,6 +83,7 @@ export class TrainingController {
   async restore(): Promise<void> {
     try {
       const saved = await this.client.loadSaved();
+      this.patch({ modelKnown: true });
       if (!saved) return;
       const m = saved.manifest;
       this.patch({
@@ -99,6 +100,7 @@ export class TrainingController {
           : `Restored the saved model (${m.step} training steps).`,
       });
     } catch (err) {
+      this.patch({ modelKnown: true });
       this.store.set({ notice: `The saved model could not be read: ${(err as Error).message}` });
     }
   }
