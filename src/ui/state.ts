@@ -69,6 +69,8 @@ export interface TrainingState {
   readonly backend: string;
   /** The saved model (the worker keeps it in IndexedDB), or null before any training. */
   readonly model: CheckpointMessage | null;
+  /** One training step timed with the current settings (for the estimate before Start), or null. */
+  readonly stepMs: { readonly key: string; readonly ms: number } | null;
   /** Whether the saved model has been looked for yet: until then `model` null means "not known", not "none". */
   readonly modelKnown: boolean;
 }

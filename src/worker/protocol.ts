@@ -66,6 +66,8 @@ export type TrainRequest =
       readonly checkpoint: CheckpointMessage | null;
       readonly config: TrainConfig;
     }
+  /** Time one training step with these settings on a sample of the parts (the estimate before Start). */
+  | { readonly type: 'probe'; readonly id: number; readonly parts: readonly PartArrays[]; readonly config: TrainConfig }
   /** Which points of two parts carry their similarity (core/model/explain.ts). */
   | {
       readonly type: 'explain';
@@ -119,6 +121,7 @@ export type TrainReply =
       readonly learned: boolean;
     }
   | { readonly type: 'saved'; readonly id: number; readonly checkpoint: CheckpointMessage | null }
+  | { readonly type: 'probed'; readonly id: number; readonly msPerStep: number }
   | {
       readonly type: 'explanation';
       readonly id: number;

@@ -221,6 +221,19 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         post({ type: 'saved', id: req.id, checkpoint: req.checkpoint });
         return;
       }
+      case 'probe': {
+        // Two steps on a sample the size of a batch: the first pays for warm-up, the second is timed.
+        const t = new Trainer(req.parts, { ...req.config, epochs: 1, heldOutFraction: 0, patience: 0 });
+        try {
+          t.trainStep();
+          const t0 = performance.now();
+          t.trainStep();
+          post({ type: 'probed', id: req.id, msPerStep: performance.now() - t0 });
+        } finally {
+          t.dispose();
+        }
+        return;
+      }
       case 'explain': {
         const ckpt = req.checkpoint ? fromMessage(req.checkpoint) : null;
         const cfg = ckpt ? ckpt.manifest.config : req.config;

@@ -83,12 +83,16 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       .getByText(/Default inputs for this library: x y z \+ normal: 112 of 112 meshes are closed/)
       .waitFor({ timeout: 10_000 });
     // A third of the demo was exported turned, so it keeps the principal-axes pose, and says why.
-    expect(await page.getByLabel('pose', { exact: true }).inputValue()).toBe('principal-axes');
+    expect(await page.locator('sk-train-panel #pose').inputValue()).toBe('principal-axes');
     await page
       .getByText(/Default pose: principal axes: only 74 of 112 parts sit square in their files' axes/)
       .waitFor({ timeout: 10_000 });
-    await page.getByLabel('epochs').fill('3');
-    await page.getByLabel('epochs').dispatchEvent('change');
+    await page.locator('sk-train-panel #epochs').fill('3');
+    await page.locator('sk-train-panel #epochs').dispatchEvent('change');
+    // Before Start: an estimate from one step timed in the worker with these settings (3 epochs × 3 steps).
+    await expect
+      .poll(async () => page.getByTestId('train-estimate').textContent(), { timeout: 60_000 })
+      .toMatch(/Estimated training time: about \d+ (min \d+ )?s \(one step timed on this machine: \d+ ms\)/);
     await page.getByRole('button', { name: 'Start training' }).click();
     const stats = page.getByTestId('train-stats');
     await expect

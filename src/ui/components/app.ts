@@ -44,6 +44,7 @@ export function initialState(): AppState {
       backend: '',
       model: null,
       modelKnown: false,
+      stepMs: null,
     },
     search: { index: null, query: null, hits: [], filters: DEFAULT_FILTERS, status: IDLE, explanation: null },
     measure: { report: null, status: IDLE, rows: [], study: IDLE },
@@ -112,6 +113,11 @@ export class SkApp extends LitElement {
     await this.library.restore();
   }
 
+  private showPanel(panel: Panel): void {
+    this.store.set({ panel });
+    if (panel === 'train') void this.training.estimate();
+  }
+
   private showSearch(name: string, panel?: Panel): void {
     const part = this.library.select(name);
     if (!part) return;
@@ -142,7 +148,7 @@ export class SkApp extends LitElement {
         </div>
       </header>
       <nav role="tablist">
-        ${PANELS.map((p) => html`<button role="tab" aria-selected=${this.state.panel === p.id} @click=${() => this.store.set({ panel: p.id })}>${p.label}</button>`)}
+        ${PANELS.map((p) => html`<button role="tab" aria-selected=${this.state.panel === p.id} @click=${() => this.showPanel(p.id)}>${p.label}</button>`)}
       </nav>
       ${this.state.notice ? html`<div class="notice" role="status">${this.state.notice}</div>` : null}
       <main>${this.renderPanel()}</main>`;
@@ -167,6 +173,7 @@ export class SkApp extends LitElement {
         const traits = library.parts.length ? this.training.traits() : null;
         return html`<sk-train-panel .config=${training.config} .status=${training.status} .progress=${training.progress} .history=${training.history} .checks=${training.checks}
           .backend=${training.backend} .partCount=${library.parts.length} .hasLabels=${families.length > 1}
+          .stepMs=${this.training.stepMsNow()}
           .savedStep=${training.model?.manifest.step ?? 0} .savedTotal=${training.model?.manifest.totalSteps ?? 0}
           .inputsNote=${traits ? inputsReason(traits.closed) : ''} .poseNote=${traits ? poseReason(traits.boxRatios) : ''}
           @config-change=${(e: CustomEvent<TrainConfig>) => this.training.configure(e.detail)}

@@ -5,6 +5,16 @@
 import { LitElement, css, html, svg } from 'lit';
 import type { EvaluationReport } from '../../core/quality/evaluate';
 import type { StudyRow } from '../../core/quality/study';
+import { METRIC_HELP, qualitySummary } from '../words';
+
+const COLUMNS = [
+  ['nn', 'NN'],
+  ['first_tier', '1st tier'],
+  ['second_tier', '2nd tier'],
+  ['dcg', 'DCG'],
+  ['map', 'mAP'],
+  ['p_at_5', 'P@5'],
+] as const;
 
 const METHOD_COLOUR: Record<string, string> = { learned: '#c2571a', untrained: '#2f6f73', d2: '#7a6a55' };
 
@@ -59,6 +69,8 @@ export class SkStudyPanel extends LitElement {
     .key i { width: 14px; height: 3px; display: inline-block; }
     progress { width: 260px; }
     .error { color: #9b2c1f; margin: 0 0 10px; }
+    .verdict { max-width: 900px; margin: 0 0 10px; }
+    .verdict p { margin: 0 0 4px; }
     .small { font-size: 12px; color: #5a6870; }
   `;
 
@@ -83,10 +95,12 @@ export class SkStudyPanel extends LitElement {
       ${this.failure ? html`<div class="error" role="alert">${this.failure}</div>` : null}
       ${
         r
-          ? html`<table data-testid="metrics-table" aria-label="retrieval quality, leave-one-out">
-          <tr><th>method (${r.parts} parts, ${r.labels} folders)</th><th>NN</th><th>1st tier</th><th>2nd tier</th><th>DCG</th><th>mAP</th><th>P@5</th></tr>
+          ? html`<div class="verdict" data-testid="quality-words">${qualitySummary(r).map((line) => html`<p>${line}</p>`)}</div>
+          <table data-testid="metrics-table" aria-label="retrieval quality, leave-one-out">
+          <tr><th>method (${r.parts} parts, ${r.labels} folders)</th>${COLUMNS.map(([k, label]) => html`<th title=${METRIC_HELP[k]}>${label}</th>`)}</tr>
           ${Object.entries(r.methods).map(([m, v]) => html`<tr><td>${m.replace('+diffusion', ', ordered through the library')}</td>${[v.nn, v.first_tier, v.second_tier, v.dcg, v.map, v.p_at_5].map((x) => html`<td>${x.toFixed(3)}</td>`)}</tr>`)}
         </table>
+        <details class="small"><summary>What the columns mean (1 is perfect)</summary><ul>${COLUMNS.map(([k, label]) => html`<li><b>${label}</b>: ${METRIC_HELP[k]}</li>`)}</ul></details>
         <div class="small">Labels are the folders; each part queries all the others (leave-one-out). "Ordered through the library": as the search orders results by default — similarities corrected for parts that are near everything, then spread over the library's neighbour graph.</div>`
           : null
       }

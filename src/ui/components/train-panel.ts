@@ -19,6 +19,7 @@ export class SkTrainPanel extends LitElement {
     history: { attribute: false },
     checks: { attribute: false },
     backend: { type: String },
+    stepMs: { type: Number },
     savedStep: { type: Number },
     savedTotal: { type: Number },
     partCount: { type: Number },
@@ -32,6 +33,8 @@ export class SkTrainPanel extends LitElement {
   declare history: readonly { step: number; loss: number }[];
   declare checks: readonly HeldOutCheck[];
   declare backend: string;
+  /** One step timed in the worker with these settings (0: not yet): the estimate before Start. */
+  declare stepMs: number;
   declare savedStep: number;
   declare savedTotal: number;
   declare partCount: number;
@@ -47,6 +50,7 @@ export class SkTrainPanel extends LitElement {
     this.history = [];
     this.checks = [];
     this.backend = '';
+    this.stepMs = 0;
     this.savedStep = 0;
     this.savedTotal = 0;
     this.partCount = 0;
@@ -61,7 +65,8 @@ export class SkTrainPanel extends LitElement {
     form { background: #fff; border: 1px solid #d8d1c3; border-radius: 6px; padding: 10px 12px; display: grid; grid-template-columns: auto 1fr; gap: 6px 10px; align-items: center; }
     label { font-size: 13px; }
     input, select { font: inherit; padding: 3px 6px; border: 1px solid #b7ab96; border-radius: 4px; width: 100%; box-sizing: border-box; }
-    .buttons { display: flex; gap: 8px; margin: 10px 0; flex-wrap: wrap; }
+    .buttons { display: flex; gap: 6px; margin: 10px 0; flex-wrap: wrap; }
+    .buttons button { padding: 6px 10px; white-space: nowrap; }
     button { font: inherit; padding: 6px 14px; border: 1px solid #1d2b33; background: #fff; border-radius: 4px; cursor: pointer; }
     button.primary { background: #1d2b33; color: #f4f1ea; }
     button:disabled { opacity: 0.45; cursor: default; }
@@ -69,6 +74,10 @@ export class SkTrainPanel extends LitElement {
     progress { width: 100%; height: 12px; }
     .stats { font-size: 13px; margin: 6px 0 10px; color: #3d4b52; }
     .note { font-size: 12px; color: #6b5d4d; grid-column: 1 / -1; }
+    details.expert { grid-column: 1 / -1; font-size: 13px; }
+    .estimate { font-size: 13px; color: #3d4b52; margin: 8px 0 0; }
+    details.expert summary { cursor: pointer; color: #3d4b52; margin: 4px 0; }
+    details.expert .inner { display: grid; grid-template-columns: auto 1fr; gap: 6px 10px; align-items: center; }
     .error { color: #8c1d17; background: #fbeceb; padding: 6px 10px; border-radius: 4px; }
   `;
 
@@ -95,22 +104,23 @@ export class SkTrainPanel extends LitElement {
     return html`<div class="grid">
       <div>
         <form @submit=${(e: Event) => e.preventDefault()} aria-label="training settings">
-          <label for="pts">points per view</label><input id="pts" type="number" min="64" max="4096" step="64" .value=${String(c.points)} ?disabled=${busy} @change=${(e: Event) => this.set('points', this.num(e))} />
-          <label for="batch">parts per batch</label><input id="batch" type="number" min="2" max="256" .value=${String(c.batchSize)} ?disabled=${busy} @change=${(e: Event) => this.set('batchSize', this.num(e))} />
-          <label for="epochs">epochs</label><input id="epochs" type="number" min="1" max="10000" .value=${String(c.epochs)} ?disabled=${busy} @change=${(e: Event) => this.set('epochs', this.num(e))} />
-          <label for="loss">loss</label><select id="loss" ?disabled=${busy} @change=${(e: Event) => this.set('loss', { ...c.loss, name: (e.target as HTMLSelectElement).value as LossName })}>
-            ${LOSS_NAMES.map((n) => html`<option value=${n} ?selected=${c.loss.name === n} ?disabled=${n === 'supervised-contrastive' && !this.hasLabels}>${n}</option>`)}
-          </select>
-          <label for="temp">temperature</label><input id="temp" type="number" min="0.01" max="2" step="0.01" .value=${String(c.loss.temperature)} ?disabled=${busy} @change=${(e: Event) => this.set('loss', { ...c.loss, temperature: this.num(e) })} />
-          <label for="lr">learning rate</label><input id="lr" type="number" min="0.00001" max="0.1" step="0.0001" .value=${String(c.learningRate)} ?disabled=${busy} @change=${(e: Event) => this.set('learningRate', this.num(e))} />
-          <label for="aug">augmentations</label><select id="aug" ?disabled=${busy} @change=${(e: Event) => this.set('pipeline', PRESETS[(e.target as HTMLSelectElement).value as keyof typeof PRESETS])}>
+          <label for="pts" title="how many surface points of a part the model reads at a time (points per view); more sees smaller features and costs time">points read per part</label><input id="pts" type="number" min="64" max="4096" step="64" .value=${String(c.points)} ?disabled=${busy} @change=${(e: Event) => this.set('points', this.num(e))} />
+          <label for="epochs" title="epochs: how many times training goes through the whole library">passes over the library</label><input id="epochs" type="number" min="1" max="10000" .value=${String(c.epochs)} ?disabled=${busy} @change=${(e: Event) => this.set('epochs', this.num(e))} />
+          <label for="aug" title="augmentations: the changes training applies to parts, so that differences like these do not count (see the Augmentations tab)">differences to ignore</label><select id="aug" ?disabled=${busy} @change=${(e: Event) => this.set('pipeline', PRESETS[(e.target as HTMLSelectElement).value as keyof typeof PRESETS])}>
             ${Object.entries(PRESETS).map(([n, pipe]) => html`<option value=${n} ?selected=${JSON.stringify(pipe) === JSON.stringify(c.pipeline)}>${n}</option>`)}
             ${Object.values(PRESETS).some((pipe) => JSON.stringify(pipe) === JSON.stringify(c.pipeline)) ? null : html`<option selected>as composed on the Augmentations tab</option>`}
           </select>
+          <details class="expert"><summary>Expert settings: batch, loss, learning rate, inputs, neighbour layer, seed, checks</summary><div class="inner">
+          <label for="batch" title="parts compared with each other in one training step">parts per batch</label><input id="batch" type="number" min="2" max="256" .value=${String(c.batchSize)} ?disabled=${busy} @change=${(e: Event) => this.set('batchSize', this.num(e))} />
+          <label for="loss" title="what training optimises: NT-Xent pulls two altered copies of a part together and pushes other parts away">loss</label><select id="loss" ?disabled=${busy} @change=${(e: Event) => this.set('loss', { ...c.loss, name: (e.target as HTMLSelectElement).value as LossName })}>
+            ${LOSS_NAMES.map((n) => html`<option value=${n} ?selected=${c.loss.name === n} ?disabled=${n === 'supervised-contrastive' && !this.hasLabels}>${n}</option>`)}
+          </select>
+          <label for="temp" title="how sharply the loss separates close parts (lower: sharper)">temperature</label><input id="temp" type="number" min="0.01" max="2" step="0.01" .value=${String(c.loss.temperature)} ?disabled=${busy} @change=${(e: Event) => this.set('loss', { ...c.loss, temperature: this.num(e) })} />
+          <label for="lr" title="how far each step moves the weights">learning rate</label><input id="lr" type="number" min="0.00001" max="0.1" step="0.0001" .value=${String(c.learningRate)} ?disabled=${busy} @change=${(e: Event) => this.set('learningRate', this.num(e))} />
           <label for="inputs">per-point inputs</label><select id="inputs" title=${this.inputsNote} ?disabled=${busy} @change=${(e: Event) => this.set('encoder', { ...c.encoder, inputFeatures: (e.target as HTMLSelectElement).value as InputFeatures })}>
             ${INPUT_FEATURES.map((f) => html`<option value=${f} ?selected=${c.encoder.inputFeatures === f}>${INPUT_LABELS[f]}</option>`)}
           </select>
-          <label for="pose">pose</label><select id="pose" title=${this.poseNote} ?disabled=${busy} @change=${(e: Event) => this.set('pose', (e.target as HTMLSelectElement).value as TrainConfig['pose'])}>
+          <label for="pose" title="pose: how parts are turned before the model reads them">how parts are turned</label><select id="pose" title=${this.poseNote} ?disabled=${busy} @change=${(e: Event) => this.set('pose', (e.target as HTMLSelectElement).value as TrainConfig['pose'])}>
             ${POSES.map((p) => html`<option value=${p} ?selected=${c.pose === p}>${POSE_LABELS[p]}</option>`)}
           </select>
           <label for="nbrs" title="a first layer that looks at each point's nearest neighbours (EdgeConv); a step takes about 3× (16) to 5× (32) as long as without it">neighbour layer</label><select id="nbrs" ?disabled=${busy} @change=${(
@@ -122,10 +132,20 @@ export class SkTrainPanel extends LitElement {
           }}>
             ${[0, 8, 16, 32].map((k) => html`<option value=${k} ?selected=${(c.encoder.edge?.k ?? 0) === k}>${k === 0 ? 'off' : `${k} neighbours`}</option>`)}
           </select>
-          <label for="seed">seed</label><input id="seed" type="number" min="0" step="1" .value=${String(c.seed)} ?disabled=${busy} @change=${(e: Event) => this.set('seed', this.num(e))} />
-          <label for="held">held out</label><input id="held" type="number" min="0" max="0.5" step="0.05" .value=${String(c.heldOutFraction)} ?disabled=${busy} @change=${(e: Event) => this.set('heldOutFraction', this.num(e))} />
+          <label for="seed" title="the same seed on the same library trains the same model">seed</label><input id="seed" type="number" min="0" step="1" .value=${String(c.seed)} ?disabled=${busy} @change=${(e: Event) => this.set('seed', this.num(e))} />
+          <label for="held" title="a share of parts kept out of training to check progress on (0: none)">parts kept for checks</label><input id="held" type="number" min="0" max="0.5" step="0.05" .value=${String(c.heldOutFraction)} ?disabled=${busy} @change=${(e: Event) => this.set('heldOutFraction', this.num(e))} />
+          </div></details>
           <div class="note">${this.partCount} parts → ${stepsPerEpoch} steps an epoch, ${members > 1 ? `${stepsPerEpoch * c.epochs} steps for each of ${members} encoders, ${members * stepsPerEpoch * c.epochs} in all` : `${stepsPerEpoch * c.epochs} steps`}. Labels are never needed, except by the supervised-contrastive loss.${this.inputsNote ? html`<br />Default inputs for this library: ${this.inputsNote}.` : null}${this.poseNote ? html`<br />Default pose: ${this.poseNote}.` : null}</div>
         </form>
+        <div class="estimate" data-testid="train-estimate">${
+          busy
+            ? null
+            : this.stepMs > 0
+              ? `Estimated training time: about ${formatEta((this.stepMs * members * stepsPerEpoch * c.epochs) / 1000)} (one step timed on this machine: ${Math.round(this.stepMs)} ms), then the library is embedded again.`
+              : this.partCount >= 2
+                ? 'Timing one step to estimate the training time…'
+                : ''
+        }</div>
         <div class="buttons">
           <button class="primary" ?disabled=${busy || this.partCount < 2} @click=${() => this.emit('train-start', c)}>Start training</button>
           <button ?disabled=${s.kind !== 'running'} @click=${() => this.emit('train-pause')}>Pause</button>

@@ -114,6 +114,12 @@ export class TrainClient {
     return { vectors: reply.vectors, dim: reply.dim };
   }
 
+  /** Milliseconds of one training step with `config` (timed in the worker on `parts`, a batch-sized sample). */
+  async probe(parts: readonly PartArrays[], config: TrainConfig): Promise<number> {
+    const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+    return (await this.request({ type: 'probe', id: this.nextId++, parts: copies, config }, 'probed')).msPerStep;
+  }
+
   /** Contributions of the first `points` points of a and b to their similarity. */
   async explain(
     a: PartArrays,

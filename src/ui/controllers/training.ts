@@ -124,6 +124,47 @@ export class TrainingController {
     if (config !== this.state.config) this.patch({ config });
   }
 
+  private probing = '';
+
+  private estimateKey(): string {
+    return `${this.store.value.library.parts.length} ${JSON.stringify(this.state.config)}`;
+  }
+
+  /** The timed step for the current settings and library, in ms (0: not timed yet). */
+  stepMsNow(): number {
+    const s = this.state.stepMs;
+    return s && s.key === this.estimateKey() ? s.ms : 0;
+  }
+
+  /**
+   * Times one step with the current settings in the worker (a batch-sized sample of the library), once per
+   * settings and library size, while nothing else runs there; the panel turns it into an estimate before Start.
+   */
+  async estimate(): Promise<void> {
+    const parts = this.store.value.library.parts;
+    const { config, status, stepMs } = this.state;
+    const key = this.estimateKey();
+    const measure = this.store.value.measure;
+    if (parts.length < 2 || stepMs?.key === key || this.probing === key) return;
+    if (
+      status.kind === 'running' ||
+      status.kind === 'paused' ||
+      measure.status.kind === 'running' ||
+      measure.study.kind === 'running'
+    )
+      return;
+    this.probing = key;
+    try {
+      const sample = parts.slice(0, Math.min(parts.length, config.batchSize));
+      const ms = await this.client.probe(sample, { ...config, batchSize: Math.min(config.batchSize, sample.length) });
+      if (this.probing === key) this.patch({ stepMs: { key, ms } });
+    } catch {
+      // no estimate: the panel says nothing rather than a guess
+    } finally {
+      if (this.probing === key) this.probing = '';
+    }
+  }
+
   /** The user changed the settings: what they set no longer follows the library. */
   configure(config: TrainConfig): void {
     const old = this.state.config;
@@ -131,6 +172,7 @@ export class TrainingController {
     if (config.epochs !== old.epochs) this.chosen.epochs = true;
     if (config.pose !== old.pose) this.chosen.pose = true;
     this.patch({ config, pipeline: config.pipeline });
+    void this.estimate();
   }
 
   start(config: TrainConfig, resume?: CheckpointMessage): void {
