@@ -216,6 +216,10 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await expect
       .poll(async () => page.getByTestId('model-status').textContent(), { timeout: 60_000 })
       .toMatch(/model: trained \(9 steps\)/);
+    // Thumbnails come back with the library instead of being drawn again.
+    await expect
+      .poll(async () => page.locator('sk-library-panel img').count(), { timeout: 5_000 })
+      .toBeGreaterThanOrEqual(100);
     // The banner says the same as the header, and nothing claims to be running.
     expect(await page.locator('sk-app .notice').textContent()).toMatch(/Restored the saved model \(9 training steps\)/);
     await page.getByRole('tab', { name: 'Training' }).click();

@@ -64,3 +64,7 @@ export interface StoredEmbeddings {
 
 export const saveEmbeddings = (e: StoredEmbeddings): Promise<void> => put('embeddings', e);
 export const loadEmbeddings = (): Promise<StoredEmbeddings | null> => get<StoredEmbeddings>('embeddings');
+
+/** Thumbnails (PNG data URLs by part name), kept so a reload shows them without drawing them again. */
+export const saveThumbnails = (t: ReadonlyMap<string, string>): Promise<void> => put('thumbnails', new Map(t));
+export const loadThumbnails = (): Promise<Map<string, string> | null> => get<Map<string, string>>('thumbnails');

@@ -10,7 +10,7 @@ import { fetchDemoLibrary } from '../demo-library';
 import { readFiles, type NamedFile } from '../files';
 import { IDLE, type AppState, type Store } from '../state';
 import { LibraryClient, type TimeLimits } from './library-client';
-import { loadLibrary as loadStoredLibrary, saveLibrary } from './library-db';
+import { loadLibrary as loadStoredLibrary, loadThumbnails, saveLibrary, saveThumbnails } from './library-db';
 import { thumbnail } from './thumbnails';
 
 /** How library parts are sampled: the pool views draw from, and the seed. */
@@ -44,13 +44,17 @@ export class LibraryController {
   async restore(): Promise<void> {
     const stored = await loadStoredLibrary();
     if (!stored || stored.parts.length === 0) return this.loadDemo();
+    const kept = (await loadThumbnails()) ?? new Map<string, string>();
+    const names = new Set(stored.parts.map((p) => p.name));
+    const thumbnails = new Map([...kept].filter(([name]) => names.has(name)));
     this.store.patch('library', {
       parts: stored.parts,
       failures: stored.failures,
       selected: stored.parts[0].name,
       status: { kind: 'done', ms: 0 },
+      thumbnails,
     });
-    stored.parts.forEach((p) => this.queueThumbnail(p));
+    stored.parts.filter((p) => !thumbnails.has(p.name)).forEach((p) => this.queueThumbnail(p));
     this.events.onChanged();
   }
 
@@ -83,6 +87,7 @@ export class LibraryController {
   clear(): void {
     this.store.patch('library', { parts: [], failures: [], thumbnails: new Map(), selected: '', status: IDLE });
     void saveLibrary({ parts: [], failures: [], source: 'user' });
+    void saveThumbnails(new Map());
     this.events.onChanged();
   }
 
@@ -163,6 +168,7 @@ export class LibraryController {
       }
       this.store.patch('library', { thumbnails: drawn });
       this.thumbTimer = this.thumbQueue.length ? window.setTimeout(step, 0) : 0;
+      if (!this.thumbTimer) void saveThumbnails(drawn); // all drawn: kept for the next visit
     };
     this.thumbTimer = window.setTimeout(step, 0);
   }
