@@ -104,6 +104,8 @@ export interface AppState {
   readonly panel: Panel;
   /** One line for the user (a restored model, an import that failed); '' for none. */
   readonly notice: string;
+  /** What the notice offers to do with one click (continue a run that a reload interrupted), if anything. */
+  readonly noticeAction: 'continue-training' | null;
   readonly library: LibraryState;
   readonly training: TrainingState;
   readonly search: SearchState;
@@ -137,4 +139,9 @@ export class Store<S extends object> {
     this.listeners.add(listener);
     return () => this.listeners.delete(listener);
   }
+}
+
+/** Replace the notice (and whatever it offered). */
+export function say(store: Store<AppState>, notice: string, action: AppState['noticeAction'] = null): void {
+  store.set({ notice, noticeAction: action });
 }

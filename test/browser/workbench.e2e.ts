@@ -170,7 +170,7 @@ describe.skipIf(!available)('workbench in a real browser', () => {
   it('the map shows every part, and the quality panel measures the model against the baselines', async () => {
     await page.getByRole('tab', { name: 'Map' }).click();
     await expect
-      .poll(async () => page.locator('sk-map-panel').locator('circle').count(), { timeout: 30_000 })
+      .poll(async () => page.locator('sk-map-panel').locator('path.dot').count(), { timeout: 30_000 })
       .toBe(112);
     await page.screenshot({ path: `${ARTIFACTS}/map.png` });
     await page.getByRole('tab', { name: 'Quality' }).click();
@@ -304,6 +304,47 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.screenshot({ path: `${ARTIFACTS}/cad-import.png` });
     await page.getByPlaceholder('Filter by name or folder').fill('');
   }, 120_000);
+
+  it('a reload in the middle of training offers to continue, and continuing goes on from the saved step', async () => {
+    await page.getByRole('tab', { name: 'Training' }).click();
+    await page.locator('sk-train-panel #epochs').fill('20');
+    await page.locator('sk-train-panel #epochs').dispatchEvent('change');
+    await page.getByRole('button', { name: 'Start training' }).click();
+    const header = page.getByTestId('model-status');
+    // The worker keeps the model after the first step and says so (a checkpoint message after the save); then reload.
+    await expect
+      .poll(
+        async () =>
+          page.evaluate(() => {
+            const app = document.querySelector('sk-app') as unknown as {
+              state: { training: { model: { manifest: { status: string; step: number } } | null } };
+            };
+            const m = app.state.training.model?.manifest;
+            return m && m.status === 'running' ? m.step : 0;
+          }),
+        { timeout: 60_000 },
+      )
+      .toBeGreaterThanOrEqual(1);
+    await page.reload();
+    const notice = page.locator('sk-app .notice');
+    await expect
+      .poll(async () => ((await notice.count()) ? notice.textContent() : ''), { timeout: 60_000 })
+      .toMatch(/training stopped at step (\d+) of \d+/);
+    const saved = Number((await notice.textContent())!.match(/step (\d+) of/)![1]);
+    expect(saved).toBeGreaterThanOrEqual(1);
+    await page.getByTestId('continue-now').click();
+    await expect
+      .poll(async () => Number((await header.textContent())?.match(/training: step (\d+) of/)?.[1] ?? 0), {
+        timeout: 60_000,
+      })
+      .toBeGreaterThan(saved);
+    expect(await notice.count()).toBe(0); // the offer is gone once it is taken
+    await page.getByRole('tab', { name: 'Training' }).click();
+    await page.getByRole('button', { name: 'Stop' }).click();
+    await expect
+      .poll(async () => page.getByTestId('train-stats').textContent(), { timeout: 60_000 })
+      .toMatch(/stopped/);
+  }, 240_000);
 
   it('shows no page errors or console errors', () => {
     expect(errors).toEqual([]);

@@ -42,3 +42,23 @@ describe('quality in plain words', () => {
     expect(qualitySummary(r)[0]).toMatch(/^Without a trained model, the encoder with random weights finds/);
   });
 });
+
+import { FOLDER_COLOURS, folderMark } from '../../src/ui/components/map-panel';
+
+describe('folder marks on the map', () => {
+  it('use the Okabe–Ito colours (Okabe & Ito 2008; hex values as the authors publish them, quoted from memory) with black as slate', () => {
+    expect(FOLDER_COLOURS.slice(0, 7)).toEqual([
+      '#E69F00',
+      '#56B4E9',
+      '#009E73',
+      '#F0E442',
+      '#0072B2',
+      '#D55E00',
+      '#CC79A7',
+    ]);
+  });
+  it('give 32 folders 32 different marks (colour × shape)', () => {
+    const marks = new Set(Array.from({ length: 32 }, (_, i) => JSON.stringify(folderMark(i))));
+    expect(marks.size).toBe(32);
+  });
+});

@@ -33,6 +33,7 @@ export function initialState(): AppState {
   return {
     panel: 'library',
     notice: '',
+    noticeAction: null,
     library: { parts: [], failures: [], status: IDLE, thumbnails: new Map(), selected: '' },
     training: {
       config: DEFAULT_TRAIN,
@@ -92,6 +93,7 @@ export class SkApp extends LitElement {
     :focus-visible { outline: 3px solid #c2571a; outline-offset: 1px; }
     main { padding: 14px 18px 40px; }
     .notice { margin: 8px 18px 0; padding: 6px 12px; background: #e3eeee; border-left: 4px solid #2f6f73; font-size: 13px; }
+    .notice button { font: inherit; margin-left: 10px; border: 1px solid #1d2b33; background: #fff; border-radius: 4px; padding: 2px 10px; cursor: pointer; }
   `;
 
   override connectedCallback(): void {
@@ -150,7 +152,12 @@ export class SkApp extends LitElement {
       <nav role="tablist">
         ${PANELS.map((p) => html`<button role="tab" aria-selected=${this.state.panel === p.id} @click=${() => this.showPanel(p.id)}>${p.label}</button>`)}
       </nav>
-      ${this.state.notice ? html`<div class="notice" role="status">${this.state.notice}</div>` : null}
+      ${
+        this.state.notice
+          ? html`<div class="notice" role="status">${this.state.notice}
+              ${this.state.noticeAction === 'continue-training' && !isBusy(training.status) ? html`<button data-testid="continue-now" @click=${() => this.training.continueSaved()}>Continue training now</button>` : null}</div>`
+          : null
+      }
       <main>${this.renderPanel()}</main>`;
   }
 

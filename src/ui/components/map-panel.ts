@@ -7,9 +7,30 @@ import type { LibraryPart } from '../../core/library';
 import type { EmbeddingIndex } from '../../core/retrieval/index';
 import { pca2d } from '../../core/retrieval/projection';
 
-/** Distinct hues by the golden angle, in our own muted range. */
-export function familyColour(i: number): string {
-  return `hsl(${Math.round((i * 137.508) % 360)}, 55%, ${i % 2 ? 38 : 48}%)`;
+/**
+ * Folder marks that stay apart for 32 folders and under the common colour-vision deficiencies: the eight colours
+ * of the Okabe–Ito palette (Okabe & Ito 2008, "Color Universal Design"; black swapped for a dark slate to sit on
+ * white), then, past eight folders, the same colours in another shape (circle, square, triangle, diamond).
+ */
+export const FOLDER_COLOURS = ['#E69F00', '#56B4E9', '#009E73', '#F0E442', '#0072B2', '#D55E00', '#CC79A7', '#3d4b52'];
+export const FOLDER_SHAPES = ['circle', 'square', 'triangle', 'diamond'] as const;
+
+export function folderMark(i: number): { colour: string; shape: (typeof FOLDER_SHAPES)[number] } {
+  return { colour: FOLDER_COLOURS[i % 8], shape: FOLDER_SHAPES[Math.floor(i / 8) % 4] };
+}
+
+/** SVG path of a mark of radius r centred at (x, y). */
+export function markPath(shape: (typeof FOLDER_SHAPES)[number], x: number, y: number, r: number): string {
+  switch (shape) {
+    case 'circle':
+      return `M${x - r},${y}a${r},${r} 0 1,0 ${2 * r},0a${r},${r} 0 1,0 ${-2 * r},0`;
+    case 'square':
+      return `M${x - r * 0.9},${y - r * 0.9}h${1.8 * r}v${1.8 * r}h${-1.8 * r}z`;
+    case 'triangle':
+      return `M${x},${y - 1.15 * r}L${x + r},${y + 0.75 * r}L${x - r},${y + 0.75 * r}z`;
+    case 'diamond':
+      return `M${x},${y - 1.2 * r}L${x + 1.2 * r},${y}L${x},${y + 1.2 * r}L${x - 1.2 * r},${y}z`;
+  }
 }
 
 export class SkMapPanel extends LitElement {
@@ -36,11 +57,11 @@ export class SkMapPanel extends LitElement {
   static override styles = css`
     :host { display: grid; grid-template-columns: 1fr 240px; gap: 14px; }
     svg { width: 100%; height: 620px; background: #fff; border: 1px solid #d8d1c3; border-radius: 6px; }
-    circle { cursor: pointer; stroke: #fff; stroke-width: 1; }
-    circle:focus-visible { outline: none; stroke: #1d2b33; stroke-width: 3; }
+    .dot { cursor: pointer; stroke: #1d2b33; stroke-width: 0.6; }
+    .dot:focus-visible { outline: none; stroke: #1d2b33; stroke-width: 3; }
     .legend { font-size: 13px; }
     .legend div { display: flex; gap: 6px; align-items: center; margin: 2px 0; }
-    .swatch { width: 12px; height: 12px; border-radius: 50%; display: inline-block; }
+    .swatch { width: 14px; height: 14px; display: inline-block; vertical-align: middle; margin-right: 4px; }
     .card { margin-top: 12px; background: #fff; border: 1px solid #d8d1c3; border-radius: 6px; padding: 6px; font-size: 12px; }
     .card img { width: 100%; border-radius: 4px; }
     .empty { color: #6b5d4d; padding: 20px; }
@@ -76,19 +97,23 @@ export class SkMapPanel extends LitElement {
     const h = this.hover >= 0 ? this.parts[this.hover] : null;
     return html`
       <svg viewBox="0 0 ${W} ${H}" role="img" aria-label="map of the library by embedding">
-        ${this.parts.map(
-          (p, i) => svg`<circle cx=${sx(this.xy![i * 2])} cy=${sy(this.xy![i * 2 + 1])} r=${i === this.hover ? 9 : 6}
-          fill=${familyColour(families.indexOf(p.label))} tabindex="0" aria-label=${p.name}
+        ${this.parts.map((p, i) => {
+          const mark = folderMark(families.indexOf(p.label));
+          return svg`<path class="dot" d=${markPath(mark.shape, sx(this.xy![i * 2]), sy(this.xy![i * 2 + 1]), i === this.hover ? 9 : 6)}
+          fill=${mark.colour} tabindex="0" aria-label=${`${p.name} (folder ${p.label || 'top level'})`}
           @mouseenter=${() => (this.hover = i)} @focus=${() => (this.hover = i)}
           @click=${() => this.dispatchEvent(new CustomEvent('search-query', { detail: p.name, bubbles: true, composed: true }))}
           @keydown=${(e: KeyboardEvent) => {
             if (e.key === 'Enter')
               this.dispatchEvent(new CustomEvent('search-query', { detail: p.name, bubbles: true, composed: true }));
-          }}><title>${p.name}</title></circle>`,
-        )}
+          }}><title>${p.name} — folder ${p.label || 'top level'}</title></path>`;
+        })}
       </svg>
       <div>
-        <div class="legend">${families.map((f, i) => html`<div><span class="swatch" style="background:${familyColour(i)}"></span>${f || '(top level)'}</div>`)}</div>
+        <div class="legend">${families.map((f, i) => {
+          const mark = folderMark(i);
+          return html`<div><svg class="swatch" viewBox="0 0 16 16" aria-hidden="true"><path d=${markPath(mark.shape, 8, 8, 6)} fill=${mark.colour}></path></svg>${f || '(top level)'}</div>`;
+        })}</div>
         ${
           h
             ? html`<div class="card">${this.thumbnails.get(h.name) ? html`<img src=${this.thumbnails.get(h.name)} alt="" />` : null}

@@ -4,7 +4,7 @@
 
 import type { LibraryPart } from '../../core/library';
 import { EmbeddingIndex } from '../../core/retrieval/index';
-import { IDLE, STARTED, type AppState, type SearchFilters, type SearchState, type Store } from '../state';
+import { IDLE, say, STARTED, type AppState, type SearchFilters, type SearchState, type Store } from '../state';
 import { loadEmbeddings, saveEmbeddings } from './library-db';
 import type { LibraryController } from './library';
 import type { TrainingController } from './training';
@@ -98,9 +98,9 @@ export class SearchController {
 
   /** A file from outside the library as the query; a file that cannot be read says why in the notice. */
   async searchFile(file: File): Promise<void> {
-    const part = await this.library.readOne(file, (f) => this.store.set({ notice: `${f.file}: ${f.reason}` }));
+    const part = await this.library.readOne(file, (f) => say(this.store, `${f.file}: ${f.reason}`));
     if (part) {
-      this.store.set({ notice: '' });
+      say(this.store, '');
       await this.searchFor(part);
     }
   }
@@ -117,7 +117,7 @@ export class SearchController {
         this.patch({ explanation: { query: query.name, result: result.name, a: e.a, b: e.b } });
     } catch (err) {
       if ((err as Error).message !== 'cancelled')
-        this.store.set({ notice: `Could not show why they match: ${(err as Error).message}` });
+        say(this.store, `Could not show why they match: ${(err as Error).message}`);
     }
   }
 

@@ -13,7 +13,7 @@ import { modelJsonFor, readModelJson, WEIGHTS_FILE, type ModelJson } from '../..
 import type { TrainConfig } from '../../core/model/train-config';
 import type { LibraryPart } from '../../core/library';
 import type { CheckpointMessage } from '../../worker/protocol';
-import { STARTED, type AppState, type Store, type TrainingState } from '../state';
+import { say, STARTED, type AppState, type Store, type TrainingState } from '../state';
 import { download } from './download';
 import { SAMPLING } from './library';
 import { TrainClient } from './train-client';
@@ -96,12 +96,13 @@ export class TrainingController {
       const unfinished = m.step < m.totalSteps && m.status !== 'done' && m.status !== 'stopped-early';
       this.store.set({
         notice: unfinished
-          ? `Restored the saved model: training stopped at step ${m.step} of ${m.totalSteps}. Continue it on the Training tab.`
+          ? `Restored the saved model: training stopped at step ${m.step} of ${m.totalSteps} (the page was closed or reloaded).`
           : `Restored the saved model (${m.step} training steps).`,
+        noticeAction: unfinished ? 'continue-training' : null,
       });
     } catch (err) {
       this.patch({ modelKnown: true });
-      this.store.set({ notice: `The saved model could not be read: ${(err as Error).message}` });
+      say(this.store, `The saved model could not be read: ${(err as Error).message}`);
     }
   }
 
@@ -178,7 +179,7 @@ export class TrainingController {
   start(config: TrainConfig, resume?: CheckpointMessage): void {
     const parts = this.store.value.library.parts;
     this.patch({ config, status: STARTED, progress: null, ...(resume ? {} : { history: [], checks: [] }) });
-    this.store.set({ notice: '' });
+    say(this.store, '');
     const labels = config.loss.name === 'supervised-contrastive' ? labelIds(parts) : null;
     this.client.start(
       parts.map((p) => ({ points: p.points, normals: p.normals })),
@@ -227,12 +228,10 @@ export class TrainingController {
         history: manifest.history.map((h) => ({ step: h.step, loss: h.loss })),
         checks: [...manifest.checks],
       });
-      this.store.set({
-        notice: `Imported a model trained elsewhere (${manifest.step} steps, backend ${manifest.backend}).`,
-      });
+      say(this.store, `Imported a model trained elsewhere (${manifest.step} steps, backend ${manifest.backend}).`);
       this.events.onModelChanged();
     } catch (err) {
-      this.store.set({ notice: `Model not imported: ${(err as Error).message}` });
+      say(this.store, `Model not imported: ${(err as Error).message}`);
     }
   }
 
