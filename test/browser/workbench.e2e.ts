@@ -157,6 +157,19 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     expect(w.sum).toBeGreaterThan(0);
     await page.screenshot({ path: `${ARTIFACTS}/search-why.png` });
     await page.getByTestId('why-toggle').uncheck();
+    // Side by side means the same way round: both parts turned into their principal axes, unless asked otherwise.
+    const turned = () =>
+      page.evaluate(() => {
+        const app = document.querySelector('sk-app') as unknown as { shadowRoot: ShadowRoot };
+        const panel = app.shadowRoot.querySelector('sk-search-panel') as unknown as {
+          objects: { query: { quaternion: { w: number } } | null; result: { quaternion: { w: number } } | null };
+        };
+        return [panel.objects.query, panel.objects.result].map((o) => Math.abs(o?.quaternion.w ?? 1) < 0.9999);
+      });
+    expect(await turned()).toContain(true); // a part already square in its principal axes needs no turn
+    await page.getByTestId('own-axes').check();
+    await expect.poll(turned, { timeout: 5_000 }).toEqual([false, false]);
+    await page.getByTestId('own-axes').uncheck();
     // A new file, not in the library, as the query.
     await page.locator('sk-search-panel input[type=file]').setInputFiles('demo-shapes/spur-gear/BC06-311C.obj');
     await expect

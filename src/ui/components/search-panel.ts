@@ -9,7 +9,8 @@ import type { Object3D } from 'three';
 import type { LibraryPart } from '../../core/library';
 import { DEFAULT_FILTERS, type MatchExplanation, type SearchFilters } from '../state';
 import type { Hit } from '../../core/retrieval/topk';
-import { meshObject, pointsObject, PALETTE, weightColours } from '../controllers/scene';
+import { alignToFrame, meshObject, pointsObject, PALETTE, weightColours } from '../controllers/scene';
+import { principalFrame } from '../../core/points/pca';
 import { CameraLink } from '../controllers/viewer';
 import './viewer';
 
@@ -29,6 +30,7 @@ export class SkSearchPanel extends LitElement {
     trained: { type: Boolean },
     explanation: { attribute: false },
     why: { state: true },
+    ownAxes: { state: true },
   };
   declare parts: readonly LibraryPart[];
   declare query: LibraryPart | null;
@@ -48,6 +50,8 @@ export class SkSearchPanel extends LitElement {
   /** Why the chosen result matches (from the controller), shown when `why` is on. */
   declare explanation: MatchExplanation | null;
   declare why: boolean;
+  /** Show each part as its file has it, rather than both turned into their principal axes. */
+  declare ownAxes: boolean;
   private readonly link = new CameraLink();
   private objects: { query: Object3D | null; result: Object3D | null } = { query: null, result: null };
 
@@ -67,6 +71,7 @@ export class SkSearchPanel extends LitElement {
     this.trained = false;
     this.explanation = null;
     this.why = false;
+    this.ownAxes = false;
   }
 
   static override styles = css`
@@ -100,7 +105,7 @@ export class SkSearchPanel extends LitElement {
 
   protected override willUpdate(changed: Map<string, unknown>): void {
     if (changed.has('hits') || changed.has('query')) this.chosen = 0;
-    if (['hits', 'query', 'chosen', 'why', 'explanation'].some((k) => changed.has(k))) {
+    if (['hits', 'query', 'chosen', 'why', 'explanation', 'ownAxes'].some((k) => changed.has(k))) {
       const q = this.query;
       const hit = this.hits[this.chosen];
       const r = hit ? this.parts[hit.index] : null;
@@ -109,13 +114,24 @@ export class SkSearchPanel extends LitElement {
         // The points that carry the similarity, on the same scale in both views.
         const max = Math.max(...e.a, ...e.b);
         const n = e.a.length;
-        this.objects.query = pointsObject(q.points.subarray(0, 3 * n), 0.07, undefined, weightColours(e.a, max));
-        this.objects.result = pointsObject(r.points.subarray(0, 3 * n), 0.07, undefined, weightColours(e.b, max));
+        this.objects.query = this.posed(
+          q,
+          pointsObject(q.points.subarray(0, 3 * n), 0.07, undefined, weightColours(e.a, max)),
+        );
+        this.objects.result = this.posed(
+          r,
+          pointsObject(r.points.subarray(0, 3 * n), 0.07, undefined, weightColours(e.b, max)),
+        );
       } else {
-        this.objects.query = q ? objectFor(q, PALETTE.teal) : null;
-        this.objects.result = r ? objectFor(r, PALETTE.rust) : null;
+        this.objects.query = q ? this.posed(q, objectFor(q, PALETTE.teal)) : null;
+        this.objects.result = r ? this.posed(r, objectFor(r, PALETTE.rust)) : null;
       }
     }
+  }
+
+  /** Both parts in their principal axes (computed from the sampled points), unless the files' own axes are asked for. */
+  private posed(p: LibraryPart, obj: Object3D): Object3D {
+    return this.ownAxes ? obj : alignToFrame(obj, principalFrame(p.points));
   }
 
   protected override updated(changed: Map<string, unknown>): void {
@@ -214,6 +230,8 @@ export class SkSearchPanel extends LitElement {
           </div>
           <label class="small"><input type="checkbox" data-testid="why-toggle" .checked=${this.why} @change=${(e: Event) => (this.why = (e.target as HTMLInputElement).checked)} />
             show why they match: the points that carry the likeness, darker the more they carry (the sampled points each part is read from)</label>
+          <label class="small"><input type="checkbox" data-testid="own-axes" .checked=${this.ownAxes} @change=${(e: Event) => (this.ownAxes = (e.target as HTMLInputElement).checked)} />
+            show each part as its file has it (otherwise both are turned into their principal axes, so they sit alike)</label>
           <div class="small">Both views are scaled to the unit sphere and linked: drag either to turn both. Real sizes are listed beside each result.</div>
         </div>
       </div>`

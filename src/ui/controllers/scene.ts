@@ -7,6 +7,8 @@ import {
   BufferGeometry,
   Color,
   DirectionalLight,
+  DoubleSide,
+  Matrix4,
   Mesh,
   MeshStandardMaterial,
   Points,
@@ -95,7 +97,11 @@ export function meshObject(
   g.setAttribute('position', new BufferAttribute(p, 3));
   g.setIndex(new BufferAttribute(indices, 1));
   g.computeVertexNormals();
-  return new Mesh(g, new MeshStandardMaterial({ color: colour, metalness: 0.3, roughness: 0.55, flatShading: true }));
+  // Both sides: an open mesh (a surface export, a scan) would otherwise show holes where its back faces are culled.
+  return new Mesh(
+    g,
+    new MeshStandardMaterial({ color: colour, metalness: 0.3, roughness: 0.55, flatShading: true, side: DoubleSide }),
+  );
 }
 
 export function litScene(): Scene {
@@ -119,4 +125,16 @@ export function disposeObject(obj: Object3D): void {
     if (Array.isArray(mat)) mat.forEach((m) => m.dispose());
     else mat?.dispose();
   });
+}
+
+/**
+ * Turns an object (in the part's unit-sphere frame) into the principal frame of the part's sampled points, so two
+ * parts shown side by side sit the same way whatever their files' orientation.
+ */
+export function alignToFrame(obj: Object3D, frame: ArrayLike<number>): Object3D {
+  const r = frame;
+  obj.setRotationFromMatrix(
+    new Matrix4().set(r[0], r[1], r[2], 0, r[3], r[4], r[5], 0, r[6], r[7], r[8], 0, 0, 0, 0, 1),
+  );
+  return obj;
 }
