@@ -1,6 +1,7 @@
 // Lint: the recommended JavaScript and TypeScript rules, and the direction imports may point in, so the
 // architecture in DEVELOPERS.md is checked rather than hoped for:
-//   core (DOM-free, runs in Node and the browser)  ← worker, cli, ui;  ui never loads tfjs;  nobody imports research/.
+//   core (DOM-free, runs in Node and the browser)  ← render (three.js drawing) ← worker, ui;  cli → core;
+//   ui never loads tfjs;  nobody imports research/.
 import js from '@eslint/js';
 import globals from 'globals';
 import tseslint from 'typescript-eslint';
@@ -100,11 +101,20 @@ export default tseslint.config(
     },
   },
   {
+    files: ['src/render/**/*.ts'],
+    rules: {
+      '@typescript-eslint/no-restricted-imports': restrict({
+        group: ['**/ui/**', '**/worker/**', '**/cli/**', 'lit', 'lit/*', 'node:*'],
+        message: 'render holds three.js drawing shared by the page and the workers; it imports core and three only.',
+      }),
+    },
+  },
+  {
     files: ['src/worker/**/*.ts'],
     rules: {
       '@typescript-eslint/no-restricted-imports': restrict({
         group: ['**/ui/**', '**/cli/**', 'lit', 'lit/*'],
-        message: 'workers do heavy work for the page; they import core only.',
+        message: 'workers do heavy work for the page; they import core and render only.',
       }),
     },
   },

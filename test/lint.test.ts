@@ -17,8 +17,9 @@ describe('import direction (eslint.config.js)', () => {
     ['src/core/model/x.ts', "import { SkApp as x } from '../../ui/components/app';", /does not import them/],
     ['src/core/model/x.ts', "import { readFileSync as x } from 'node:fs';", /no Node modules/],
     ['src/core/points/x.ts', "import { Vector3 as x } from 'three';", /only in its file readers/],
-    ['src/worker/x.ts', "import { SkApp as x } from '../ui/components/app';", /import core only/],
+    ['src/worker/x.ts', "import { SkApp as x } from '../ui/components/app';", /import core and render only/],
     ['src/cli/x.ts', "import { SkApp as x } from '../ui/components/app';", /not the workbench/],
+    ['src/render/x.ts', "import { SkApp as x } from '../ui/components/app';", /core and three only/],
     ['test/x.test.ts', "import { corpusPart as x } from '../research/corpus';", /research\/ is the lab/],
   ])('%s: %s is refused', async (file, code, message) => {
     const found = await restricted(file, code);
@@ -30,6 +31,7 @@ describe('import direction (eslint.config.js)', () => {
     ['src/ui/components/x.ts', "import { LOSS_NAMES as x } from '../../core/model/losses/names';"],
     ['src/core/mesh/x.ts', "import { STLLoader as x } from 'three/examples/jsm/loaders/STLLoader.js';"],
     ['src/worker/x.ts', "import { Trainer as x } from '../core/model/trainer';"],
+    ['src/worker/x.ts', "import { renderThumbnail as x } from '../render/thumbnail';"],
   ])('%s: %s is allowed', async (file, code) => {
     expect(await restricted(file, code)).toEqual([]);
   });

@@ -67,7 +67,7 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.screenshot({ path: `${ARTIFACTS}/augment.png` });
   }, 60_000);
 
-  it('trains a few steps in the worker with progress and a falling loss, and the page never blocks for 200 ms', async () => {
+  it('trains a few steps in the worker with progress and a falling loss, and the page never blocks for 100 ms', async () => {
     await page.evaluate(() => {
       const w = window as unknown as { longTasks: number[] };
       w.longTasks = [];
@@ -109,7 +109,8 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     expect(losses.length).toBe(9);
     expect((losses[7] + losses[8]) / 2).toBeLessThan((losses[0] + losses[1]) / 2);
     const longTasks = await page.evaluate(() => (window as unknown as { longTasks: number[] }).longTasks);
-    expect(Math.max(0, ...longTasks)).toBeLessThan(200);
+    // Measured: 56–75 ms at most once thumbnails moved to their worker (55 tasks of 60–206 ms before); goal 50 ms.
+    expect(Math.max(0, ...longTasks)).toBeLessThan(100);
   }, 240_000);
 
   it('a search returns ranked results with scores', async () => {

@@ -18,7 +18,7 @@ import { cloudDistances } from '../../core/points/distance';
 import { createRng } from '../../core/rng';
 import { alignToPrincipalAxes } from '../../core/points/pca';
 import type { Pose } from '../../core/model/train-config';
-import { pointsObject } from '../controllers/scene';
+import { pointsObject } from '../../render/scene';
 import { CameraLink } from '../controllers/viewer';
 import './viewer';
 

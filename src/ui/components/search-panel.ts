@@ -9,7 +9,7 @@ import type { Object3D } from 'three';
 import type { LibraryPart } from '../../core/library';
 import { DEFAULT_FILTERS, type MatchExplanation, type SearchFilters } from '../state';
 import type { Hit } from '../../core/retrieval/topk';
-import { alignToFrame, meshObject, pointsObject, PALETTE, weightColours } from '../controllers/scene';
+import { alignToFrame, meshObject, pointsObject, PALETTE, weightColours } from '../../render/scene';
 import { principalFrame } from '../../core/points/pca';
 import { CameraLink } from '../controllers/viewer';
 import './viewer';
@@ -83,6 +83,7 @@ export class SkSearchPanel extends LitElement {
     input[type=file] { position: absolute; opacity: 0; width: 1px; height: 1px; }
     :focus-visible { outline: 3px solid #c2571a; outline-offset: 1px; }
     .main { display: grid; grid-template-columns: 360px 1fr; gap: 14px; }
+    .order-explained { margin: 0 0 8px; max-width: 900px; }
     ol { list-style: none; margin: 0; padding: 0; max-height: 560px; overflow: auto; }
     li button { display: grid; grid-template-columns: 28px 88px 1fr; gap: 8px; align-items: center; width: 100%; text-align: left; font: inherit; color: inherit; background: #fff; border: 1px solid #d8d1c3; border-radius: 6px; padding: 4px; margin-bottom: 6px; cursor: pointer; }
     li button[aria-pressed=true] { border-color: #c2571a; box-shadow: 0 0 0 2px #c2571a; }
@@ -200,14 +201,14 @@ export class SkSearchPanel extends LitElement {
       </div>
       ${
         q
-          ? html`<div class="main">
-        <p class="small order-explained" data-testid="order-explained">${
-          this.trained
-            ? f.ranking === 'diffusion' && this.diffusionApplies
-              ? 'Ordered through the library: a part that the query’s close look-alikes also resemble moves up. The number beside each is its direct similarity to the query (1 = the same shape), so it need not fall down the list.'
-              : 'Ordered by direct similarity to the query (1 = the same shape).'
-            : 'Not trained yet: the encoder has random weights, so every part scores near 1 and the order is rough. Train a model on the Training tab for look-alikes you can rely on.'
-        }</p>
+          ? html`        <p class="small order-explained" data-testid="order-explained">${
+              this.trained
+                ? f.ranking === 'diffusion' && this.diffusionApplies
+                  ? 'Ordered through the library: a part that the query’s close look-alikes also resemble moves up. The number beside each is its direct similarity to the query (1 = the same shape), so it need not fall down the list.'
+                  : 'Ordered by direct similarity to the query (1 = the same shape).'
+                : 'Not trained yet: the encoder has random weights, so every part scores near 1 and the order is rough. Train a model on the Training tab for look-alikes you can rely on.'
+            }</p>
+        <div class="main">
         <ol data-testid="search-results" aria-label="most similar parts">
           ${this.hits.map((h, i) => {
             const p = this.parts[h.index];

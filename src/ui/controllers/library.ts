@@ -1,5 +1,5 @@
 // The library job: restore the saved library or load the demo, import files through the import workers,
-// keep the result in IndexedDB, and draw thumbnails a few at a time between frames.
+// keep the result in IndexedDB, and have the thumbnail worker draw each part's picture.
 
 import { FORMAT_NAMES } from '../../core/mesh/formats';
 import { DEFAULT_SAMPLING, type LibraryPart } from '../../core/library';
@@ -11,7 +11,7 @@ import { readFiles, type NamedFile } from '../files';
 import { IDLE, type AppState, type Store } from '../state';
 import { LibraryClient, type TimeLimits } from './library-client';
 import { loadLibrary as loadStoredLibrary, loadThumbnails, saveLibrary, saveThumbnails } from './library-db';
-import { thumbnail } from './thumbnails';
+import { ThumbnailClient } from './thumbnails';
 
 /** How library parts are sampled: the pool views draw from, and the seed. */
 export const SAMPLING = { ...DEFAULT_SAMPLING, points: POOL_POINTS };
@@ -23,7 +23,9 @@ export interface LibraryEvents {
 
 export class LibraryController {
   private readonly client = new LibraryClient();
-  private thumbQueue: LibraryPart[] = [];
+  private readonly thumbs = new ThumbnailClient();
+  private thumbPending = 0;
+  private readonly thumbDone = new Map<string, string>();
   private thumbTimer = 0;
 
   constructor(
@@ -154,27 +156,35 @@ export class LibraryController {
     }
   }
 
+  /**
+   * Thumbnails are drawn in the thumbnail worker, one part after another; the finished ones are handed to the
+   * store in batches (at most every 200 ms), so the map is copied once per batch, not once per part.
+   */
   private queueThumbnail(part: LibraryPart): void {
-    this.thumbQueue.push(part);
-    if (this.thumbTimer) return;
-    // A few thumbnails per task (about 30 ms of drawing), then one update: the page stays responsive and the
-    // map of thumbnails is copied once per batch, not once per part.
-    const step = () => {
-      const t0 = performance.now();
-      const drawn = new Map(this.state.thumbnails);
-      while (this.thumbQueue.length && performance.now() - t0 < 30) {
-        const next = this.thumbQueue.shift()!;
-        drawn.set(next.name, thumbnail(next));
-      }
-      this.store.patch('library', { thumbnails: drawn });
-      this.thumbTimer = this.thumbQueue.length ? window.setTimeout(step, 0) : 0;
-      if (!this.thumbTimer) void saveThumbnails(drawn); // all drawn: kept for the next visit
-    };
-    this.thumbTimer = window.setTimeout(step, 0);
+    this.thumbPending++;
+    void this.thumbs
+      .draw(part)
+      .then((url) => this.thumbDone.set(part.name, url))
+      .catch(() => {}) // no thumbnail: the card shows its placeholder
+      .finally(() => {
+        this.thumbPending--;
+        if (!this.thumbTimer)
+          this.thumbTimer = window.setTimeout(() => this.flushThumbnails(), this.thumbPending ? 200 : 0);
+      });
+  }
+
+  private flushThumbnails(): void {
+    this.thumbTimer = 0;
+    if (this.thumbDone.size === 0) return;
+    const thumbnails = new Map([...this.state.thumbnails, ...this.thumbDone]);
+    this.thumbDone.clear();
+    this.store.patch('library', { thumbnails });
+    if (this.thumbPending === 0) void saveThumbnails(thumbnails); // all drawn: kept for the next visit
   }
 
   dispose(): void {
     this.client.dispose();
+    this.thumbs.dispose();
     clearTimeout(this.thumbTimer);
   }
 }

@@ -4,7 +4,7 @@
 import { PerspectiveCamera, WebGLRenderer, type Object3D, type Scene } from 'three';
 import { OrbitControls } from 'three/examples/jsm/controls/OrbitControls.js';
 import type { ReactiveController, ReactiveControllerHost } from 'lit';
-import { disposeObject, litScene } from './scene';
+import { disposeObject, litScene } from '../../render/scene';
 
 export class CameraLink {
   private readonly members = new Set<ViewerController>();

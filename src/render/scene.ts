@@ -1,4 +1,4 @@
-// three.js helpers shared by the viewers and the thumbnail renderer: geometry from library data,
+// three.js helpers shared by the page's viewers and the thumbnail worker (no DOM): geometry from library data,
 // a colour ramp for points, and disposal.
 
 import {
