@@ -360,6 +360,26 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       .toMatch(/stopped/);
   }, 240_000);
 
+  it('reading a library can be stopped, and what was read before stays', async () => {
+    await page.getByRole('tab', { name: 'Parts library' }).click();
+    await page.getByRole('button', { name: 'Reload the demo library' }).click();
+    const stop = page.getByTestId('cancel-import');
+    await stop.waitFor({ timeout: 30_000 });
+    await stop.click();
+    await page
+      .getByText(/Reading was stopped: the parts read before it are in the library/)
+      .waitFor({ timeout: 10_000 });
+    const summary = (await page.getByTestId('library-summary').textContent()) ?? '';
+    const count = Number(summary.match(/(\d+) parts/)?.[1] ?? -1);
+    expect(count).toBeGreaterThanOrEqual(0);
+    expect(count).toBeLessThan(112);
+    // A new import after a stop runs to the end.
+    await page.getByRole('button', { name: 'Reload the demo library' }).click();
+    await expect
+      .poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 60_000 })
+      .toMatch(/112 parts in 14 folders/);
+  }, 120_000);
+
   it('shows no page errors or console errors', () => {
     expect(errors).toEqual([]);
   });

@@ -172,7 +172,8 @@ export class SkApp extends LitElement {
           @add-files=${(e: CustomEvent<File[]>) => void this.library.add(namedFromInput(e.detail))}
           @drop-items=${async (e: CustomEvent<DataTransfer>) => void this.library.add(await namedFromDrop(e.detail))}
           @reload-demo=${() => void this.library.loadDemo()}
-          @clear-library=${() => this.library.clear()}></sk-library-panel>`;
+          @clear-library=${() => this.library.clear()}
+          @cancel-import=${() => this.library.cancel()}></sk-library-panel>`;
       case 'augment':
         return html`<sk-augment-panel .subject=${part} .pipeline=${training.pipeline} .pose=${training.config.pose}
           @pipeline-change=${(e: CustomEvent<Pipeline>) => this.training.configure({ ...training.config, pipeline: e.detail })}></sk-augment-panel>`;

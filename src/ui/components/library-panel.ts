@@ -100,9 +100,11 @@ export class SkLibraryPanel extends LitElement {
       ${
         s.kind === 'running' && s.progress
           ? html`<progress max=${s.progress.total} value=${s.progress.done} aria-label="import progress"></progress>
-        <div class="summary">Reading ${s.progress.done} of ${s.progress.total}: ${s.progress.what}</div>`
+        <div class="summary">Reading ${s.progress.done} of ${s.progress.total}: ${s.progress.what}
+          <button data-testid="cancel-import" @click=${() => this.emit('cancel-import')}>Stop reading</button></div>`
           : null
       }
+      ${s.kind === 'cancelled' ? html`<div class="summary" role="status">Reading was stopped: the parts read before it are in the library.</div>` : null}
       ${s.kind === 'failed' ? html`<div class="failures" role="alert">${s.message}</div>` : null}
       <div class="summary" data-testid="library-summary">
         ${this.parts.length} parts in ${families} folders${this.failures.length ? html`, <strong>${this.failures.length} files could not be read</strong>` : ''}

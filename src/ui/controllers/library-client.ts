@@ -40,6 +40,8 @@ export class LibraryClient {
   private workers: (Worker | null)[];
   private nextId = 1;
   private current = 0;
+  /** Ends each file read in flight as superseded (used by cancel). */
+  private readonly inFlight = new Set<() => void>();
   /** Each file's time limit (a test sets it low). */
   timeLimits: TimeLimits = DEFAULT_TIME_LIMITS;
 
@@ -118,6 +120,7 @@ export class LibraryClient {
       let part: LibraryPart | null = null,
         failure: ImportFailure | null = null;
       const finish = (outcome: Outcome) => {
+        this.inFlight.delete(abandon);
         clearTimeout(timer);
         worker.removeEventListener('message', onMessage);
         worker.removeEventListener('error', onError);
@@ -145,13 +148,25 @@ export class LibraryClient {
         this.endWorker(slot);
         reject(new Error(`library worker: ${e.message}`));
       };
+      const abandon = () => finish({ kind: 'superseded' });
+      this.inFlight.add(abandon);
       worker.addEventListener('message', onMessage);
       worker.addEventListener('error', onError);
       worker.postMessage({ type: 'import', id, files: [file], sampling }, [file.buffer]);
     });
   }
 
-  dispose(): void {
+  /**
+   * Stops the import under way: files being read are abandoned (their workers ended), none is started after, and
+   * `importFiles` rejects with "superseded". What was delivered before stays delivered.
+   */
+  cancel(): void {
+    this.current = this.nextId++;
     for (let slot = 0; slot < this.workers.length; slot++) this.endWorker(slot);
+    for (const abandon of [...this.inFlight]) abandon();
+  }
+
+  dispose(): void {
+    this.cancel();
   }
 }

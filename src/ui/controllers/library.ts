@@ -27,6 +27,7 @@ export class LibraryController {
   private thumbPending = 0;
   private readonly thumbDone = new Map<string, string>();
   private thumbTimer = 0;
+  private cancelling = false;
 
   constructor(
     private readonly store: Store<AppState>,
@@ -70,6 +71,7 @@ export class LibraryController {
     try {
       await this.importInputs(await fetchDemoLibrary(), [], 'demo');
     } catch (err) {
+      this.cancelling = false;
       this.store.patch('library', {
         status: { kind: 'failed', message: `The demo library could not be loaded: ${(err as Error).message}` },
       });
@@ -118,6 +120,7 @@ export class LibraryController {
     const failures = [...this.state.failures.filter((f) => !incoming.has(f.file)), ...refused];
     this.store.patch('library', { parts: [...parts], failures: [...failures] });
     if (inputs.length === 0) {
+      this.cancelling = false;
       this.store.patch('library', { status: { kind: 'done', ms: 0 } });
       return;
     }
@@ -136,6 +139,7 @@ export class LibraryController {
       });
     };
     try {
+      if (this.cancelling) throw new Error('superseded'); // stopped while the files were still being fetched
       const ms = await this.client.importFiles(inputs, SAMPLING, {
         onPart: (part) => {
           parts.push(part);
@@ -151,9 +155,23 @@ export class LibraryController {
       await saveLibrary({ parts, failures, source });
       this.events.onChanged();
     } catch (err) {
-      if ((err as Error).message !== 'superseded')
+      if (this.cancelling) {
+        // What was read before the cancel stays in the library, and is kept.
+        this.cancelling = false;
+        flush(null);
+        this.store.patch('library', { status: { kind: 'cancelled' } });
+        await saveLibrary({ parts, failures, source });
+        this.events.onChanged();
+      } else if ((err as Error).message !== 'superseded')
         this.store.patch('library', { status: { kind: 'failed', message: (err as Error).message } });
     }
+  }
+
+  /** Stops the import under way; the parts read so far stay. */
+  cancel(): void {
+    if (this.state.status.kind !== 'running') return;
+    this.cancelling = true;
+    this.client.cancel();
   }
 
   /**
