@@ -16,9 +16,12 @@ export class SkLibraryPanel extends LitElement {
     thumbnails: { attribute: false },
     selected: { type: String },
     filter: { state: true },
+    limit: { state: true },
   };
 
   declare parts: readonly LibraryPart[];
+  /** How many cards are drawn (more on request). */
+  declare limit: number;
   declare failures: readonly ImportFailure[];
   declare status: LibraryState['status'];
   declare thumbnails: ReadonlyMap<string, string>;
@@ -33,6 +36,7 @@ export class SkLibraryPanel extends LitElement {
     this.thumbnails = new Map();
     this.selected = '';
     this.filter = '';
+    this.limit = CARDS_PER_PAGE;
   }
 
   static override styles = css`
@@ -120,7 +124,7 @@ export class SkLibraryPanel extends LitElement {
           : null
       }
       <div class="grid">
-        ${shown.map((p) => {
+        ${shown.slice(0, this.limit).map((p) => {
           const thumb = this.thumbnails.get(p.name);
           const [x, y, z] = p.info.extents;
           return html`<button class="card" aria-pressed=${this.selected === p.name} @click=${() => this.emit('select-part', p.name)} title=${p.name}>
@@ -132,9 +136,18 @@ export class SkLibraryPanel extends LitElement {
               ${p.info.triangleCount ? (p.info.closed ? html`· closed` : html`· <span class="tag open">open</span>`) : ''}</div>
           </button>`;
         })}
-      </div>`;
+      </div>
+      ${
+        shown.length > this.limit
+          ? html`<div class="summary" data-testid="more-parts">Showing ${this.limit} of ${shown.length} parts (a page holds a few hundred cards comfortably; the filter finds the rest).
+          <button @click=${() => (this.limit += CARDS_PER_PAGE)}>Show ${Math.min(CARDS_PER_PAGE, shown.length - this.limit)} more</button></div>`
+          : null
+      }`;
   }
 }
+
+/** Cards drawn at first, and added per "show more": hundreds of cards with pictures take the page a while to lay out. */
+const CARDS_PER_PAGE = 240;
 
 function fmt(v: number): string {
   return v >= 100 ? v.toFixed(0) : v >= 10 ? v.toFixed(1) : v.toFixed(2);
