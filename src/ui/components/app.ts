@@ -155,7 +155,7 @@ export class SkApp extends LitElement {
       ${
         this.state.notice
           ? html`<div class="notice" role="status">${this.state.notice}
-              ${this.state.noticeAction === 'continue-training' && !isBusy(training.status) ? html`<button data-testid="continue-now" @click=${() => this.training.continueSaved()}>Continue training now</button>` : null}</div>`
+              ${this.state.noticeAction === 'continue-training' && !isBusy(training.status) && this.state.library.parts.length >= 2 ? html`<button data-testid="continue-now" @click=${() => this.training.continueSaved()}>Continue training now</button>` : null}</div>`
           : null
       }
       <main>${this.renderPanel()}</main>`;
