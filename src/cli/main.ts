@@ -5,7 +5,7 @@ import { extname, relative, sep } from 'node:path';
 import { availableParallelism } from 'node:os';
 import { parseArgs } from 'node:util';
 import { initBackend } from '../core/model/backend';
-import { encodersFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
+import { encodersFromCheckpoint, resumeOptions, type Checkpoint } from '../core/model/checkpoint';
 import {
   DEFAULT_TRAIN,
   POOL_POINTS,
@@ -232,17 +232,7 @@ async function train(lib: string, values: Values): Promise<void> {
     notice(values, `--resume: nothing has been saved in ${out} yet, so training starts from step 0`);
   const trainer = new Trainer(asModelParts(library.parts), resume ? resume.manifest.config : config, {
     labels: loss === 'supervised-contrastive' ? labelIds : null,
-    ...(resume
-      ? {
-          initialWeights: resume.weights,
-          resume: {
-            step: resume.manifest.step,
-            adam: resume.adam!,
-            history: resume.manifest.history,
-            checks: resume.manifest.checks,
-          },
-        }
-      : {}),
+    ...(resume ? resumeOptions(resume) : {}),
   });
   const cfg = trainer.config;
   if (!values.json) {

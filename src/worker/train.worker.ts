@@ -6,7 +6,13 @@ import wasmPlain from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm.wasm
 import wasmSimd from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm-simd.wasm?url';
 import wasmThreaded from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm-threaded-simd.wasm?url';
 import { initBackend } from '../core/model/backend';
-import { encodersFromCheckpoint, fromArtifacts, toArtifacts, type Checkpoint } from '../core/model/checkpoint';
+import {
+  encodersFromCheckpoint,
+  fromArtifacts,
+  resumeOptions,
+  toArtifacts,
+  type Checkpoint,
+} from '../core/model/checkpoint';
 import { disposeEncoders, embedForRetrieval } from '../core/model/embed';
 import { explainMatch } from '../core/model/explain';
 import { Trainer } from '../core/model/trainer';
@@ -114,17 +120,7 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         const resume = req.resume ? fromMessage(req.resume) : null;
         trainer = new Trainer(req.parts, resume ? resume.manifest.config : req.config, {
           labels: req.labels,
-          ...(resume
-            ? {
-                initialWeights: resume.weights,
-                resume: {
-                  step: resume.manifest.step,
-                  adam: resume.adam!,
-                  history: resume.manifest.history,
-                  checks: resume.manifest.checks,
-                },
-              }
-            : {}),
+          ...(resume ? resumeOptions(resume) : {}),
         });
         trainerId = req.id;
         const t = trainer;

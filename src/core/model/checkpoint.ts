@@ -10,7 +10,7 @@ import type { AdamState } from './adam';
 import { Encoder } from './encoder';
 import { inputChannels, validateEncoderConfig } from './encoder-config';
 import { disposeEncoders, type Encoders } from './embed';
-import { setWeights } from './trainer';
+import { setWeights, type TrainerOptions } from './trainer';
 import { memberPoses, type TrainConfig } from './train-config';
 import { CHECKPOINT_FORMAT, CHECKPOINT_VERSION, type ModelJson, type RunManifest } from './model-json';
 
@@ -171,4 +171,17 @@ export function encoderFromCheckpoint(ckpt: Checkpoint): Encoder {
   throw new RangeError(
     `this model has ${e.length} encoders (pose ${ckpt.manifest.config.pose}); this use needs a one-encoder model`,
   );
+}
+
+/** Trainer options that continue the run a checkpoint was taken from (its weights, Adam's moments, its history). */
+export function resumeOptions(ckpt: Checkpoint): Pick<TrainerOptions, 'initialWeights' | 'resume'> {
+  return {
+    initialWeights: ckpt.weights,
+    resume: {
+      step: ckpt.manifest.step,
+      adam: ckpt.adam!,
+      history: ckpt.manifest.history,
+      checks: ckpt.manifest.checks,
+    },
+  };
 }

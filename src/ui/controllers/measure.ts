@@ -24,7 +24,8 @@ export class MeasureController {
     return {
       parts: parts.map((p) => ({ points: p.points, normals: p.normals })),
       labels: parts.map((p) => p.label),
-      ...this.training.state,
+      model: this.training.state.model,
+      config: this.training.state.config,
     };
   }
 

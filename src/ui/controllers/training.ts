@@ -79,6 +79,18 @@ export class TrainingController {
     return this.traitsMemo.traits;
   }
 
+  /** A model (restored or imported) becomes the current one, with its settings and its training's history. */
+  private adopt(ckpt: CheckpointMessage): void {
+    const m = ckpt.manifest;
+    this.patch({
+      model: ckpt,
+      config: m.config,
+      pipeline: m.config.pipeline,
+      history: m.history.map((h) => ({ step: h.step, loss: h.loss })),
+      checks: [...m.checks],
+    });
+  }
+
   /** The model the worker kept (IndexedDB), if any; a notice says what was restored. */
   async restore(): Promise<void> {
     try {
@@ -86,13 +98,7 @@ export class TrainingController {
       this.patch({ modelKnown: true });
       if (!saved) return;
       const m = saved.manifest;
-      this.patch({
-        model: saved,
-        config: m.config,
-        pipeline: m.config.pipeline,
-        history: m.history.map((h) => ({ step: h.step, loss: h.loss })),
-        checks: [...m.checks],
-      });
+      this.adopt(saved);
       const unfinished = m.step < m.totalSteps && m.status !== 'done' && m.status !== 'stopped-early';
       this.store.set({
         notice: unfinished
@@ -221,13 +227,7 @@ export class TrainingController {
       const { manifest, weightSpecs, adamStep } = readModelJson(json, weightData, jsonFile.name);
       const ckpt: CheckpointMessage = { manifest, weightSpecs, weightData, adamStep };
       await this.client.save(ckpt);
-      this.patch({
-        model: ckpt,
-        config: manifest.config,
-        pipeline: manifest.config.pipeline,
-        history: manifest.history.map((h) => ({ step: h.step, loss: h.loss })),
-        checks: [...manifest.checks],
-      });
+      this.adopt(ckpt);
       say(this.store, `Imported a model trained elsewhere (${manifest.step} steps, backend ${manifest.backend}).`);
       this.events.onModelChanged();
     } catch (err) {
