@@ -28,31 +28,38 @@ function spawn(): Worker {
   );
 }
 
-export async function importInThreads(
-  files: readonly { path: string; name: string; bytes: number }[],
-  options: PoolOptions,
-  onResult: (index: number, result: ThreadResult) => void,
-): Promise<void> {
-  const count = Math.max(1, Math.min(options.threads ?? availableParallelism(), files.length));
-  const limit = options.limitMs ?? ((bytes: number) => 30_000 + (2_000 * bytes) / 2 ** 20);
-  const results = new Array<ThreadResult | undefined>(files.length);
-  let next = 0,
-    delivered = 0,
-    id = 0;
-  const deliver = () => {
-    while (delivered < files.length && results[delivered]) {
-      onResult(delivered, results[delivered]!);
-      results[delivered] = undefined;
-      delivered++;
-    }
-  };
-  const runSlot = async () => {
-    let worker = spawn();
-    try {
+/**
+ * Import threads kept across calls of `run` (a thread's start-up, loading the readers, is paid once), each
+ * file's result delivered in file order.
+ */
+export class ImportPool {
+  private readonly workers: (Worker | undefined)[] = [];
+  private id = 0;
+  constructor(private readonly options: PoolOptions) {}
+
+  async run(
+    files: readonly { path: string; name: string; bytes: number }[],
+    onResult: (index: number, result: ThreadResult) => void,
+  ): Promise<void> {
+    const options = this.options;
+    const count = Math.max(1, Math.min(options.threads ?? availableParallelism(), files.length));
+    const limit = options.limitMs ?? ((bytes: number) => 30_000 + (2_000 * bytes) / 2 ** 20);
+    const results = new Array<ThreadResult | undefined>(files.length);
+    let next = 0,
+      delivered = 0;
+    const deliver = () => {
+      while (delivered < files.length && results[delivered]) {
+        onResult(delivered, results[delivered]!);
+        results[delivered] = undefined;
+        delivered++;
+      }
+    };
+    const runSlot = async (slot: number) => {
       while (next < files.length) {
+        const worker = (this.workers[slot] ??= spawn());
         const i = next++;
         const req: ThreadRequest = {
-          id: ++id,
+          id: ++this.id,
           path: files[i].path,
           name: files[i].name,
           sampling: options.sampling,
@@ -86,8 +93,8 @@ export async function importInThreads(
           worker.postMessage(req);
         });
         if (outcome === 'timed-out') {
+          this.workers[slot] = undefined;
           await worker.terminate();
-          worker = spawn();
           const s = limit(files[i].bytes) / 1000;
           results[i] = {
             kind: 'failed',
@@ -102,9 +109,25 @@ export async function importInThreads(
         }
         deliver();
       }
-    } finally {
-      await worker.terminate();
-    }
-  };
-  await Promise.all(Array.from({ length: count }, runSlot));
+    };
+    await Promise.all(Array.from({ length: count }, (_, slot) => runSlot(slot)));
+  }
+
+  async close(): Promise<void> {
+    const all = this.workers.splice(0).filter((w): w is Worker => w !== undefined);
+    await Promise.all(all.map((w) => w.terminate()));
+  }
+}
+
+export async function importInThreads(
+  files: readonly { path: string; name: string; bytes: number }[],
+  options: PoolOptions,
+  onResult: (index: number, result: ThreadResult) => void,
+): Promise<void> {
+  const pool = new ImportPool(options);
+  try {
+    await pool.run(files, onResult);
+  } finally {
+    await pool.close();
+  }
 }

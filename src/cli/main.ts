@@ -31,7 +31,7 @@ import { cosineSimilarity } from '../core/retrieval/metrics';
 import { embeddingsCsv, embeddingsJson } from '../core/retrieval/export';
 import { writeNpyFloat32 } from '../core/retrieval/npy';
 import { runStudy } from '../core/quality/study';
-import { failureOf, loadPart, type LibraryPart } from '../core/library';
+import { failureOf, loadPart, type LibraryPart, type SamplingSettings } from '../core/library';
 import { DEFAULT_MAX_BYTES, importMesh } from '../core/mesh/import';
 import { FORMAT_NAMES } from '../core/mesh/formats';
 import type { MeshInfo } from '../core/mesh/types';
@@ -42,6 +42,9 @@ import { importInThreads } from './import-pool';
 import { prepareToRead, readBytes } from './read-file';
 import { duration, Progress, setProgressMode } from './progress';
 import { loadRun, saveRun } from './run-dir';
+import { checkpointOf, databaseSpec, openDatabase, runFiles } from './db';
+import { syncLibrary } from './sync';
+import type { PartsDb, StoredPart } from '../core/db/parts-db';
 
 const CAUTION =
   'Caution: geometric similarity is not interchangeability. Before substituting a part, a qualified person must check material, tolerances, loads and standards, following local codes and your engineering sign-off.';
@@ -59,7 +62,14 @@ usage:
                  their files' axes; principal-axes otherwise)
                  (as-is also keeps each axis's sign; its augmentations default to file-pose)
   shapekin embed <library-dir> --model <run-dir> --out <file.csv|file.json|file.npy> [--json]
+  shapekin sync <library-dir> --db <folder|postgres://user@host/db> [--model <run-dir>] [--batch 32] [--json]
+                 (the parts database: files compared by content hash — new and changed ones read, removed ones
+                 dropped — then whatever the model has not embedded is embedded; --model makes that run the
+                 database's model. Without --db: library.db beside the --model run folder. --batch: parts
+                 embedded per database transaction. Several syncs on one server share the work)
   shapekin query <mesh-file> --model <run-dir> --library <library-dir> [-k 10] [--size-ratio R] [--order diffusion|cosine] [--json]
+  shapekin query <mesh-file> --db <folder|postgres://…> [--model <run-dir>] [-k 10] [--size-ratio R] [--folder F] [--order …]
+                 (answers from the database, reading no library file; the database's model unless --model)
                  (diffusion: through the library — scores corrected for parts near everything, then diffused over its neighbour graph; cosine: by similarity to the query alone)
   shapekin eval <library-dir> [--model <run-dir>] [--json]
   shapekin study <library-dir> --model <run-dir> [--augmentations a,b,…] [--strengths 0,0.5,1] [--json]
@@ -77,6 +87,8 @@ presets for --augment: ${Object.keys(PRESETS).join(', ')}
 
 const OPTIONS = {
   out: { type: 'string' },
+  db: { type: 'string' },
+  folder: { type: 'string' },
   model: { type: 'string' },
   library: { type: 'string' },
   epochs: { type: 'string' },
@@ -358,7 +370,9 @@ async function embed(lib: string, values: Values): Promise<void> {
 }
 
 async function query(file: string, values: Values): Promise<void> {
-  const lib = need(values, 'library', 'query');
+  if (!values.db && !values.library)
+    throw new CliError('query needs --library <library-dir> or --db <folder|postgres://…>', 2);
+  const lib = values.library ?? '';
   const k = num(values, 'k', 10, true, 1);
   const mmPerUnit = unitsOption(values);
   const ratio = values['size-ratio'] !== undefined ? num(values, 'size-ratio', 2, false, 1) : undefined;
@@ -366,14 +380,9 @@ async function query(file: string, values: Values): Promise<void> {
   const ranking = (values.order ?? 'diffusion') as Ranking;
   if (ranking !== 'diffusion' && ranking !== 'cosine')
     throw new CliError(`--order must be diffusion or cosine, got "${values.order}"`, 2);
+  if (values.db) return queryDatabase(file, values, { k, mmPerUnit, ratio, ranking });
   await withModel(values, 'query', async (enc, ckpt) => {
-    let q: LibraryPart;
-    try {
-      await prepareToRead(file, file, maxBytes(values));
-      q = loadPart(readBytes(file), file, ckpt.manifest.sampling, maxBytes(values));
-    } catch (err) {
-      throw new CliError((err as Error).message);
-    }
+    const q = await readQueryPart(file, values, ckpt.manifest.sampling);
     const library = await loadLibrary(lib, {
       maxBytes: maxBytes(values),
       threads: threads(values),
@@ -418,37 +427,236 @@ async function query(file: string, values: Values): Promise<void> {
         size_ratio: (p.diagonal * size.scale) / (q.diagonal * qSize.scale),
       };
     });
+    printQuery(values, {
+      query: file,
+      querySize: qSize,
+      order,
+      asked: ranking,
+      meanPairCosine: index.meanPairCosine(),
+      rows,
+      extra: { failures: failuresJson(library) },
+    });
+  });
+}
+
+interface QueryRow {
+  rank: number;
+  score: number;
+  file: string;
+  label: string;
+  extents: number[];
+  units: string;
+  size_ratio: number;
+}
+
+/** The query's part file, read and sampled as the model's pools were. */
+async function readQueryPart(file: string, values: Values, sampling: SamplingSettings): Promise<LibraryPart> {
+  try {
+    await prepareToRead(file, file, maxBytes(values));
+    return loadPart(readBytes(file), file, sampling, maxBytes(values));
+  } catch (err) {
+    throw new CliError((err as Error).message);
+  }
+}
+
+/** A query's answer: one JSON document, or the table. */
+function printQuery(
+  values: Values,
+  a: {
+    query: string;
+    querySize: { size: number[]; units: string };
+    order: Ranking;
+    asked: Ranking;
+    meanPairCosine: number | null;
+    rows: QueryRow[];
+    extra: Record<string, unknown>;
+  },
+): void {
+  if (values.json) {
+    emit({
+      query: a.query,
+      query_extents: a.querySize.size,
+      query_units: a.querySize.units,
+      order: a.order,
+      mean_pair_cosine: a.meanPairCosine,
+      results: a.rows,
+      ...a.extra,
+      caution: CAUTION,
+    });
+    return;
+  }
+  console.log(`query ${a.query}  (${fmtSize(a.querySize)})`);
+  if (a.order !== a.asked)
+    console.log(
+      `ordered by cosine similarity: this model's embedding is too concentrated (mean pair cosine ${a.meanPairCosine?.toFixed(2)}) to order through the library`,
+    );
+  else
+    console.log(
+      a.order === 'diffusion'
+        ? 'ordered through the library (scores corrected for parts near everything, then diffused over its neighbour graph); score: cosine similarity to the query'
+        : 'ordered by cosine similarity to the query',
+    );
+  console.log('rank  score   size×   folder            file');
+  for (const r of a.rows)
+    console.log(
+      `${String(r.rank).padStart(4)}  ${r.score.toFixed(3)}  ${r.size_ratio.toFixed(2).padStart(5)}   ${r.label.padEnd(17)} ${r.file}  (${fmtSize({ size: r.extents, units: r.units })})`,
+    );
+  console.log(`\n${CAUTION}`);
+}
+
+/** The model a database command uses: --model's run (which must be stored there), else the database's own. */
+async function databaseModel(db: PartsDb, values: Values): Promise<{ id: number; ckpt: Checkpoint }> {
+  if (values.model) {
+    const run = runFiles(values.model);
+    const stored = await db.modelByFingerprint(run.fingerprint);
+    if (!stored)
+      throw new CliError(
+        `the model in ${values.model} has not embedded this database's parts yet: run "shapekin sync <library-dir> --db ${values.db} --model ${values.model}"`,
+      );
+    return { id: stored.id, ckpt: checkpointOf(stored) };
+  }
+  const current = await db.currentModel();
+  if (!current)
+    throw new CliError(
+      `the database ${db.sql.where} holds no model yet: run "shapekin sync <library-dir> --db … --model <run-dir>"`,
+    );
+  return { id: current.id, ckpt: checkpointOf(current) };
+}
+
+/** query --db: the part file is read and embedded here; the library comes from the database. */
+async function queryDatabase(
+  file: string,
+  values: Values,
+  o: { k: number; mmPerUnit: number | null; ratio: number | undefined; ranking: Ranking },
+): Promise<void> {
+  const db = await openDatabase(values.db!);
+  try {
+    const { id, ckpt } = await databaseModel(db, values);
+    await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
+    const q = await readQueryPart(file, values, ckpt.manifest.sampling);
+    const enc = encodersFromCheckpoint(ckpt);
+    let qv: Float32Array;
+    try {
+      qv = embedForRetrieval(
+        enc,
+        [{ points: q.points, normals: q.normals }],
+        ckpt.manifest.config.points,
+        ckpt.manifest.config.pose,
+      );
+    } finally {
+      disposeEncoders(enc);
+    }
+    if (!qv.every(Number.isFinite))
+      throw new CliError(`the model gives no usable embedding for ${file} (non-finite values)`);
+    const qSize = sizeOf(q.info, o.mmPerUnit);
+    const counts = await db.counts(id);
+    if (counts.embedded === 0)
+      throw new CliError(`the database ${db.sql.where} has no embedded parts for this model: run "shapekin sync"`);
+    const waiting = counts.ready - counts.embedded + counts.pending;
+    if (waiting > 0) notice(values, `${waiting} parts are not embedded yet (run "shapekin sync"); they are left out`);
+    const folders = values.folder ? values.folder.split(',').map((f) => f.trim()) : undefined;
+    const sizeFilter =
+      o.ratio !== undefined
+        ? { sizeRatio: o.ratio, queryDiagonal: q.diagonal * qSize.scale, scaleFileUnits: o.mmPerUnit ?? 1 }
+        : {};
+    const rowOf = (r: number, p: StoredPart, score: number): QueryRow => {
+      const size = sizeOf(p.info, o.mmPerUnit);
+      return {
+        rank: r + 1,
+        score,
+        file: p.path,
+        label: p.label,
+        extents: size.size,
+        units: size.units,
+        size_ratio: (p.diagonal * size.scale) / (q.diagonal * qSize.scale),
+      };
+    };
+    let rows: QueryRow[];
+    let order: Ranking = o.ranking;
+    let meanPair: number | null = null;
+    if (o.ranking === 'cosine') {
+      const hits = await db.nearest(id, qv, o.k, { ...sizeFilter, ...(folders ? { labels: folders } : {}) });
+      rows = hits.map((h, r) => rowOf(r, h, h.score));
+    } else {
+      // Ordering through the library needs every vector: read from the database, none of the library's files.
+      const all = await db.embeddings(id);
+      const index = new TensorIndex(
+        all.vectors,
+        all.dim,
+        all.parts.map((p) => ({
+          name: p.path,
+          label: p.label,
+          diagonal: p.diagonal * sizeOf(p.info, o.mmPerUnit).scale,
+        })),
+      );
+      try {
+        meanPair = index.meanPairCosine();
+        if (!index.diffusionApplies()) order = 'cosine';
+        const hits = index.ranked(order, qv, o.k, {
+          ...(o.ratio !== undefined ? { sizeRatio: o.ratio, queryDiagonal: q.diagonal * qSize.scale } : {}),
+          ...(folders ? { labels: folders } : {}),
+        });
+        rows = hits.map((h, r) => rowOf(r, all.parts[h.index], h.score));
+      } finally {
+        index.dispose();
+      }
+    }
+    printQuery(values, {
+      query: file,
+      querySize: qSize,
+      order,
+      asked: o.ranking,
+      meanPairCosine: meanPair,
+      rows,
+      extra: { database: db.sql.where, not_embedded: waiting },
+    });
+  } finally {
+    await db.close();
+  }
+}
+
+async function sync(lib: string, values: Values): Promise<void> {
+  const spec = databaseSpec(values.db, values.model, 'sync');
+  const cap = maxBytes(values);
+  const db = await openDatabase(spec);
+  let stop = false;
+  const onSignal = () => {
+    stop = true;
+    notice(values, 'stopping after the batch in hand (what is written stays)…');
+  };
+  process.once('SIGINT', onSignal);
+  process.once('SIGTERM', onSignal);
+  try {
+    if (values.model) await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
+    else if (await db.currentModel()) await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
+    const report = await syncLibrary(lib, db, {
+      threads: threads(values),
+      maxBytes: cap,
+      ...(values.model ? { model: values.model } : {}),
+      embedBatch: num(values, 'batch', 32, true, 1, 4096),
+      stopped: () => stop,
+    });
     if (values.json) {
-      emit({
-        query: file,
-        query_extents: qSize.size,
-        query_units: qSize.units,
-        order,
-        mean_pair_cosine: index.meanPairCosine(),
-        results: rows,
-        failures: failuresJson(library),
-        caution: CAUTION,
-      });
+      emit(report);
       return;
     }
-    console.log(`query ${file}  (${fmtSize(qSize)})`);
-    if (order !== ranking)
-      console.log(
-        `ordered by cosine similarity: this model's embedding is too concentrated (mean pair cosine ${index.meanPairCosine().toFixed(2)}) to order through the library`,
-      );
-    else
-      console.log(
-        order === 'diffusion'
-          ? 'ordered through the library (scores corrected for parts near everything, then diffused over its neighbour graph); score: cosine similarity to the query'
-          : 'ordered by cosine similarity to the query',
-      );
-    console.log('rank  score   size×   folder            file');
-    for (const r of rows)
-      console.log(
-        `${String(r.rank).padStart(4)}  ${r.score.toFixed(3)}  ${r.size_ratio.toFixed(2).padStart(5)}   ${r.label.padEnd(17)} ${r.file}  (${fmtSize({ size: r.extents, units: r.units })})`,
-      );
-    console.log(`\n${CAUTION}`);
-  });
+    for (const f of report.failed) process.stderr.write(`could not read ${f.file}: ${f.reason}\n`);
+    console.log(
+      `${report.database}: ${report.files} files — ${report.added.length} added, ${report.changed.length} changed, ${report.removed.length} removed, ${report.unchanged} unchanged`,
+    );
+    console.log(
+      `read ${report.read}, could not read ${report.failed.length}${report.still_failing ? ` (and ${report.still_failing} unchanged files that failed before)` : ''}; ` +
+        (report.model
+          ? `embedded ${report.embedded} (model ${report.model.slice(0, 12)}: ${report.parts.embedded} of ${report.parts.ready} parts)`
+          : 'no model yet, so nothing embedded (give --model <run-dir>)'),
+    );
+    if (report.stopped) console.log('stopped before the end: run sync again to finish');
+    console.log(`${duration(report.seconds)}`);
+  } finally {
+    process.off('SIGINT', onSignal);
+    process.off('SIGTERM', onSignal);
+    await db.close();
+  }
 }
 
 async function evaluate(lib: string, values: Values): Promise<void> {
@@ -701,6 +909,7 @@ export async function main(argv: string[]): Promise<number> {
     train,
     embed,
     query,
+    sync,
     eval: evaluate,
     study,
     duplicates,

@@ -9,6 +9,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
 import { main } from '../../src/cli/main';
+import { captureOutput } from './capture';
 import { crc32 } from '../../src/core/checksum';
 import { cpSync } from 'node:fs';
 import { guardTensorLeaks } from '../tf-helpers';
@@ -23,18 +24,7 @@ let out: string[] = [];
 let err: string[] = [];
 
 function capture() {
-  out = [];
-  err = [];
-  vi.spyOn(console, 'log').mockImplementation((...a: unknown[]) => {
-    out.push(a.join(' '));
-  });
-  vi.spyOn(console, 'error').mockImplementation((...a: unknown[]) => {
-    err.push(a.join(' '));
-  });
-  vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => {
-    err.push(String(s));
-    return true;
-  });
+  ({ out, err } = captureOutput());
 }
 afterEach(() => vi.restoreAllMocks());
 
