@@ -9,6 +9,7 @@ const sections: Record<string, () => void | Promise<void>> = {
   retrieval: benchRetrieval,
   model: async () => (await import('./model')).benchModel(),
   cad: async () => (await import('./cad')).benchCad(),
+  database: async () => (await import('./database')).benchDatabase(),
 };
 const wanted = process.argv.slice(2);
 console.log(`Shapekin benchmarks — node ${process.version}, ${new Date().toISOString()}`);

@@ -72,6 +72,7 @@ usage:
                  (answers from the database, reading no library file; the database's model unless --model)
                  (diffusion: through the library — scores corrected for parts near everything, then diffused over its neighbour graph; cosine: by similarity to the query alone)
   shapekin eval <library-dir> [--model <run-dir>] [--json]
+  shapekin embed|duplicates|eval --db <folder|postgres://…> [--model <run-dir>] …   (the library from the database)
   shapekin study <library-dir> --model <run-dir> [--augmentations a,b,…] [--strengths 0,0.5,1] [--json]
   shapekin duplicates <library-dir> --model <run-dir> [--threshold 0.97] [--json]
   shapekin inspect <file-or-folder> [--json]   (format, bodies, triangles, closed, size and units of each file, or why it cannot be read)
@@ -177,7 +178,7 @@ function notice(values: Values, text: string): void {
   if (!values.quiet) process.stderr.write(`${text}\n`);
 }
 
-const asModelParts = (parts: readonly LibraryPart[]): ModelPart[] =>
+const asModelParts = (parts: readonly ModelPart[]): ModelPart[] =>
   parts.map((p) => ({ points: p.points, normals: p.normals }));
 
 /** train's numeric options: whole or not, and the range each must lie in. */
@@ -335,17 +336,52 @@ async function withModel<T>(
   }
 }
 
-async function embed(lib: string, values: Values): Promise<void> {
-  const out = need(values, 'out', 'embed');
-  const ext = extname(out).toLowerCase();
-  if (!['.csv', '.json', '.npy'].includes(ext))
-    throw new CliError(`--out must end in .csv, .json or .npy, got "${out}"`, 2);
-  await withModel(values, 'embed', async (enc, ckpt) => {
+/** A library's retrieval embeddings with each part's description: from --db's stored vectors, or read and embedded now. */
+interface EmbeddedLibrary {
+  readonly rows: {
+    file: string;
+    label: string;
+    extents: readonly number[];
+    diagonal: number;
+    units: MeshInfo['units'];
+  }[];
+  readonly vectors: Float32Array;
+  readonly dim: number;
+  readonly failures: { file: string; reason: string }[];
+}
+
+async function embeddedLibrary(lib: string, values: Values, command: string): Promise<EmbeddedLibrary> {
+  if (values.db) {
+    const db = await openDatabase(values.db);
+    try {
+      const { id } = await databaseModel(db, values);
+      const counts = await db.counts(id);
+      const waiting = counts.ready - counts.embedded + counts.pending;
+      if (waiting > 0) notice(values, `${waiting} parts are not embedded yet (run "shapekin sync"); they are left out`);
+      const all = await db.embeddings(id);
+      if (all.parts.length === 0)
+        throw new CliError(`the database ${db.sql.where} has no embedded parts for this model`);
+      return {
+        rows: all.parts.map((p) => ({
+          file: p.path,
+          label: p.label,
+          extents: p.info.extents,
+          diagonal: p.diagonal,
+          units: p.info.units,
+        })),
+        vectors: all.vectors,
+        dim: all.dim,
+        failures: (await db.failures()).map((f) => ({ file: f.path, reason: f.reason })),
+      };
+    } finally {
+      await db.close();
+    }
+  }
+  return withModel(values, command, async (enc, ckpt) => {
     const library = await loadLibrary(lib, {
       maxBytes: maxBytes(values),
       threads: threads(values),
-      points: ckpt.manifest.sampling.points,
-      seed: ckpt.manifest.sampling.seed,
+      ...ckpt.manifest.sampling,
     });
     reportFailures(library.failures, Boolean(values.json));
     const vectors = embedForRetrieval(
@@ -354,19 +390,31 @@ async function embed(lib: string, values: Values): Promise<void> {
       ckpt.manifest.config.points,
       ckpt.manifest.config.pose,
     );
-    const D = vectors.length / library.parts.length;
-    const rows = library.parts.map((p, i) => ({
-      file: p.name,
-      label: library.labels[i],
-      extents: p.info.extents,
-      diagonal: p.diagonal,
-      units: p.info.units,
-    }));
-    if (ext === '.npy') writeFileSync(out, writeNpyFloat32(vectors, library.parts.length, D));
-    else writeFileSync(out, ext === '.json' ? embeddingsJson(rows, vectors, D) : embeddingsCsv(rows, vectors, D));
-    if (values.json) emit({ out, parts: library.parts.length, dim: D, failures: failuresJson(library) });
-    else console.error(`${library.parts.length} embeddings of ${D} values → ${out}`);
+    return {
+      rows: library.parts.map((p, i) => ({
+        file: p.name,
+        label: library.labels[i],
+        extents: p.info.extents,
+        diagonal: p.diagonal,
+        units: p.info.units,
+      })),
+      vectors,
+      dim: vectors.length / library.parts.length,
+      failures: failuresJson(library),
+    };
   });
+}
+
+async function embed(lib: string, values: Values): Promise<void> {
+  const out = need(values, 'out', 'embed');
+  const ext = extname(out).toLowerCase();
+  if (!['.csv', '.json', '.npy'].includes(ext))
+    throw new CliError(`--out must end in .csv, .json or .npy, got "${out}"`, 2);
+  const { rows, vectors, dim: D, failures } = await embeddedLibrary(lib, values, 'embed');
+  if (ext === '.npy') writeFileSync(out, writeNpyFloat32(vectors, rows.length, D));
+  else writeFileSync(out, ext === '.json' ? embeddingsJson(rows, vectors, D) : embeddingsCsv(rows, vectors, D));
+  if (values.json) emit({ out, parts: rows.length, dim: D, failures });
+  else console.error(`${rows.length} embeddings of ${D} values → ${out}`);
 }
 
 async function query(file: string, values: Values): Promise<void> {
@@ -659,12 +707,44 @@ async function sync(lib: string, values: Values): Promise<void> {
   }
 }
 
-async function evaluate(lib: string, values: Values): Promise<void> {
-  await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
+/** The parts to measure on, with their folder labels: read from --db's stored pools, or from the folder now. */
+async function measuredLibrary(
+  lib: string,
+  values: Values,
+): Promise<{
+  parts: (ModelPart & { info: { closed: boolean } })[];
+  labels: string[];
+  failures: { file: string; reason: string }[];
+  ckpt: Checkpoint | null;
+}> {
+  if (values.db) {
+    const db = await openDatabase(values.db);
+    try {
+      const model = values.model || (await db.currentModel()) ? await databaseModel(db, values) : null;
+      const parts = await db.readyParts();
+      if (parts.length === 0)
+        throw new CliError(`the database ${db.sql.where} holds no parts yet: run "shapekin sync"`);
+      return {
+        parts,
+        labels: parts.map((p) => p.label),
+        failures: (await db.failures()).map((f) => ({ file: f.path, reason: f.reason })),
+        ckpt: model?.ckpt ?? null,
+      };
+    } finally {
+      await db.close();
+    }
+  }
   const ckpt = values.model ? await loadRun(values.model) : null;
   const sampling = ckpt?.manifest.sampling ?? { points: POOL_POINTS, seed: 0 };
   const library = await loadLibrary(lib, { maxBytes: maxBytes(values), threads: threads(values), ...sampling });
   reportFailures(library.failures, Boolean(values.json));
+  return { parts: library.parts, labels: library.labels, failures: failuresJson(library), ckpt };
+}
+
+async function evaluate(lib: string, values: Values): Promise<void> {
+  await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
+  const library = await measuredLibrary(lib, values);
+  const ckpt = library.ckpt;
   const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
   const config = ckpt?.manifest.config ?? defaultTrainFor(libraryTraits(library.parts));
   const report = evaluateMethods({
@@ -679,7 +759,7 @@ async function evaluate(lib: string, values: Values): Promise<void> {
   });
   if (learned) disposeEncoders(learned);
   if (values.json) {
-    emit({ ...report, failures: failuresJson(library) });
+    emit({ ...report, failures: library.failures });
     return;
   }
   console.log(
@@ -846,44 +926,28 @@ async function inspect(target: string, values: Values): Promise<void> {
 
 async function duplicates(lib: string, values: Values): Promise<void> {
   const threshold = num(values, 'threshold', 0.97, false, -1, 1);
-  await withModel(values, 'duplicates', async (enc, ckpt) => {
-    const library = await loadLibrary(lib, {
-      maxBytes: maxBytes(values),
-      threads: threads(values),
-      ...ckpt.manifest.sampling,
-    });
-    reportFailures(library.failures, Boolean(values.json));
-    const vectors = embedForRetrieval(
-      enc,
-      asModelParts(library.parts),
-      ckpt.manifest.config.points,
-      ckpt.manifest.config.pose,
-    );
-    const D = vectors.length / library.parts.length;
-    const groups = duplicateGroups(library.parts.length, cosineSimilarity(vectors, D), threshold);
-    const described = groups.map((g) => ({
-      parts: g.members.map((i) => ({
-        file: library.parts[i].name,
-        label: library.labels[i],
-        extents: library.parts[i].info.extents,
-        diagonal: library.parts[i].diagonal,
-      })),
-      closest: Math.max(...g.pairs.map((p) => p.similarity)),
-    }));
-    if (values.json) {
-      emit({ threshold, groups: described, failures: failuresJson(library), caution: CAUTION });
-      return;
-    }
-    console.log(`${groups.length} groups of look-alike parts at similarity ≥ ${threshold}`);
-    described.forEach((g, n) => {
-      console.log(`\ngroup ${n + 1} (closest pair ${g.closest.toFixed(3)})`);
-      for (const p of g.parts)
-        console.log(
-          `  ${p.file.padEnd(40)} ${p.label.padEnd(16)} ${p.extents.map((v) => v.toPrecision(4)).join(' × ')}`,
-        );
-    });
-    console.log(`\n${CAUTION}`);
+  const { rows, vectors, dim, failures } = await embeddedLibrary(lib, values, 'duplicates');
+  const groups = duplicateGroups(rows.length, cosineSimilarity(vectors, dim), threshold);
+  const described = groups.map((g) => ({
+    parts: g.members.map((i) => ({
+      file: rows[i].file,
+      label: rows[i].label,
+      extents: rows[i].extents,
+      diagonal: rows[i].diagonal,
+    })),
+    closest: Math.max(...g.pairs.map((p) => p.similarity)),
+  }));
+  if (values.json) {
+    emit({ threshold, groups: described, failures, caution: CAUTION });
+    return;
+  }
+  console.log(`${groups.length} groups of look-alike parts at similarity ≥ ${threshold}`);
+  described.forEach((g, n) => {
+    console.log(`\ngroup ${n + 1} (closest pair ${g.closest.toFixed(3)})`);
+    for (const p of g.parts)
+      console.log(`  ${p.file.padEnd(40)} ${p.label.padEnd(16)} ${p.extents.map((v) => v.toPrecision(4)).join(' × ')}`);
   });
+  console.log(`\n${CAUTION}`);
 }
 
 /** Writes the one JSON document of a --json run to stdout; set per run by main. */
@@ -939,13 +1003,15 @@ export async function main(argv: string[]): Promise<number> {
       (values.progress as 'bar' | 'json' | 'none' | undefined) ?? (values.quiet || json ? 'none' : 'bar'),
     );
     if (!run) throw new CliError(`unknown command "${command}" (one of ${Object.keys(commands).join(', ')})`, 2);
-    if (!target)
+    const fromDb = Boolean(values.db) && ['embed', 'duplicates', 'eval'].includes(command);
+    if (!target && !fromDb)
       throw new CliError(
         `${command} needs a ${command === 'query' ? 'part file' : command === 'inspect' ? 'file or folder' : 'library folder'}`,
         2,
       );
     if (extra.length) throw new CliError(`unexpected argument "${extra[0]}"`, 2);
-    await run(target, values);
+    if (target && fromDb) throw new CliError(`${command} --db reads the library from the database: give no folder`, 2);
+    await run(target ?? '', values);
     return 0;
   } catch (err) {
     const known = err instanceof CliError;

@@ -3,7 +3,7 @@
 // team's server is — with several command-line processes at once, and one killed midway.
 
 import { spawn, type ChildProcess } from 'node:child_process';
-import { copyFileSync, mkdirSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { copyFileSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { PGlite } from '@electric-sql/pglite';
@@ -117,6 +117,32 @@ describe('query --db', () => {
       expect(r.size_ratio).toBeGreaterThanOrEqual(1 / 3 - 1e-9);
     }
   }, 180_000);
+
+  it('embed, duplicates and eval --db give what they give from the folder', async () => {
+    const db = join(mkdtempSync(join(tmpdir(), 'shapekin-db-')), 'library.db');
+    expect((await cli('sync', lib, '--db', db, '--model', run)).code).toBe(0);
+    const dir = mkdtempSync(join(tmpdir(), 'shapekin-dbout-'));
+    const a = await cli('embed', lib, '--model', run, '--out', join(dir, 'a.json'));
+    const b = await cli('embed', '--db', db, '--out', join(dir, 'b.json'));
+    expect(b.code).toBe(0);
+    expect(b.doc).toMatchObject({ parts: 12, dim: a.doc.dim, failures: [{ file: 'broken/empty-export.stl' }] });
+    type Row = { file: string; embedding: number[] };
+    const ea = JSON.parse(readFileSync(join(dir, 'a.json'), 'utf8')).parts as Row[];
+    const eb = JSON.parse(readFileSync(join(dir, 'b.json'), 'utf8')).parts as Row[];
+    expect(eb.map((r) => r.file)).toEqual(ea.map((r) => r.file));
+    eb.forEach((r, i) => r.embedding.forEach((v, d) => expect(Math.abs(v - ea[i].embedding[d])).toBeLessThan(1e-6)));
+    const da = await cli('duplicates', lib, '--model', run, '--threshold', '0.99');
+    const dbd = await cli('duplicates', '--db', db, '--threshold', '0.99');
+    expect(dbd.doc.groups).toEqual(da.doc.groups);
+    const va = await cli('eval', lib, '--model', run);
+    const vb = await cli('eval', '--db', db);
+    expect(vb.code).toBe(0);
+    expect(vb.doc.parts).toBe(12);
+    const mb = vb.doc.methods as Record<string, Record<string, number>>;
+    for (const [m, r] of Object.entries(va.doc.methods as Record<string, Record<string, number>>))
+      for (const [k, v] of Object.entries(r)) expect(mb[m][k]).toBeCloseTo(v, 6);
+    expect((await cli('eval', lib, '--db', db)).doc.error).toMatch(/give no folder/);
+  }, 240_000);
 
   it('a database with no model, or a model it has not embedded with, is explained', async () => {
     const db = join(mkdtempSync(join(tmpdir(), 'shapekin-db-')), 'library.db');

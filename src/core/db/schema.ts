@@ -71,6 +71,18 @@ CREATE TABLE embedding_queue (
 );
 `,
   },
+  {
+    version: 2,
+    what: "what the workbench shows of a part: its mesh, its cloud's centre and radius, a failure's kind",
+    sql: `
+ALTER TABLE parts
+  ADD COLUMN failure_code text,
+  ADD COLUMN centre double precision[],
+  ADD COLUMN radius double precision,
+  ADD COLUMN mesh_positions bytea,
+  ADD COLUMN mesh_indices bytea;
+`,
+  },
 ];
 
 export const SCHEMA_VERSION = MIGRATIONS[MIGRATIONS.length - 1].version;

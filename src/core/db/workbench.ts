@@ -1,0 +1,226 @@
+// The workbench's side of the parts database: the library as the page holds it (each part with its mesh for the
+// views, the files that could not be read, where the library came from), the current model as a checkpoint,
+// and embeddings keyed by the model that made them. The same tables as the command line's (parts-db.ts).
+
+import type { LibraryPart } from '../library';
+import type { ImportFailure } from '../mesh/import';
+import type { ImportErrorCode, MeshInfo } from '../mesh/types';
+import type { PartsDb } from './parts-db';
+import { bytesFloats, floatBytes, vectorLiteral } from './sql';
+
+export interface WorkbenchLibrary {
+  readonly parts: LibraryPart[];
+  readonly failures: ImportFailure[];
+  readonly source: 'demo' | 'user';
+}
+
+/** A part as the workbench hands it over: a library part and the SHA-256 of its file, when known. */
+export type HashedPart = LibraryPart & { readonly contentHash?: string };
+
+const u32Bytes = (a: Uint32Array): Uint8Array => new Uint8Array(a.buffer, a.byteOffset, a.byteLength);
+function bytesU32(b: Uint8Array): Uint32Array {
+  const out = new Uint32Array(b.byteLength / 4);
+  new Uint8Array(out.buffer).set(b);
+  return out;
+}
+
+/** The key under which the untrained encoder's embeddings are kept (it is a model too: its seed and settings). */
+export const isUntrainedKey = (key: string): boolean => key.startsWith('untrained:');
+
+export class WorkbenchStore {
+  constructor(readonly db: PartsDb) {}
+
+  private get sql() {
+    return this.db.sql;
+  }
+
+  /** Stores (or replaces) parts read by the workbench, with their meshes. */
+  async putParts(parts: readonly HashedPart[]): Promise<void> {
+    if (parts.length === 0) return;
+    await this.sql.transaction(async (tx) => {
+      for (const p of parts) {
+        await tx.query(
+          `INSERT INTO parts (path, content_hash, file_bytes, label, state, failure, failure_code, format, units,
+             triangles, closed, bodies, extents, diagonal, info, sample_points, sample_seed, points, normals, centre,
+             radius, mesh_positions, mesh_indices, changed_at)
+           VALUES ($1, $2, $3, $4, 'ready', NULL, NULL, $5, $6, $7, $8, $9, $10::double precision[], $11, $12::jsonb,
+             $13, 0, $14, $15, $16::double precision[], $17, $18, $19, now())
+           ON CONFLICT (path) DO UPDATE SET content_hash = EXCLUDED.content_hash, file_bytes = EXCLUDED.file_bytes,
+             label = EXCLUDED.label, state = 'ready', failure = NULL, failure_code = NULL, format = EXCLUDED.format,
+             units = EXCLUDED.units, triangles = EXCLUDED.triangles, closed = EXCLUDED.closed,
+             bodies = EXCLUDED.bodies, extents = EXCLUDED.extents, diagonal = EXCLUDED.diagonal, info = EXCLUDED.info,
+             sample_points = EXCLUDED.sample_points, sample_seed = EXCLUDED.sample_seed, points = EXCLUDED.points,
+             normals = EXCLUDED.normals, centre = EXCLUDED.centre, radius = EXCLUDED.radius,
+             mesh_positions = EXCLUDED.mesh_positions, mesh_indices = EXCLUDED.mesh_indices, changed_at = now()`,
+          [
+            p.name,
+            p.contentHash ?? '',
+            p.info.fileBytes,
+            p.label,
+            p.info.format,
+            p.info.units,
+            p.info.triangleCount,
+            p.info.closed,
+            p.info.bodies,
+            [...p.info.extents],
+            p.diagonal,
+            JSON.stringify(p.info),
+            p.points.length / 3,
+            floatBytes(p.points),
+            floatBytes(p.normals),
+            [...p.centre],
+            p.radius,
+            floatBytes(p.meshPositions),
+            u32Bytes(p.meshIndices),
+          ],
+        );
+        // A part read again drops the embeddings of its earlier version.
+        await tx.query('DELETE FROM embeddings WHERE part_id = (SELECT id FROM parts WHERE path = $1)', [p.name]);
+      }
+    });
+  }
+
+  /**
+   * Says what the library now is: the parts named (stored before with putParts) and the files that failed. Rows of
+   * anything else go, with their embeddings.
+   */
+  async setContents(
+    names: readonly string[],
+    failures: readonly ImportFailure[],
+    source: 'demo' | 'user',
+  ): Promise<void> {
+    await this.sql.transaction(async (tx) => {
+      const keep = [...names, ...failures.map((f) => f.file)];
+      await tx.query('DELETE FROM parts WHERE NOT (path = ANY($1::text[]))', [keep]);
+      for (const f of failures)
+        await tx.query(
+          `INSERT INTO parts (path, content_hash, file_bytes, label, state, failure, failure_code)
+           VALUES ($1, '', 0, '', 'failed', $2, $3)
+           ON CONFLICT (path) DO UPDATE SET state = 'failed', failure = EXCLUDED.failure,
+             failure_code = EXCLUDED.failure_code, points = NULL, normals = NULL, mesh_positions = NULL,
+             mesh_indices = NULL, changed_at = now()`,
+          [f.file, f.reason, f.code],
+        );
+      await tx.query(
+        `INSERT INTO library_meta (key, value) VALUES ('workbench', $1::jsonb)
+         ON CONFLICT (key) DO UPDATE SET value = EXCLUDED.value`,
+        [JSON.stringify({ source, names })],
+      );
+    });
+  }
+
+  /** The library as the workbench last set it (parts in its order), or null when there is none. */
+  async contents(): Promise<WorkbenchLibrary | null> {
+    const meta = await this.sql.query<{ value: { source: 'demo' | 'user'; names: string[] } }>(
+      `SELECT value FROM library_meta WHERE key = 'workbench'`,
+    );
+    const rows = await this.sql.query<{
+      path: string;
+      label: string;
+      state: string;
+      failure: string | null;
+      failure_code: string | null;
+      info: MeshInfo | null;
+      diagonal: number | null;
+      points: Uint8Array | null;
+      normals: Uint8Array | null;
+      centre: number[] | null;
+      radius: number | null;
+      mesh_positions: Uint8Array | null;
+      mesh_indices: Uint8Array | null;
+    }>(
+      `SELECT path, label, state, failure, failure_code, info, diagonal, points, normals, centre, radius,
+         mesh_positions, mesh_indices FROM parts WHERE state <> 'pending' ORDER BY id`,
+    );
+    if (!meta.rows[0] && rows.rows.length === 0) return null;
+    const parts: LibraryPart[] = [];
+    const failures: ImportFailure[] = [];
+    for (const r of rows.rows) {
+      if (r.state === 'failed') {
+        failures.push({
+          file: r.path,
+          code: (r.failure_code ?? 'parse-failed') as ImportErrorCode,
+          reason: r.failure ?? '',
+        });
+        continue;
+      }
+      if (!r.info || !r.points || !r.normals) continue;
+      const c = r.centre ?? [0, 0, 0];
+      parts.push({
+        name: r.path,
+        label: r.label,
+        info: r.info,
+        points: bytesFloats(r.points),
+        normals: bytesFloats(r.normals),
+        centre: [c[0], c[1], c[2]],
+        radius: Number(r.radius ?? 1),
+        diagonal: Number(r.diagonal),
+        meshPositions: r.mesh_positions ? bytesFloats(r.mesh_positions) : new Float32Array(0),
+        meshIndices: r.mesh_indices ? bytesU32(r.mesh_indices) : new Uint32Array(0),
+      });
+    }
+    // The workbench's order (import order) where it said one.
+    const order = meta.rows[0]?.value.names;
+    if (order) {
+      const at = new Map(order.map((n, i) => [n, i]));
+      parts.sort((a, b) => (at.get(a.name) ?? Infinity) - (at.get(b.name) ?? Infinity));
+    }
+    return { parts, failures, source: meta.rows[0]?.value.source ?? 'user' };
+  }
+
+  /**
+   * Makes a model the current one (stored once per fingerprint); trained models that are no longer current go,
+   * with their embeddings (a checkpoint every half minute would otherwise pile up).
+   */
+  async putCurrentModel(fingerprint: string, modelJson: unknown, weights: Uint8Array): Promise<number> {
+    const id = await this.db.putModel(fingerprint, modelJson, weights);
+    await this.db.setCurrentModel(id);
+    await this.sql.query(`DELETE FROM models WHERE id <> $1 AND fingerprint NOT LIKE 'untrained:%'`, [id]);
+    return id;
+  }
+
+  /** Keeps a model's embeddings of the named parts (rows of `dim` values in the names' order). */
+  async putEmbeddings(key: string, names: readonly string[], vectors: Float32Array, dim: number): Promise<boolean> {
+    return this.sql.transaction(async (tx) => {
+      let model = (await tx.query<{ id: number }>('SELECT id FROM models WHERE fingerprint = $1', [key])).rows[0]?.id;
+      if (model === undefined && isUntrainedKey(key)) {
+        // One untrained encoder's embeddings kept at a time.
+        await tx.query(`DELETE FROM models WHERE fingerprint LIKE 'untrained:%'`);
+        model = (
+          await tx.query<{ id: number }>(
+            `INSERT INTO models (fingerprint, model_json, weights) VALUES ($1, $2::jsonb, $3) RETURNING id`,
+            [key, JSON.stringify({ untrained: true }), new Uint8Array(0)],
+          )
+        ).rows[0].id;
+      }
+      if (model === undefined) return false; // the model was replaced meanwhile: these embeddings are stale
+      await tx.query('DELETE FROM embeddings WHERE model_id = $1', [model]);
+      const literals = names.map((_, i) => vectorLiteral(vectors.subarray(i * dim, (i + 1) * dim)));
+      await tx.query(
+        `INSERT INTO embeddings (model_id, part_id, embedding)
+         SELECT $1, p.id, u.e::vector FROM unnest($2::text[], $3::text[]) AS u(path, e) JOIN parts p ON p.path = u.path`,
+        [model, [...names], literals],
+      );
+      return true;
+    });
+  }
+
+  /** A model's embeddings of the named parts in that order, or null unless every one is kept. */
+  async embeddings(key: string, names: readonly string[]): Promise<{ vectors: Float32Array; dim: number } | null> {
+    const r = await this.sql.query<{ path: string; v: number[] }>(
+      `SELECT p.path, e.embedding::real[] AS v FROM embeddings e JOIN parts p ON p.id = e.part_id
+       JOIN models m ON m.id = e.model_id WHERE m.fingerprint = $1`,
+      [key],
+    );
+    if (r.rows.length === 0) return null;
+    const byName = new Map(r.rows.map((x) => [x.path, x.v]));
+    const dim = r.rows[0].v.length;
+    const vectors = new Float32Array(names.length * dim);
+    for (const [i, n] of names.entries()) {
+      const v = byName.get(n);
+      if (!v) return null;
+      vectors.set(v, i * dim);
+    }
+    return { vectors, dim };
+  }
+}

@@ -1,0 +1,104 @@
+// The workbench's library, model and embeddings in the parts database (PGlite in memory, the same SQL the browser
+// runs on IndexedDB): what goes in comes back bit for bit, in the workbench's order.
+
+import { readFileSync, readdirSync } from 'node:fs';
+import { join } from 'node:path';
+import { afterEach, describe, expect, it } from 'vitest';
+import { openEmbedded } from '../../../src/core/db/embedded';
+import { PartsDb } from '../../../src/core/db/parts-db';
+import type { Sql } from '../../../src/core/db/sql';
+import { WorkbenchStore } from '../../../src/core/db/workbench';
+import { loadPart, type LibraryPart } from '../../../src/core/library';
+
+const open: Sql[] = [];
+afterEach(async () => {
+  for (const s of open.splice(0)) await s.close();
+});
+async function fresh(): Promise<WorkbenchStore> {
+  const sql = await openEmbedded();
+  open.push(sql);
+  return new WorkbenchStore(await PartsDb.open(sql));
+}
+
+const DEMO = 'demo-shapes';
+function demoParts(family: string, n: number): LibraryPart[] {
+  return readdirSync(join(DEMO, family))
+    .sort()
+    .slice(0, n)
+    .map((f) => {
+      const b = readFileSync(join(DEMO, family, f));
+      return loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer, `${family}/${f}`, {
+        points: 256,
+        seed: 0,
+      });
+    });
+}
+
+describe('the workbench library in the database', () => {
+  it('parts (clouds, normals, meshes, measurements) and failures come back bit for bit, in the order set', async () => {
+    const store = await fresh();
+    expect(await store.contents()).toBeNull();
+    const parts = [...demoParts('washer', 2), ...demoParts('angle', 2)];
+    await store.putParts(parts.map((p, i) => ({ ...p, contentHash: `h${i}` })));
+    const failures = [{ file: 'broken/empty.stl', code: 'empty' as const, reason: 'the file is empty (0 bytes)' }];
+    const order = [parts[2], parts[0], parts[3], parts[1]].map((p) => p.name);
+    await store.setContents(order, failures, 'user');
+    const back = (await store.contents())!;
+    expect(back.source).toBe('user');
+    expect(back.failures).toEqual(failures);
+    expect(back.parts.map((p) => p.name)).toEqual(order);
+    for (const p of back.parts) {
+      const orig = parts.find((q) => q.name === p.name)!;
+      expect(p).toEqual(orig);
+      expect(p.meshIndices).toBeInstanceOf(Uint32Array);
+    }
+  });
+
+  it('a part dropped from the library goes, with its embeddings; a part read again loses its old embeddings', async () => {
+    const store = await fresh();
+    const parts = demoParts('flange', 3);
+    await store.putParts(parts);
+    await store.setContents(
+      parts.map((p) => p.name),
+      [],
+      'demo',
+    );
+    const names = parts.map((p) => p.name);
+    const vectors = Float32Array.from({ length: 3 * 4 }, (_, i) => i / 7);
+    expect(await store.putEmbeddings('untrained:a', names, vectors, 4)).toBe(true);
+    expect(await store.embeddings('untrained:a', [names[2], names[0]])).toEqual({
+      vectors: Float32Array.from([...vectors.subarray(8, 12), ...vectors.subarray(0, 4)]),
+      dim: 4,
+    });
+    await store.setContents(names.slice(1), [], 'demo');
+    expect((await store.contents())!.parts.map((p) => p.name)).toEqual(names.slice(1));
+    expect(await store.embeddings('untrained:a', names)).toBeNull(); // one is gone
+    await store.putParts([parts[1]]);
+    expect(await store.embeddings('untrained:a', [names[2]])).not.toBeNull();
+    expect(await store.embeddings('untrained:a', [names[1]])).toBeNull();
+  });
+});
+
+describe('the current model and embeddings by model', () => {
+  it('one trained model is kept (the newest), and embeddings for a replaced model are refused as stale', async () => {
+    const store = await fresh();
+    const parts = demoParts('hex-nut', 2);
+    await store.putParts(parts);
+    const names = parts.map((p) => p.name);
+    await store.setContents(names, [], 'user');
+    const a = await store.putCurrentModel('fa', { step: 1 }, new Uint8Array([1, 2]));
+    expect(await store.putEmbeddings('fa', names, new Float32Array(6), 3)).toBe(true);
+    const b = await store.putCurrentModel('fb', { step: 2 }, new Uint8Array([3, 4, 5]));
+    expect(b).not.toBe(a);
+    expect(await store.db.currentModel()).toEqual({
+      id: b,
+      fingerprint: 'fb',
+      modelJson: { step: 2 },
+      weights: new Uint8Array([3, 4, 5]),
+    });
+    expect(await store.embeddings('fa', names)).toBeNull();
+    expect(await store.putEmbeddings('fa', names, new Float32Array(6), 3)).toBe(false);
+    const models = await store.db.sql.query<{ fingerprint: string }>('SELECT fingerprint FROM models');
+    expect(models.rows.map((r) => r.fingerprint)).toEqual(['fb']);
+  });
+});
