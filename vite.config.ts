@@ -16,6 +16,8 @@ export default defineConfig({
   // Pre-bundle what the workers import too, so the first start does not re-optimise and reload the page.
   optimizeDeps: {
     include: ['@tensorflow/tfjs', '@tensorflow/tfjs-backend-wasm', 'three', 'lit', 'kd-tree-javascript'],
+    // PGlite finds its wasm and data files next to its own modules: pre-bundling would move it away from them.
+    exclude: ['@electric-sql/pglite', '@electric-sql/pglite-pgvector'],
   },
   build: {
     outDir: 'dist',

@@ -16,3 +16,9 @@ export function crc32(bytes: Uint8Array): number {
   for (let i = 0; i < bytes.length; i++) c = TABLE[(c ^ bytes[i]) & 0xff] ^ (c >>> 8);
   return (c ^ 0xffffffff) >>> 0;
 }
+
+/** SHA-256 of some bytes, as lowercase hex (Web Crypto: the browser's and Node's own implementation). */
+export async function sha256Hex(bytes: ArrayBuffer | Uint8Array): Promise<string> {
+  const digest = new Uint8Array(await crypto.subtle.digest('SHA-256', bytes as Uint8Array<ArrayBuffer>));
+  return Array.from(digest, (b) => b.toString(16).padStart(2, '0')).join('');
+}

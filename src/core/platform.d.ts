@@ -11,3 +11,11 @@ declare class TextEncoder {
 declare const performance: { now(): number };
 declare const console: { log(...a: unknown[]): void; warn(...a: unknown[]): void; error(...a: unknown[]): void };
 declare function setTimeout(fn: () => void, ms?: number): unknown;
+declare const crypto: {
+  readonly subtle: { digest(algorithm: 'SHA-256', data: ArrayBuffer | ArrayBufferView): Promise<ArrayBuffer> };
+};
+/** A blob of bytes (a database dump); core only passes it through. */
+declare interface Blob {
+  readonly size: number;
+  arrayBuffer(): Promise<ArrayBuffer>;
+}

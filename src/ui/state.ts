@@ -67,8 +67,10 @@ export interface TrainingState {
   readonly history: readonly { step: number; loss: number }[];
   readonly checks: readonly HeldOutCheck[];
   readonly backend: string;
-  /** The saved model (the worker keeps it in IndexedDB), or null before any training. */
+  /** The current model (kept in the parts database), or null before any training. */
   readonly model: CheckpointMessage | null;
+  /** The kept model's fingerprint (its embeddings are kept under it), or null until it is stored. */
+  readonly modelFingerprint: string | null;
   /** One training step timed with the current settings (for the estimate before Start), or null. */
   readonly stepMs: { readonly key: string; readonly ms: number } | null;
   /** Whether the saved model has been looked for yet: until then `model` null means "not known", not "none". */

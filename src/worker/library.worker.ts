@@ -3,6 +3,7 @@
 // the first CAD file, before that file's time limit starts.
 
 import occtWasm from 'occt-import-js/dist/occt-import-js.wasm?url';
+import { sha256Hex } from '../core/checksum';
 import { failureOf, loadPart } from '../core/library';
 import { needsCadReader } from '../core/mesh/import';
 import { loadCadReader } from '../core/mesh/occt';
@@ -26,7 +27,9 @@ self.onmessage = async (event: MessageEvent<LibraryRequest>) => {
   post({ type: 'reading', id: req.id });
   for (const file of req.files) {
     try {
-      const part = loadPart(file.buffer, file.name, req.sampling, req.maxBytes);
+      // The file's SHA-256, so the parts database can tell a changed file from an unchanged one.
+      const contentHash = await sha256Hex(file.buffer);
+      const part = { ...loadPart(file.buffer, file.name, req.sampling, req.maxBytes), contentHash };
       post({ type: 'part', id: req.id, part }, partTransfers(part));
     } catch (err) {
       post({ type: 'failed', id: req.id, failure: failureOf(file.name, err) });

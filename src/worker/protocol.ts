@@ -8,6 +8,7 @@ import type { EvaluationReport } from '../core/quality/evaluate';
 import type { StudyRow } from '../core/quality/study';
 import type { AugmentKind } from '../core/points/augment';
 import type { TrainConfig, TrainProgress, HeldOutCheck, TrainResult } from '../core/model/train-config';
+import type { HashedPart, WorkbenchLibrary } from '../core/db/workbench';
 
 export interface FileInput {
   readonly name: string;
@@ -77,10 +78,10 @@ export type TrainRequest =
       readonly checkpoint: CheckpointMessage | null;
       readonly config: TrainConfig;
     }
-  /** The checkpoint kept in IndexedDB (tfjs's browser handler), if any. */
+  /** The checkpoint earlier versions kept in IndexedDB (tfjs's browser handler), if any. */
   | { readonly type: 'load-saved'; readonly id: number }
-  /** Keep this checkpoint (e.g. a model trained by the command line) as the current one. */
-  | { readonly type: 'save'; readonly id: number; readonly checkpoint: CheckpointMessage }
+  /** Forget that checkpoint (moved into the parts database). */
+  | { readonly type: 'forget-saved'; readonly id: number }
   /** Leave-one-out retrieval quality of the model and the two baselines (needs labels). */
   | {
       readonly type: 'evaluate';
@@ -141,3 +142,49 @@ export type TrainReply =
     }
   | { readonly type: 'study'; readonly id: number; readonly rows: StudyRow[] }
   | { readonly type: 'error'; readonly id: number; readonly message: string };
+
+// ---- database worker ----
+
+/** What the database worker is asked (each answered by one DbReply with the same id). */
+export type DbRequest =
+  | { readonly type: 'load-library'; readonly id: number }
+  | { readonly type: 'put-parts'; readonly id: number; readonly parts: readonly HashedPart[] }
+  | {
+      readonly type: 'set-contents';
+      readonly id: number;
+      readonly names: readonly string[];
+      readonly failures: readonly ImportFailure[];
+      readonly source: 'demo' | 'user';
+    }
+  | { readonly type: 'load-model'; readonly id: number }
+  | { readonly type: 'put-model'; readonly id: number; readonly checkpoint: CheckpointMessage }
+  | {
+      readonly type: 'put-embeddings';
+      readonly id: number;
+      readonly key: string;
+      readonly names: readonly string[];
+      readonly vectors: Float32Array;
+      readonly dim: number;
+    }
+  | { readonly type: 'load-embeddings'; readonly id: number; readonly key: string; readonly names: readonly string[] }
+  /** The whole database as one file (PGlite's dump, a gzipped tar of its data folder). */
+  | { readonly type: 'export'; readonly id: number }
+  /** Replace the database with a dump. */
+  | { readonly type: 'import'; readonly id: number; readonly dump: Blob };
+
+/** What each request answers with. */
+export interface DbAnswers {
+  'load-library': WorkbenchLibrary | null;
+  'put-parts': null;
+  'set-contents': null;
+  'load-model': { checkpoint: CheckpointMessage; fingerprint: string } | null;
+  'put-model': string;
+  'put-embeddings': boolean;
+  'load-embeddings': { vectors: Float32Array; dim: number } | null;
+  export: Blob;
+  import: null;
+}
+
+export type DbReply =
+  | { readonly id: number; readonly ok: true; readonly value: unknown }
+  | { readonly id: number; readonly ok: false; readonly message: string };

@@ -1,5 +1,5 @@
 // The training worker owns every tensor: it trains, checkpoints and embeds; the page only receives
-// progress, checkpoints (weights as a transferred buffer) and embeddings.
+// progress, checkpoints (weights as a transferred buffer; the page keeps them in the parts database) and embeddings.
 
 import * as tf from '@tensorflow/tfjs';
 import wasmPlain from '@tensorflow/tfjs-backend-wasm/dist/tfjs-backend-wasm.wasm?url';
@@ -21,19 +21,11 @@ import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
 import { runStudy } from '../core/quality/study';
 import type { CheckpointMessage, TrainReply, TrainRequest } from './protocol';
 
-/** Where the current model lives in the browser: tfjs's own IndexedDB handler. */
+/**
+ * Where earlier versions kept the current model (tfjs's own IndexedDB handler). The parts database keeps it now;
+ * the page moves a model found here into it once, then has it forgotten here.
+ */
 const SAVED = 'indexeddb://shapekin-current-model';
-
-async function keep(c: CheckpointMessage): Promise<void> {
-  const [handler] = tf.io.getSaveHandlers(SAVED);
-  await handler.save!({
-    format: 'shapekin-encoder',
-    modelTopology: { shapekin: c.manifest } as unknown as tf.io.ModelArtifacts['modelTopology'],
-    weightSpecs: c.weightSpecs,
-    weightData: c.weightData.slice(0),
-    userDefinedMetadata: { adamStep: c.adamStep },
-  });
-}
 
 async function loadKept(): Promise<CheckpointMessage | null> {
   const list = await tf.io.listModels().catch(() => ({}) as Record<string, unknown>);
@@ -131,14 +123,13 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
             post({ type: 'progress', id: req.id, progress });
             if (performance.now() - lastSave > 20_000) {
               const c = snapshot(t, req.sampling, 'running', name);
-              void keep(c).then(() => post({ type: 'checkpoint', id: req.id, checkpoint: c }, [c.weightData]));
+              post({ type: 'checkpoint', id: req.id, checkpoint: c }, [c.weightData]);
               lastSave = performance.now();
             }
           },
           onCheck: (check) => post({ type: 'check', id: req.id, check }),
         });
         const c = snapshot(t, req.sampling, result.status, name);
-        await keep(c);
         post({ type: 'checkpoint', id: req.id, checkpoint: c }, [c.weightData]);
         post({ type: 'done', id: req.id, result });
         t.dispose();
@@ -211,10 +202,9 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         post({ type: 'saved', id: req.id, checkpoint: c }, c ? [c.weightData] : []);
         return;
       }
-      case 'save': {
-        fromMessage(req.checkpoint); // validates before it replaces anything
-        await keep(req.checkpoint);
-        post({ type: 'saved', id: req.id, checkpoint: req.checkpoint });
+      case 'forget-saved': {
+        await tf.io.removeModel(SAVED).catch(() => {});
+        post({ type: 'saved', id: req.id, checkpoint: null });
         return;
       }
       case 'probe': {

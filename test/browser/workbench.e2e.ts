@@ -1,7 +1,7 @@
 // End-to-end: the built workbench in headless Chromium (Debian's), driven by playwright-core.
 // Screenshots of each panel go to test-artifacts/ (ignored by git).
 
-import { mkdirSync, mkdtempSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -238,8 +238,32 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     expect(await page.locator('sk-app .notice').textContent()).toMatch(/Restored the saved model \(9 training steps\)/);
     await page.getByRole('tab', { name: 'Training' }).click();
     expect(await page.getByTestId('train-stats').textContent()).toMatch(/no training running/);
+    // Look-alikes answer from the kept embeddings and model.
+    await page.getByRole('tab', { name: 'Look-alikes' }).click();
+    await expect
+      .poll(async () => page.getByTestId('search-results').locator('li button').count(), { timeout: 60_000 })
+      .toBe(10);
     await page.getByRole('tab', { name: 'Parts library' }).click();
   }, 120_000);
+
+  it('the library saved as a file opens again whole, with its model (the parts database dumped and restored)', async () => {
+    const summary = async () => (await page.getByTestId('library-summary').textContent()) ?? '';
+    const [file] = await Promise.all([
+      page.waitForEvent('download', { timeout: 60_000 }),
+      page.getByRole('button', { name: 'Save the library as a file' }).click(),
+    ]);
+    const path = join(mkdtempSync(join(tmpdir(), 'shapekin-dump-')), file.suggestedFilename());
+    await file.saveAs(path);
+    expect(path).toMatch(/shapekin-library-.*\.tar\.gz$/);
+    expect(statSync(path).size).toBeGreaterThan(1_000_000);
+    await page.getByRole('button', { name: 'Empty the library' }).click();
+    await expect.poll(summary, { timeout: 10_000 }).toMatch(/^\s*0 parts/);
+    await page.locator('sk-library-panel input[type=file][accept=".gz,.tgz,.tar"]').setInputFiles(path);
+    await expect.poll(summary, { timeout: 90_000 }).toMatch(/112 parts in 14 folders/);
+    await expect
+      .poll(async () => page.getByTestId('model-status').textContent(), { timeout: 60_000 })
+      .toMatch(/model: trained \(9 steps\)/);
+  }, 180_000);
 
   it('broken files dropped into the page get a reason each, a reader that runs too long is stopped, and the page stays responsive', async () => {
     await page.evaluate(() => {
@@ -325,16 +349,22 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.locator('sk-train-panel #epochs').dispatchEvent('change');
     await page.getByRole('button', { name: 'Start training' }).click();
     const header = page.getByTestId('model-status');
-    // The worker keeps the model after the first step and says so (a checkpoint message after the save); then reload.
+    // The worker sends a checkpoint after the first step; once the parts database has kept it (its fingerprint is
+    // known), reload.
     await expect
       .poll(
         async () =>
           page.evaluate(() => {
             const app = document.querySelector('sk-app') as unknown as {
-              state: { training: { model: { manifest: { status: string; step: number } } | null } };
+              state: {
+                training: {
+                  model: { manifest: { status: string; step: number } } | null;
+                  modelFingerprint: string | null;
+                };
+              };
             };
             const m = app.state.training.model?.manifest;
-            return m && m.status === 'running' ? m.step : 0;
+            return m && m.status === 'running' && app.state.training.modelFingerprint ? m.step : 0;
           }),
         { timeout: 60_000 },
       )

@@ -12,9 +12,15 @@ const run = async <T>(q: Queryable, text: string, params?: readonly unknown[]): 
   return { rows: r.rows, affected: r.affectedRows ?? 0 };
 };
 
-/** An embedded database with pgvector loaded. `dataDir`: a folder (Node), "idb://name" (browser), or memory. */
-export async function openEmbedded(dataDir?: string): Promise<Sql & { readonly pglite: PGlite }> {
-  const db = await PGlite.create(dataDir, { extensions: { vector } });
+/**
+ * An embedded database with pgvector loaded. `dataDir`: a folder (Node), "idb://name" (browser), or memory;
+ * `loadDataDir`: a dump (PGlite's dumpDataDir, a Blob or File) to start from.
+ */
+export async function openEmbedded(
+  dataDir?: string,
+  options: { loadDataDir?: Blob } = {},
+): Promise<Sql & { readonly pglite: PGlite }> {
+  const db = await PGlite.create(dataDir, { extensions: { vector }, ...options });
   const wrapTx = (tx: Transaction): Sql => ({
     query: (text, params) => run(tx, text, params),
     exec: async (text) => void (await tx.exec(text)),

@@ -44,6 +44,7 @@ export function initialState(): AppState {
       checks: [],
       backend: '',
       model: null,
+      modelFingerprint: null,
       modelKnown: false,
       stepMs: null,
     },
@@ -173,6 +174,8 @@ export class SkApp extends LitElement {
           @drop-items=${async (e: CustomEvent<DataTransfer>) => void this.library.add(await namedFromDrop(e.detail))}
           @reload-demo=${() => void this.library.loadDemo()}
           @clear-library=${() => this.library.clear()}
+          @export-database=${() => void this.library.exportDatabase()}
+          @import-database=${(e: CustomEvent<File>) => void this.library.importDatabase(e.detail)}
           @cancel-import=${() => this.library.cancel()}></sk-library-panel>`;
       case 'augment':
         return html`<sk-augment-panel .subject=${part} .pipeline=${training.pipeline} .pose=${training.config.pose}

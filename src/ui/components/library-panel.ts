@@ -93,6 +93,14 @@ export class SkLibraryPanel extends LitElement {
         <label class="button">Add a folder…<input type="file" webkitdirectory @change=${this.onFiles} /></label>
         <button @click=${() => this.emit('reload-demo')}>Reload the demo library</button>
         <button @click=${() => this.emit('clear-library')}>Empty the library</button>
+        <button title="The whole library with its model and embeddings, as one file a colleague can open" @click=${() => this.emit('export-database')}>Save the library as a file</button>
+        <label class="button" title="Replaces this library with one saved as a file (here or on another machine)">Open a library file…<input type="file" accept=".gz,.tgz,.tar" @change=${(
+          e: Event,
+        ) => {
+          const input = e.target as HTMLInputElement;
+          if (input.files?.[0]) this.emit('import-database', input.files[0]);
+          input.value = '';
+        }} /></label>
         <div class="drop" @dragover=${(e: DragEvent) => {
           e.preventDefault();
           (e.currentTarget as HTMLElement).classList.add('over');

@@ -1,137 +1,157 @@
-// Keeps the library (parts with their clouds and meshes, and the failures) in IndexedDB, so a reload
-// restores it. The model is kept by the training worker through tfjs's own IndexedDB handler.
+// Keeps the library, the current model and the embeddings in the parts database, which the database worker owns
+// (PGlite with pgvector in IndexedDB), so a reload restores them and the page never waits on storage. Thumbnails,
+// a cache that can always be drawn again, stay in a plain IndexedDB record.
 
+import type { HashedPart, WorkbenchLibrary } from '../../core/db/workbench';
 import type { LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
+import type { CheckpointMessage, DbAnswers, DbReply, DbRequest } from '../../worker/protocol';
 
-const DB = 'shapekin-workbench';
-const STORE = 'library';
+type Waiter = { resolve: (v: unknown) => void; reject: (e: Error) => void };
 
-function open(): Promise<IDBDatabase> {
+/** Distributes a request type over the union so `ask` can take one without its id. */
+type WithoutId<T> = T extends unknown ? Omit<T, 'id'> : never;
+
+class DatabaseClient {
+  private worker: Worker | null = null;
+  private nextId = 1;
+  private readonly waiting = new Map<number, Waiter>();
+
+  private get w(): Worker {
+    if (!this.worker) {
+      this.worker = new Worker(new URL('../../worker/db.worker.ts', import.meta.url), { type: 'module' });
+      this.worker.onmessage = (e: MessageEvent<DbReply>) => {
+        const waiter = this.waiting.get(e.data.id);
+        if (!waiter) return;
+        this.waiting.delete(e.data.id);
+        if (e.data.ok) waiter.resolve(e.data.value);
+        else waiter.reject(new Error(e.data.message));
+      };
+      this.worker.onerror = (e) => {
+        for (const w of this.waiting.values()) w.reject(new Error(`the database worker failed: ${e.message}`));
+        this.waiting.clear();
+      };
+    }
+    return this.worker;
+  }
+
+  ask<R extends WithoutId<DbRequest>>(req: R, transfer: Transferable[] = []): Promise<DbAnswers[R['type']]> {
+    const id = this.nextId++;
+    return new Promise((resolve, reject) => {
+      this.waiting.set(id, { resolve: resolve as (v: unknown) => void, reject });
+      this.w.postMessage({ ...req, id }, transfer);
+    });
+  }
+}
+
+const db = new DatabaseClient();
+
+export type StoredLibrary = WorkbenchLibrary;
+
+/** Parts written per message: each is cloned on the page's thread, so a few at a time keep every task short. */
+const PARTS_PER_WRITE = 10;
+
+/** Parts the database already holds as they are (restored from it, or written by a save). */
+const stored = new WeakSet<LibraryPart>();
+let saving = 0;
+
+/**
+ * Keeps the library: parts the database lacks, a few per message, then what the library now is (its parts in
+ * order and the files that failed; anything else goes). A newer save stops an older one between writes.
+ */
+export async function saveLibrary(lib: {
+  parts: readonly HashedPart[];
+  failures: readonly ImportFailure[];
+  source: 'demo' | 'user';
+}): Promise<void> {
+  const generation = ++saving;
+  const fresh = lib.parts.filter((p) => !stored.has(p));
+  for (let i = 0; i < fresh.length; i += PARTS_PER_WRITE) {
+    if (generation !== saving) return;
+    const batch = fresh.slice(i, i + PARTS_PER_WRITE);
+    await db.ask({ type: 'put-parts', parts: batch });
+    batch.forEach((p) => stored.add(p));
+  }
+  if (generation !== saving) return;
+  await db.ask({
+    type: 'set-contents',
+    names: lib.parts.map((p) => p.name),
+    failures: lib.failures,
+    source: lib.source,
+  });
+}
+
+/** The kept library, or null (none kept, or the database cannot be read). */
+export async function loadLibrary(): Promise<StoredLibrary | null> {
+  try {
+    const lib = await db.ask({ type: 'load-library' });
+    lib?.parts.forEach((p) => stored.add(p));
+    return lib;
+  } catch {
+    return null;
+  }
+}
+
+/** Makes a checkpoint the current model; resolves to its fingerprint. */
+export const saveModel = (c: CheckpointMessage): Promise<string> =>
+  db.ask({ type: 'put-model', checkpoint: { ...c, weightData: c.weightData.slice(0) } });
+
+/** The current model and its fingerprint, or null. */
+export const loadModel = (): Promise<{ checkpoint: CheckpointMessage; fingerprint: string } | null> =>
+  db.ask({ type: 'load-model' });
+
+/** Keeps a model's embeddings of the named parts; false when that model is no longer kept (stale). */
+export const saveEmbeddings = (key: string, names: readonly string[], vectors: Float32Array, dim: number) =>
+  db.ask({ type: 'put-embeddings', key, names, vectors: vectors.slice(), dim });
+
+/** A model's embeddings of the named parts, in that order, or null unless all are kept. */
+export const loadEmbeddings = (key: string, names: readonly string[]) =>
+  db.ask({ type: 'load-embeddings', key, names });
+
+/** The whole database as one file, for a colleague. */
+export const exportDatabase = (): Promise<Blob> => db.ask({ type: 'export' });
+
+/** Replaces the database with one exported before (checked first: a file that does not open changes nothing). */
+export const importDatabase = (dump: Blob): Promise<null> => db.ask({ type: 'import', dump });
+
+// ---- thumbnails: a plain IndexedDB record ----
+
+const THUMBS_DB = 'shapekin-workbench';
+const THUMBS_STORE = 'library';
+
+function openThumbs(): Promise<IDBDatabase> {
   return new Promise((resolve, reject) => {
-    const req = indexedDB.open(DB, 1);
-    req.onupgradeneeded = () => req.result.createObjectStore(STORE);
+    const req = indexedDB.open(THUMBS_DB, 1);
+    req.onupgradeneeded = () => req.result.createObjectStore(THUMBS_STORE);
     req.onsuccess = () => resolve(req.result);
     req.onerror = () => reject(req.error);
   });
 }
 
-async function tx<T>(mode: IDBTransactionMode, fn: (s: IDBObjectStore) => IDBRequest<T>): Promise<T> {
-  const db = await open();
+async function thumbsTx<T>(mode: IDBTransactionMode, fn: (s: IDBObjectStore) => IDBRequest<T>): Promise<T> {
+  const idb = await openThumbs();
   return new Promise((resolve, reject) => {
-    const t = db.transaction(STORE, mode);
-    const req = fn(t.objectStore(STORE));
+    const t = idb.transaction(THUMBS_STORE, mode);
+    const req = fn(t.objectStore(THUMBS_STORE));
     t.oncomplete = () => {
-      db.close();
+      idb.close();
       resolve(req.result);
     };
     t.onerror = () => {
-      db.close();
+      idb.close();
       reject(t.error);
     };
   });
 }
-
-/** Several requests in one transaction; resolves when it commits. */
-async function many(mode: IDBTransactionMode, fn: (s: IDBObjectStore) => void): Promise<void> {
-  const db = await open();
-  return new Promise((resolve, reject) => {
-    const t = db.transaction(STORE, mode);
-    fn(t.objectStore(STORE));
-    t.oncomplete = () => {
-      db.close();
-      resolve();
-    };
-    t.onerror = () => {
-      db.close();
-      reject(t.error);
-    };
-  });
-}
-
-export interface StoredLibrary {
-  readonly parts: LibraryPart[];
-  readonly failures: ImportFailure[];
-  readonly source: 'demo' | 'user';
-}
-
-async function put(key: string, value: unknown): Promise<void> {
-  await tx('readwrite', (s) => s.put(value, key));
-}
-
-/** The stored value, or null when absent or when IndexedDB cannot be read. */
-async function get<T>(key: string): Promise<T | null> {
-  try {
-    return ((await tx('readonly', (s) => s.get(key))) as T | undefined) ?? null;
-  } catch {
-    return null;
-  }
-}
-
-/** Parts written per transaction: each write clones its parts on the page's thread, so a few at a time keep every
- * task short (one write of 990 KiCad parts with their meshes held the page for 2.3 s). */
-const PARTS_PER_WRITE = 10;
-
-/** What the 'current' record holds since parts are kept one record each ('part:' + name). */
-interface LibraryIndex {
-  readonly names: string[];
-  readonly failures: ImportFailure[];
-  readonly source: 'demo' | 'user';
-}
-
-let saving = 0;
-
-/**
- * Keeps the library: the parts first, a few per transaction, then the list of names, then the records of parts no
- * longer in it — so a tab closed half-way still finds a whole library (the previous one, or this one). A newer
- * save stops an older one between writes.
- */
-export async function saveLibrary(lib: StoredLibrary): Promise<void> {
-  const generation = ++saving;
-  const before = await get<LibraryIndex & { parts?: unknown }>('current');
-  for (let i = 0; i < lib.parts.length; i += PARTS_PER_WRITE) {
-    if (generation !== saving) return;
-    const batch = lib.parts.slice(i, i + PARTS_PER_WRITE);
-    await many('readwrite', (s) => batch.forEach((p) => s.put(p, `part:${p.name}`)));
-  }
-  if (generation !== saving) return;
-  const names = lib.parts.map((p) => p.name);
-  await put('current', { names, failures: lib.failures, source: lib.source } satisfies LibraryIndex);
-  const keep = new Set(names);
-  const stale = (before?.names ?? []).filter((n) => !keep.has(n));
-  if (stale.length) await many('readwrite', (s) => stale.forEach((n) => s.delete(`part:${n}`)));
-}
-
-/** The kept library (also in the one-record form written before parts were kept one by one), or null. */
-export async function loadLibrary(): Promise<StoredLibrary | null> {
-  const current = await get<LibraryIndex & { parts?: LibraryPart[] }>('current');
-  if (!current) return null;
-  if (current.parts) return current as StoredLibrary;
-  const parts: LibraryPart[] = [];
-  try {
-    await many('readonly', (s) =>
-      current.names.forEach((n, i) => {
-        const req = s.get(`part:${n}`);
-        req.onsuccess = () => (parts[i] = req.result as LibraryPart);
-      }),
-    );
-  } catch {
-    return null;
-  }
-  return { parts: parts.filter(Boolean), failures: current.failures, source: current.source };
-}
-
-export interface StoredEmbeddings {
-  /** Which model made them: "untrained", or step/total of the saved run. */
-  readonly model: string;
-  readonly names: string[];
-  readonly vectors: Float32Array;
-  readonly dim: number;
-}
-
-export const saveEmbeddings = (e: StoredEmbeddings): Promise<void> => put('embeddings', e);
-export const loadEmbeddings = (): Promise<StoredEmbeddings | null> => get<StoredEmbeddings>('embeddings');
 
 /** Thumbnails (PNG data URLs by part name), kept so a reload shows them without drawing them again. */
-export const saveThumbnails = (t: ReadonlyMap<string, string>): Promise<void> => put('thumbnails', new Map(t));
-export const loadThumbnails = (): Promise<Map<string, string> | null> => get<Map<string, string>>('thumbnails');
+export const saveThumbnails = async (t: ReadonlyMap<string, string>): Promise<void> =>
+  void (await thumbsTx('readwrite', (s) => s.put(new Map(t), 'thumbnails')));
+
+export async function loadThumbnails(): Promise<Map<string, string> | null> {
+  try {
+    return ((await thumbsTx('readonly', (s) => s.get('thumbnails'))) as Map<string, string> | undefined) ?? null;
+  } catch {
+    return null;
+  }
+}

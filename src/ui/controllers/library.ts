@@ -8,9 +8,17 @@ import { POOL_POINTS } from '../../core/model/defaults';
 import type { FileInput } from '../../worker/protocol';
 import { fetchDemoLibrary } from '../demo-library';
 import { readFiles, type NamedFile } from '../files';
-import { IDLE, type AppState, type Store } from '../state';
+import { IDLE, say, type AppState, type Store } from '../state';
 import { LibraryClient, type TimeLimits } from './library-client';
-import { loadLibrary as loadStoredLibrary, loadThumbnails, saveLibrary, saveThumbnails } from './library-db';
+import {
+  exportDatabase,
+  importDatabase,
+  loadLibrary as loadStoredLibrary,
+  loadThumbnails,
+  saveLibrary,
+  saveThumbnails,
+} from './library-db';
+import { download } from './download';
 import { ThumbnailClient } from './thumbnails';
 
 /** How library parts are sampled: the pool views draw from, and the seed. */
@@ -93,6 +101,36 @@ export class LibraryController {
     void saveLibrary({ parts: [], failures: [], source: 'user' });
     void saveThumbnails(new Map());
     this.events.onChanged();
+  }
+
+  /** The whole library database (parts, model, embeddings) as one file to hand to a colleague. */
+  async exportDatabase(): Promise<void> {
+    say(this.store, 'Preparing the library file…');
+    try {
+      const dump = await exportDatabase();
+      download(dump, `shapekin-library-${new Date().toISOString().slice(0, 10)}.tar.gz`);
+      say(
+        this.store,
+        `Saved the library as a file (${(dump.size / 2 ** 20).toFixed(1)} MB): open it with "Open a library file…".`,
+      );
+    } catch (err) {
+      say(this.store, `The library could not be saved as a file: ${(err as Error).message}`);
+    }
+  }
+
+  /** Replaces the library (and its model) with one saved as a file, then starts again from it. */
+  async importDatabase(file: File): Promise<void> {
+    say(this.store, `Opening ${file.name}…`);
+    try {
+      await importDatabase(file);
+      await saveThumbnails(new Map());
+      location.reload();
+    } catch (err) {
+      say(
+        this.store,
+        `${file.name} could not be opened as a library file (nothing was changed): ${(err as Error).message}`,
+      );
+    }
   }
 
   select(name: string): LibraryPart | null {

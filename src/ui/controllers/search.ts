@@ -27,12 +27,14 @@ export class SearchController {
     this.store.patch('search', p);
   }
 
-  private modelKey(): string {
-    const { model, config } = this.training.state;
-    const m = model?.manifest;
-    return m
-      ? `run ${m.step}/${m.totalSteps} ${m.status} loss ${m.history[m.history.length - 1]?.loss ?? ''}`
-      : `untrained ${JSON.stringify(config.encoder)} ${config.seed}`;
+  /**
+   * The model embeddings are kept under: the stored model's fingerprint, or the untrained encoder's settings and
+   * seed (which make it); null while a trained model is not stored yet (its embeddings are then not kept).
+   */
+  private modelKey(): string | null {
+    const { model, config, modelFingerprint } = this.training.state;
+    if (model) return modelFingerprint;
+    return `untrained:${JSON.stringify(config.encoder)}:${config.seed}`;
   }
 
   /** Re-embed the library (or reuse the stored embeddings), then repeat the current search. */
@@ -46,14 +48,10 @@ export class SearchController {
     this.patch({ status: STARTED });
     try {
       const key = this.modelKey();
-      const stored = await loadEmbeddings();
+      const names = parts.map((p) => p.name);
+      const stored = key ? await loadEmbeddings(key, names).catch(() => null) : null;
       let vectors: Float32Array, dim: number;
-      if (
-        stored &&
-        stored.model === key &&
-        stored.names.length === parts.length &&
-        stored.names.every((n, i) => n === parts[i].name)
-      ) {
+      if (stored) {
         ({ vectors, dim } = stored);
       } else {
         const { model, config } = this.training.state;
@@ -62,8 +60,7 @@ export class SearchController {
           model,
           config,
         ));
-        if (version === this.version)
-          await saveEmbeddings({ model: key, names: parts.map((p) => p.name), vectors, dim });
+        if (version === this.version && key) await saveEmbeddings(key, names, vectors, dim).catch(() => false);
       }
       if (version !== this.version) return;
       const index = new EmbeddingIndex(

@@ -142,15 +142,14 @@ export class TrainClient {
     return { a: r.a, b: r.b, pooledCosine: r.pooledCosine, points: r.points };
   }
 
+  /** The checkpoint earlier versions kept in the training worker's IndexedDB, if any. */
   async loadSaved(): Promise<CheckpointMessage | null> {
     return (await this.request({ type: 'load-saved', id: this.nextId++ }, 'saved')).checkpoint;
   }
 
-  async save(checkpoint: CheckpointMessage): Promise<void> {
-    await this.request(
-      { type: 'save', id: this.nextId++, checkpoint: { ...checkpoint, weightData: checkpoint.weightData.slice(0) } },
-      'saved',
-    );
+  /** Forgets the checkpoint earlier versions kept (once it is in the parts database). */
+  async forgetSaved(): Promise<void> {
+    await this.request({ type: 'forget-saved', id: this.nextId++ }, 'saved');
   }
 
   async evaluate(

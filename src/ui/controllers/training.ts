@@ -15,6 +15,7 @@ import type { LibraryPart } from '../../core/library';
 import type { CheckpointMessage } from '../../worker/protocol';
 import { say, STARTED, type AppState, type Store, type TrainingState } from '../state';
 import { download } from './download';
+import { loadModel, saveModel } from './library-db';
 import { SAMPLING } from './library';
 import { TrainClient } from './train-client';
 
@@ -48,8 +49,10 @@ export class TrainingController {
       } else if (msg.type === 'check') this.patch({ checks: [...t.checks, msg.check] });
       else if (msg.type === 'status')
         this.patch({ status: msg.status === 'paused' ? { kind: 'paused' } : { kind: 'running', progress: null } });
-      else if (msg.type === 'checkpoint') this.patch({ model: msg.checkpoint });
-      else if (msg.type === 'done') {
+      else if (msg.type === 'checkpoint') {
+        this.patch({ model: msg.checkpoint, modelFingerprint: null });
+        this.keeping = this.keep(msg.checkpoint);
+      } else if (msg.type === 'done') {
         const r = msg.result;
         this.patch({
           status:
@@ -59,7 +62,8 @@ export class TrainingController {
                 ? { kind: 'cancelled' }
                 : { kind: 'done', early: r.status === 'stopped-early' },
         });
-        this.events.onModelChanged();
+        // Once the last checkpoint is kept, so the new embeddings are kept under its fingerprint.
+        void this.keeping.then(() => this.events.onModelChanged());
       } else if (msg.type === 'error') this.patch({ status: { kind: 'failed', message: msg.message } });
     });
   }
@@ -91,14 +95,37 @@ export class TrainingController {
     });
   }
 
-  /** The model the worker kept (IndexedDB), if any; a notice says what was restored. */
+  /** The last checkpoint's save to the parts database. */
+  private keeping: Promise<string | null> = Promise.resolve(null);
+
+  /** Keeps a checkpoint as the current model in the parts database; its fingerprint then keys its embeddings. */
+  private async keep(ckpt: CheckpointMessage): Promise<string | null> {
+    try {
+      const fingerprint = await saveModel(ckpt);
+      if (this.state.model === ckpt) this.patch({ modelFingerprint: fingerprint });
+      return fingerprint;
+    } catch (err) {
+      say(this.store, `The model could not be kept for the next visit: ${(err as Error).message}`);
+      return null;
+    }
+  }
+
+  /** The model kept in the parts database (or, once, where earlier versions kept it), if any; a notice says so. */
   async restore(): Promise<void> {
     try {
-      const saved = await this.client.loadSaved();
+      const kept = await loadModel();
+      let saved = kept?.checkpoint ?? null;
+      if (!saved) {
+        saved = await this.client.loadSaved().catch(() => null);
+        if (saved && (await this.keep({ ...saved, weightData: saved.weightData.slice(0) })))
+          await this.client.forgetSaved();
+      }
       this.patch({ modelKnown: true });
       if (!saved) return;
       const m = saved.manifest;
       this.adopt(saved);
+      if (kept) this.patch({ modelFingerprint: kept.fingerprint });
+      else void this.keep(saved);
       const unfinished = m.step < m.totalSteps && m.status !== 'done' && m.status !== 'stopped-early';
       this.store.set({
         notice: unfinished
@@ -226,8 +253,8 @@ export class TrainingController {
       const weightData = await binFile.arrayBuffer();
       const { manifest, weightSpecs, adamStep } = readModelJson(json, weightData, jsonFile.name);
       const ckpt: CheckpointMessage = { manifest, weightSpecs, weightData, adamStep };
-      await this.client.save(ckpt);
       this.adopt(ckpt);
+      if (!(await this.keep(ckpt))) return;
       say(this.store, `Imported a model trained elsewhere (${manifest.step} steps, backend ${manifest.backend}).`);
       this.events.onModelChanged();
     } catch (err) {

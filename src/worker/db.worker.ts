@@ -1,0 +1,183 @@
+// The workbench's parts database: PostgreSQL with pgvector (PGlite) kept in IndexedDB, owned by this worker so
+// the page never waits on it. It holds the library (parts with their meshes), the current model and the
+// embeddings, answers one request at a time, and on first start moves over what an earlier version kept in plain
+// IndexedDB records (the library; embeddings are recomputed).
+
+import { sha256Hex } from '../core/checksum';
+import { openEmbedded } from '../core/db/embedded';
+import { PartsDb } from '../core/db/parts-db';
+import { WorkbenchStore, type HashedPart } from '../core/db/workbench';
+import type { LibraryPart } from '../core/library';
+import type { ImportFailure } from '../core/mesh/import';
+import { modelJsonFor, readModelJson, type ModelJson } from '../core/model/model-json';
+import type { DbAnswers, DbReply, DbRequest } from './protocol';
+
+const NAME = 'shapekin-parts';
+const DATA = `idb://${NAME}`;
+
+let current: Promise<WorkbenchStore> | null = null;
+
+async function open(dump?: Blob): Promise<WorkbenchStore> {
+  const sql = await openEmbedded(DATA, dump ? { loadDataDir: dump } : {});
+  const store = new WorkbenchStore(await PartsDb.open(sql));
+  if (!dump) await moveEarlierLibrary(store);
+  return store;
+}
+
+const store = (): Promise<WorkbenchStore> => (current ??= open());
+
+/** SHA-256 of a model's model.json text and weights, hex: the same fingerprint the command line gives a run folder. */
+function fingerprint(jsonText: string, weights: ArrayBuffer): Promise<string> {
+  const text = new TextEncoder().encode(jsonText);
+  const all = new Uint8Array(text.byteLength + weights.byteLength);
+  all.set(text);
+  all.set(new Uint8Array(weights), text.byteLength);
+  return sha256Hex(all);
+}
+
+// ---- the one-time move from the plain IndexedDB records of earlier versions ----
+
+const EARLIER_DB = 'shapekin-workbench';
+const EARLIER_STORE = 'library';
+
+function request<T>(r: IDBRequest<T>): Promise<T> {
+  return new Promise((resolve, reject) => {
+    r.onsuccess = () => resolve(r.result);
+    r.onerror = () => reject(r.error);
+  });
+}
+
+async function moveEarlierLibrary(target: WorkbenchStore): Promise<void> {
+  const known = await indexedDB.databases?.().catch(() => []);
+  if (!known?.some((d) => d.name === EARLIER_DB)) return;
+  if (await target.contents()) return; // already has a library: the earlier records are not needed
+  const db = await request(indexedDB.open(EARLIER_DB, 1));
+  try {
+    if (!db.objectStoreNames.contains(EARLIER_STORE)) return;
+    const read = <T>(key: string) =>
+      request(db.transaction(EARLIER_STORE, 'readonly').objectStore(EARLIER_STORE).get(key)) as Promise<T | undefined>;
+    const index = await read<{
+      names?: string[];
+      parts?: LibraryPart[];
+      failures: ImportFailure[];
+      source: 'demo' | 'user';
+    }>('current');
+    if (!index) return;
+    const names = index.parts ? index.parts.map((p) => p.name) : (index.names ?? []);
+    for (let i = 0; i < names.length; i += 20) {
+      const batch = index.parts
+        ? index.parts.slice(i, i + 20)
+        : (await Promise.all(names.slice(i, i + 20).map((n) => read<LibraryPart>(`part:${n}`)))).filter(
+            (p): p is LibraryPart => Boolean(p),
+          );
+      await target.putParts(batch);
+    }
+    await target.setContents(names, index.failures ?? [], index.source ?? 'user');
+    // Moved: the earlier records go (thumbnails stay: the page keeps them there).
+    const t = db.transaction(EARLIER_STORE, 'readwrite');
+    const s = t.objectStore(EARLIER_STORE);
+    for (const key of (await request(s.getAllKeys())) as string[])
+      if (key === 'current' || key === 'embeddings' || key.startsWith('part:')) s.delete(key);
+    await new Promise<void>((resolve, reject) => {
+      t.oncomplete = () => resolve();
+      t.onerror = () => reject(t.error);
+    });
+  } finally {
+    db.close();
+  }
+}
+
+// ---- requests ----
+
+function transfersOfLibrary(parts: readonly LibraryPart[]): ArrayBuffer[] {
+  return parts.flatMap(
+    (p) => [p.points.buffer, p.normals.buffer, p.meshPositions.buffer, p.meshIndices.buffer] as ArrayBuffer[],
+  );
+}
+
+async function answer(req: DbRequest): Promise<[DbAnswers[DbRequest['type']], ArrayBuffer[]]> {
+  switch (req.type) {
+    case 'load-library': {
+      const lib = await (await store()).contents();
+      return [lib, lib ? transfersOfLibrary(lib.parts) : []];
+    }
+    case 'put-parts':
+      await (await store()).putParts(req.parts as HashedPart[]);
+      return [null, []];
+    case 'set-contents':
+      await (await store()).setContents(req.names, req.failures, req.source);
+      return [null, []];
+    case 'load-model': {
+      const m = await (await store()).db.currentModel();
+      if (!m) return [null, []];
+      const weightData = m.weights.buffer.slice(
+        m.weights.byteOffset,
+        m.weights.byteOffset + m.weights.byteLength,
+      ) as ArrayBuffer;
+      const { manifest, weightSpecs, adamStep } = readModelJson(
+        m.modelJson as ModelJson,
+        weightData,
+        'the stored model',
+      );
+      return [
+        { checkpoint: { manifest, weightSpecs, weightData, adamStep }, fingerprint: m.fingerprint },
+        [weightData],
+      ];
+    }
+    case 'put-model': {
+      const c = req.checkpoint;
+      const json = modelJsonFor(c.manifest, c.weightSpecs, c.weightData, c.adamStep);
+      const text = JSON.stringify(json);
+      const fp = await fingerprint(text, c.weightData);
+      await (await store()).putCurrentModel(fp, json, new Uint8Array(c.weightData));
+      return [fp, []];
+    }
+    case 'put-embeddings':
+      return [await (await store()).putEmbeddings(req.key, req.names, req.vectors, req.dim), []];
+    case 'load-embeddings': {
+      const e = await (await store()).embeddings(req.key, req.names);
+      return [e, e ? [e.vectors.buffer as ArrayBuffer] : []];
+    }
+    case 'export': {
+      const s = await store();
+      const dump = await (
+        s.db.sql as unknown as { pglite?: { dumpDataDir(c?: 'gzip'): Promise<Blob> } }
+      ).pglite?.dumpDataDir('gzip');
+      if (!dump) throw new Error('this database cannot be exported');
+      return [dump, []];
+    }
+    case 'import': {
+      // Check the dump opens (in memory) before the kept database is replaced.
+      const trial = await openEmbedded(undefined, { loadDataDir: req.dump });
+      await PartsDb.open(trial);
+      await trial.close();
+      const s = await store();
+      await s.db.close();
+      current = null;
+      for (const d of (await indexedDB.databases()) ?? [])
+        if (d.name && d.name.endsWith(NAME)) await request(indexedDB.deleteDatabase(d.name));
+      current = open(req.dump);
+      await current;
+      return [null, []];
+    }
+  }
+}
+
+// One request at a time, in order: PGlite runs one statement at a time anyway, and a save must not overtake
+// the save before it.
+let queue: Promise<void> = Promise.resolve();
+self.onmessage = (event: MessageEvent<DbRequest>) => {
+  const req = event.data;
+  queue = queue.then(async () => {
+    let reply: DbReply;
+    let transfer: ArrayBuffer[] = [];
+    try {
+      const [value, t] = await answer(req);
+      reply = { id: req.id, ok: true, value };
+      transfer = t;
+    } catch (err) {
+      reply = { id: req.id, ok: false, message: (err as Error)?.message ?? String(err) };
+    }
+    (self as unknown as Worker).postMessage(reply, transfer);
+  });
+};
