@@ -161,9 +161,30 @@ export async function openFolder(dir: string): Promise<Sql> {
   };
 }
 
-/** Opens the parts database a --db value names (a folder, or a postgres:// URL), schema brought up to date. */
+/** A library file the workbench saved ("Save the library as a file": PGlite's dump, a gzipped tar). */
+export const isLibraryFile = (spec: string): boolean => /\.(tar\.gz|tgz)$/i.test(spec);
+
+/** A library file opened in memory: read it, query it; what is written there is not kept. */
+async function openLibraryFile(path: string): Promise<Sql> {
+  if (!existsSync(path)) throw new CliError(`library file not found: ${path}`);
+  try {
+    const sql = await openEmbedded(undefined, { loadDataDir: new Blob([readFileSync(path)]) });
+    return { ...sql, where: path };
+  } catch (err) {
+    throw new CliError(`${path} is not a library file saved by the workbench (${(err as Error).message})`);
+  }
+}
+
+/**
+ * Opens the parts database a --db value names (a folder, a postgres:// URL, or a library file saved by the
+ * workbench, read-only), schema brought up to date.
+ */
 export async function openDatabase(spec: string): Promise<PartsDb> {
-  const sql = isServerUrl(spec) ? await openServer(spec) : await openFolder(spec);
+  const sql = isServerUrl(spec)
+    ? await openServer(spec)
+    : isLibraryFile(spec)
+      ? await openLibraryFile(spec)
+      : await openFolder(spec);
   try {
     return await PartsDb.open(sql);
   } catch (err) {

@@ -42,7 +42,7 @@ import { importInThreads } from './import-pool';
 import { prepareToRead, readBytes } from './read-file';
 import { duration, Progress, setProgressMode } from './progress';
 import { loadRun, saveRun } from './run-dir';
-import { checkpointOf, databaseSpec, openDatabase, runFiles } from './db';
+import { checkpointOf, databaseSpec, isLibraryFile, openDatabase, runFiles } from './db';
 import { syncLibrary } from './sync';
 import type { PartsDb, StoredPart } from '../core/db/parts-db';
 
@@ -73,6 +73,7 @@ usage:
                  (diffusion: through the library — scores corrected for parts near everything, then diffused over its neighbour graph; cosine: by similarity to the query alone)
   shapekin eval <library-dir> [--model <run-dir>] [--json]
   shapekin embed|duplicates|eval --db <folder|postgres://…> [--model <run-dir>] …   (the library from the database)
+                 (--db also takes a library file saved by the workbench, *.tar.gz, to read and query)
   shapekin study <library-dir> --model <run-dir> [--augmentations a,b,…] [--strengths 0,0.5,1] [--json]
   shapekin duplicates <library-dir> --model <run-dir> [--threshold 0.97] [--json]
   shapekin inspect <file-or-folder> [--json]   (format, bodies, triangles, closed, size and units of each file, or why it cannot be read)
@@ -665,6 +666,11 @@ async function queryDatabase(
 
 async function sync(lib: string, values: Values): Promise<void> {
   const spec = databaseSpec(values.db, values.model, 'sync');
+  if (isLibraryFile(spec))
+    throw new CliError(
+      `${spec} is a library file saved by the workbench: it can be queried (--db ${spec}) but not synced; sync into a folder or a server`,
+      2,
+    );
   const cap = maxBytes(values);
   const db = await openDatabase(spec);
   let stop = false;

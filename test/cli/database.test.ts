@@ -144,6 +144,23 @@ describe('query --db', () => {
     expect((await cli('eval', lib, '--db', db)).doc.error).toMatch(/give no folder/);
   }, 240_000);
 
+  it('a library file saved by the workbench (a database dump) is queried as the database it was', async () => {
+    const db = join(mkdtempSync(join(tmpdir(), 'shapekin-db-')), 'library.db');
+    expect((await cli('sync', lib, '--db', db, '--model', run)).code).toBe(0);
+    const pg = await PGlite.create(db, { extensions: { vector } });
+    const dump = join(mkdtempSync(join(tmpdir(), 'shapekin-dump-')), 'library.tar.gz');
+    writeFileSync(dump, new Uint8Array(await (await pg.dumpDataDir('gzip')).arrayBuffer()));
+    await pg.close();
+    const q = join(DEMO, 'flange', readdirSync(join(DEMO, 'flange')).sort()[6]);
+    const fromFolder = await cli('query', q, '--db', db, '--order', 'cosine');
+    const fromFile = await cli('query', q, '--db', dump, '--order', 'cosine');
+    expect(fromFile.code).toBe(0);
+    expect(fromFile.doc.results).toEqual(fromFolder.doc.results);
+    const refused = await cli('sync', lib, '--db', dump);
+    expect(refused.code).toBe(2);
+    expect(refused.doc.error).toMatch(/can be queried .* but not synced/);
+  }, 120_000);
+
   it('a database with no model, or a model it has not embedded with, is explained', async () => {
     const db = join(mkdtempSync(join(tmpdir(), 'shapekin-db-')), 'library.db');
     expect((await cli('sync', lib, '--db', db)).doc).toMatchObject({ model: null, embedded: 0, read: 12 });
