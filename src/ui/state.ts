@@ -147,3 +147,6 @@ export class Store<S extends object> {
 export function say(store: Store<AppState>, notice: string, action: AppState['noticeAction'] = null): void {
   store.set({ notice, noticeAction: action });
 }
+
+/** The library job's progress label while the kept library is opened (nothing to stop: it is already read). */
+export const RESTORING = 'restoring the kept library';

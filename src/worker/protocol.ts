@@ -8,7 +8,7 @@ import type { EvaluationReport } from '../core/quality/evaluate';
 import type { StudyRow } from '../core/quality/study';
 import type { AugmentKind } from '../core/points/augment';
 import type { TrainConfig, TrainProgress, HeldOutCheck, TrainResult } from '../core/model/train-config';
-import type { HashedPart, WorkbenchLibrary } from '../core/db/workbench';
+import type { HashedPart } from '../core/db/workbench';
 
 export interface FileInput {
   readonly name: string;
@@ -147,7 +147,10 @@ export type TrainReply =
 
 /** What the database worker is asked (each answered by one DbReply with the same id). */
 export type DbRequest =
+  /** The library's outline: part names in order, failures, source. */
   | { readonly type: 'load-library'; readonly id: number }
+  /** Some of its parts with their data. */
+  | { readonly type: 'load-parts'; readonly id: number; readonly names: readonly string[] }
   | { readonly type: 'put-parts'; readonly id: number; readonly parts: readonly HashedPart[] }
   | {
       readonly type: 'set-contents';
@@ -174,7 +177,8 @@ export type DbRequest =
 
 /** What each request answers with. */
 export interface DbAnswers {
-  'load-library': WorkbenchLibrary | null;
+  'load-library': { names: string[]; failures: ImportFailure[]; source: 'demo' | 'user' } | null;
+  'load-parts': LibraryPart[];
   'put-parts': null;
   'set-contents': null;
   'load-model': { checkpoint: CheckpointMessage; fingerprint: string } | null;

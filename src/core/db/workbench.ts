@@ -111,40 +111,65 @@ export class WorkbenchStore {
 
   /** The library as the workbench last set it (parts in its order), or null when there is none. */
   async contents(): Promise<WorkbenchLibrary | null> {
+    const outline = await this.outline();
+    if (!outline) return null;
+    return { parts: await this.parts(outline.names), failures: outline.failures, source: outline.source };
+  }
+
+  /** What the library holds without the parts' data: their names in the workbench's order, and the failures. */
+  async outline(): Promise<{ names: string[]; failures: ImportFailure[]; source: 'demo' | 'user' } | null> {
     const meta = await this.sql.query<{ value: { source: 'demo' | 'user'; names: string[] } }>(
       `SELECT value FROM library_meta WHERE key = 'workbench'`,
     );
     const rows = await this.sql.query<{
       path: string;
-      label: string;
       state: string;
       failure: string | null;
       failure_code: string | null;
-      info: MeshInfo | null;
-      diagonal: number | null;
-      points: Uint8Array | null;
-      normals: Uint8Array | null;
-      centre: number[] | null;
-      radius: number | null;
-      mesh_positions: Uint8Array | null;
-      mesh_indices: Uint8Array | null;
-    }>(
-      `SELECT path, label, state, failure, failure_code, info, diagonal, points, normals, centre, radius,
-         mesh_positions, mesh_indices FROM parts WHERE state <> 'pending' ORDER BY id`,
-    );
+    }>(`SELECT path, state, failure, failure_code FROM parts WHERE state <> 'pending' ORDER BY id`);
     if (!meta.rows[0] && rows.rows.length === 0) return null;
-    const parts: LibraryPart[] = [];
+    const names: string[] = [];
     const failures: ImportFailure[] = [];
     for (const r of rows.rows) {
-      if (r.state === 'failed') {
+      if (r.state === 'ready') names.push(r.path);
+      else
         failures.push({
           file: r.path,
           code: (r.failure_code ?? 'parse-failed') as ImportErrorCode,
           reason: r.failure ?? '',
         });
-        continue;
-      }
-      if (!r.info || !r.points || !r.normals) continue;
+    }
+    // The library the workbench last said, in its order: parts stored by a save that did not finish (a tab closed
+    // half-way) are not part of it (the next save removes them).
+    const order = meta.rows[0]?.value.names;
+    if (!order) return { names, failures, source: 'user' };
+    const held = new Set(names);
+    return { names: order.filter((n) => held.has(n)), failures, source: meta.rows[0].value.source };
+  }
+
+  /** The named parts with their data, in the order named (names not held are left out). */
+  async parts(names: readonly string[]): Promise<LibraryPart[]> {
+    const rows = await this.sql.query<{
+      path: string;
+      label: string;
+      info: MeshInfo;
+      diagonal: number;
+      points: Uint8Array;
+      normals: Uint8Array;
+      centre: number[] | null;
+      radius: number | null;
+      mesh_positions: Uint8Array | null;
+      mesh_indices: Uint8Array | null;
+    }>(
+      `SELECT path, label, info, diagonal, points, normals, centre, radius, mesh_positions, mesh_indices
+       FROM parts WHERE state = 'ready' AND path = ANY($1::text[])`,
+      [[...names]],
+    );
+    const byName = new Map(rows.rows.map((r) => [r.path, r]));
+    const parts: LibraryPart[] = [];
+    for (const n of names) {
+      const r = byName.get(n);
+      if (!r || !r.info || !r.points || !r.normals) continue;
       const c = r.centre ?? [0, 0, 0];
       parts.push({
         name: r.path,
@@ -159,13 +184,7 @@ export class WorkbenchStore {
         meshIndices: r.mesh_indices ? bytesU32(r.mesh_indices) : new Uint32Array(0),
       });
     }
-    // The workbench's order (import order) where it said one.
-    const order = meta.rows[0]?.value.names;
-    if (order) {
-      const at = new Map(order.map((n, i) => [n, i]));
-      parts.sort((a, b) => (at.get(a.name) ?? Infinity) - (at.get(b.name) ?? Infinity));
-    }
-    return { parts, failures, source: meta.rows[0]?.value.source ?? 'user' };
+    return parts;
   }
 
   /**

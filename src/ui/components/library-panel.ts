@@ -6,7 +6,7 @@ import { unitsLabel } from '../../core/mesh/types';
 import { ACCEPT, FORMAT_NAMES } from '../../core/mesh/formats';
 import type { LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
-import type { LibraryState } from '../state';
+import { RESTORING, type LibraryState } from '../state';
 
 export class SkLibraryPanel extends LitElement {
   static override properties = {
@@ -112,8 +112,12 @@ export class SkLibraryPanel extends LitElement {
       ${
         s.kind === 'running' && s.progress
           ? html`<progress max=${s.progress.total} value=${s.progress.done} aria-label="import progress"></progress>
-        <div class="summary">Reading ${s.progress.done} of ${s.progress.total}: ${s.progress.what}
+        ${
+          s.progress.what === RESTORING
+            ? html`<div class="summary">Opening the kept library: ${s.progress.done} of ${s.progress.total} parts</div>`
+            : html`<div class="summary">Reading ${s.progress.done} of ${s.progress.total}: ${s.progress.what}
           <button data-testid="cancel-import" @click=${() => this.emit('cancel-import')}>Stop reading</button></div>`
+        }`
           : null
       }
       ${s.kind === 'cancelled' ? html`<div class="summary" role="status">Reading was stopped: the parts read before it are in the library.</div>` : null}

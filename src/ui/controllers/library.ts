@@ -8,7 +8,7 @@ import { POOL_POINTS } from '../../core/model/defaults';
 import type { FileInput } from '../../worker/protocol';
 import { fetchDemoLibrary } from '../demo-library';
 import { readFiles, type NamedFile } from '../files';
-import { IDLE, say, type AppState, type Store } from '../state';
+import { IDLE, RESTORING, say, type AppState, type Store } from '../state';
 import { LibraryClient, type TimeLimits } from './library-client';
 import {
   exportDatabase,
@@ -53,7 +53,11 @@ export class LibraryController {
 
   /** The saved library, or the demo library on first start. */
   async restore(): Promise<void> {
-    const stored = await loadStoredLibrary();
+    const stored = await loadStoredLibrary((done, total) =>
+      this.store.patch('library', {
+        status: { kind: 'running', progress: { done, total, what: RESTORING } },
+      }),
+    );
     if (!stored || stored.parts.length === 0) return this.loadDemo();
     const kept = (await loadThumbnails()) ?? new Map<string, string>();
     const names = new Set(stored.parts.map((p) => p.name));

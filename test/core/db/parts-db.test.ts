@@ -2,7 +2,7 @@
 // listing brought in line, reading and embedding taken batch by batch, and search by pgvector's <=>.
 
 import { afterEach, describe, expect, it } from 'vitest';
-import { openEmbedded } from '../../../src/core/db/embedded';
+import { byteaToText, openEmbedded, textToBytea } from '../../../src/core/db/embedded';
 import { PartsDb, type ReadOutcome } from '../../../src/core/db/parts-db';
 import { DatabaseSetupError, MIGRATIONS, migrate, SCHEMA_VERSION } from '../../../src/core/db/schema';
 import { bytesFloats, floatBytes, vectorLiteral, type Sql } from '../../../src/core/db/sql';
@@ -82,6 +82,22 @@ describe('float and vector encodings', () => {
     expect(bytesFloats(floatBytes(a))).toEqual(a);
     const r = await db.sql.query<{ v: number[] }>('SELECT $1::vector::real[] AS v', [vectorLiteral(a)]);
     expect(Float32Array.from(r.rows[0].v)).toEqual(a);
+  });
+});
+
+describe('bytea in hex text form', () => {
+  // Reference: Node's Buffer hex encoding, and PostgreSQL's own encode()/decode() on the database side.
+  it('every byte value goes in and comes out unchanged, as PostgreSQL and Node spell it', async () => {
+    const db = await fresh();
+    const bytes = Uint8Array.from({ length: 512 }, (_, i) => (i * 37 + 11) & 255);
+    expect(byteaToText(bytes)).toBe(`\\x${Buffer.from(bytes).toString('hex')}`);
+    expect(textToBytea(byteaToText(bytes))).toEqual(bytes);
+    const r = await db.sql.query<{ hex: string; back: Uint8Array }>(
+      `SELECT encode($1::bytea, 'hex') AS hex, decode($2, 'hex') AS back`,
+      [bytes, Buffer.from(bytes).toString('hex')],
+    );
+    expect(r.rows[0].hex).toBe(Buffer.from(bytes).toString('hex'));
+    expect(new Uint8Array(r.rows[0].back)).toEqual(bytes);
   });
 });
 

@@ -8,6 +8,7 @@ import { openEmbedded } from '../../../src/core/db/embedded';
 import { PartsDb } from '../../../src/core/db/parts-db';
 import type { Sql } from '../../../src/core/db/sql';
 import { WorkbenchStore } from '../../../src/core/db/workbench';
+import { replaceContents } from '../../../src/core/db/copy';
 import { loadPart, type LibraryPart } from '../../../src/core/library';
 
 const open: Sql[] = [];
@@ -100,5 +101,27 @@ describe('the current model and embeddings by model', () => {
     expect(await store.putEmbeddings('fa', names, new Float32Array(6), 3)).toBe(false);
     const models = await store.db.sql.query<{ fingerprint: string }>('SELECT fingerprint FROM models');
     expect(models.rows.map((r) => r.fingerprint)).toEqual(['fb']);
+  });
+});
+
+describe('a library file opened (every row copied into another database)', () => {
+  it('the copy holds the same library, model and embeddings, and new rows still get fresh ids', async () => {
+    const from = await fresh();
+    const parts = [...demoParts('channel', 2), ...demoParts('spacer', 1)];
+    await from.putParts(parts.map((p, i) => ({ ...p, contentHash: `c${i}` })));
+    const names = parts.map((p) => p.name);
+    await from.setContents(names, [{ file: 'broken/x.off', code: 'truncated', reason: 'cut short' }], 'user');
+    await from.putCurrentModel('fm', { step: 3 }, new Uint8Array([9, 8, 7]));
+    const vectors = Float32Array.from({ length: 3 * 5 }, (_, i) => Math.sin(i));
+    await from.putEmbeddings('fm', names, vectors, 5);
+    const to = await fresh();
+    await to.putParts(demoParts('washer', 1)); // replaced by the copy
+    await replaceContents(to.db, from.db.sql);
+    expect(await to.contents()).toEqual(await from.contents());
+    expect(await to.db.currentModel()).toEqual(await from.db.currentModel());
+    expect(await to.embeddings('fm', names)).toEqual({ vectors, dim: 5 });
+    await to.putParts(demoParts('washer', 1));
+    const ids = await to.db.sql.query<{ id: number }>('SELECT id FROM parts ORDER BY id');
+    expect(new Set(ids.rows.map((r) => r.id)).size).toBe(ids.rows.length);
   });
 });
