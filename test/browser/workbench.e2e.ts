@@ -414,3 +414,89 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     expect(errors).toEqual([]);
   });
 });
+
+describe.skipIf(!available)('a library kept by an earlier version (plain IndexedDB records)', () => {
+  it('moves into the parts database on first start, and the earlier records go (thumbnails stay)', async () => {
+    const server = await startPreview();
+    const context = await launch();
+    try {
+      const page = await context.newPage();
+      // A page of the same origin that does not start the workbench, to write the records an earlier version kept.
+      await page.route('**/earlier.html', (r) =>
+        r.fulfill({ body: '<!doctype html><title>earlier</title>', contentType: 'text/html' }),
+      );
+      await page.goto(`${server.url}earlier.html`);
+      await page.evaluate(async () => {
+        const part = (name: string, x: number) => ({
+          name,
+          label: 'bracket',
+          info: {
+            format: 'off',
+            vertexCount: 3,
+            triangleCount: 1,
+            degenerateSkipped: 0,
+            bboxMin: [0, 0, 0],
+            bboxMax: [x, 1, 0],
+            extents: [x, 1, 0],
+            area: x / 2,
+            closed: false,
+            volume: null,
+            fileBytes: 60,
+            bodies: null,
+            units: 'file',
+          },
+          points: Float32Array.from({ length: 2048 * 3 }, (_, i) => Math.sin(i * x)),
+          normals: new Float32Array(2048 * 3),
+          centre: [x / 2, 0.5, 0],
+          radius: 1,
+          diagonal: Math.hypot(x, 1),
+          meshPositions: Float32Array.from([0, 0, 0, x, 0, 0, 0, 1, 0]),
+          meshIndices: Uint32Array.from([0, 1, 2]),
+        });
+        const db = await new Promise<IDBDatabase>((resolve, reject) => {
+          const req = indexedDB.open('shapekin-workbench', 1);
+          req.onupgradeneeded = () => req.result.createObjectStore('library');
+          req.onsuccess = () => resolve(req.result);
+          req.onerror = () => reject(req.error);
+        });
+        const t = db.transaction('library', 'readwrite');
+        const s = t.objectStore('library');
+        s.put(part('bracket/L-40.off', 4), 'part:bracket/L-40.off');
+        s.put(part('bracket/L-60.off', 6), 'part:bracket/L-60.off');
+        s.put(
+          {
+            names: ['bracket/L-40.off', 'bracket/L-60.off'],
+            failures: [{ file: 'bracket/L-80.off', code: 'truncated', reason: 'the file ends inside face 3' }],
+            source: 'user',
+          },
+          'current',
+        );
+        s.put(new Map([['bracket/L-40.off', 'data:image/png;base64,']]), 'thumbnails');
+        await new Promise((resolve) => (t.oncomplete = resolve));
+        db.close();
+      });
+      await page.goto(server.url);
+      await expect
+        .poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 90_000 })
+        .toMatch(/2 parts in 1 folders, 1 files could not be read/);
+      expect(await page.getByTestId('failures').textContent()).toMatch(/L-80\.off: the file ends inside face 3/);
+      const left = await page.evaluate(async () => {
+        const db = await new Promise<IDBDatabase>((resolve, reject) => {
+          const req = indexedDB.open('shapekin-workbench', 1);
+          req.onsuccess = () => resolve(req.result);
+          req.onerror = () => reject(req.error);
+        });
+        const keys = await new Promise<IDBValidKey[]>((resolve) => {
+          const r = db.transaction('library', 'readonly').objectStore('library').getAllKeys();
+          r.onsuccess = () => resolve(r.result);
+        });
+        db.close();
+        return keys.map(String).sort();
+      });
+      expect(left).toEqual(['thumbnails']);
+    } finally {
+      await context.close();
+      await server.close();
+    }
+  }, 180_000);
+});
