@@ -83,6 +83,18 @@ ALTER TABLE parts
   ADD COLUMN mesh_indices bytea;
 `,
   },
+  {
+    version: 3,
+    what: 'float data stored without compression (it does not compress; trying cost the writer time)',
+    sql: `
+ALTER TABLE parts
+  ALTER COLUMN points SET STORAGE EXTERNAL,
+  ALTER COLUMN normals SET STORAGE EXTERNAL,
+  ALTER COLUMN mesh_positions SET STORAGE EXTERNAL,
+  ALTER COLUMN mesh_indices SET STORAGE EXTERNAL;
+ALTER TABLE models ALTER COLUMN weights SET STORAGE EXTERNAL;
+`,
+  },
 ];
 
 export const SCHEMA_VERSION = MIGRATIONS[MIGRATIONS.length - 1].version;
