@@ -2,10 +2,10 @@
 // time, kept by a lock file beside it); a postgres:// URL reaches a PostgreSQL server with pgvector through `pg`,
 // where any number of processes and machines may work at once. Connection failures become one plain sentence.
 
-import { createHash } from 'node:crypto';
 import { closeSync, existsSync, mkdirSync, openSync, readFileSync, unlinkSync, writeFileSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import pg from 'pg';
+import { modelFingerprint } from '../core/checksum';
 import { artifactsFromModelJson, fromArtifacts, type Checkpoint } from '../core/model/checkpoint';
 import type { ModelJson } from '../core/model/model-json';
 import { openEmbedded } from '../core/db/embedded';
@@ -205,7 +205,9 @@ export function databaseSpec(db: string | undefined, model: string | undefined, 
 }
 
 /** A run folder's model.json and weights.bin as stored in the database, with a fingerprint of both. */
-export function runFiles(dir: string): { fingerprint: string; modelJson: ModelJson; weights: Uint8Array } {
+export async function runFiles(
+  dir: string,
+): Promise<{ fingerprint: string; modelJson: ModelJson; weights: Uint8Array }> {
   const jsonPath = join(dir, 'model.json');
   if (!existsSync(jsonPath))
     throw new CliError(`no model in ${dir} (expected model.json; train one with "shapekin train")`);
@@ -214,7 +216,7 @@ export function runFiles(dir: string): { fingerprint: string; modelJson: ModelJs
   const paths = (modelJson.weightsManifest ?? []).flatMap((g) => g.paths);
   if (paths.length !== 1) throw new CliError(`${jsonPath}: expected one weights file, found ${paths.length}`);
   const weights = new Uint8Array(readFileSync(join(dir, paths[0])));
-  const fingerprint = createHash('sha256').update(text).update(weights).digest('hex');
+  const fingerprint = await modelFingerprint(text, weights);
   return { fingerprint, modelJson, weights };
 }
 
@@ -231,6 +233,3 @@ export function checkpointOf(model: StoredModel): Checkpoint {
     throw new CliError((err as Error).message);
   }
 }
-
-/** SHA-256 of a file's bytes, hex. */
-export const contentHash = (bytes: Uint8Array): string => createHash('sha256').update(bytes).digest('hex');

@@ -356,9 +356,7 @@ async function embeddedLibrary(lib: string, values: Values, command: string): Pr
     const db = await openDatabase(values.db);
     try {
       const { id } = await databaseModel(db, values);
-      const counts = await db.counts(id);
-      const waiting = counts.ready - counts.embedded + counts.pending;
-      if (waiting > 0) notice(values, `${waiting} parts are not embedded yet (run "shapekin sync"); they are left out`);
+      await notEmbedded(db, id, values);
       const all = await db.embeddings(id);
       if (all.parts.length === 0)
         throw new CliError(`the database ${db.sql.where} has no embedded parts for this model`);
@@ -556,7 +554,7 @@ function printQuery(
 /** The model a database command uses: --model's run (which must be stored there), else the database's own. */
 async function databaseModel(db: PartsDb, values: Values): Promise<{ id: number; ckpt: Checkpoint }> {
   if (values.model) {
-    const run = runFiles(values.model);
+    const run = await runFiles(values.model);
     const stored = await db.modelByFingerprint(run.fingerprint);
     if (!stored)
       throw new CliError(
@@ -570,6 +568,14 @@ async function databaseModel(db: PartsDb, values: Values): Promise<{ id: number;
       `the database ${db.sql.where} holds no model yet: run "shapekin sync <library-dir> --db … --model <run-dir>"`,
     );
   return { id: current.id, ckpt: checkpointOf(current) };
+}
+
+/** How many parts the model has not embedded yet (said on stderr: they are left out of the answer). */
+async function notEmbedded(db: PartsDb, modelId: number, values: Values) {
+  const counts = await db.counts(modelId);
+  const waiting = counts.ready - counts.embedded + counts.pending;
+  if (waiting > 0) notice(values, `${waiting} parts are not embedded yet (run "shapekin sync"); they are left out`);
+  return { counts, waiting };
 }
 
 /** query --db: the part file is read and embedded here; the library comes from the database. */
@@ -598,11 +604,9 @@ async function queryDatabase(
     if (!qv.every(Number.isFinite))
       throw new CliError(`the model gives no usable embedding for ${file} (non-finite values)`);
     const qSize = sizeOf(q.info, o.mmPerUnit);
-    const counts = await db.counts(id);
+    const { counts, waiting } = await notEmbedded(db, id, values);
     if (counts.embedded === 0)
       throw new CliError(`the database ${db.sql.where} has no embedded parts for this model: run "shapekin sync"`);
-    const waiting = counts.ready - counts.embedded + counts.pending;
-    if (waiting > 0) notice(values, `${waiting} parts are not embedded yet (run "shapekin sync"); they are left out`);
     const folders = values.folder ? values.folder.split(',').map((f) => f.trim()) : undefined;
     const sizeFilter =
       o.ratio !== undefined
@@ -681,13 +685,12 @@ async function sync(lib: string, values: Values): Promise<void> {
   process.once('SIGINT', onSignal);
   process.once('SIGTERM', onSignal);
   try {
-    if (values.model) await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
-    else if (await db.currentModel()) await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
     const report = await syncLibrary(lib, db, {
       threads: threads(values),
       maxBytes: cap,
       ...(values.model ? { model: values.model } : {}),
       embedBatch: num(values, 'batch', 32, true, 1, 4096),
+      ...(values.backend ? { backend: values.backend as 'wasm' | 'cpu' } : {}),
       stopped: () => stop,
     });
     if (values.json) {

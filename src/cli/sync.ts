@@ -10,8 +10,10 @@ import { labelFromPath, type SamplingSettings } from '../core/library';
 import { encodersFromCheckpoint, type Checkpoint } from '../core/model/checkpoint';
 import { disposeEncoders, embedForRetrieval } from '../core/model/embed';
 import { POOL_POINTS } from '../core/model/defaults';
-import type { PartsDb, ReadOutcome } from '../core/db/parts-db';
-import { contentHash, checkpointOf, runFiles } from './db';
+import type { ListedFile, PartsDb, ReadOutcome } from '../core/db/parts-db';
+import { checkpointOf, runFiles } from './db';
+import { sha256Hex } from '../core/checksum';
+import { initBackend } from '../core/model/backend';
 import { CliError } from './errors';
 import { ImportPool } from './import-pool';
 import { listFiles, readLabelsCsv } from './library-dir';
@@ -28,6 +30,8 @@ export interface SyncOptions {
   readonly embedBatch?: number;
   /** Asked between batches: true stops the sync there (what is written stays). */
   readonly stopped?: () => boolean;
+  /** The tfjs backend to embed with (default wasm). */
+  readonly backend?: 'wasm' | 'cpu';
 }
 
 export interface SyncReport {
@@ -57,17 +61,18 @@ export async function syncLibrary(root: string, db: PartsDb, options: SyncOption
   const paths = listFiles(root);
   const csv = readLabelsCsv(root);
   const hashing = new Progress('hashing', paths.length);
-  const files = paths.map((path, i) => {
+  const files: ListedFile[] = [];
+  for (const [i, path] of paths.entries()) {
     const name = relative(root, path).split(sep).join('/');
     const bytes = readFileSync(path);
     hashing.update(i + 1, name);
-    return {
+    files.push({
       path: name,
-      hash: contentHash(bytes),
+      hash: await sha256Hex(bytes),
       bytes: bytes.byteLength,
       label: csv?.get(name) ?? labelFromPath(name),
-    };
-  });
+    });
+  }
   hashing.done();
 
   // The model first: its pools must be sampled as the stored ones are.
@@ -75,13 +80,14 @@ export async function syncLibrary(root: string, db: PartsDb, options: SyncOption
   let modelId: number | null = null;
   let fingerprint: string | null = null;
   if (options.model) {
-    const run = runFiles(options.model);
+    const run = await runFiles(options.model);
     modelId = await db.putModel(run.fingerprint, run.modelJson, run.weights);
     await db.setCurrentModel(modelId);
   }
   const current = await db.currentModel();
   if (current) {
     checkpoint = checkpointOf(current);
+    await initBackend({ prefer: options.backend ?? 'wasm' });
     modelId = current.id;
     fingerprint = current.fingerprint;
   }

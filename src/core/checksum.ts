@@ -22,3 +22,15 @@ export async function sha256Hex(bytes: ArrayBuffer | Uint8Array): Promise<string
   const digest = new Uint8Array(await crypto.subtle.digest('SHA-256', bytes as Uint8Array<ArrayBuffer>));
   return Array.from(digest, (b) => b.toString(16).padStart(2, '0')).join('');
 }
+
+/**
+ * A model's fingerprint: SHA-256 of its model.json text followed by its weights. The command line's run folders and
+ * the workbench's stored models get theirs here, so one model has one fingerprint wherever it is kept.
+ */
+export function modelFingerprint(jsonText: string, weights: Uint8Array): Promise<string> {
+  const text = new TextEncoder().encode(jsonText);
+  const all = new Uint8Array(text.byteLength + weights.byteLength);
+  all.set(text);
+  all.set(weights, text.byteLength);
+  return sha256Hex(all);
+}

@@ -3,12 +3,12 @@
 // embeddings, answers one request at a time, and on first start moves over what an earlier version kept in plain
 // IndexedDB records (the library; embeddings are recomputed).
 
-import { sha256Hex } from '../core/checksum';
+import { modelFingerprint } from '../core/checksum';
 import { openEmbedded } from '../core/db/embedded';
 import { PartsDb } from '../core/db/parts-db';
 import { replaceContents } from '../core/db/copy';
 import { WorkbenchStore, type HashedPart } from '../core/db/workbench';
-import type { LibraryPart } from '../core/library';
+import { partTransfers, type LibraryPart } from '../core/library';
 import type { ImportFailure } from '../core/mesh/import';
 import { modelJsonFor, readModelJson, type ModelJson } from '../core/model/model-json';
 import type { DbAnswers, DbReply, DbRequest } from './protocol';
@@ -33,15 +33,6 @@ async function open(): Promise<WorkbenchStore> {
 }
 
 const store = (): Promise<WorkbenchStore> => (current ??= open());
-
-/** SHA-256 of a model's model.json text and weights, hex: the same fingerprint the command line gives a run folder. */
-function fingerprint(jsonText: string, weights: ArrayBuffer): Promise<string> {
-  const text = new TextEncoder().encode(jsonText);
-  const all = new Uint8Array(text.byteLength + weights.byteLength);
-  all.set(text);
-  all.set(new Uint8Array(weights), text.byteLength);
-  return sha256Hex(all);
-}
 
 // ---- the one-time move from the plain IndexedDB records of earlier versions ----
 
@@ -97,19 +88,13 @@ async function moveEarlierLibrary(target: WorkbenchStore): Promise<void> {
 
 // ---- requests ----
 
-function transfersOfLibrary(parts: readonly LibraryPart[]): ArrayBuffer[] {
-  return parts.flatMap(
-    (p) => [p.points.buffer, p.normals.buffer, p.meshPositions.buffer, p.meshIndices.buffer] as ArrayBuffer[],
-  );
-}
-
 async function answer(req: DbRequest): Promise<[DbAnswers[DbRequest['type']], ArrayBuffer[]]> {
   switch (req.type) {
     case 'load-library':
       return [await (await store()).outline(), []];
     case 'load-parts': {
       const parts = await (await store()).parts(req.names);
-      return [parts, transfersOfLibrary(parts)];
+      return [parts, parts.flatMap(partTransfers)];
     }
     case 'put-parts':
       await (await store()).putParts(req.parts as HashedPart[]);
@@ -138,7 +123,7 @@ async function answer(req: DbRequest): Promise<[DbAnswers[DbRequest['type']], Ar
       const c = req.checkpoint;
       const json = modelJsonFor(c.manifest, c.weightSpecs, c.weightData, c.adamStep);
       const text = JSON.stringify(json);
-      const fp = await fingerprint(text, c.weightData);
+      const fp = await modelFingerprint(text, new Uint8Array(c.weightData));
       await (await store()).putCurrentModel(fp, json, new Uint8Array(c.weightData));
       return [fp, []];
     }

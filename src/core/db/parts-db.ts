@@ -97,6 +97,21 @@ const toPart = (r: PartRow): StoredPart => ({
   diagonal: Number(r.diagonal),
 });
 
+/**
+ * A read part's measured columns, in the order both writers list them: format, units, triangles, closed, bodies,
+ * extents, diagonal, info.
+ */
+export const measuredValues = (info: MeshInfo, diagonal: number): unknown[] => [
+  info.format,
+  info.units,
+  info.triangleCount,
+  info.closed,
+  info.bodies,
+  [...info.extents],
+  diagonal,
+  JSON.stringify(info),
+];
+
 export class PartsDb {
   private constructor(readonly sql: Sql) {}
 
@@ -217,14 +232,7 @@ export class PartsDb {
            WHERE id = $1`,
           [
             files[i].id,
-            o.info.format,
-            o.info.units,
-            o.info.triangleCount,
-            o.info.closed,
-            o.info.bodies,
-            [...o.info.extents],
-            o.diagonal,
-            JSON.stringify(o.info),
+            ...measuredValues(o.info, o.diagonal),
             sampling.points,
             sampling.seed,
             floatBytes(o.points),

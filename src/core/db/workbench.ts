@@ -5,7 +5,7 @@
 import type { LibraryPart } from '../library';
 import type { ImportFailure } from '../mesh/import';
 import type { ImportErrorCode, MeshInfo } from '../mesh/types';
-import type { PartsDb } from './parts-db';
+import { measuredValues, type PartsDb } from './parts-db';
 import { bytesFloats, floatBytes, vectorLiteral } from './sql';
 
 export interface WorkbenchLibrary {
@@ -57,14 +57,7 @@ export class WorkbenchStore {
             p.contentHash ?? '',
             p.info.fileBytes,
             p.label,
-            p.info.format,
-            p.info.units,
-            p.info.triangleCount,
-            p.info.closed,
-            p.info.bodies,
-            [...p.info.extents],
-            p.diagonal,
-            JSON.stringify(p.info),
+            ...measuredValues(p.info, p.diagonal),
             p.points.length / 3,
             floatBytes(p.points),
             floatBytes(p.normals),

@@ -115,17 +115,17 @@ export class TrainingController {
     try {
       const kept = await loadModel();
       let saved = kept?.checkpoint ?? null;
+      let fingerprint = kept?.fingerprint ?? null;
       if (!saved) {
+        // Once: a model where earlier versions kept it moves into the database.
         saved = await this.client.loadSaved().catch(() => null);
-        if (saved && (await this.keep({ ...saved, weightData: saved.weightData.slice(0) })))
-          await this.client.forgetSaved();
+        if (saved && (fingerprint = await this.keep(saved))) await this.client.forgetSaved();
       }
       this.patch({ modelKnown: true });
       if (!saved) return;
       const m = saved.manifest;
       this.adopt(saved);
-      if (kept) this.patch({ modelFingerprint: kept.fingerprint });
-      else void this.keep(saved);
+      this.patch({ modelFingerprint: fingerprint });
       const unfinished = m.step < m.totalSteps && m.status !== 'done' && m.status !== 'stopped-early';
       this.store.set({
         notice: unfinished
