@@ -28,13 +28,14 @@ import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
 import { TensorIndex } from '../core/retrieval/tensor-index';
 import type { Ranking } from '../core/retrieval/index';
 import { cosineSimilarity } from '../core/retrieval/metrics';
-import { embeddingsCsv, embeddingsJson } from '../core/retrieval/export';
+import { embeddingRow, embeddingsCsv, embeddingsJson, type EmbeddingRow } from '../core/retrieval/export';
 import { writeNpyFloat32 } from '../core/retrieval/npy';
 import { runStudy } from '../core/quality/study';
 import { failureOf, loadPart, type LibraryPart, type SamplingSettings } from '../core/library';
 import { DEFAULT_MAX_BYTES, importMesh } from '../core/mesh/import';
 import { FORMAT_NAMES } from '../core/mesh/formats';
 import type { MeshInfo } from '../core/mesh/types';
+import { parseUnits, partSize } from '../core/units';
 import { readFileSync, existsSync, statSync } from 'node:fs';
 import { CliError } from './errors';
 import { listFiles, loadLibrary, reportFailures, type LoadedLibrary } from './library-dir';
@@ -339,19 +340,14 @@ async function withModel<T>(
 
 /** A library's retrieval embeddings with each part's description: from --db's stored vectors, or read and embedded now. */
 interface EmbeddedLibrary {
-  readonly rows: {
-    file: string;
-    label: string;
-    extents: readonly number[];
-    diagonal: number;
-    units: MeshInfo['units'];
-  }[];
+  readonly rows: EmbeddingRow[];
   readonly vectors: Float32Array;
   readonly dim: number;
   readonly failures: { file: string; reason: string }[];
 }
 
 async function embeddedLibrary(lib: string, values: Values, command: string): Promise<EmbeddedLibrary> {
+  const mmPerUnit = unitsOption(values);
   if (values.db) {
     const db = await openDatabase(values.db);
     try {
@@ -361,13 +357,7 @@ async function embeddedLibrary(lib: string, values: Values, command: string): Pr
       if (all.parts.length === 0)
         throw new CliError(`the database ${db.sql.where} has no embedded parts for this model`);
       return {
-        rows: all.parts.map((p) => ({
-          file: p.path,
-          label: p.label,
-          extents: p.info.extents,
-          diagonal: p.diagonal,
-          units: p.info.units,
-        })),
+        rows: all.parts.map((p) => embeddingRow(p.path, p.label, p.info, p.diagonal, mmPerUnit)),
         vectors: all.vectors,
         dim: all.dim,
         failures: (await db.failures()).map((f) => ({ file: f.path, reason: f.reason })),
@@ -390,13 +380,7 @@ async function embeddedLibrary(lib: string, values: Values, command: string): Pr
       ckpt.manifest.config.pose,
     );
     return {
-      rows: library.parts.map((p, i) => ({
-        file: p.name,
-        label: library.labels[i],
-        extents: p.info.extents,
-        diagonal: p.diagonal,
-        units: p.info.units,
-      })),
+      rows: library.parts.map((p, i) => embeddingRow(p.name, library.labels[i], p.info, p.diagonal, mmPerUnit)),
       vectors,
       dim: vectors.length / library.parts.length,
       failures: failuresJson(library),
@@ -836,22 +820,13 @@ async function study(lib: string, values: Values): Promise<void> {
 function unitsOption(values: Values): number | null {
   const raw = values.units;
   if (raw === undefined) return null;
-  const named: Record<string, number> = { mm: 1, cm: 10, m: 1000, inch: 25.4, in: 25.4 };
-  const factor = named[raw.toLowerCase()] ?? Number(raw);
-  if (!(factor > 0) || !Number.isFinite(factor))
+  const factor = parseUnits(raw);
+  if (factor === null)
     throw new CliError(`--units must be mm, cm, m, inch or a positive number of mm per unit, got "${raw}"`, 2);
   return factor;
 }
 
-/** A part's size in mm where its units are known (the format's own, or --units), else in file units. */
-function sizeOf(
-  info: MeshInfo,
-  mmPerUnit: number | null,
-): { size: number[]; units: 'mm' | 'file units'; scale: number } {
-  const scale = info.units === 'mm' ? 1 : mmPerUnit;
-  if (scale === null) return { size: [...info.extents], units: 'file units', scale: 1 };
-  return { size: info.extents.map((v) => v * scale), units: 'mm', scale };
-}
+const sizeOf = partSize;
 
 const fmtSize = (s: { size: readonly number[]; units: string }) =>
   `${s.size.map((v) => v.toPrecision(4)).join(' × ')} ${s.units}`;

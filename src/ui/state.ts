@@ -56,6 +56,11 @@ export interface LibraryState {
   readonly status: JobStatus<{ readonly ms: number }>;
   readonly thumbnails: ReadonlyMap<string, string>;
   readonly selected: string;
+  /**
+   * Millimetres per file unit by folder, for files whose format does not say its units (STL, OBJ, PLY, OFF, VRML,
+   * point lists), as the person set them; folders not named stay in file units.
+   */
+  readonly units: Readonly<Record<string, number>>;
 }
 
 export interface TrainingState {

@@ -102,6 +102,11 @@ async function answer(req: DbRequest): Promise<[DbAnswers[DbRequest['type']], Ar
     case 'set-contents':
       await (await store()).setContents(req.names, req.failures, req.source);
       return [null, []];
+    case 'load-units':
+      return [await (await store()).folderUnits(), []];
+    case 'put-units':
+      await (await store()).setFolderUnits(req.units);
+      return [null, []];
     case 'load-model': {
       const m = await (await store()).db.currentModel();
       if (!m) return [null, []];

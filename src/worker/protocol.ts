@@ -159,6 +159,9 @@ export type DbRequest =
       readonly failures: readonly ImportFailure[];
       readonly source: 'demo' | 'user';
     }
+  /** Millimetres per file unit by folder (files whose format has no units). */
+  | { readonly type: 'load-units'; readonly id: number }
+  | { readonly type: 'put-units'; readonly id: number; readonly units: Readonly<Record<string, number>> }
   | { readonly type: 'load-model'; readonly id: number }
   | { readonly type: 'put-model'; readonly id: number; readonly checkpoint: CheckpointMessage }
   | {
@@ -181,6 +184,8 @@ export interface DbAnswers {
   'load-parts': LibraryPart[];
   'put-parts': null;
   'set-contents': null;
+  'load-units': Record<string, number>;
+  'put-units': null;
   'load-model': { checkpoint: CheckpointMessage; fingerprint: string } | null;
   'put-model': string;
   'put-embeddings': boolean;

@@ -222,6 +222,31 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       .toBe(10);
   }, 180_000);
 
+  it("a folder's units turn its parts' sizes into millimetres, on the cards and in the look-alike list", async () => {
+    await page.getByRole('tab', { name: 'Parts library' }).click();
+    const panel = page.locator('sk-library-panel');
+    const card = panel.locator('.card[title^="washer/"]').first();
+    const size = (t: string | null) => (t ?? '').match(/([\d.]+) × ([\d.]+) × ([\d.]+) (mm|file units)/)!;
+    const before = size(await card.textContent());
+    expect(before[4]).toBe('file units');
+    await panel.getByTestId('units').locator('summary').click();
+    await panel.getByLabel('Units of washer').selectOption('inch');
+    await expect.poll(async () => size(await card.textContent())[4]).toBe('mm');
+    const after = size(await card.textContent());
+    // 1 in = 25.4 mm (NIST SP 811); the cards round to 3–4 digits.
+    for (const i of [1, 2, 3]) expect(Number(after[i]) / Number(before[i])).toBeCloseTo(25.4, 0);
+    await page.screenshot({ path: `${ARTIFACTS}/units.png` });
+    await page.getByRole('tab', { name: 'Look-alikes' }).click();
+    await page.locator('sk-search-panel select[aria-label="Query part"]').selectOption('washer/BC01-100A.stl');
+    const folder = page.locator('sk-search-panel select[aria-label="Folder filter"]');
+    await folder.selectOption('washer');
+    const listed = async () => (await page.getByTestId('search-results').textContent()) ?? '';
+    await expect.poll(listed, { timeout: 60_000 }).toMatch(/ mm · size ×/);
+    expect(await listed()).not.toMatch(/file units/);
+    await folder.selectOption('');
+    await page.getByRole('tab', { name: 'Parts library' }).click();
+  }, 60_000);
+
   it('a reload keeps the library and the trained model', async () => {
     await page.reload();
     await expect
@@ -236,6 +261,8 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       .toBeGreaterThanOrEqual(100);
     // The banner says the same as the header, and nothing claims to be running.
     expect(await page.locator('sk-app .notice').textContent()).toMatch(/Restored the saved model \(9 training steps\)/);
+    // and the folder's units, set before the reload.
+    expect(await page.locator('sk-library-panel').getByLabel('Units of washer').inputValue()).toBe('inch');
     await page.getByRole('tab', { name: 'Training' }).click();
     expect(await page.getByTestId('train-stats').textContent()).toMatch(/no training running/);
     // Look-alikes answer from the kept embeddings and model.

@@ -102,6 +102,32 @@ export class WorkbenchStore {
     });
   }
 
+  /**
+   * Millimetres per file unit by folder, for files whose format has no units (what a person set); folders not
+   * named stay in file units.
+   */
+  async folderUnits(): Promise<Record<string, number>> {
+    const r = await this.sql.query<{ value: Record<string, number> }>(
+      `SELECT value FROM library_meta WHERE key = 'folder_units'`,
+    );
+    const out: Record<string, number> = {};
+    for (const [folder, mm] of Object.entries(r.rows[0]?.value ?? {}))
+      if (typeof mm === 'number' && mm > 0 && Number.isFinite(mm)) out[folder] = mm;
+    return out;
+  }
+
+  /** Replaces the folders' units (see folderUnits); a factor that is not a positive number is refused. */
+  async setFolderUnits(units: Readonly<Record<string, number>>): Promise<void> {
+    for (const [folder, mm] of Object.entries(units))
+      if (!(mm > 0) || !Number.isFinite(mm))
+        throw new RangeError(`the units of folder "${folder}" must be a positive number of mm, got ${mm}`);
+    await this.sql.query(
+      `INSERT INTO library_meta (key, value) VALUES ('folder_units', $1::jsonb)
+       ON CONFLICT (key) DO UPDATE SET value = EXCLUDED.value`,
+      [JSON.stringify(units)],
+    );
+  }
+
   /** The library as the workbench last set it (parts in its order), or null when there is none. */
   async contents(): Promise<WorkbenchLibrary | null> {
     const outline = await this.outline();

@@ -67,8 +67,3 @@ export class MeshImportError extends Error {
     this.reason = reason;
   }
 }
-
-/** How a part's sizes are labelled on screen and in reports. */
-export function unitsLabel(info: Pick<MeshInfo, 'units'>): string {
-  return info.units === 'mm' ? 'mm' : 'file units';
-}

@@ -2,6 +2,8 @@
 // CSV (one row a part), JSON (one document) and NumPy .npy (npy.ts). No tfjs, no DOM.
 
 import { csvField } from '../csv';
+import type { MeshInfo } from '../mesh/types';
+import { scaleToMm } from '../units';
 
 /** What a row says about its part besides the embedding. */
 export interface EmbeddingRow {
@@ -10,8 +12,24 @@ export interface EmbeddingRow {
   /** Bounding-box size x, y, z in `units`. */
   readonly extents: readonly number[];
   readonly diagonal: number;
-  /** 'mm' where the file states millimetres (STEP, IGES, glTF, 3MF), else 'file' (the file's own units). */
+  /**
+   * 'mm' where the units are known — the file states them (STEP, IGES, glTF, 3MF) or a person said what one file
+   * unit is — else 'file' (the file's own units).
+   */
   readonly units: 'mm' | 'file';
+}
+
+/** A part's row: extents and diagonal in mm where its units are known (`mmPerFileUnit` for files without units). */
+export function embeddingRow(
+  file: string,
+  label: string,
+  info: Pick<MeshInfo, 'units' | 'extents'>,
+  diagonal: number,
+  mmPerFileUnit: number | null | undefined,
+): EmbeddingRow {
+  const scale = scaleToMm(info, mmPerFileUnit);
+  if (scale === null) return { file, label, extents: [...info.extents], diagonal, units: 'file' };
+  return { file, label, extents: info.extents.map((v) => v * scale), diagonal: diagonal * scale, units: 'mm' };
 }
 
 /** CSV with a header: file, label, extent_x, extent_y, extent_z, units, e0 … e(D−1); 6 significant digits. */

@@ -15,7 +15,7 @@ export type Ranking = 'cosine' | 'diffusion';
 export interface IndexEntry {
   readonly name: string;
   readonly label: string;
-  /** Bounding-box diagonal in file units (the "real size"). */
+  /** Bounding-box diagonal (the "real size"): in mm where the part's units are known, else in file units. */
   readonly diagonal: number;
 }
 
@@ -40,6 +40,17 @@ export class EmbeddingIndex {
     this.dim = dim;
     this.entries = entries;
     this.vectors = normaliseRows(vectors, dim);
+  }
+
+  /**
+   * The same vectors (and the hub means and graph built from them, which do not depend on the entries) with other
+   * entries: names, folders or sizes said again, without building anything twice.
+   */
+  withEntries(entries: readonly IndexEntry[]): this {
+    if (entries.length !== this.count)
+      throw new RangeError(`withEntries: ${entries.length} entries for an index of ${this.count}`);
+    const copy = Object.create(Object.getPrototypeOf(this) as object) as this;
+    return Object.assign(copy, this, { entries });
   }
 
   get count(): number {

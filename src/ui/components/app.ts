@@ -34,7 +34,7 @@ export function initialState(): AppState {
     panel: 'library',
     notice: '',
     noticeAction: null,
-    library: { parts: [], failures: [], status: IDLE, thumbnails: new Map(), selected: '' },
+    library: { parts: [], failures: [], status: IDLE, thumbnails: new Map(), selected: '', units: {} },
     training: {
       config: DEFAULT_TRAIN,
       pipeline: DEFAULT_TRAIN.pipeline,
@@ -72,6 +72,7 @@ export class SkApp extends LitElement {
         this.training.followLibrary();
         void this.search.refresh();
       },
+      onUnitsChanged: () => this.search.unitsChanged(),
     });
     this.training = new TrainingController(this.store, { onModelChanged: () => void this.search.refresh() });
     this.search = new SearchController(this.store, this.training, this.library);
@@ -143,7 +144,12 @@ export class SkApp extends LitElement {
           <select aria-label="Export embeddings" ?disabled=${!search.index} @change=${(e: Event) => {
             const t = e.target as HTMLSelectElement;
             if (t.value && search.index)
-              exportEmbeddings(t.value as EmbeddingFormat, this.state.library.parts, search.index);
+              exportEmbeddings(
+                t.value as EmbeddingFormat,
+                this.state.library.parts,
+                search.index,
+                this.state.library.units,
+              );
             t.value = '';
           }}>
             <option value="">Export embeddings…</option><option value="csv">as CSV</option><option value="json">as JSON</option><option value="npy">as .npy</option>
@@ -168,7 +174,8 @@ export class SkApp extends LitElement {
     const families = [...new Set(library.parts.map((p) => p.label))].sort();
     switch (this.state.panel) {
       case 'library':
-        return html`<sk-library-panel .parts=${library.parts} .failures=${library.failures} .status=${library.status} .thumbnails=${library.thumbnails} .selected=${library.selected}
+        return html`<sk-library-panel .parts=${library.parts} .failures=${library.failures} .status=${library.status} .thumbnails=${library.thumbnails} .selected=${library.selected} .units=${library.units}
+          @set-units=${(e: CustomEvent<{ folders: string[]; mm: number | null }>) => void this.library.setUnits(e.detail.folders, e.detail.mm)}
           @select-part=${(e: CustomEvent<string>) => this.showSearch(e.detail)}
           @add-files=${(e: CustomEvent<File[]>) => void this.library.add(namedFromInput(e.detail))}
           @drop-items=${async (e: CustomEvent<DataTransfer>) => void this.library.add(await namedFromDrop(e.detail))}
@@ -193,7 +200,7 @@ export class SkApp extends LitElement {
           @train-pause=${() => this.training.pause()} @train-resume=${() => this.training.resume()} @train-stop=${() => this.training.stop()}></sk-train-panel>`;
       }
       case 'search':
-        return html`<sk-search-panel .diffusionApplies=${search.index?.diffusionApplies() ?? true} .parts=${library.parts} .query=${search.query} .hits=${search.hits} .thumbnails=${library.thumbnails}
+        return html`<sk-search-panel .diffusionApplies=${search.index?.diffusionApplies() ?? true} .parts=${library.parts} .query=${search.query} .hits=${search.hits} .thumbnails=${library.thumbnails} .units=${library.units}
           .filters=${search.filters} .families=${families} .busy=${isBusy(search.status)} .failure=${search.status.kind === 'failed' ? search.status.message : ''}
           .trained=${Boolean(training.model)}
           .source=${training.model ? `learned encoder, step ${training.model.manifest.step}` : 'untrained encoder (train one on the Training tab)'}
@@ -207,7 +214,7 @@ export class SkApp extends LitElement {
           .measuring=${isBusy(measure.status)} .failure=${measure.status.kind === 'failed' ? measure.status.message : measure.study.kind === 'failed' ? measure.study.message : ''}
           @run-evaluation=${() => void this.measure.measureQuality()} @run-study=${() => void this.measure.runStudy()} @cancel-measure=${() => this.measure.cancel()} @export-study=${() => this.measure.exportStudy()}></sk-study-panel>`;
       case 'map':
-        return html`<sk-map-panel .parts=${library.parts} .index=${search.index} .thumbnails=${library.thumbnails}
+        return html`<sk-map-panel .parts=${library.parts} .index=${search.index} .thumbnails=${library.thumbnails} .units=${library.units}
           @search-query=${(e: CustomEvent<string>) => this.showSearch(e.detail, 'search')}></sk-map-panel>`;
     }
   }

@@ -2,7 +2,7 @@
 // Renders from properties and sends events up: 'add-files' (File[]), 'reload-demo', 'select-part' (name).
 
 import { LitElement, css, html } from 'lit';
-import { unitsLabel } from '../../core/mesh/types';
+import { partSize, UNIT_CHOICES } from '../../core/units';
 import { ACCEPT, FORMAT_NAMES } from '../../core/mesh/formats';
 import type { LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
@@ -15,6 +15,7 @@ export class SkLibraryPanel extends LitElement {
     status: { attribute: false },
     thumbnails: { attribute: false },
     selected: { type: String },
+    units: { attribute: false },
     filter: { state: true },
     limit: { state: true },
   };
@@ -26,6 +27,8 @@ export class SkLibraryPanel extends LitElement {
   declare status: LibraryState['status'];
   declare thumbnails: ReadonlyMap<string, string>;
   declare selected: string;
+  /** Millimetres per file unit by folder, for files whose format has no units. */
+  declare units: Readonly<Record<string, number>>;
   declare filter: string;
 
   constructor() {
@@ -35,6 +38,7 @@ export class SkLibraryPanel extends LitElement {
     this.status = { kind: 'idle' };
     this.thumbnails = new Map();
     this.selected = '';
+    this.units = {};
     this.filter = '';
     this.limit = CARDS_PER_PAGE;
   }
@@ -61,6 +65,13 @@ export class SkLibraryPanel extends LitElement {
     .meta { font-size: 12px; color: #5a6870; }
     .tag { display: inline-block; background: #e3eeee; color: #1f4f52; border-radius: 3px; padding: 0 5px; margin-right: 4px; font-size: 11px; }
     .open { background: #f6e7d2; color: #7a4a12; }
+    details.units { margin: 0 0 10px; }
+    details.units summary { cursor: pointer; color: #3d4b52; }
+    details.units table { border-collapse: collapse; margin: 6px 0; }
+    details.units td, details.units th { padding: 3px 10px 3px 0; text-align: left; font-weight: normal; }
+    details.units th { color: #5a6870; font-size: 12px; }
+    details.units select, details.units input { font: inherit; padding: 2px 4px; }
+    details.units input { width: 7em; }
     input[type=search] { font: inherit; padding: 5px 8px; border: 1px solid #b7ab96; border-radius: 4px; min-width: 200px; }
   `;
 
@@ -135,15 +146,17 @@ export class SkLibraryPanel extends LitElement {
         </div>`
           : null
       }
+      ${this.renderUnits()}
       <div class="grid">
         ${shown.slice(0, this.limit).map((p) => {
           const thumb = this.thumbnails.get(p.name);
-          const [x, y, z] = p.info.extents;
+          const size = partSize(p.info, this.units[p.label]);
+          const [x, y, z] = size.size;
           return html`<button class="card" aria-pressed=${this.selected === p.name} @click=${() => this.emit('select-part', p.name)} title=${p.name}>
             ${thumb ? html`<img src=${thumb} alt="" />` : html`<div class="ph"></div>`}
             <div class="name">${p.name.split('/').pop()}</div>
             <div class="meta"><span class="tag">${p.label || '(top level)'}</span>${p.info.format}</div>
-            <div class="meta">${fmt(x)} × ${fmt(y)} × ${fmt(z)} ${unitsLabel(p.info)}</div>
+            <div class="meta">${fmt(x)} × ${fmt(y)} × ${fmt(z)} ${size.units}</div>
             <div class="meta">${p.info.triangleCount ? `${p.info.triangleCount} triangles` : `${p.info.vertexCount} points`}
               ${p.info.triangleCount ? (p.info.closed ? html`· closed` : html`· <span class="tag open">open</span>`) : ''}</div>
           </button>`;
@@ -155,6 +168,66 @@ export class SkLibraryPanel extends LitElement {
           <button @click=${() => (this.limit += CARDS_PER_PAGE)}>Show ${Math.min(CARDS_PER_PAGE, shown.length - this.limit)} more</button></div>`
           : null
       }`;
+  }
+
+  /** Per folder with files that do not say their units: what one unit is (kept with the library). */
+  private renderUnits() {
+    const unitless = new Map<string, number>();
+    for (const p of this.parts) if (p.info.units !== 'mm') unitless.set(p.label, (unitless.get(p.label) ?? 0) + 1);
+    if (unitless.size === 0) return null;
+    const folders = [...unitless].sort(([a], [b]) => a.localeCompare(b));
+    const unset = folders.filter(([f]) => !this.units[f]).length;
+    const set = (folder: string, mm: number | null) => this.emit('set-units', { folders: [folder], mm });
+    return html`<details class="units" data-testid="units">
+      <summary>Sizes: ${unset ? `${unset} of ${folders.length} folders shown in file units` : 'every folder in mm'} — say what one unit is</summary>
+      <div class="summary">STEP, IGES, glTF and 3MF files state their units, so their sizes are in millimetres. STL, OBJ, PLY, OFF and
+        VRML files and point lists do not: say what one unit measures in each folder, and their sizes, the size filter and
+        exported embeddings use millimetres too.</div>
+      <table>
+        <tr><th>Folder</th><th>Parts without units</th><th>One unit is</th><th>or mm per unit</th></tr>
+        ${
+          folders.length > 1
+            ? html`<tr><td><em>every folder below</em></td><td>${folders.reduce((n, [, c]) => n + c, 0)}</td>
+            <td><select aria-label="Units of every folder" @change=${(e: Event) => {
+              const c = UNIT_CHOICES.find((u) => u.name === (e.target as HTMLSelectElement).value);
+              this.emit('set-units', { folders: folders.map(([f]) => f), mm: c ? c.mm : null });
+              (e.target as HTMLSelectElement).value = 'choose';
+            }}>
+              <option value="choose" selected disabled>set all…</option>
+              <option value="">not known (file units)</option>
+              ${UNIT_CHOICES.map((c) => html`<option value=${c.name}>${c.name}</option>`)}
+            </select></td><td></td></tr>`
+            : null
+        }
+        ${folders.map(([folder, n]) => {
+          const mm = this.units[folder];
+          const named = UNIT_CHOICES.find((c) => c.mm === mm);
+          const choice = mm === undefined ? '' : named ? named.name : 'other';
+          return html`<tr>
+            <td>${folder || '(top level)'}</td><td>${n}</td>
+            <td><select aria-label=${`Units of ${folder || 'the top level'}`} @change=${(e: Event) => {
+              const v = (e.target as HTMLSelectElement).value;
+              const c = UNIT_CHOICES.find((u) => u.name === v);
+              if (v === '') set(folder, null);
+              else if (c) set(folder, c.mm);
+            }}>
+              <option value="" ?selected=${choice === ''}>not known (file units)</option>
+              ${UNIT_CHOICES.map((c) => html`<option value=${c.name} ?selected=${choice === c.name}>${c.name}</option>`)}
+              <option value="other" ?disabled=${choice !== 'other'} ?selected=${choice === 'other'}>other factor</option>
+            </select></td>
+            <td><input type="number" min="0" step="any" aria-label=${`Millimetres per unit in ${folder || 'the top level'}`}
+              .value=${mm === undefined ? '' : String(mm)} @change=${(e: Event) => {
+                const v = Number((e.target as HTMLInputElement).value);
+                set(
+                  folder,
+                  (e.target as HTMLInputElement).value === '' ? null : v > 0 && Number.isFinite(v) ? v : (mm ?? null),
+                );
+                if (!(v > 0)) (e.target as HTMLInputElement).value = mm === undefined ? '' : String(mm);
+              }} /></td>
+          </tr>`;
+        })}
+      </table>
+    </details>`;
   }
 }
 

@@ -1,7 +1,7 @@
 // <sk-map-panel>: every part as a dot at its embedding's two leading principal components, coloured by
 // folder; hover names the part and shows its thumbnail, a click searches from it ('search-query').
 
-import { unitsLabel } from '../../core/mesh/types';
+import { partSize } from '../../core/units';
 import { LitElement, css, html, svg } from 'lit';
 import type { LibraryPart } from '../../core/library';
 import type { EmbeddingIndex } from '../../core/retrieval/index';
@@ -38,19 +38,24 @@ export class SkMapPanel extends LitElement {
     parts: { attribute: false },
     index: { attribute: false },
     thumbnails: { attribute: false },
+    units: { attribute: false },
     hover: { state: true },
   };
   declare parts: readonly LibraryPart[];
   declare index: EmbeddingIndex | null;
   declare thumbnails: ReadonlyMap<string, string>;
+  /** Millimetres per file unit by folder, for files whose format has no units. */
+  declare units: Readonly<Record<string, number>>;
   declare hover: number;
   private xy: Float32Array | null = null;
+  private xyOf: Float32Array | null = null;
 
   constructor() {
     super();
     this.parts = [];
     this.index = null;
     this.thumbnails = new Map();
+    this.units = {};
     this.hover = -1;
   }
 
@@ -68,8 +73,11 @@ export class SkMapPanel extends LitElement {
   `;
 
   protected override willUpdate(changed: Map<string, unknown>): void {
-    if (changed.has('index') && this.index && this.index.count >= 3)
+    // An index with other entries (sizes said again) shares its vectors: the map stays.
+    if (changed.has('index') && this.index && this.index.count >= 3 && this.index.vectors !== this.xyOf) {
       this.xy = pca2d(this.index.vectors, this.index.dim, 60);
+      this.xyOf = this.index.vectors;
+    }
   }
 
   protected override render() {
@@ -117,10 +125,13 @@ export class SkMapPanel extends LitElement {
         ${
           h
             ? html`<div class="card">${this.thumbnails.get(h.name) ? html`<img src=${this.thumbnails.get(h.name)} alt="" />` : null}
-          <div><strong>${h.name}</strong></div><div>${h.info.extents.map((v) => v.toPrecision(3)).join(' × ')} ${unitsLabel(h.info)}</div><div>click to find its look-alikes</div></div>`
+          <div><strong>${h.name}</strong></div><div>${sizeText(partSize(h.info, this.units[h.label]))}</div><div>click to find its look-alikes</div></div>`
             : html`<div class="card">Point at a dot to see the part; click it to search from it. Axes are the embedding's two main directions of spread.</div>`
         }
       </div>`;
   }
 }
+const sizeText = (s: { size: readonly number[]; units: string }) =>
+  `${s.size.map((v) => v.toPrecision(3)).join(' × ')} ${s.units}`;
+
 customElements.define('sk-map-panel', SkMapPanel);

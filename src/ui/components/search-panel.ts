@@ -2,7 +2,7 @@
 // scores and real sizes; choosing a result shows it beside the query in linked 3-D views.
 // Sends 'search-query' (part name), 'search-file' (File), 'search-filters' upward.
 
-import { unitsLabel } from '../../core/mesh/types';
+import { partSize } from '../../core/units';
 import { ACCEPT } from '../../core/mesh/formats';
 import { LitElement, css, html } from 'lit';
 import type { Object3D } from 'three';
@@ -20,6 +20,7 @@ export class SkSearchPanel extends LitElement {
     query: { attribute: false },
     hits: { attribute: false },
     thumbnails: { attribute: false },
+    units: { attribute: false },
     filters: { attribute: false },
     families: { attribute: false },
     source: { type: String },
@@ -36,6 +37,8 @@ export class SkSearchPanel extends LitElement {
   declare query: LibraryPart | null;
   declare hits: readonly Hit[];
   declare thumbnails: ReadonlyMap<string, string>;
+  /** Millimetres per file unit by folder, for files whose format has no units. */
+  declare units: Readonly<Record<string, number>>;
   declare filters: SearchFilters;
   declare families: readonly string[];
   declare source: string;
@@ -61,6 +64,7 @@ export class SkSearchPanel extends LitElement {
     this.query = null;
     this.hits = [];
     this.thumbnails = new Map();
+    this.units = {};
     this.filters = DEFAULT_FILTERS;
     this.families = [];
     this.source = '';
@@ -212,14 +216,16 @@ export class SkSearchPanel extends LitElement {
         <ol data-testid="search-results" aria-label="most similar parts">
           ${this.hits.map((h, i) => {
             const p = this.parts[h.index];
-            const ratio = q.diagonal > 0 ? p.diagonal / q.diagonal : 1;
+            const size = partSize(p.info, this.units[p.label]);
+            const qScale = partSize(q.info, this.units[q.label]).scale;
+            const ratio = q.diagonal > 0 ? (p.diagonal * size.scale) / (q.diagonal * qScale) : 1;
             return html`<li><button aria-pressed=${i === this.chosen} @click=${() => (this.chosen = i)}>
               <span class="rank">${i + 1}</span>
               ${this.thumbnails.get(p.name) ? html`<img src=${this.thumbnails.get(p.name)} alt="" />` : html`<span></span>`}
               <span><span class="score" title="direct similarity to the query (cosine of the embeddings)">${this.trained ? h.score.toFixed(3) : '—'}</span> <span class="small">${p.label}</span>
                 ${this.trained ? html`<div class="bar-score" style="width:${Math.max(2, Math.round(Math.max(0, h.score) * 100))}%"></div>` : null}
                 <div class="small">${p.name.split('/').pop()}</div>
-                <div class="small">${p.info.extents.map((v) => v.toPrecision(3)).join(' × ')} ${unitsLabel(p.info)} · size ×${ratio.toFixed(2)}</div></span>
+                <div class="small">${size.size.map((v) => v.toPrecision(3)).join(' × ')} ${size.units} · size ×${ratio.toFixed(2)}</div></span>
             </button></li>`;
           })}
           ${this.hits.length === 0 ? html`<li class="empty">No part passes the filters.</li>` : null}

@@ -102,6 +102,13 @@ export async function loadLibrary(onProgress?: (done: number, total: number) => 
   }
 }
 
+/** Millimetres per file unit by folder (files whose format has no units), as a person set them; {} when none. */
+export const loadFolderUnits = (): Promise<Record<string, number>> => db.ask({ type: 'load-units' }).catch(() => ({}));
+
+/** Keeps the folders' units with the library. */
+export const saveFolderUnits = (units: Readonly<Record<string, number>>): Promise<null> =>
+  db.ask({ type: 'put-units', units });
+
 /** Makes a checkpoint the current model; resolves to its fingerprint. */
 export const saveModel = (c: CheckpointMessage): Promise<string> =>
   db.ask({ type: 'put-model', checkpoint: { ...c, weightData: c.weightData.slice(0) } });

@@ -14,7 +14,9 @@ import {
   exportDatabase,
   importDatabase,
   loadLibrary as loadStoredLibrary,
+  loadFolderUnits,
   loadThumbnails,
+  saveFolderUnits,
   saveLibrary,
   saveThumbnails,
 } from './library-db';
@@ -27,6 +29,8 @@ export const SAMPLING = { ...DEFAULT_SAMPLING, points: POOL_POINTS };
 export interface LibraryEvents {
   /** The set of parts changed (an import ended, the library was emptied or restored). */
   onChanged(): void;
+  /** A folder's units changed (sizes and the size filter follow). */
+  onUnitsChanged(): void;
 }
 
 export class LibraryController {
@@ -59,6 +63,7 @@ export class LibraryController {
       }),
     );
     if (!stored || stored.parts.length === 0) return this.loadDemo();
+    const units = await loadFolderUnits();
     const kept = (await loadThumbnails()) ?? new Map<string, string>();
     const names = new Set(stored.parts.map((p) => p.name));
     const thumbnails = new Map([...kept].filter(([name]) => names.has(name)));
@@ -68,6 +73,7 @@ export class LibraryController {
       selected: stored.parts[0].name,
       status: { kind: 'done', ms: 0 },
       thumbnails,
+      units,
     });
     stored.parts.filter((p) => !thumbnails.has(p.name)).forEach((p) => this.queueThumbnail(p));
     this.events.onChanged();
@@ -101,8 +107,16 @@ export class LibraryController {
   }
 
   clear(): void {
-    this.store.patch('library', { parts: [], failures: [], thumbnails: new Map(), selected: '', status: IDLE });
+    this.store.patch('library', {
+      parts: [],
+      failures: [],
+      thumbnails: new Map(),
+      selected: '',
+      status: IDLE,
+      units: {},
+    });
     void saveLibrary({ parts: [], failures: [], source: 'user' });
+    void saveFolderUnits({}).catch(() => null);
     void saveThumbnails(new Map());
     this.events.onChanged();
   }
@@ -134,6 +148,24 @@ export class LibraryController {
         this.store,
         `${file.name} could not be opened as a library file (nothing was changed): ${(err as Error).message}`,
       );
+    }
+  }
+
+  /**
+   * Says what one file unit is in these folders' files that do not say their units (mm per unit), or that it is
+   * not known (null); kept with the library.
+   */
+  async setUnits(folders: readonly string[], mmPerUnit: number | null): Promise<void> {
+    const units = { ...this.state.units };
+    for (const folder of folders)
+      if (mmPerUnit === null) delete units[folder];
+      else units[folder] = mmPerUnit;
+    this.store.patch('library', { units });
+    this.events.onUnitsChanged();
+    try {
+      await saveFolderUnits(units);
+    } catch (err) {
+      say(this.store, `The units could not be kept with the library: ${(err as Error).message}`);
     }
   }
 

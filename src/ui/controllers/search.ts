@@ -3,7 +3,8 @@
 // them; and the ranked results for a query from the library or from a file.
 
 import type { LibraryPart } from '../../core/library';
-import { EmbeddingIndex } from '../../core/retrieval/index';
+import { EmbeddingIndex, type IndexEntry } from '../../core/retrieval/index';
+import { scaleToMm } from '../../core/units';
 import { IDLE, say, STARTED, type AppState, type SearchFilters, type SearchState, type Store } from '../state';
 import { loadEmbeddings, saveEmbeddings } from './library-db';
 import type { LibraryController } from './library';
@@ -63,11 +64,7 @@ export class SearchController {
         if (version === this.version && key) await saveEmbeddings(key, names, vectors, dim).catch(() => false);
       }
       if (version !== this.version) return;
-      const index = new EmbeddingIndex(
-        vectors,
-        dim,
-        parts.map((p) => ({ name: p.name, label: p.label, diagonal: p.diagonal })),
-      );
+      const index = new EmbeddingIndex(vectors, dim, this.entries(parts));
       const selected = this.store.value.library.selected;
       const query = this.state.query ?? parts.find((p) => p.name === selected) ?? parts[0];
       this.patch({ index, query, status: { kind: 'done' } });
@@ -118,6 +115,26 @@ export class SearchController {
     }
   }
 
+  /**
+   * The index's entries: sizes in mm where the part's units are known (its format's, or its folder's as set), so
+   * the size filter compares a part drawn in inches with one in mm; otherwise in file units.
+   */
+  private entries(parts: readonly LibraryPart[]): IndexEntry[] {
+    return parts.map((p) => ({ name: p.name, label: p.label, diagonal: p.diagonal * this.mmPer(p) }));
+  }
+
+  private mmPer(p: LibraryPart): number {
+    return scaleToMm(p.info, this.store.value.library.units[p.label]) ?? 1;
+  }
+
+  /** A folder's units changed: the same embeddings with sizes in the new units, and the search again. */
+  unitsChanged(): void {
+    const index = this.state.index;
+    if (!index) return;
+    this.patch({ index: index.withEntries(this.entries(this.store.value.library.parts)) });
+    if (this.last) this.rank(this.last.vector, this.last.exclude);
+  }
+
   setFilters(filters: SearchFilters): void {
     this.patch({ filters });
     if (this.last) this.rank(this.last.vector, this.last.exclude);
@@ -137,7 +154,7 @@ export class SearchController {
     // ranked() orders by cosine instead where the embedding is too concentrated for diffusion (e.g. untrained).
     const hits = index.ranked(f.ranking, vector, f.k, {
       exclude,
-      ...(f.sizeRatio ? { sizeRatio: f.sizeRatio, queryDiagonal: query.diagonal } : {}),
+      ...(f.sizeRatio ? { sizeRatio: f.sizeRatio, queryDiagonal: query.diagonal * this.mmPer(query) } : {}),
       ...(f.family ? { labels: [f.family] } : {}),
     });
     this.patch({ hits });

@@ -80,6 +80,20 @@ describe('the workbench library in the database', () => {
   });
 });
 
+describe("folders' units (what one unit of a file without units measures)", () => {
+  it('are kept as set, replaced as a whole, and a factor that is not a positive number is refused', async () => {
+    const store = await fresh();
+    expect(await store.folderUnits()).toEqual({});
+    await store.setFolderUnits({ washer: 25.4, '': 1000 });
+    expect(await store.folderUnits()).toEqual({ washer: 25.4, '': 1000 });
+    await store.setFolderUnits({ angle: 10 });
+    expect(await store.folderUnits()).toEqual({ angle: 10 });
+    await expect(store.setFolderUnits({ angle: 0 })).rejects.toThrow(/positive number/);
+    await expect(store.setFolderUnits({ angle: Number.NaN })).rejects.toThrow(/positive number/);
+    expect(await store.folderUnits()).toEqual({ angle: 10 });
+  });
+});
+
 describe('the current model and embeddings by model', () => {
   it('one trained model is kept (the newest), and embeddings for a replaced model are refused as stale', async () => {
     const store = await fresh();
@@ -114,12 +128,14 @@ describe('a library file opened (every row copied into another database)', () =>
     await from.putCurrentModel('fm', { step: 3 }, new Uint8Array([9, 8, 7]));
     const vectors = Float32Array.from({ length: 3 * 5 }, (_, i) => Math.sin(i));
     await from.putEmbeddings('fm', names, vectors, 5);
+    await from.setFolderUnits({ channel: 25.4 });
     const to = await fresh();
     await to.putParts(demoParts('washer', 1)); // replaced by the copy
     await replaceContents(to.db, from.db.sql);
     expect(await to.contents()).toEqual(await from.contents());
     expect(await to.db.currentModel()).toEqual(await from.db.currentModel());
     expect(await to.embeddings('fm', names)).toEqual({ vectors, dim: 5 });
+    expect(await to.folderUnits()).toEqual({ channel: 25.4 }); // the folders' units travel with the file
     await to.putParts(demoParts('washer', 1));
     const ids = await to.db.sql.query<{ id: number }>('SELECT id FROM parts ORDER BY id');
     expect(new Set(ids.rows.map((r) => r.id)).size).toBe(ids.rows.length);

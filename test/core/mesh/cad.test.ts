@@ -8,7 +8,9 @@ import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { initBackend } from '../../../src/core/model/backend';
 import { defaultTrainFor, libraryTraits, POOL_POINTS } from '../../../src/core/model/defaults';
-import { disposeEncoders, embedForRetrieval } from '../../../src/core/model/embed';
+import { disposeEncoders, embedForRetrieval, type Encoders } from '../../../src/core/model/embed';
+import { Trainer } from '../../../src/core/model/trainer';
+import type { TrainConfig } from '../../../src/core/model/train-config';
 import { loadPart, type LibraryPart } from '../../../src/core/library';
 import { importMesh } from '../../../src/core/mesh/import';
 import { loadCadReader } from '../../../src/core/mesh/occt';
@@ -28,6 +30,8 @@ const NAMES = readdirSync(DIR)
   .map((f) => f.slice(0, -5))
   .sort();
 const KICAD_VRML_UNIT_MM = 2.54;
+/** Epochs of the short training run (enough steps for the loss to fall; the full default is far longer). */
+const TWIN_EPOCHS = 10;
 
 const printed: string[] = [];
 beforeAll(async () => {
@@ -61,23 +65,25 @@ describe(`the same ${NAMES.length} KiCad components as STEP and as VRML`, () => 
     }
     expect(printed).toEqual([]);
   }, 120_000);
-  it('each STEP and its VRML find each other as nearest other part, with the untrained encoder', async () => {
-    await initBackend({ prefer: 'wasm' });
+  // Every STEP and its VRML as library parts, and the settings the library would get by default (its parts sit
+  // square in their files' axes: two encoders).
+  const twins = () => {
     const parts: LibraryPart[] = [];
     for (const name of NAMES)
       for (const ext of ['step', 'wrl'])
         parts.push(loadPart(fixture(`kicad/${name}.${ext}`), `${name}.${ext}`, { points: POOL_POINTS, seed: 0 }));
-    // The settings the library would get by default (its parts sit square in their files' axes: two encoders).
     const config = defaultTrainFor(libraryTraits(parts));
     expect(config.pose).toBe('file-and-principal');
-    const enc = untrainedEncoders(config.encoder, config.pose, 0);
+    return { parts, config };
+  };
+  /** Parts whose nearest other part is not their twin (parts come in twin pairs: 2i, 2i + 1). */
+  const missedTwins = (parts: readonly LibraryPart[], enc: Encoders, config: TrainConfig): string[] => {
     const vectors = embedForRetrieval(
       enc,
       parts.map((p) => ({ points: p.points, normals: p.normals })),
       config.points,
       config.pose,
     );
-    disposeEncoders(enc);
     const sim = cosineSimilarity(vectors, vectors.length / parts.length);
     const missed: string[] = [];
     parts.forEach((p, i) => {
@@ -91,8 +97,34 @@ describe(`the same ${NAMES.length} KiCad components as STEP and as VRML`, () => 
       });
       if (Math.floor(best / 2) !== Math.floor(i / 2)) missed.push(`${p.name} → ${parts[best].name}`);
     });
-    expect(missed).toEqual([]);
+    return missed;
+  };
+
+  it('each STEP and its VRML find each other as nearest other part, with the untrained encoder', async () => {
+    await initBackend({ prefer: 'wasm' });
+    const { parts, config } = twins();
+    const enc = untrainedEncoders(config.encoder, config.pose, 0);
+    expect(missedTwins(parts, enc, config)).toEqual([]);
+    disposeEncoders(enc);
   }, 120_000);
+
+  it('… and with an encoder trained on them (the default settings, a short run)', async () => {
+    await initBackend({ prefer: 'wasm' });
+    const { parts, config } = twins();
+    const short = { ...config, epochs: TWIN_EPOCHS };
+    const trainer = new Trainer(
+      parts.map((p) => ({ points: p.points, normals: p.normals })),
+      short,
+    );
+    const run = await trainer.run({ yieldEvery: 1_000 });
+    expect(run.status).toBe('done');
+    expect(trainer.step).toBeGreaterThanOrEqual(20);
+    const first = run.history.slice(0, 5).reduce((s, h) => s + h.loss, 0);
+    const last = run.history.slice(-5).reduce((s, h) => s + h.loss, 0);
+    expect(last).toBeLessThan(first); // it learned something: the loss fell
+    expect(missedTwins(parts, trainer.encoders, short)).toEqual([]);
+    trainer.dispose();
+  }, 300_000);
 });
 
 describe('files that ship with occt-import-js (its test folder, installed with the package)', () => {
