@@ -16,6 +16,8 @@ export interface Progress {
   readonly total: number;
   /** What is being worked on, in plain words (a file name, an augmentation). */
   readonly what: string;
+  /** When the job started (performance.now()), for the time left (words.ts timeLeft); absent when not timed. */
+  readonly startedAt?: number;
 }
 
 /**
@@ -86,6 +88,8 @@ export interface SearchState {
   readonly index: EmbeddingIndex | null;
   readonly query: LibraryPart | null;
   readonly hits: readonly Hit[];
+  /** Each hit's standing: the share of the other parts less similar to the query than it is (standing.ts). */
+  readonly standing: readonly number[];
   readonly filters: SearchFilters;
   /** Embedding the library with the current model. */
   readonly status: JobStatus;

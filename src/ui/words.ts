@@ -2,6 +2,7 @@
 // baselines. Pure functions (no DOM), so they are tested in Node.
 
 import type { EvaluationReport } from '../core/quality/evaluate';
+import type { Progress } from './state';
 
 type Row = NonNullable<EvaluationReport['methods'][keyof EvaluationReport['methods']]>;
 
@@ -53,4 +54,23 @@ export function qualitySummary(r: EvaluationReport): string[] {
     );
   }
   return lines;
+}
+
+/** A duration in words: "42 s", "3 min 5 s", "1 h 12 min". */
+export function formatDuration(sec: number): string {
+  const s = Math.max(0, Math.round(sec));
+  if (s >= 3600) return `${Math.floor(s / 3600)} h ${Math.round((s % 3600) / 60)} min`;
+  const m = Math.floor(s / 60);
+  return m ? `${m} min ${s % 60} s` : `${s} s`;
+}
+
+/**
+ * The time a job has left at its pace so far (the time taken over the share done, the rest at the same rate),
+ * or '' until there is a pace to go by: nothing done yet, or under two seconds in.
+ */
+export function timeLeft(p: Progress, now: number): string {
+  if (p.startedAt === undefined || p.done <= 0 || p.done >= p.total) return '';
+  const elapsed = (now - p.startedAt) / 1000;
+  if (elapsed < 2) return '';
+  return `about ${formatDuration((elapsed / p.done) * (p.total - p.done))} left`;
 }

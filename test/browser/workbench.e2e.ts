@@ -126,6 +126,13 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     const scores = (await page.getByTestId('search-results').locator('.score').allTextContents()).map(Number);
     expect(scores.length).toBe(10);
     for (let i = 1; i < scores.length; i++) expect(scores[i]).toBeLessThanOrEqual(scores[i - 1]);
+    // Beside each, its standing in the library; ordered by similarity, the standings fall with the scores.
+    const standings = (await page.getByTestId('search-results').locator('.standing').allTextContents()).map((t) =>
+      Number(/^closer than (\d+(?:\.\d)?) % of the library$/.exec(t.trim())![1]),
+    );
+    expect(standings.length).toBe(10);
+    for (let i = 1; i < standings.length; i++) expect(standings[i]).toBeLessThanOrEqual(standings[i - 1]);
+    expect(standings[0]).toBeGreaterThan(90);
     await order.selectOption('cosine');
     await expect.poll(async () => page.getByTestId('order-note').count(), { timeout: 10_000 }).toBe(0);
     expect(await page.getByText(/qualified person/).count()).toBeGreaterThan(0);
@@ -369,6 +376,26 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.screenshot({ path: `${ARTIFACTS}/cad-import.png` });
     await page.getByPlaceholder('Filter by name or folder').fill('');
   }, 120_000);
+
+  it("the library's embedding shows its progress and can be stopped; nothing half is kept, and it starts again on request", async () => {
+    // One more part: the library changed, so it is embedded again with the current model.
+    await page
+      .locator('sk-library-panel input[type=file][multiple]')
+      .setInputFiles(['test/fixtures/kicad/TO-92Mini-2.wrl']);
+    await page.getByRole('tab', { name: 'Look-alikes' }).click();
+    const progress = page.getByTestId('embed-progress');
+    await expect
+      .poll(async () => ((await progress.count()) ? progress.textContent() : ''), { timeout: 60_000, interval: 100 })
+      .toMatch(/Embedding the library with the current model: \d+ of 116 parts/);
+    await page.getByRole('button', { name: 'Stop embedding' }).click();
+    await page.getByText(/Embedding was stopped, and nothing of it was kept/).waitFor({ timeout: 10_000 });
+    expect(await page.getByTestId('search-results').locator('li button').count()).toBe(0);
+    await page.getByRole('button', { name: 'Embed the library' }).click();
+    await expect
+      .poll(async () => page.getByTestId('search-results').locator('li button').count(), { timeout: 120_000 })
+      .toBe(10);
+    expect(await progress.count()).toBe(0);
+  }, 180_000);
 
   it('a reload in the middle of training offers to continue, and continuing goes on from the saved step', async () => {
     await page.getByRole('tab', { name: 'Training' }).click();

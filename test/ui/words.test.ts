@@ -1,7 +1,7 @@
 // The quality report's plain words follow the numbers: each sentence is checked on hand-made reports.
 import { describe, expect, it } from 'vitest';
 import type { EvaluationReport } from '../../src/core/quality/evaluate';
-import { qualitySummary } from '../../src/ui/words';
+import { formatDuration, qualitySummary, timeLeft } from '../../src/ui/words';
 
 const row = (nn: number, map: number) => ({ nn, first_tier: 0, second_tier: 0, dcg: 0, map, p_at_5: 0 });
 
@@ -60,5 +60,23 @@ describe('folder marks on the map', () => {
   it('give 32 folders 32 different marks (colour × shape)', () => {
     const marks = new Set(Array.from({ length: 32 }, (_, i) => JSON.stringify(folderMark(i))));
     expect(marks.size).toBe(32);
+  });
+});
+
+describe('time left in words', () => {
+  it('the rest at the pace so far: 30 of 120 parts in 10 s leaves 90 parts, 30 s', () => {
+    expect(timeLeft({ done: 30, total: 120, what: '', startedAt: 1_000 }, 11_000)).toBe('about 30 s left');
+    expect(timeLeft({ done: 10, total: 1000, what: '', startedAt: 0 }, 5_000)).toBe('about 8 min 15 s left');
+  });
+  it('says nothing until there is a pace to go by, or when the job is not timed or is done', () => {
+    expect(timeLeft({ done: 0, total: 10, what: '', startedAt: 0 }, 60_000)).toBe('');
+    expect(timeLeft({ done: 5, total: 10, what: '', startedAt: 0 }, 1_000)).toBe('');
+    expect(timeLeft({ done: 5, total: 10, what: '' }, 60_000)).toBe('');
+    expect(timeLeft({ done: 10, total: 10, what: '', startedAt: 0 }, 60_000)).toBe('');
+  });
+  it('durations read in seconds, minutes or hours', () => {
+    expect(formatDuration(42.4)).toBe('42 s');
+    expect(formatDuration(185)).toBe('3 min 5 s');
+    expect(formatDuration(4320)).toBe('1 h 12 min');
   });
 });

@@ -48,7 +48,15 @@ export function initialState(): AppState {
       modelKnown: false,
       stepMs: null,
     },
-    search: { index: null, query: null, hits: [], filters: DEFAULT_FILTERS, status: IDLE, explanation: null },
+    search: {
+      index: null,
+      query: null,
+      hits: [],
+      standing: [],
+      filters: DEFAULT_FILTERS,
+      status: IDLE,
+      explanation: null,
+    },
     measure: { report: null, status: IDLE, rows: [], study: IDLE },
   };
 }
@@ -200,13 +208,14 @@ export class SkApp extends LitElement {
           @train-pause=${() => this.training.pause()} @train-resume=${() => this.training.resume()} @train-stop=${() => this.training.stop()}></sk-train-panel>`;
       }
       case 'search':
-        return html`<sk-search-panel .diffusionApplies=${search.index?.diffusionApplies() ?? true} .parts=${library.parts} .query=${search.query} .hits=${search.hits} .thumbnails=${library.thumbnails} .units=${library.units}
-          .filters=${search.filters} .families=${families} .busy=${isBusy(search.status)} .failure=${search.status.kind === 'failed' ? search.status.message : ''}
+        return html`<sk-search-panel .diffusionApplies=${search.index?.diffusionApplies() ?? true} .parts=${library.parts} .query=${search.query} .hits=${search.hits} .standing=${search.standing} .thumbnails=${library.thumbnails} .units=${library.units}
+          .filters=${search.filters} .families=${families} .busy=${isBusy(search.status)} .embedding=${search.status} .failure=${search.status.kind === 'failed' ? search.status.message : ''}
           .trained=${Boolean(training.model)}
           .source=${training.model ? `learned encoder, step ${training.model.manifest.step}` : 'untrained encoder (train one on the Training tab)'}
           @search-query=${(e: CustomEvent<string>) => this.showSearch(e.detail)}
           @search-file=${(e: CustomEvent<File>) => void this.search.searchFile(e.detail)}
           @search-filters=${(e: CustomEvent<SearchFilters>) => this.search.setFilters(e.detail)}
+          @cancel-embedding=${() => this.search.cancel()} @embed-library=${() => void this.search.refresh()}
           .explanation=${search.explanation} @explain-match=${(e: CustomEvent<number>) => void this.search.explain(e.detail)}></sk-search-panel>`;
       case 'study':
         return html`<sk-study-panel .report=${measure.report} .rows=${measure.rows} .progress=${measure.study.kind === 'running' ? measure.study.progress : null}

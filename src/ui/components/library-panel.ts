@@ -7,6 +7,7 @@ import { ACCEPT, FORMAT_NAMES } from '../../core/mesh/formats';
 import type { LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
 import { RESTORING, type LibraryState } from '../state';
+import { timeLeft } from '../words';
 
 export class SkLibraryPanel extends LitElement {
   static override properties = {
@@ -125,8 +126,8 @@ export class SkLibraryPanel extends LitElement {
           ? html`<progress max=${s.progress.total} value=${s.progress.done} aria-label="import progress"></progress>
         ${
           s.progress.what === RESTORING
-            ? html`<div class="summary">Opening the kept library: ${s.progress.done} of ${s.progress.total} parts</div>`
-            : html`<div class="summary">Reading ${s.progress.done} of ${s.progress.total}: ${s.progress.what}
+            ? html`<div class="summary">Opening the kept library: ${s.progress.done} of ${s.progress.total} parts${timeLeft(s.progress, performance.now()) ? ` · ${timeLeft(s.progress, performance.now())}` : ''}</div>`
+            : html`<div class="summary">Reading ${s.progress.done} of ${s.progress.total}${timeLeft(s.progress, performance.now()) ? ` (${timeLeft(s.progress, performance.now())})` : ''}: ${s.progress.what}
           <button data-testid="cancel-import" @click=${() => this.emit('cancel-import')}>Stop reading</button></div>`
         }`
           : null

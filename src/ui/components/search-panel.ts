@@ -3,11 +3,13 @@
 // Sends 'search-query' (part name), 'search-file' (File), 'search-filters' upward.
 
 import { partSize } from '../../core/units';
+import { standingWords } from '../../core/retrieval/standing';
+import { timeLeft } from '../words';
 import { ACCEPT } from '../../core/mesh/formats';
 import { LitElement, css, html } from 'lit';
 import type { Object3D } from 'three';
 import type { LibraryPart } from '../../core/library';
-import { DEFAULT_FILTERS, type MatchExplanation, type SearchFilters } from '../state';
+import { DEFAULT_FILTERS, IDLE, type JobStatus, type MatchExplanation, type SearchFilters } from '../state';
 import type { Hit } from '../../core/retrieval/topk';
 import { alignToFrame, meshObject, pointsObject, PALETTE, weightColours } from '../../render/scene';
 import { principalFrame } from '../../core/points/pca';
@@ -19,6 +21,7 @@ export class SkSearchPanel extends LitElement {
     parts: { attribute: false },
     query: { attribute: false },
     hits: { attribute: false },
+    standing: { attribute: false },
     thumbnails: { attribute: false },
     units: { attribute: false },
     filters: { attribute: false },
@@ -26,6 +29,7 @@ export class SkSearchPanel extends LitElement {
     source: { type: String },
     chosen: { state: true },
     busy: { type: Boolean },
+    embedding: { attribute: false },
     failure: { type: String },
     diffusionApplies: { type: Boolean },
     trained: { type: Boolean },
@@ -36,6 +40,8 @@ export class SkSearchPanel extends LitElement {
   declare parts: readonly LibraryPart[];
   declare query: LibraryPart | null;
   declare hits: readonly Hit[];
+  /** Each hit's share of the other parts less similar to the query (standing.ts). */
+  declare standing: readonly number[];
   declare thumbnails: ReadonlyMap<string, string>;
   /** Millimetres per file unit by folder, for files whose format has no units. */
   declare units: Readonly<Record<string, number>>;
@@ -44,6 +50,8 @@ export class SkSearchPanel extends LitElement {
   declare source: string;
   declare chosen: number;
   declare busy: boolean;
+  /** The library's embedding job (progress, stopped). */
+  declare embedding: JobStatus;
   /** Why the library could not be embedded ('' : it could). */
   declare failure: string;
   /** The embedding is spread out enough to order results through the library (else they follow cosine). */
@@ -63,6 +71,7 @@ export class SkSearchPanel extends LitElement {
     this.parts = [];
     this.query = null;
     this.hits = [];
+    this.standing = [];
     this.thumbnails = new Map();
     this.units = {};
     this.filters = DEFAULT_FILTERS;
@@ -70,6 +79,7 @@ export class SkSearchPanel extends LitElement {
     this.source = '';
     this.chosen = 0;
     this.busy = false;
+    this.embedding = IDLE;
     this.failure = '';
     this.diffusionApplies = true;
     this.trained = false;
@@ -98,6 +108,8 @@ export class SkSearchPanel extends LitElement {
     .small { font-size: 12px; color: #5a6870; }
     .views { display: grid; grid-template-columns: 1fr 1fr; gap: 8px; }
     sk-viewer { height: 360px; }
+    .embedding { flex-basis: 100%; font-size: 13px; color: #3d4b52; display: flex; gap: 8px; align-items: center; flex-wrap: wrap; }
+    .embedding progress { width: 180px; }
     .caution { background: #fff6df; border-left: 4px solid #d9a21b; padding: 6px 10px; font-size: 13px; margin-bottom: 10px; }
     .empty { color: #6b5d4d; padding: 20px; }
     .drop { border: 2px dashed #b7ab96; border-radius: 6px; padding: 4px 10px; color: #6b5d4d; }
@@ -143,6 +155,24 @@ export class SkSearchPanel extends LitElement {
     if (!this.why || !['hits', 'query', 'chosen', 'why'].some((k) => changed.has(k))) return;
     const hit = this.hits[this.chosen];
     if (hit) this.emit('explain-match', hit.index);
+  }
+
+  /** Embedding the library: progress, the time left and Stop; once stopped, a way to start again. */
+  private renderEmbedding() {
+    const e = this.embedding;
+    const emit = (name: string) => this.dispatchEvent(new CustomEvent(name, { bubbles: true, composed: true }));
+    if (e.kind === 'running' && e.progress) {
+      const p = e.progress;
+      const left = timeLeft(p, performance.now());
+      return html`<div class="embedding" data-testid="embed-progress">
+        <progress max=${p.total} value=${p.done} aria-label="embedding progress"></progress>
+        Embedding the library with the current model: ${p.done} of ${p.total} parts${left ? ` · ${left}` : ''}
+        <button @click=${() => emit('cancel-embedding')}>Stop embedding</button></div>`;
+    }
+    if (e.kind === 'cancelled')
+      return html`<div class="embedding" role="status">Embedding was stopped, and nothing of it was kept: look-alikes need
+        every part embedded. <button @click=${() => emit('embed-library')}>Embed the library</button></div>`;
+    return null;
   }
 
   protected override render() {
@@ -200,7 +230,8 @@ export class SkSearchPanel extends LitElement {
             ).map(([v, t]) => html`<option value=${v} ?selected=${f.ranking === v}>${t}</option>`)}
           </select></label>
         ${f.ranking === 'diffusion' && !this.diffusionApplies ? html`<span class="small" data-testid="order-note">ordered by similarity: this embedding is too concentrated to order through the library (train a model)</span>` : null}
-        <span class="small" data-testid="search-source">${this.busy ? 'embedding the library…' : this.source}</span>
+        <span class="small" data-testid="search-source">${this.busy ? (this.embedding.kind === 'running' && this.embedding.progress ? '' : 'embedding the library…') : this.source}</span>
+        ${this.renderEmbedding()}
         ${this.failure ? html`<span class="small error" role="alert">${this.failure}</span>` : null}
       </div>
       ${
@@ -208,9 +239,9 @@ export class SkSearchPanel extends LitElement {
           ? html`        <p class="small order-explained" data-testid="order-explained">${
               this.trained
                 ? f.ranking === 'diffusion' && this.diffusionApplies
-                  ? 'Ordered through the library: a part that the query’s close look-alikes also resemble moves up. The number beside each is its direct similarity to the query (1 = the same shape), so it need not fall down the list.'
-                  : 'Ordered by direct similarity to the query (1 = the same shape).'
-                : 'Not trained yet: the encoder has random weights, so every part scores near 1 and the order is rough. Train a model on the Training tab for look-alikes you can rely on.'
+                  ? 'Ordered through the library: a part that the query’s close look-alikes also resemble moves up. The number beside each is its direct similarity to the query (1 = the same shape), so it need not fall down the list; “closer than … %” says how much of the library is less similar.'
+                  : 'Ordered by direct similarity to the query (1 = the same shape); “closer than … %” says how much of the library is less similar.'
+                : 'Not trained yet: the encoder has random weights, so every part scores near 1 and the order is rough (“closer than … %” ranks a result within the library, no more). Train a model on the Training tab for look-alikes you can rely on.'
             }</p>
         <div class="main">
         <ol data-testid="search-results" aria-label="most similar parts">
@@ -224,11 +255,12 @@ export class SkSearchPanel extends LitElement {
               ${this.thumbnails.get(p.name) ? html`<img src=${this.thumbnails.get(p.name)} alt="" />` : html`<span></span>`}
               <span><span class="score" title="direct similarity to the query (cosine of the embeddings)">${this.trained ? h.score.toFixed(3) : '—'}</span> <span class="small">${p.label}</span>
                 ${this.trained ? html`<div class="bar-score" style="width:${Math.max(2, Math.round(Math.max(0, h.score) * 100))}%"></div>` : null}
+                ${this.standing[i] !== undefined ? html`<div class="small standing" title="the share of the other parts in the library that are less similar to the query than this one">${standingWords(this.standing[i])}</div>` : null}
                 <div class="small">${p.name.split('/').pop()}</div>
                 <div class="small">${size.size.map((v) => v.toPrecision(3)).join(' × ')} ${size.units} · size ×${ratio.toFixed(2)}</div></span>
             </button></li>`;
           })}
-          ${this.hits.length === 0 ? html`<li class="empty">No part passes the filters.</li>` : null}
+          ${this.hits.length === 0 && !this.busy && this.embedding.kind !== 'cancelled' ? html`<li class="empty">No part passes the filters.</li>` : null}
         </ol>
         <div>
           <div class="views">

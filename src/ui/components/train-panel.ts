@@ -9,6 +9,7 @@ import { PRESETS } from '../../core/points/augment';
 import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../../core/model/encoder-config';
 import { memberPoses, POSE_LABELS, POSES } from '../../core/model/train-config';
 import { isBusy, type TrainingState } from '../state';
+import { formatDuration } from '../words';
 import './loss-chart';
 
 export class SkTrainPanel extends LitElement {
@@ -141,7 +142,7 @@ export class SkTrainPanel extends LitElement {
           busy
             ? null
             : this.stepMs > 0
-              ? `Estimated training time: about ${formatEta((this.stepMs * members * stepsPerEpoch * c.epochs) / 1000)} (one step timed on this machine: ${Math.round(this.stepMs)} ms), then the library is embedded again.`
+              ? `Estimated training time: about ${formatDuration((this.stepMs * members * stepsPerEpoch * c.epochs) / 1000)} (one step timed on this machine: ${Math.round(this.stepMs)} ms), then the library is embedded again.`
               : this.partCount >= 2
                 ? 'Timing one step to estimate the training time…'
                 : ''
@@ -157,7 +158,7 @@ export class SkTrainPanel extends LitElement {
       <div>
         <progress max=${p?.totalSteps ?? 1} value=${p?.step ?? 0} aria-label="training progress"></progress>
         <div class="stats" data-testid="train-stats">
-          ${statusLine(s, p !== null)}${p ? html` · step ${p.step} of ${p.totalSteps}${p.members > 1 ? ` (encoder ${p.member + 1} of ${p.members}: ${POSE_LABELS[memberPoses(c.pose)[p.member] ?? c.pose]})` : ''} · loss ${p.loss.toFixed(4)} · ${p.samplesPerSec.toFixed(1)} parts/s · ${p.msPerStep.toFixed(0)} ms a step · ${formatEta(p.etaSec)} left · lr ${p.learningRate.toExponential(1)}` : ''}
+          ${statusLine(s, p !== null)}${p ? html` · step ${p.step} of ${p.totalSteps}${p.members > 1 ? ` (encoder ${p.member + 1} of ${p.members}: ${POSE_LABELS[memberPoses(c.pose)[p.member] ?? c.pose]})` : ''} · loss ${p.loss.toFixed(4)} · ${p.samplesPerSec.toFixed(1)} parts/s · ${p.msPerStep.toFixed(0)} ms a step · ${formatDuration(p.etaSec)} left · lr ${p.learningRate.toExponential(1)}` : ''}
           ${this.backend ? html` · backend ${this.backend}` : ''}
         </div>
         ${s.kind === 'failed' ? html`<div class="error" role="alert">${s.message}</div>` : null}
@@ -192,12 +193,6 @@ function statusLine(s: TrainingState['status'], stepped: boolean): string {
     case 'failed':
       return 'stopped with an error';
   }
-}
-
-function formatEta(sec: number): string {
-  const m = Math.floor(sec / 60),
-    r = Math.round(sec % 60);
-  return m ? `${m} min ${r} s` : `${r} s`;
 }
 
 customElements.define('sk-train-panel', SkTrainPanel);

@@ -8,7 +8,7 @@ import { POOL_POINTS } from '../../core/model/defaults';
 import type { FileInput } from '../../worker/protocol';
 import { fetchDemoLibrary } from '../demo-library';
 import { readFiles, type NamedFile } from '../files';
-import { IDLE, RESTORING, say, type AppState, type Store } from '../state';
+import { IDLE, RESTORING, say, type AppState, type Progress, type Store } from '../state';
 import { LibraryClient, type TimeLimits } from './library-client';
 import {
   exportDatabase,
@@ -57,9 +57,10 @@ export class LibraryController {
 
   /** The saved library, or the demo library on first start. */
   async restore(): Promise<void> {
+    const startedAt = performance.now();
     const stored = await loadStoredLibrary((done, total) =>
       this.store.patch('library', {
-        status: { kind: 'running', progress: { done, total, what: RESTORING } },
+        status: { kind: 'running', progress: { done, total, what: RESTORING, startedAt } },
       }),
     );
     if (!stored || stored.parts.length === 0) return this.loadDemo();
@@ -198,11 +199,12 @@ export class LibraryController {
       this.store.patch('library', { status: { kind: 'done', ms: 0 } });
       return;
     }
+    const startedAt = performance.now();
     this.store.patch('library', {
-      status: { kind: 'running', progress: { done: 0, total: inputs.length, what: inputs[0].name } },
+      status: { kind: 'running', progress: { done: 0, total: inputs.length, what: inputs[0].name, startedAt } },
     });
     let flushAt = 0;
-    const flush = (progress: { done: number; total: number; what: string } | null) => {
+    const flush = (progress: Progress | null) => {
       flushAt = performance.now();
       const selected = this.state.selected || parts[0]?.name || '';
       this.store.patch('library', {
@@ -221,7 +223,7 @@ export class LibraryController {
         },
         onFailure: (failure) => failures.push(failure),
         onProgress: (done, total, what) => {
-          if (performance.now() - flushAt > 100 || done === total) flush({ done, total, what });
+          if (performance.now() - flushAt > 100 || done === total) flush({ done, total, what, startedAt });
         },
       });
       flush(null);

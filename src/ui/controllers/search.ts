@@ -5,10 +5,18 @@
 import type { LibraryPart } from '../../core/library';
 import { EmbeddingIndex, type IndexEntry } from '../../core/retrieval/index';
 import { scaleToMm } from '../../core/units';
+import { shareBelow } from '../../core/retrieval/standing';
 import { IDLE, say, STARTED, type AppState, type SearchFilters, type SearchState, type Store } from '../state';
 import { loadEmbeddings, saveEmbeddings } from './library-db';
 import type { LibraryController } from './library';
 import type { TrainingController } from './training';
+
+/**
+ * Parts a request to the training worker embeds: a multiple of embedParts' batch (32), so the worker runs the same
+ * batches as for one request over the whole library and the bytes are the same; small, so a stop waits at most
+ * one request (a few seconds) and progress moves often.
+ */
+const EMBED_CHUNK = 32;
 
 export class SearchController {
   private version = 0;
@@ -43,7 +51,7 @@ export class SearchController {
     const parts = this.store.value.library.parts;
     const version = ++this.version;
     if (parts.length === 0) {
-      this.patch({ index: null, hits: [], query: null, status: IDLE });
+      this.patch({ index: null, hits: [], standing: [], query: null, status: IDLE });
       return;
     }
     this.patch({ status: STARTED });
@@ -55,13 +63,10 @@ export class SearchController {
       if (stored) {
         ({ vectors, dim } = stored);
       } else {
-        const { model, config } = this.training.state;
-        ({ vectors, dim } = await this.training.client.embed(
-          parts.map((p) => ({ points: p.points, normals: p.normals })),
-          model,
-          config,
-        ));
-        if (version === this.version && key) await saveEmbeddings(key, names, vectors, dim).catch(() => false);
+        const embedded = await this.embedLibrary(parts, version);
+        if (!embedded) return; // stopped, or a newer refresh took over
+        ({ vectors, dim } = embedded);
+        if (key) await saveEmbeddings(key, names, vectors, dim).catch(() => false);
       }
       if (version !== this.version) return;
       const index = new EmbeddingIndex(vectors, dim, this.entries(parts));
@@ -73,6 +78,49 @@ export class SearchController {
       if (version === this.version)
         this.patch({ status: { kind: 'failed', message: `Embedding failed: ${(err as Error).message}` } });
     }
+  }
+
+  /**
+   * Embeddings of the library with the current model, a few parts per request, with progress and the time left;
+   * null when stopped or overtaken by a newer refresh (nothing is kept then).
+   */
+  private async embedLibrary(
+    parts: readonly LibraryPart[],
+    version: number,
+  ): Promise<{ vectors: Float32Array; dim: number } | null> {
+    const { model, config } = this.training.state;
+    const total = parts.length;
+    const startedAt = performance.now();
+    const pieces: Float32Array[] = [];
+    let dim = 0;
+    for (let start = 0; start < total; start += EMBED_CHUNK) {
+      if (version !== this.version) return null;
+      this.patch({
+        status: { kind: 'running', progress: { done: start, total, what: 'embedding the library', startedAt } },
+      });
+      const r = await this.training.client.embed(
+        parts.slice(start, start + EMBED_CHUNK).map((p) => ({ points: p.points, normals: p.normals })),
+        model,
+        config,
+      );
+      pieces.push(r.vectors);
+      dim = r.dim;
+    }
+    if (version !== this.version) return null;
+    const vectors = new Float32Array(total * dim);
+    let o = 0;
+    for (const v of pieces) {
+      vectors.set(v, o);
+      o += v.length;
+    }
+    return { vectors, dim };
+  }
+
+  /** Stops embedding the library: look-alikes wait until it is embedded again (`refresh`); nothing half is kept. */
+  cancel(): void {
+    if (this.state.status.kind !== 'running') return;
+    this.version++; // the embedding under way ends after the request in hand, and keeps nothing
+    this.patch({ status: { kind: 'cancelled' }, index: null, hits: [], standing: [] });
   }
 
   /** Results for a part: from the library (its stored embedding) or from elsewhere (embedded now). */
@@ -157,6 +205,11 @@ export class SearchController {
       ...(f.sizeRatio ? { sizeRatio: f.sizeRatio, queryDiagonal: query.diagonal * this.mmPer(query) } : {}),
       ...(f.family ? { labels: [f.family] } : {}),
     });
-    this.patch({ hits });
+    const standing = shareBelow(
+      index.scores(vector),
+      hits.map((h) => h.index),
+      exclude,
+    );
+    this.patch({ hits, standing });
   }
 }
