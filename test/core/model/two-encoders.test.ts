@@ -145,6 +145,24 @@ describe('two encoders, one after the other (file-and-principal)', () => {
     [straight, first, second].forEach((t) => t.dispose());
   });
 
+  it('embedding a library 32 parts a request (as the workbench does) gives the bytes of one request', () => {
+    const t = new Trainer(demo, pair);
+    const parts = demo.slice(0, 70),
+      n = 128;
+    const whole = embedForRetrieval(t.encoders, parts, n, 'file-and-principal');
+    const pieces = [0, 32, 64].map((s) =>
+      embedForRetrieval(t.encoders, parts.slice(s, s + 32), n, 'file-and-principal'),
+    );
+    const joined = new Float32Array(whole.length);
+    let o = 0;
+    for (const p of pieces) {
+      joined.set(p, o);
+      o += p.length;
+    }
+    expect(Buffer.from(joined.buffer).equals(Buffer.from(whole.buffer))).toBe(true);
+    t.dispose();
+  });
+
   it('refuses early stopping, which would leave the second encoder untrained', () => {
     expect(() => new Trainer(demo, { ...pair, heldOutFraction: 0.2, patience: 2 })).toThrow(
       /early stopping .* two encoders/,
