@@ -10,6 +10,7 @@ import {
   DoubleSide,
   Matrix4,
   Mesh,
+  type Material,
   MeshStandardMaterial,
   Points,
   PointsMaterial,
@@ -70,16 +71,38 @@ export function weightColours(weights: Float32Array, max: number): Float32Array 
   return out;
 }
 
+/**
+ * Materials shared by every object of a kind, for the life of the page (or worker). three.js compiles a shader
+ * program per material set-up and frees it when the last material using it is disposed; with software WebGL a
+ * compile took 100–150 ms, which every tab switch paid again while each view made and disposed its own materials
+ * (measured in headless Chromium: a switch to Look-alikes had two long tasks of ~110–250 ms; with shared
+ * materials the second and later switches had none).
+ */
+const sharedMaterials = new Map<string, Material>();
+function shared<M extends Material>(key: string, make: () => M): M {
+  let m = sharedMaterials.get(key) as M | undefined;
+  if (!m) {
+    m = make();
+    m.userData.shared = true;
+    sharedMaterials.set(key, m);
+  }
+  return m;
+}
+
 export function pointsObject(points: Float32Array, size = 0.025, colour?: number, colours?: Float32Array): Points {
   const g = new BufferGeometry();
   g.setAttribute('position', new BufferAttribute(points, 3));
   if (colour === undefined) g.setAttribute('color', new BufferAttribute(colours ?? rampColours(points), 3));
-  const m = new PointsMaterial({
-    size,
-    vertexColors: colour === undefined,
-    color: colour ?? 0xffffff,
-    sizeAttenuation: true,
-  });
+  const m = shared(
+    `points:${size}:${colour ?? 'ramp'}`,
+    () =>
+      new PointsMaterial({
+        size,
+        vertexColors: colour === undefined,
+        color: colour ?? 0xffffff,
+        sizeAttenuation: true,
+      }),
+  );
   return new Points(g, m);
 }
 
@@ -100,7 +123,17 @@ export function meshObject(
   // Both sides: an open mesh (a surface export, a scan) would otherwise show holes where its back faces are culled.
   return new Mesh(
     g,
-    new MeshStandardMaterial({ color: colour, metalness: 0.3, roughness: 0.55, flatShading: true, side: DoubleSide }),
+    shared(
+      `mesh:${colour}`,
+      () =>
+        new MeshStandardMaterial({
+          color: colour,
+          metalness: 0.3,
+          roughness: 0.55,
+          flatShading: true,
+          side: DoubleSide,
+        }),
+    ),
   );
 }
 
@@ -117,13 +150,17 @@ export function litScene(): Scene {
   return scene;
 }
 
+/** Frees an object's geometry and its own materials (shared ones stay, with their compiled programs). */
 export function disposeObject(obj: Object3D): void {
+  const own = (m: Material) => {
+    if (!m.userData.shared) m.dispose();
+  };
   obj.traverse((o) => {
     const withGeometry = o as Mesh;
     withGeometry.geometry?.dispose();
     const mat = withGeometry.material;
-    if (Array.isArray(mat)) mat.forEach((m) => m.dispose());
-    else mat?.dispose();
+    if (Array.isArray(mat)) mat.forEach(own);
+    else if (mat) own(mat);
   });
 }
 

@@ -11,25 +11,33 @@ export function pca2d(vectors: Float32Array, dim: number, iterations = 100): Flo
   for (let i = 0; i < n; i++) for (let d = 0; d < dim; d++) centred[i * dim + d] = vectors[i * dim + d] - mean[d];
   const rng = createRng(7);
   const components: Float64Array[] = [];
+  const xv = new Float64Array(n);
   for (let c = 0; c < 2; c++) {
     let v = Float64Array.from({ length: dim }, () => rng.normal());
     for (let it = 0; it < iterations; it++) {
       // w = Xᵀ (X v), with earlier components projected out.
-      const xv = new Float64Array(n);
       for (let i = 0; i < n; i++) {
         let s = 0;
-        for (let d = 0; d < dim; d++) s += centred[i * dim + d] * v[d];
+        const o = i * dim;
+        for (let d = 0; d < dim; d++) s += centred[o + d] * v[d];
         xv[i] = s;
       }
       const w = new Float64Array(dim);
-      for (let i = 0; i < n; i++) for (let d = 0; d < dim; d++) w[d] += centred[i * dim + d] * xv[i];
+      for (let i = 0; i < n; i++) {
+        const o = i * dim,
+          x = xv[i];
+        for (let d = 0; d < dim; d++) w[d] += centred[o + d] * x;
+      }
       for (const u of components) {
         let dot = 0;
         for (let d = 0; d < dim; d++) dot += w[d] * u[d];
         for (let d = 0; d < dim; d++) w[d] -= dot * u[d];
       }
-      const norm = Math.hypot(...w) || 1;
-      v = w.map((x) => x / norm);
+      let sq = 0;
+      for (let d = 0; d < dim; d++) sq += w[d] * w[d];
+      const inv = sq > 0 ? 1 / Math.sqrt(sq) : 1;
+      for (let d = 0; d < dim; d++) w[d] *= inv;
+      v = w;
     }
     components.push(v);
   }

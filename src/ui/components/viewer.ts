@@ -15,7 +15,7 @@ export class SkViewer extends LitElement {
   declare link: CameraLink | null;
   declare caption: string;
 
-  private readonly view = new ViewerController(this, () => this.renderRoot.querySelector('canvas'));
+  private readonly view = new ViewerController(this, () => this.renderRoot.querySelector('.stage'));
 
   constructor() {
     super();
@@ -26,6 +26,7 @@ export class SkViewer extends LitElement {
 
   static override styles = css`
     :host { display: block; position: relative; min-height: 200px; background: #f4f1ea; border: 1px solid #d8d1c3; border-radius: 6px; overflow: hidden; }
+    .stage { position: absolute; inset: 0; }
     canvas { width: 100%; height: 100%; display: block; outline: none; }
     .caption { position: absolute; left: 8px; top: 6px; font-size: 12px; color: #1d2b33; background: rgba(244,241,234,0.85); padding: 1px 6px; border-radius: 3px; pointer-events: none; }
     .missing { position: absolute; inset: 0; display: grid; place-items: center; color: #6b5d4d; padding: 12px; text-align: center; }
@@ -37,7 +38,7 @@ export class SkViewer extends LitElement {
   }
 
   protected override render() {
-    return html`<canvas tabindex="0" aria-label="3-D view: drag to turn, scroll to zoom"></canvas>
+    return html`<div class="stage"></div>
       ${this.caption ? html`<div class="caption">${this.caption}</div>` : null}
       ${this.view.webglMissing ? html`<div class="missing">This browser offers no WebGL, so the 3-D view is off. Thumbnails and results still work.</div>` : null}`;
   }
