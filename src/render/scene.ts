@@ -8,6 +8,7 @@ import {
   Color,
   DirectionalLight,
   DoubleSide,
+  Group,
   Matrix4,
   Mesh,
   type Material,
@@ -84,16 +85,15 @@ function shared<M extends Material>(key: string, make: () => M): M {
   if (!m) {
     m = make();
     m.userData.shared = true;
+    m.userData.key = key;
     sharedMaterials.set(key, m);
   }
   return m;
 }
 
-export function pointsObject(points: Float32Array, size = 0.025, colour?: number, colours?: Float32Array): Points {
-  const g = new BufferGeometry();
-  g.setAttribute('position', new BufferAttribute(points, 3));
-  if (colour === undefined) g.setAttribute('color', new BufferAttribute(colours ?? rampColours(points), 3));
-  const m = shared(
+/** Points of one size: one colour, or coloured by their own colour attribute (`colour` undefined). */
+function pointsMaterial(size: number, colour?: number): PointsMaterial {
+  return shared(
     `points:${size}:${colour ?? 'ramp'}`,
     () =>
       new PointsMaterial({
@@ -103,7 +103,31 @@ export function pointsObject(points: Float32Array, size = 0.025, colour?: number
         sizeAttenuation: true,
       }),
   );
-  return new Points(g, m);
+}
+
+/** A lit, flat-shaded surface of one colour, drawn from both sides. */
+function meshMaterial(colour: number): MeshStandardMaterial {
+  // Both sides: an open mesh (a surface export, a scan) would otherwise show holes where its back faces are culled.
+  return shared(
+    `mesh:${colour}`,
+    () =>
+      new MeshStandardMaterial({ color: colour, metalness: 0.3, roughness: 0.55, flatShading: true, side: DoubleSide }),
+  );
+}
+
+/** The shared material a key names (`userData.key` of a material made here), e.g. in a worker that draws a view. */
+export function materialFromKey(key: string): Material {
+  const [kind, a, b] = key.split(':');
+  if (kind === 'points') return pointsMaterial(Number(a), b === 'ramp' ? undefined : Number(b));
+  if (kind === 'mesh') return meshMaterial(Number(a));
+  throw new RangeError(`no material is named "${key}"`);
+}
+
+export function pointsObject(points: Float32Array, size = 0.025, colour?: number, colours?: Float32Array): Points {
+  const g = new BufferGeometry();
+  g.setAttribute('position', new BufferAttribute(points, 3));
+  if (colour === undefined) g.setAttribute('color', new BufferAttribute(colours ?? rampColours(points), 3));
+  return new Points(g, pointsMaterial(size, colour));
 }
 
 /** The mesh in unit-sphere coordinates (same frame as the sampled cloud). */
@@ -120,21 +144,7 @@ export function meshObject(
   g.setAttribute('position', new BufferAttribute(p, 3));
   g.setIndex(new BufferAttribute(indices, 1));
   g.computeVertexNormals();
-  // Both sides: an open mesh (a surface export, a scan) would otherwise show holes where its back faces are culled.
-  return new Mesh(
-    g,
-    shared(
-      `mesh:${colour}`,
-      () =>
-        new MeshStandardMaterial({
-          color: colour,
-          metalness: 0.3,
-          roughness: 0.55,
-          flatShading: true,
-          side: DoubleSide,
-        }),
-    ),
-  );
+  return new Mesh(g, meshMaterial(colour));
 }
 
 export function litScene(): Scene {
@@ -175,3 +185,67 @@ export function alignToFrame(obj: Object3D, frame: ArrayLike<number>): Object3D 
   );
   return obj;
 }
+
+/**
+ * An object as plain arrays, to hand to a worker that draws it: each mesh or point set of it with its geometry
+ * (copies, so they can be transferred), its shared material's key and its placement.
+ */
+export interface ViewObject {
+  readonly kind: 'mesh' | 'points';
+  readonly material: string;
+  readonly position: Float32Array;
+  readonly normal: Float32Array | null;
+  readonly colour: Float32Array | null;
+  readonly index: Uint32Array | null;
+  /** The object's world matrix, column-major (three's Matrix4.elements). */
+  readonly matrix: number[];
+}
+
+export function describeObject(root: Object3D): ViewObject[] {
+  root.updateMatrixWorld(true);
+  const out: ViewObject[] = [];
+  const copy = (g: BufferGeometry, name: string) => {
+    const a = g.getAttribute(name);
+    return a ? new Float32Array(a.array as ArrayLike<number>) : null; // a typed-array copy (from() iterates)
+  };
+  root.traverse((o) => {
+    const drawn = o as Mesh | Points;
+    if (!(drawn instanceof Mesh || drawn instanceof Points)) return;
+    const key = (drawn.material as Material).userData.key as string | undefined;
+    if (!key) return; // only objects made here are drawn elsewhere
+    const g = drawn.geometry;
+    out.push({
+      kind: drawn instanceof Mesh ? 'mesh' : 'points',
+      material: key,
+      position: copy(g, 'position')!,
+      normal: copy(g, 'normal'),
+      colour: copy(g, 'color'),
+      index: g.index ? new Uint32Array(g.index.array as ArrayLike<number>) : null,
+      matrix: [...drawn.matrixWorld.elements],
+    });
+  });
+  return out;
+}
+
+/** The object a description describes (in a worker: its materials are that worker's shared ones). */
+export function buildObject(parts: readonly ViewObject[]): Object3D {
+  const group = new Group();
+  for (const p of parts) {
+    const g = new BufferGeometry();
+    g.setAttribute('position', new BufferAttribute(p.position, 3));
+    if (p.normal) g.setAttribute('normal', new BufferAttribute(p.normal, 3));
+    if (p.colour) g.setAttribute('color', new BufferAttribute(p.colour, 3));
+    if (p.index) g.setIndex(new BufferAttribute(p.index, 1));
+    const o = p.kind === 'mesh' ? new Mesh(g, materialFromKey(p.material)) : new Points(g, materialFromKey(p.material));
+    o.matrixAutoUpdate = false;
+    o.matrix.fromArray(p.matrix);
+    group.add(o);
+  }
+  return group;
+}
+
+/** The buffers of a description, to transfer. */
+export const viewTransfers = (parts: readonly ViewObject[]): ArrayBuffer[] =>
+  parts.flatMap((p) =>
+    [p.position, p.normal, p.colour, p.index].filter((a) => a !== null).map((a) => a.buffer as ArrayBuffer),
+  );

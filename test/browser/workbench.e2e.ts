@@ -118,7 +118,10 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     expect(losses.length).toBe(9);
     expect((losses[7] + losses[8]) / 2).toBeLessThan((losses[0] + losses[1]) / 2);
     const tasks = await longTasks(page);
-    // Measured: 56–75 ms at most once thumbnails moved to their worker (55 tasks of 60–206 ms before); goal 50 ms.
+    // Measured here after requests handed their copies over and the 3-D views moved to the view worker: in most runs
+    // none over 50 ms; in some one of 52–63 ms (the Training tab's first render, or Start) or one of 86–90 ms (a
+    // garbage collection). Before: 56–75 ms; and 55 tasks of 60–206 ms before thumbnails moved to their worker.
+    // Goal 50 ms; the bound leaves room for a loaded machine.
     expect(Math.max(0, ...tasks)).toBeLessThan(100);
   }, 240_000);
 
@@ -146,6 +149,16 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await expect.poll(async () => page.getByTestId('order-note').count(), { timeout: 10_000 }).toBe(0);
     expect(await page.getByText(/qualified person/).count()).toBeGreaterThan(0);
     await page.screenshot({ path: `${ARTIFACTS}/search.png` });
+    // The views are drawn in the view worker; dragging one turns both (linked cameras).
+    const views = page.locator('sk-search-panel sk-viewer');
+    const [a0, b0] = [await views.nth(0).screenshot(), await views.nth(1).screenshot()];
+    const box = (await views.nth(0).boundingBox())!;
+    await page.mouse.move(box.x + box.width / 2, box.y + box.height / 2);
+    await page.mouse.down();
+    await page.mouse.move(box.x + box.width / 2 + 120, box.y + box.height / 2 + 30, { steps: 8 });
+    await page.mouse.up();
+    await expect.poll(async () => (await views.nth(0).screenshot()).equals(a0), { timeout: 5_000 }).toBe(false);
+    await expect.poll(async () => (await views.nth(1).screenshot()).equals(b0), { timeout: 5_000 }).toBe(false);
     // Why this match: the views switch to the sampled points, weighted by their share of the similarity.
     await page.getByTestId('why-toggle').check();
     const why = () =>
@@ -252,8 +265,9 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     // 1 in = 25.4 mm (NIST SP 811); the cards round to 3–4 digits.
     for (const i of [1, 2, 3]) expect(Number(after[i]) / Number(before[i])).toBeCloseTo(25.4, 0);
     await page.screenshot({ path: `${ARTIFACTS}/units.png` });
-    // Back to Look-alikes, seen before: its 3-D views take kept renderers and compiled shaders, so the switch
-    // holds the page briefly (measured: no task over 50 ms; each view made afresh cost 100–250 ms before).
+    // Back to Look-alikes, seen before: its 3-D views are drawn in the view worker on kept canvases, so the switch
+    // holds the page briefly (measured: no task over 50 ms; 100–250 ms tasks when each view made its own WebGL
+    // context and compiled its shaders on the page).
     await watchLongTasks(page);
     await page.getByRole('tab', { name: 'Look-alikes' }).click();
     await page.locator('sk-search-panel sk-viewer canvas').first().waitFor({ timeout: 10_000 });

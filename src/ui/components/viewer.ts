@@ -40,7 +40,7 @@ export class SkViewer extends LitElement {
   protected override render() {
     return html`<div class="stage"></div>
       ${this.caption ? html`<div class="caption">${this.caption}</div>` : null}
-      ${this.view.webglMissing ? html`<div class="missing">This browser offers no WebGL, so the 3-D view is off. Thumbnails and results still work.</div>` : null}`;
+      ${this.view.webglMissing ? html`<div class="missing">This browser cannot draw 3-D views here (it needs WebGL in a worker), so the view is off. Thumbnails and results still work.</div>` : null}`;
   }
 }
 customElements.define('sk-viewer', SkViewer);

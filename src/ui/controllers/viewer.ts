@@ -1,10 +1,11 @@
-// A live three.js view (orbit controls, render on demand) attached to a host element's canvas.
-// Cameras can be linked: moving one view moves the others in the same link.
+// A live 3-D view: the page keeps the camera and its orbit controls, the view worker draws on the canvas
+// (render on demand). Cameras can be linked: moving one view moves the others in the same link.
 
-import { PerspectiveCamera, WebGLRenderer, type Object3D, type Scene } from 'three';
+import { PerspectiveCamera, type Object3D } from 'three';
 import { OrbitControls } from 'three/examples/jsm/controls/OrbitControls.js';
 import type { ReactiveController, ReactiveControllerHost } from 'lit';
-import { disposeObject, litScene } from '../../render/scene';
+import { describeObject, viewTransfers } from '../../render/scene';
+import type { ViewReply, ViewRequest } from '../../worker/view.worker';
 
 export class CameraLink {
   private readonly members = new Set<ViewerController>();
@@ -24,31 +25,34 @@ export class CameraLink {
 }
 
 /**
- * Renderers with their canvases, kept when a view goes (a tab switch) for the next view to take: with software
- * WebGL, creating one took 15–30 ms and sizing its antialiased buffers 30–40 ms more (measured in headless
- * Chromium), so each is made once a page, and its making is spread over separate tasks (see `hostUpdated`).
+ * The views are drawn in one worker (view.worker.ts) on canvases handed over to it: with software WebGL, making a
+ * context took 15–30 ms, sizing its antialiased buffers 30–40 ms and compiling a shader 100–250 ms (headless
+ * Chromium), each a long task when done on the page. Canvases (and their views in the worker) are kept when a
+ * view goes, for the next one: a canvas can be handed over only once.
  */
-const spare: { renderer: WebGLRenderer; canvas: HTMLCanvasElement }[] = [];
+let worker: Worker | null = null;
+let nextView = 1;
+const owners = new Map<number, ViewerController>();
+const spare: { canvas: HTMLCanvasElement; view: number }[] = [];
 
-function makeRenderer(): { renderer: WebGLRenderer; canvas: HTMLCanvasElement } {
-  const canvas = document.createElement('canvas');
-  canvas.tabIndex = 0;
-  canvas.setAttribute('aria-label', '3-D view: drag to turn, scroll to zoom');
-  const renderer = new WebGLRenderer({ canvas, antialias: true });
-  renderer.setPixelRatio(Math.min(2, window.devicePixelRatio || 1));
-  return { renderer, canvas };
+function views(): Worker {
+  if (!worker) {
+    worker = new Worker(new URL('../../worker/view.worker.ts', import.meta.url), { type: 'module' });
+    worker.onmessage = (e: MessageEvent<ViewReply>) => owners.get(e.data.view)?.failed();
+    worker.onerror = () => owners.forEach((o) => o.failed());
+  }
+  return worker;
 }
 
+const send = (req: ViewRequest, transfer: Transferable[] = []) => views().postMessage(req, transfer);
+
 export class ViewerController implements ReactiveController {
-  private renderer: WebGLRenderer | null = null;
   private canvas: HTMLCanvasElement | null = null;
-  private starting = false;
+  private view = 0;
   private camera = new PerspectiveCamera(35, 1, 0.05, 50);
   private controls: OrbitControls | null = null;
-  private scene: Scene = litScene();
   private object: Object3D | null = null;
   private resize: ResizeObserver | null = null;
-  private frame = 0;
   private link: CameraLink | null = null;
   webglMissing = false;
 
@@ -65,39 +69,50 @@ export class ViewerController implements ReactiveController {
   hostConnected(): void {}
 
   hostUpdated(): void {
-    if (this.renderer || this.webglMissing || this.starting || !this.stageOf()) return;
-    // A renderer (kept, or made now) in one task, its first sizing in the next, and the first frame after that:
-    // two views starting together then never hold the page for long.
-    this.starting = true;
-    setTimeout(() => {
-      const stage = this.stageOf();
-      if (!stage || !this.host.isConnected) return void (this.starting = false);
-      let made: { renderer: WebGLRenderer; canvas: HTMLCanvasElement };
-      try {
-        made = spare.pop() ?? makeRenderer();
-      } catch {
-        this.webglMissing = true;
-        this.starting = false;
-        this.host.requestUpdate();
+    const stage = this.stageOf();
+    if (this.canvas || this.webglMissing || !stage) return;
+    let taken = spare.pop();
+    if (!taken) {
+      const canvas = document.createElement('canvas');
+      if (typeof canvas.transferControlToOffscreen !== 'function' || typeof Worker === 'undefined') {
+        this.failed();
         return;
       }
-      this.renderer = made.renderer;
-      this.canvas = made.canvas;
-      stage.append(made.canvas);
-      this.controls = new OrbitControls(this.camera, made.canvas);
-      this.controls.enableDamping = false;
-      this.controls.addEventListener('change', () => {
-        this.requestRender();
-        this.link?.moved(this);
-      });
-      this.starting = false;
-      setTimeout(() => {
-        if (this.canvas !== made.canvas) return;
-        this.resize = new ResizeObserver(() => this.fit());
-        this.resize.observe(made.canvas);
-        this.fit();
-      });
+      canvas.tabIndex = 0;
+      canvas.setAttribute('aria-label', '3-D view: drag to turn, scroll to zoom');
+      const view = nextView++;
+      const offscreen = canvas.transferControlToOffscreen();
+      // Its real size follows from the resize observer once the page is laid out (reading it here would force a
+      // layout inside this update).
+      send(
+        {
+          type: 'attach',
+          view,
+          canvas: offscreen,
+          width: 300,
+          height: 240,
+          pixelRatio: Math.min(2, window.devicePixelRatio || 1),
+        },
+        [offscreen],
+      );
+      taken = { canvas, view };
+    }
+    this.canvas = taken.canvas;
+    this.view = taken.view;
+    owners.set(this.view, this);
+    stage.append(this.canvas);
+    this.controls = new OrbitControls(this.camera, this.canvas);
+    this.controls.enableDamping = false;
+    this.controls.addEventListener('change', () => {
+      this.sendCamera();
+      this.link?.moved(this);
     });
+    this.resize = new ResizeObserver((entries) => {
+      const box = entries[entries.length - 1].contentRect;
+      this.fit(box.width, box.height);
+    });
+    this.resize.observe(this.canvas); // reports the size once laid out, then on every change
+    this.sendObject();
   }
 
   hostDisconnected(): void {
@@ -105,20 +120,21 @@ export class ViewerController implements ReactiveController {
     this.resize = null;
     this.controls?.dispose();
     this.controls = null;
-    if (this.object) {
-      this.scene.remove(this.object);
-      disposeObject(this.object);
-      this.object = null;
-    }
-    if (this.renderer && this.canvas) {
+    if (this.canvas) {
+      send({ type: 'object', view: this.view, parts: null });
       this.canvas.remove();
-      spare.push({ renderer: this.renderer, canvas: this.canvas }); // for the next view
+      owners.delete(this.view);
+      spare.push({ canvas: this.canvas, view: this.view }); // for the next view
     }
-    this.renderer = null;
     this.canvas = null;
+    this.view = 0;
     this.link?.remove(this);
-    cancelAnimationFrame(this.frame);
-    this.frame = 0;
+  }
+
+  /** The worker could not draw (no WebGL there, or no OffscreenCanvas here): the host shows a note instead. */
+  failed(): void {
+    this.webglMissing = true;
+    this.host.requestUpdate();
   }
 
   setLink(link: CameraLink | null): void {
@@ -129,13 +145,8 @@ export class ViewerController implements ReactiveController {
   }
 
   setObject(object: Object3D | null): void {
-    if (this.object) {
-      this.scene.remove(this.object);
-      disposeObject(this.object);
-    }
     this.object = object;
-    if (object) this.scene.add(object);
-    this.requestRender();
+    this.sendObject();
   }
 
   copyCamera(from: ViewerController): void {
@@ -143,25 +154,33 @@ export class ViewerController implements ReactiveController {
     this.camera.quaternion.copy(from.camera.quaternion);
     this.controls?.target.copy(from.controls?.target ?? this.controls.target);
     this.controls?.update();
-    this.requestRender();
+    this.sendCamera();
   }
 
-  private fit(): void {
-    const canvas = this.canvas;
-    if (!canvas || !this.renderer) return;
-    const w = canvas.clientWidth || 300,
-      h = canvas.clientHeight || 240;
-    this.renderer.setSize(w, h, false);
-    this.camera.aspect = w / h;
-    this.camera.updateProjectionMatrix();
-    this.requestRender();
+  private sendObject(): void {
+    if (!this.canvas) return;
+    const parts = this.object ? describeObject(this.object) : null;
+    send({ type: 'object', view: this.view, parts }, parts ? viewTransfers(parts) : []);
   }
 
-  requestRender(): void {
-    if (!this.renderer || this.frame) return;
-    this.frame = requestAnimationFrame(() => {
-      this.frame = 0;
-      this.renderer?.render(this.scene, this.camera);
+  private sendCamera(): void {
+    if (!this.canvas) return;
+    send({
+      type: 'camera',
+      view: this.view,
+      position: this.camera.position.toArray(),
+      quaternion: this.camera.quaternion.toArray(),
+      fov: this.camera.fov,
     });
+  }
+
+  private fit(w: number, h: number): void {
+    if (!this.canvas) return;
+    const width = Math.max(1, Math.round(w)) || 300,
+      height = Math.max(1, Math.round(h)) || 240;
+    this.camera.aspect = width / height;
+    this.camera.updateProjectionMatrix();
+    send({ type: 'size', view: this.view, width, height });
+    this.sendCamera();
   }
 }
