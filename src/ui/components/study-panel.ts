@@ -5,7 +5,8 @@
 import { LitElement, css, html, svg } from 'lit';
 import type { EvaluationReport } from '../../core/quality/evaluate';
 import type { StudyRow } from '../../core/quality/study';
-import { METRIC_HELP, qualitySummary } from '../words';
+import { METRIC_HELP, qualitySummary, timeLeft } from '../words';
+import type { Progress } from '../state';
 
 const COLUMNS = [
   ['nn', 'NN'],
@@ -31,7 +32,7 @@ export class SkStudyPanel extends LitElement {
   };
   declare report: EvaluationReport | null;
   declare rows: readonly StudyRow[];
-  declare progress: { done: number; total: number; what: string } | null;
+  declare progress: Progress | null;
   declare busy: boolean;
   /** The quality measurement is running (it reports no progress of its own). */
   declare measuring: boolean;
@@ -87,7 +88,7 @@ export class SkStudyPanel extends LitElement {
         <button ?disabled=${this.busy} @click=${() => this.emit('run-evaluation')}>Measure retrieval quality</button>
         <button ?disabled=${this.busy} @click=${() => this.emit('run-study')}>Run the augmentation study</button>
         <button ?disabled=${this.rows.length === 0} @click=${() => this.emit('export-study')}>Export the study table (CSV)</button>
-        ${this.progress ? html`<progress max=${this.progress.total} value=${this.progress.done}></progress><span class="small">${this.progress.what}</span>` : null}
+        ${this.progress ? html`<progress max=${this.progress.total} value=${this.progress.done}></progress><span class="small">${this.progress.what}${timeLeft(this.progress, performance.now()) ? ` · ${timeLeft(this.progress, performance.now())}` : ''}</span>` : null}
         ${this.measuring || this.progress ? html`<button data-testid="cancel-measure" @click=${() => this.emit('cancel-measure')}>Cancel</button>` : null}
         ${this.measuring ? html`<span class="small" role="status">Measuring retrieval quality: every part against every other, for each method…</span>` : null}
         ${this.hasModel ? null : html`<span class="small">No trained model yet: only the baselines are measured.</span>`}

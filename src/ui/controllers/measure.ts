@@ -57,7 +57,8 @@ export class MeasureController {
   }
 
   async runStudy(): Promise<void> {
-    this.patch({ study: { kind: 'running', progress: { done: 0, total: 1, what: 'starting' } } });
+    const startedAt = performance.now();
+    this.patch({ study: { kind: 'running', progress: { done: 0, total: 1, what: 'starting', startedAt } } });
     try {
       const { parts, labels, model, config } = this.inputs();
       const rows = await this.training.client.study(
@@ -65,7 +66,7 @@ export class MeasureController {
         labels,
         model,
         config,
-        (done, total, what) => this.patch({ study: { kind: 'running', progress: { done, total, what } } }),
+        (done, total, what) => this.patch({ study: { kind: 'running', progress: { done, total, what, startedAt } } }),
         STUDY_STRENGTHS,
       );
       this.patch({ rows, study: { kind: 'done' } });
