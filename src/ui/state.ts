@@ -93,6 +93,8 @@ export interface SearchState {
   readonly filters: SearchFilters;
   /** Embedding the library with the current model. */
   readonly status: JobStatus;
+  /** Milliseconds a part took in the last embedding of the library here (for estimates), or null before one. */
+  readonly embedPace: number | null;
   /** Why the chosen result matches the query: each part's first points weighted by their share of the similarity. */
   readonly explanation: MatchExplanation | null;
 }

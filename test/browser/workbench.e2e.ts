@@ -217,6 +217,10 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       .toBe(112);
     await page.screenshot({ path: `${ARTIFACTS}/map.png` });
     await page.getByRole('tab', { name: 'Quality' }).click();
+    // Before starting: how long each job should take, from the library's last embedding here (after training).
+    expect(await page.getByTestId('measure-estimate').textContent()).toMatch(
+      /Estimated: measuring about (\d+ min )?\d+ s, the study about (\d+ h )?(\d+ min )?(\d+ s)? ?\(at this library's last embedding pace, \d+\.\d parts\/s\)/,
+    );
     await page.getByRole('button', { name: 'Measure retrieval quality' }).click();
     const table = page.getByTestId('metrics-table');
     await expect

@@ -53,6 +53,7 @@ export function initialState(): AppState {
       query: null,
       hits: [],
       standing: [],
+      embedPace: null,
       filters: DEFAULT_FILTERS,
       status: IDLE,
       explanation: null,
@@ -220,6 +221,7 @@ export class SkApp extends LitElement {
       case 'study':
         return html`<sk-study-panel .report=${measure.report} .rows=${measure.rows} .progress=${measure.study.kind === 'running' ? measure.study.progress : null}
           .busy=${isBusy(measure.status) || isBusy(measure.study) || isBusy(training.status)} .hasModel=${Boolean(training.model)}
+          .estimates=${this.measure.estimates()}
           .measuring=${isBusy(measure.status)} .failure=${measure.status.kind === 'failed' ? measure.status.message : measure.study.kind === 'failed' ? measure.study.message : ''}
           @run-evaluation=${() => void this.measure.measureQuality()} @run-study=${() => void this.measure.runStudy()} @cancel-measure=${() => this.measure.cancel()} @export-study=${() => this.measure.exportStudy()}></sk-study-panel>`;
       case 'map':

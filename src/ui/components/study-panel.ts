@@ -5,7 +5,7 @@
 import { LitElement, css, html, svg } from 'lit';
 import type { EvaluationReport } from '../../core/quality/evaluate';
 import type { StudyRow } from '../../core/quality/study';
-import { METRIC_HELP, qualitySummary, timeLeft } from '../words';
+import { formatDuration, METRIC_HELP, qualitySummary, timeLeft } from '../words';
 import type { Progress } from '../state';
 
 const COLUMNS = [
@@ -28,6 +28,7 @@ export class SkStudyPanel extends LitElement {
     measuring: { type: Boolean },
     failure: { type: String },
     hasModel: { type: Boolean },
+    estimates: { attribute: false },
     measure: { state: true },
   };
   declare report: EvaluationReport | null;
@@ -39,6 +40,8 @@ export class SkStudyPanel extends LitElement {
   /** Why the last measurement or study failed ('' : it did not). */
   declare failure: string;
   declare hasModel: boolean;
+  /** Seconds each job should take, from the library's last embedding pace (parts/s), or nulls. */
+  declare estimates: { measure: number | null; study: number | null; pace: number | null };
   declare measure: 'instance_top1' | 'label_top1' | 'mean_similarity';
 
   constructor() {
@@ -50,6 +53,7 @@ export class SkStudyPanel extends LitElement {
     this.measuring = false;
     this.failure = '';
     this.hasModel = false;
+    this.estimates = { measure: null, study: null, pace: null };
     this.measure = 'instance_top1';
   }
 
@@ -92,6 +96,11 @@ export class SkStudyPanel extends LitElement {
         ${this.measuring || this.progress ? html`<button data-testid="cancel-measure" @click=${() => this.emit('cancel-measure')}>Cancel</button>` : null}
         ${this.measuring ? html`<span class="small" role="status">Measuring retrieval quality: every part against every other, for each method…</span>` : null}
         ${this.hasModel ? null : html`<span class="small">No trained model yet: only the baselines are measured.</span>`}
+        ${
+          !this.busy && this.estimates.pace !== null
+            ? html`<span class="small" data-testid="measure-estimate">Estimated: measuring about ${formatDuration(this.estimates.measure!)}, the study about ${formatDuration(this.estimates.study!)} (at this library's last embedding pace, ${this.estimates.pace.toFixed(1)} parts/s).</span>`
+            : null
+        }
       </div>
       ${this.failure ? html`<div class="error" role="alert">${this.failure}</div>` : null}
       ${

@@ -2,6 +2,7 @@
 // training worker; and the study's CSV export.
 
 import { csvField } from '../../core/csv';
+import { AUGMENT_KINDS } from '../../core/points/augment';
 import { STARTED, type AppState, type MeasureState, type Store } from '../state';
 import { download } from './download';
 import type { TrainingController } from './training';
@@ -26,6 +27,24 @@ export class MeasureController {
       labels: parts.map((p) => p.label),
       model: this.training.state.model,
       config: this.training.state.config,
+    };
+  }
+
+  /**
+   * Seconds each job should take, from the pace of the library's last embedding here (null before one): the
+   * measurement embeds the library once per encoder (learned, untrained); the study once per encoder on the clean
+   * library and once more per augmentation and strength. D2 and the distances add a little; "about" covers it.
+   */
+  estimates(): { measure: number | null; study: number | null; pace: number | null } {
+    const pace = this.store.value.search.embedPace;
+    const parts = this.store.value.library.parts.length;
+    if (pace === null || parts === 0) return { measure: null, study: null, pace: null };
+    const encoders = this.training.state.model ? 2 : 1;
+    const library = (pace * parts) / 1000;
+    return {
+      measure: encoders * library,
+      study: encoders * (1 + AUGMENT_KINDS.length * STUDY_STRENGTHS.length) * library,
+      pace: 1000 / pace,
     };
   }
 

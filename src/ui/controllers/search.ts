@@ -107,6 +107,7 @@ export class SearchController {
       dim = r.dim;
     }
     if (version !== this.version) return null;
+    this.patch({ embedPace: (performance.now() - startedAt) / total });
     const vectors = new Float32Array(total * dim);
     let o = 0;
     for (const v of pieces) {
