@@ -562,7 +562,7 @@ describe.skipIf(!available)('a library kept by an earlier version (plain Indexed
       await page.goto(server.url);
       await expect
         .poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 90_000 })
-        .toMatch(/2 parts in 1 folders, 1 files could not be read/);
+        .toMatch(/2 parts in 1 folder, 1 file could not be read/);
       expect(await page.getByTestId('failures').textContent()).toMatch(/L-80\.off: the file ends inside face 3/);
       const left = await page.evaluate(async () => {
         const db = await new Promise<IDBDatabase>((resolve, reject) => {

@@ -135,7 +135,7 @@ export class SkLibraryPanel extends LitElement {
       ${s.kind === 'cancelled' ? html`<div class="summary" role="status">Reading was stopped: the parts read before it are in the library.</div>` : null}
       ${s.kind === 'failed' ? html`<div class="failures" role="alert">${s.message}</div>` : null}
       <div class="summary" data-testid="library-summary">
-        ${this.parts.length} parts in ${families} folders${this.failures.length ? html`, <strong>${this.failures.length} files could not be read</strong>` : ''}
+        ${count(this.parts.length, 'part')} in ${count(families, 'folder')}${this.failures.length ? html`, <strong>${count(this.failures.length, 'file')} could not be read</strong>` : ''}
         ${s.kind === 'done' && s.ms > 0 ? html` · read in ${(s.ms / 1000).toFixed(1)} s` : ''}
         <input type="search" placeholder="Filter by name or folder" aria-label="Filter parts" .value=${this.filter} @input=${(e: Event) => (this.filter = (e.target as HTMLInputElement).value)} />
       </div>
@@ -234,6 +234,9 @@ export class SkLibraryPanel extends LitElement {
 
 /** Cards drawn at first, and added per "show more": hundreds of cards with pictures take the page a while to lay out. */
 const CARDS_PER_PAGE = 240;
+
+/** "1 part", "2 parts". */
+const count = (n: number, noun: string) => `${n} ${noun}${n === 1 ? '' : 's'}`;
 
 function fmt(v: number): string {
   return v >= 100 ? v.toFixed(0) : v >= 10 ? v.toFixed(1) : v.toFixed(2);
