@@ -35,7 +35,7 @@ import { failureOf, loadPart, type LibraryPart, type SamplingSettings } from '..
 import { DEFAULT_MAX_BYTES, importMesh } from '../core/mesh/import';
 import { FORMAT_NAMES } from '../core/mesh/formats';
 import type { MeshInfo } from '../core/mesh/types';
-import { parseUnits, partSize } from '../core/units';
+import { parseUnits, partSize, sizeWords } from '../core/units';
 import { readFileSync, existsSync, statSync } from 'node:fs';
 import { CliError } from './errors';
 import { listFiles, loadLibrary, reportFailures, type LoadedLibrary } from './library-dir';
@@ -425,8 +425,8 @@ async function query(file: string, values: Values): Promise<void> {
     const vectors = embedForRetrieval(enc, asModelParts(library.parts), points, ckpt.manifest.config.pose);
     const D = vectors.length / library.parts.length;
     // Sizes compare in mm where units are known (STEP/IGES, or --units), so a part exported in inches still passes the size filter.
-    const sizes = library.parts.map((p) => sizeOf(p.info, mmPerUnit));
-    const qSize = sizeOf(q.info, mmPerUnit);
+    const sizes = library.parts.map((p) => partSize(p.info, mmPerUnit));
+    const qSize = partSize(q.info, mmPerUnit);
     const index = new TensorIndex(
       vectors,
       D,
@@ -587,7 +587,7 @@ async function queryDatabase(
     }
     if (!qv.every(Number.isFinite))
       throw new CliError(`the model gives no usable embedding for ${file} (non-finite values)`);
-    const qSize = sizeOf(q.info, o.mmPerUnit);
+    const qSize = partSize(q.info, o.mmPerUnit);
     const { counts, waiting } = await notEmbedded(db, id, values);
     if (counts.embedded === 0)
       throw new CliError(`the database ${db.sql.where} has no embedded parts for this model: run "shapekin sync"`);
@@ -597,7 +597,7 @@ async function queryDatabase(
         ? { sizeRatio: o.ratio, queryDiagonal: q.diagonal * qSize.scale, scaleFileUnits: o.mmPerUnit ?? 1 }
         : {};
     const rowOf = (r: number, p: StoredPart, score: number): QueryRow => {
-      const size = sizeOf(p.info, o.mmPerUnit);
+      const size = partSize(p.info, o.mmPerUnit);
       return {
         rank: r + 1,
         score,
@@ -623,7 +623,7 @@ async function queryDatabase(
         all.parts.map((p) => ({
           name: p.path,
           label: p.label,
-          diagonal: p.diagonal * sizeOf(p.info, o.mmPerUnit).scale,
+          diagonal: p.diagonal * partSize(p.info, o.mmPerUnit).scale,
         })),
       );
       try {
@@ -826,10 +826,7 @@ function unitsOption(values: Values): number | null {
   return factor;
 }
 
-const sizeOf = partSize;
-
-const fmtSize = (s: { size: readonly number[]; units: string }) =>
-  `${s.size.map((v) => v.toPrecision(4)).join(' × ')} ${s.units}`;
+const fmtSize = (s: { size: readonly number[]; units: string }) => sizeWords(s, 4);
 
 async function inspect(target: string, values: Values): Promise<void> {
   const mmPerUnit = unitsOption(values);
@@ -852,7 +849,7 @@ async function inspect(target: string, values: Values): Promise<void> {
     | { file: string; error: string };
   const rows: Row[] = [];
   const rowOf = (name: string, info: MeshInfo): Row => {
-    const s = sizeOf(info, mmPerUnit);
+    const s = partSize(info, mmPerUnit);
     return {
       file: name,
       format: info.format,

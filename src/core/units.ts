@@ -54,3 +54,8 @@ export function partSize(
   if (scale === null) return { size: [...info.extents], units: 'file units', scale: 1 };
   return { size: info.extents.map((v) => v * scale), units: 'mm', scale };
 }
+
+/** A size in words, "12.5 × 12.5 × 2.50 mm", each value to `digits` significant digits. */
+export function sizeWords(s: { readonly size: readonly number[]; readonly units: string }, digits = 3): string {
+  return `${s.size.map((v) => v.toPrecision(digits)).join(' × ')} ${s.units}`;
+}

@@ -1,7 +1,7 @@
 // Units of length: what one file unit measures, and sizes in millimetres where units are known.
 
 import { describe, expect, it } from 'vitest';
-import { parseUnits, partSize, scaleToMm, unitsName } from '../../src/core/units';
+import { parseUnits, partSize, scaleToMm, sizeWords, unitsName } from '../../src/core/units';
 import { embeddingRow } from '../../src/core/retrieval/export';
 
 describe('units of length (NIST SP 811, appendix B.8: 1 in = 25.4 mm exactly; SI prefixes c = 10⁻², m = 10⁻³)', () => {
@@ -25,6 +25,7 @@ describe('units of length (NIST SP 811, appendix B.8: 1 in = 25.4 mm exactly; SI
     expect(scaleToMm(stl, undefined)).toBeNull();
     expect(partSize(stl, null)).toEqual({ size: [1, 2, 0.5], units: 'file units', scale: 1 });
     expect(partSize(stl, 25.4)).toEqual({ size: [25.4, 50.8, 12.7], units: 'mm', scale: 25.4 });
+    expect(sizeWords(partSize(stl, 25.4))).toBe('25.4 × 50.8 × 12.7 mm');
   });
 
   it('exported rows carry sizes in mm where the units are known', () => {

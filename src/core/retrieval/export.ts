@@ -3,7 +3,7 @@
 
 import { csvField } from '../csv';
 import type { MeshInfo } from '../mesh/types';
-import { scaleToMm } from '../units';
+import { partSize } from '../units';
 
 /** What a row says about its part besides the embedding. */
 export interface EmbeddingRow {
@@ -27,9 +27,8 @@ export function embeddingRow(
   diagonal: number,
   mmPerFileUnit: number | null | undefined,
 ): EmbeddingRow {
-  const scale = scaleToMm(info, mmPerFileUnit);
-  if (scale === null) return { file, label, extents: [...info.extents], diagonal, units: 'file' };
-  return { file, label, extents: info.extents.map((v) => v * scale), diagonal: diagonal * scale, units: 'mm' };
+  const s = partSize(info, mmPerFileUnit);
+  return { file, label, extents: s.size, diagonal: diagonal * s.scale, units: s.units === 'mm' ? 'mm' : 'file' };
 }
 
 /** CSV with a header: file, label, extent_x, extent_y, extent_z, units, e0 … e(D−1); 6 significant digits. */

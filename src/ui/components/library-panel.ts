@@ -94,6 +94,7 @@ export class SkLibraryPanel extends LitElement {
 
   protected override render() {
     const s = this.status;
+    const left = s.kind === 'running' && s.progress ? timeLeft(s.progress, performance.now()) : '';
     const q = this.filter.toLowerCase();
     const shown = q
       ? this.parts.filter((p) => p.name.toLowerCase().includes(q) || p.label.toLowerCase().includes(q))
@@ -126,8 +127,8 @@ export class SkLibraryPanel extends LitElement {
           ? html`<progress max=${s.progress.total} value=${s.progress.done} aria-label="import progress"></progress>
         ${
           s.progress.what === RESTORING
-            ? html`<div class="summary">Opening the kept library: ${s.progress.done} of ${s.progress.total} parts${timeLeft(s.progress, performance.now()) ? ` · ${timeLeft(s.progress, performance.now())}` : ''}</div>`
-            : html`<div class="summary">Reading ${s.progress.done} of ${s.progress.total}${timeLeft(s.progress, performance.now()) ? ` (${timeLeft(s.progress, performance.now())})` : ''}: ${s.progress.what}
+            ? html`<div class="summary">Opening the kept library: ${s.progress.done} of ${s.progress.total} parts${left ? ` · ${left}` : ''}</div>`
+            : html`<div class="summary">Reading ${s.progress.done} of ${s.progress.total}${left ? ` (${left})` : ''}: ${s.progress.what}
           <button data-testid="cancel-import" @click=${() => this.emit('cancel-import')}>Stop reading</button></div>`
         }`
           : null

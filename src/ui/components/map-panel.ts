@@ -1,7 +1,7 @@
 // <sk-map-panel>: every part as a dot at its embedding's two leading principal components, coloured by
 // folder; hover names the part and shows its thumbnail, a click searches from it ('search-query').
 
-import { partSize } from '../../core/units';
+import { partSize, sizeWords } from '../../core/units';
 import { LitElement, css, html, svg } from 'lit';
 import type { LibraryPart } from '../../core/library';
 import type { EmbeddingIndex } from '../../core/retrieval/index';
@@ -125,13 +125,10 @@ export class SkMapPanel extends LitElement {
         ${
           h
             ? html`<div class="card">${this.thumbnails.get(h.name) ? html`<img src=${this.thumbnails.get(h.name)} alt="" />` : null}
-          <div><strong>${h.name}</strong></div><div>${sizeText(partSize(h.info, this.units[h.label]))}</div><div>click to find its look-alikes</div></div>`
+          <div><strong>${h.name}</strong></div><div>${sizeWords(partSize(h.info, this.units[h.label]))}</div><div>click to find its look-alikes</div></div>`
             : html`<div class="card">Point at a dot to see the part; click it to search from it. Axes are the embedding's two main directions of spread.</div>`
         }
       </div>`;
   }
 }
-const sizeText = (s: { size: readonly number[]; units: string }) =>
-  `${s.size.map((v) => v.toPrecision(3)).join(' × ')} ${s.units}`;
-
 customElements.define('sk-map-panel', SkMapPanel);

@@ -2,7 +2,7 @@
 // scores and real sizes; choosing a result shows it beside the query in linked 3-D views.
 // Sends 'search-query' (part name), 'search-file' (File), 'search-filters' upward.
 
-import { partSize } from '../../core/units';
+import { partSize, sizeWords } from '../../core/units';
 import { standingWords } from '../../core/retrieval/standing';
 import { timeLeft } from '../words';
 import { ACCEPT } from '../../core/mesh/formats';
@@ -257,7 +257,7 @@ export class SkSearchPanel extends LitElement {
                 ${this.trained ? html`<div class="bar-score" style="width:${Math.max(2, Math.round(Math.max(0, h.score) * 100))}%"></div>` : null}
                 ${this.standing[i] !== undefined ? html`<div class="small standing" title="the share of the other parts in the library that are less similar to the query than this one">${standingWords(this.standing[i])}</div>` : null}
                 <div class="small">${p.name.split('/').pop()}</div>
-                <div class="small">${size.size.map((v) => v.toPrecision(3)).join(' × ')} ${size.units} · size ×${ratio.toFixed(2)}</div></span>
+                <div class="small">${sizeWords(size)} · size ×${ratio.toFixed(2)}</div></span>
             </button></li>`;
           })}
           ${this.hits.length === 0 && !this.busy && this.embedding.kind !== 'cancelled' ? html`<li class="empty">No part passes the filters.</li>` : null}

@@ -85,6 +85,7 @@ export class SkStudyPanel extends LitElement {
 
   protected override render() {
     const r = this.report;
+    const left = this.progress ? timeLeft(this.progress, performance.now()) : '';
     const kinds = [...new Set(this.rows.map((x) => x.augmentation))];
     const methods = [...new Set(this.rows.map((x) => x.method))];
     return html`
@@ -92,7 +93,7 @@ export class SkStudyPanel extends LitElement {
         <button ?disabled=${this.busy} @click=${() => this.emit('run-evaluation')}>Measure retrieval quality</button>
         <button ?disabled=${this.busy} @click=${() => this.emit('run-study')}>Run the augmentation study</button>
         <button ?disabled=${this.rows.length === 0} @click=${() => this.emit('export-study')}>Export the study table (CSV)</button>
-        ${this.progress ? html`<progress max=${this.progress.total} value=${this.progress.done}></progress><span class="small">${this.progress.what}${timeLeft(this.progress, performance.now()) ? ` · ${timeLeft(this.progress, performance.now())}` : ''}</span>` : null}
+        ${this.progress ? html`<progress max=${this.progress.total} value=${this.progress.done}></progress><span class="small">${this.progress.what}${left ? ` · ${left}` : ''}</span>` : null}
         ${this.measuring || this.progress ? html`<button data-testid="cancel-measure" @click=${() => this.emit('cancel-measure')}>Cancel</button>` : null}
         ${this.measuring ? html`<span class="small" role="status">Measuring retrieval quality: every part against every other, for each method…</span>` : null}
         ${this.hasModel ? null : html`<span class="small">No trained model yet: only the baselines are measured.</span>`}

@@ -178,8 +178,6 @@ export class ViewerController implements ReactiveController {
     if (!this.canvas) return;
     const width = Math.max(1, Math.round(w)) || 300,
       height = Math.max(1, Math.round(h)) || 240;
-    this.camera.aspect = width / height;
-    this.camera.updateProjectionMatrix();
     send({ type: 'size', view: this.view, width, height });
     this.sendCamera();
   }
