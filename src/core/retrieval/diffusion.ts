@@ -32,6 +32,18 @@ export function validateDiffusion(o: DiffusionOptions): void {
 }
 
 /**
+ * The directed kNN edges of a graph: edge e goes from[e] → to[e] with weight w[e] (A_ij = max(0, s_ij)^γ).
+ */
+export interface DirectedEdges {
+  readonly from: Int32Array;
+  readonly to: Int32Array;
+  readonly w: Float64Array;
+}
+
+/** Each node's k most similar other nodes, best first, as from a top-k selection. */
+export type NeighbourLists = readonly (readonly { readonly index: number; readonly score: number }[])[];
+
+/**
  * The symmetric affinity W = (A + Aᵀ)/2 of a kNN graph (A_ij = max(0, s_ij)^γ for the k most similar j ≠ i),
  * stored as compressed rows, with its degrees. Diffusion walks S = D^−½ W D^−½.
  */
@@ -44,31 +56,60 @@ export class DiffusionGraph {
   private constructor(
     readonly size: number,
     /** The directed kNN edges A (i → j, weight A_ij). */
-    private readonly directed: readonly Edge[],
+    private readonly directed: DirectedEdges,
     /** Similarity of each node's k-th neighbour: a newcomer closer than this would be among its k nearest. */
     private readonly kthSimilarity: Float64Array,
     readonly options: DiffusionOptions,
   ) {
-    const rows = Array.from({ length: size }, () => new Map<number, number>());
-    for (const { i, j, w } of directed) {
-      rows[i].set(j, (rows[i].get(j) ?? 0) + w / 2);
-      rows[j].set(i, (rows[j].get(i) ?? 0) + w / 2);
+    // Compressed rows by counting: each directed edge adds w/2 to W_ij and to W_ji; a row's entries sorted by
+    // column and equal columns merged (an edge both ways).
+    const { from, to, w } = directed;
+    const E = from.length;
+    const count = new Int32Array(size + 1);
+    for (let e = 0; e < E; e++) {
+      count[from[e] + 1]++;
+      count[to[e] + 1]++;
+    }
+    for (let i = 0; i < size; i++) count[i + 1] += count[i];
+    const fill = count.slice(0, size);
+    const rawCols = new Int32Array(2 * E);
+    const rawW = new Float64Array(2 * E);
+    for (let e = 0; e < E; e++) {
+      const half = w[e] / 2;
+      let p = fill[from[e]]++;
+      rawCols[p] = to[e];
+      rawW[p] = half;
+      p = fill[to[e]]++;
+      rawCols[p] = from[e];
+      rawW[p] = half;
     }
     this.rowStart = new Int32Array(size + 1);
-    for (let i = 0; i < size; i++) this.rowStart[i + 1] = this.rowStart[i] + rows[i].size;
-    this.cols = new Int32Array(this.rowStart[size]);
-    this.weights = new Float64Array(this.rowStart[size]);
+    const cols = new Int32Array(2 * E);
+    const weights = new Float64Array(2 * E);
     this.invSqrtDegree = new Float64Array(size);
+    let out = 0;
+    const order: number[] = [];
     for (let i = 0; i < size; i++) {
-      let degree = 0,
-        e = this.rowStart[i];
-      for (const [j, w] of [...rows[i].entries()].sort((p, q) => p[0] - q[0])) {
-        this.cols[e] = j;
-        this.weights[e++] = w;
-        degree += w;
+      this.rowStart[i] = out;
+      order.length = 0;
+      for (let p = count[i]; p < count[i + 1]; p++) order.push(p);
+      // by column, then by the order the edges came in (so merged sums add in a fixed order)
+      order.sort((a, b) => rawCols[a] - rawCols[b] || a - b);
+      let degree = 0;
+      for (let q = 0; q < order.length; q++) {
+        const p = order[q];
+        if (out > this.rowStart[i] && cols[out - 1] === rawCols[p]) weights[out - 1] += rawW[p];
+        else {
+          cols[out] = rawCols[p];
+          weights[out++] = rawW[p];
+        }
       }
+      for (let e = this.rowStart[i]; e < out; e++) degree += weights[e];
       this.invSqrtDegree[i] = degree > 0 ? 1 / Math.sqrt(degree) : 0;
     }
+    this.rowStart[size] = out;
+    this.cols = cols.slice(0, out);
+    this.weights = weights.slice(0, out);
   }
 
   /**
@@ -82,16 +123,43 @@ export class DiffusionGraph {
   ): DiffusionGraph {
     validateDiffusion(options);
     const k = Math.min(options.k, n - 1);
-    const directed: Edge[] = [];
-    const kth = new Float64Array(n).fill(-Infinity);
+    const lists: { index: number; score: number }[][] = [];
     const row = new Float64Array(n);
-    for (let i = 0; i < n && k > 0; i++) {
+    for (let i = 0; i < n; i++) {
+      if (k <= 0) {
+        lists.push([]);
+        continue;
+      }
       for (let j = 0; j < n; j++) row[j] = j === i ? NaN : similarity(i, j); // NaN: never selected
-      const hits = topK(row, k);
-      for (const h of hits) directed.push({ i, j: h.index, w: affinity(h.score, options.gamma) });
-      kth[i] = hits[hits.length - 1].score;
+      lists.push(topK(row, k));
     }
-    return new DiffusionGraph(n, directed, kth, options);
+    return DiffusionGraph.fromNeighbours(lists, options);
+  }
+
+  /**
+   * The graph from each node's k most similar others, best first (`lists[i]`, as `topK` returns them; at most
+   * `options.k` each, all of them when the library is smaller): what `build` selects, found another way.
+   */
+  static fromNeighbours(lists: NeighbourLists, options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
+    validateDiffusion(options);
+    const n = lists.length;
+    let E = 0;
+    for (const l of lists) E += l.length;
+    const from = new Int32Array(E),
+      to = new Int32Array(E),
+      w = new Float64Array(E);
+    const kth = new Float64Array(n).fill(-Infinity);
+    let e = 0;
+    for (let i = 0; i < n; i++) {
+      const l = lists[i];
+      for (const h of l) {
+        from[e] = i;
+        to[e] = h.index;
+        w[e++] = affinity(h.score, options.gamma);
+      }
+      if (l.length) kth[i] = l[l.length - 1].score;
+    }
+    return new DiffusionGraph(n, { from, to, w }, kth, options);
   }
 
   /**
@@ -103,15 +171,27 @@ export class DiffusionGraph {
     if (similarityToParts.length !== n)
       throw new RangeError(`diffusion: ${similarityToParts.length} similarities for ${n} parts`);
     const { gamma, k } = this.options;
-    const directed = [...this.directed];
+    const extra: Edge[] = [];
     for (const h of topK(similarityToParts, Math.min(k, n)))
-      directed.push({ i: n, j: h.index, w: affinity(h.score, gamma) });
+      extra.push({ i: n, j: h.index, w: affinity(h.score, gamma) });
     for (let j = 0; j < n; j++)
       if (similarityToParts[j] > this.kthSimilarity[j])
-        directed.push({ i: j, j: n, w: affinity(similarityToParts[j], gamma) });
+        extra.push({ i: j, j: n, w: affinity(similarityToParts[j], gamma) });
+    const E = this.directed.from.length;
+    const from = new Int32Array(E + extra.length),
+      to = new Int32Array(E + extra.length),
+      w = new Float64Array(E + extra.length);
+    from.set(this.directed.from);
+    to.set(this.directed.to);
+    w.set(this.directed.w);
+    extra.forEach((x, m) => {
+      from[E + m] = x.i;
+      to[E + m] = x.j;
+      w[E + m] = x.w;
+    });
     const kth = new Float64Array(n + 1).fill(-Infinity);
     kth.set(this.kthSimilarity);
-    return new DiffusionGraph(n + 1, directed, kth, this.options);
+    return new DiffusionGraph(n + 1, { from, to, w }, kth, this.options);
   }
 
   /**
@@ -125,11 +205,13 @@ export class DiffusionGraph {
     const { rowStart, cols, weights, invSqrtDegree: r } = this;
     let f = new Float64Array(this.size),
       next = new Float64Array(this.size);
+    const g = new Float64Array(this.size); // r ⊙ f, formed once per step
     f[source] = 1;
     for (let t = 0; t < iterations; t++) {
+      for (let i = 0; i < this.size; i++) g[i] = r[i] * f[i];
       for (let i = 0; i < this.size; i++) {
         let acc = 0;
-        for (let e = rowStart[i]; e < rowStart[i + 1]; e++) acc += weights[e] * r[cols[e]] * f[cols[e]];
+        for (let e = rowStart[i]; e < rowStart[i + 1]; e++) acc += weights[e] * g[cols[e]];
         next[i] = alpha * r[i] * acc; // (αSf)_i with S_ij = W_ij / √(d_i d_j)
       }
       next[source] += 1 - alpha;

@@ -4,7 +4,8 @@
 import { normaliseRows } from '../vectors';
 import { topK, type Hit } from './topk';
 import { DIFFUSION_DEFAULTS, DiffusionGraph, rankingKeys, type DiffusionOptions } from './diffusion';
-import { HUB_NEIGHBOURS, meanOfTop, neighbourhoodMeans } from './hubness';
+import { HUB_NEIGHBOURS, meanOfTop } from './hubness';
+import { NeighbourTable, TABLE_WIDTH, type RowScorer, type TableBuildProgress } from './neighbour-table';
 
 /**
  * How results are ordered: by cosine similarity to the query, or through the library: hub-corrected (CSLS,
@@ -91,27 +92,50 @@ export class EmbeddingIndex {
   }
 
   private graph: DiffusionGraph | null = null;
-  private hubs: Float64Array | null = null;
+  private table: NeighbourTable | null = null;
 
-  /**
-   * Cosine between library parts for callers that ask row by row (i, then every j): one row of scores is kept at a
-   * time (not n² of them), so a full pass costs n score scans.
-   */
-  private rowByRow(): (i: number, j: number) => number {
-    let row = -1;
-    const scores = new Float32Array(this.count);
-    return (i, j) => {
-      if (i !== row) {
-        this.scores(this.vector(i), scores);
-        row = i;
+  /** Cosines of library rows [start, end) to every part, row-major: the same dot4 as `scores`. */
+  rowScorer(): RowScorer {
+    return (start, end, out) => {
+      const n = this.count,
+        D = this.dim,
+        v = this.vectors;
+      for (let i = start; i < end; i++) {
+        const q = v.subarray(i * D, (i + 1) * D),
+          o = (i - start) * n;
+        for (let j = 0; j < n; j++) out[o + j] = dot4(v, j * D, q, D);
       }
-      return scores[j];
     };
   }
 
-  /** r(j) of every part (hubness.ts): the mean cosine to its HUB_NEIGHBOURS nearest other parts; n score scans, kept. */
+  /**
+   * The library's neighbour table (neighbour-table.ts): built on first use in one pass over all pairs, or the one
+   * given to `useTable` (kept with the embeddings).
+   */
+  neighbourTable(onProgress?: (p: TableBuildProgress) => void): NeighbourTable {
+    return (this.table ??= NeighbourTable.build(this.count, this.rowScorer(), TABLE_WIDTH, onProgress));
+  }
+
+  /** Use a table built before for these very vectors (its size must match); the graph is rebuilt from it. */
+  useTable(table: NeighbourTable): this {
+    if (table.size !== this.count)
+      throw new RangeError(`useTable: a table of ${table.size} parts for an index of ${this.count}`);
+    this.table = table;
+    this.hubs = null;
+    this.graph = null;
+    return this;
+  }
+
+  /** Whether the table (the quadratic part of ordering through the library) is already at hand. */
+  hasTable(): boolean {
+    return this.table !== null;
+  }
+
+  private hubs: Float64Array | null = null;
+
+  /** r(j) of every part (hubness.ts): the mean cosine to its HUB_NEIGHBOURS nearest other parts, from the table. */
   neighbourhoodMeans(): Float64Array {
-    return (this.hubs ??= neighbourhoodMeans(this.count, this.rowByRow(), HUB_NEIGHBOURS));
+    return (this.hubs ??= this.neighbourTable().neighbourhoodMeans(HUB_NEIGHBOURS));
   }
 
   /** Hub-corrected scores of a query against every part, 2·cos − r(q) − r(j), from its cosines; r(q) leaves out `self`. */
@@ -122,13 +146,10 @@ export class EmbeddingIndex {
     return Float64Array.from({ length: this.count }, (_, j) => 2 * cosine[j] - rq - r[j]);
   }
 
-  /** The library's neighbour graph over hub-corrected scores, built on first use (2n score scans) and kept. */
+  /** The library's neighbour graph over hub-corrected scores, from the table (built on first use) and kept. */
   diffusionGraph(options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
-    if (!this.graph || this.graph.options !== options) {
-      const r = this.neighbourhoodMeans();
-      const cosine = this.rowByRow(); // build() asks row by row
-      this.graph = DiffusionGraph.build(this.count, (i, j) => 2 * cosine(i, j) - r[i] - r[j], options);
-    }
+    if (!this.graph || this.graph.options !== options)
+      this.graph = this.neighbourTable().diffusionGraph(this.rowScorer(), options, this.neighbourhoodMeans()).graph;
     return this.graph;
   }
 

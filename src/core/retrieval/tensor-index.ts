@@ -5,6 +5,7 @@
 import * as tf from '@tensorflow/tfjs';
 import { normaliseRows } from '../vectors';
 import { EmbeddingIndex, type IndexEntry } from './index';
+import type { RowScorer } from './neighbour-table';
 
 export class TensorIndex extends EmbeddingIndex {
   private readonly matrixT: tf.Tensor2D; // (dim, count): the unit rows as columns
@@ -21,6 +22,23 @@ export class TensorIndex extends EmbeddingIndex {
     out.set(s.dataSync());
     s.dispose();
     return out;
+  }
+
+  /**
+   * Library rows [start, end) against every part as one (rows, dim) × (dim, count) product: the neighbour table's
+   * pass over all pairs at 20,000 × 256 took 10 s this way against 123 s for the JS scan (one core, bench `scale`).
+   */
+  override rowScorer(): RowScorer {
+    return (start, end, out) => {
+      const s = tf.tidy(() =>
+        tf.matMul(
+          tf.tensor2d(this.vectors.subarray(start * this.dim, end * this.dim), [end - start, this.dim]),
+          this.matrixT,
+        ),
+      );
+      out.set(s.dataSync());
+      s.dispose();
+    };
   }
 
   dispose(): void {

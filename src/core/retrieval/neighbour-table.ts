@@ -1,0 +1,265 @@
+// The library's neighbour table: each part's `width` most similar other parts by cosine, best first, found in one
+// blocked pass over all pairs and then kept (stored with the embeddings, updated when parts come and go). Ordering
+// through the library needs nothing else: the hub correction's r(i) is the mean of a row's first HUB_NEIGHBOURS
+// scores, and the diffusion graph's edges are each row's k best hub-corrected scores, chosen among the row's
+// candidates whenever a bound proves no part outside them can beat them (else that row alone is scanned again).
+// So the quadratic work is done once, as matrix products where a backend has them, and queries touch n·width.
+
+import { topK, type Hit } from './topk';
+import { HUB_NEIGHBOURS } from './hubness';
+import { DIFFUSION_DEFAULTS, DiffusionGraph, type DiffusionOptions } from './diffusion';
+
+/**
+ * Cosine similarities of library rows [start, end) to all n parts: out[(i − start)·n + j] = cos(i, j). The same
+ * (i, j) must give the same value whichever block it is computed in.
+ */
+export type RowScorer = (start: number, end: number, out: Float32Array) => void;
+
+/**
+ * Candidates kept per part. Measured on the three real libraries' trained embeddings (bench `scale`): with 64, the
+ * bound settles the graph's 15 hub-corrected neighbours without a rescan for most rows.
+ */
+export const TABLE_WIDTH = 64;
+
+/** Rows scored per block: at most this many similarities in memory at once (64 MB of float32). */
+const BLOCK_VALUES = 1 << 24;
+
+export interface TableBuildProgress {
+  readonly done: number;
+  readonly total: number;
+}
+
+export class NeighbourTable {
+  /** Row i's candidates are index[i·width .. i·width + length[i]), best first; score holds their cosines. */
+  private constructor(
+    readonly size: number,
+    readonly width: number,
+    readonly index: Int32Array,
+    readonly score: Float32Array,
+    readonly length: Int32Array,
+  ) {}
+
+  /** The table of n parts from their cosines, scored in blocks of rows. */
+  static build(
+    n: number,
+    scoreRows: RowScorer,
+    width = TABLE_WIDTH,
+    onProgress?: (p: TableBuildProgress) => void,
+  ): NeighbourTable {
+    if (!(Number.isInteger(width) && width >= 1))
+      throw new RangeError(`neighbour table: width must be ≥ 1, got ${width}`);
+    const table = new NeighbourTable(
+      n,
+      width,
+      new Int32Array(n * width),
+      new Float32Array(n * width),
+      new Int32Array(n),
+    );
+    table.scanRows(range(0, n), n, scoreRows, onProgress);
+    return table;
+  }
+
+  /** A table from its stored arrays (as `parts()` gives them), checked for shape. */
+  static fromArrays(
+    size: number,
+    width: number,
+    index: Int32Array,
+    score: Float32Array,
+    length: Int32Array,
+  ): NeighbourTable {
+    if (index.length !== size * width || score.length !== size * width || length.length !== size)
+      throw new RangeError(`neighbour table: arrays do not fit ${size} rows of ${width}`);
+    for (let i = 0; i < size; i++) {
+      if (length[i] < 0 || length[i] > width) throw new RangeError(`neighbour table: row ${i} has length ${length[i]}`);
+      for (let c = 0; c < length[i]; c++) {
+        const j = index[i * width + c];
+        if (!(j >= 0 && j < size && j !== i)) throw new RangeError(`neighbour table: row ${i} names part ${j}`);
+      }
+    }
+    return new NeighbourTable(size, width, index, score, length);
+  }
+
+  /** Row i's candidates as hits, best first. */
+  row(i: number): Hit[] {
+    const out: Hit[] = [];
+    for (let c = 0; c < this.length[i]; c++)
+      out.push({ index: this.index[i * this.width + c], score: this.score[i * this.width + c] });
+    return out;
+  }
+
+  /** Scores `rows` against all `n` parts in blocks and keeps each one's best `width` (itself left out). */
+  private scanRows(
+    rows: readonly number[],
+    n: number,
+    scoreRows: RowScorer,
+    onProgress?: (p: TableBuildProgress) => void,
+  ): void {
+    const perBlock = Math.max(1, Math.floor(BLOCK_VALUES / Math.max(1, n)));
+    let block = new Float32Array(0);
+    // Consecutive rows go in one block; scattered rows (rescans) one block each run of consecutive numbers.
+    let done = 0;
+    for (let a = 0; a < rows.length;) {
+      let b = a + 1;
+      while (b < rows.length && rows[b] === rows[b - 1] + 1 && b - a < perBlock) b++;
+      const start = rows[a],
+        end = rows[b - 1] + 1;
+      if (block.length < (end - start) * n) block = new Float32Array((end - start) * n);
+      const out = block.subarray(0, (end - start) * n);
+      scoreRows(start, end, out);
+      this.takeRows(start, end, out);
+      done += end - start;
+      a = b;
+      onProgress?.({ done, total: rows.length });
+    }
+  }
+
+  /** Rows [start, end) from their scores against all parts (`out` as a RowScorer fills it); itself left out. */
+  private takeRows(start: number, end: number, out: Float32Array): void {
+    const n = this.size;
+    const keep = Math.min(this.width, n - 1);
+    for (let i = start; i < end; i++) {
+      const r = out.subarray((i - start) * n, (i - start + 1) * n);
+      const self = r[i];
+      r[i] = NaN; // never itself
+      this.setRow(i, keep > 0 ? topK(r, keep) : []);
+      r[i] = self;
+    }
+  }
+
+  private setRow(i: number, hits: readonly Hit[]): void {
+    const o = i * this.width;
+    hits.forEach((h, c) => {
+      this.index[o + c] = h.index;
+      this.score[o + c] = h.score;
+    });
+    this.length[i] = hits.length;
+  }
+
+  /** r(i) for every part: the mean of its HUB_NEIGHBOURS highest cosines to the others (hubness.ts). */
+  neighbourhoodMeans(k = HUB_NEIGHBOURS): Float64Array {
+    if (k > this.width) throw new RangeError(`neighbour table: ${k} neighbours asked of rows of ${this.width}`);
+    const r = new Float64Array(this.size);
+    for (let i = 0; i < this.size; i++) {
+      const m = Math.min(k, this.length[i]);
+      let s = 0;
+      for (let c = 0; c < m; c++) s += this.score[i * this.width + c];
+      r[i] = m > 0 ? s / m : 0;
+    }
+    return r;
+  }
+
+  /**
+   * The diffusion graph over hub-corrected scores 2·cos(i, j) − r(i) − r(j), each row's k best taken from its
+   * candidates when the bound 2·(row's last cosine) − r(i) − min r proves nothing outside can beat its k-th;
+   * the rows it does not settle are scored again in full (`scoreRows`). Returns the graph and how many rows that took.
+   */
+  diffusionGraph(
+    scoreRows: RowScorer,
+    options: DiffusionOptions = DIFFUSION_DEFAULTS,
+    r: Float64Array = this.neighbourhoodMeans(),
+  ): { graph: DiffusionGraph; rescanned: number } {
+    const n = this.size;
+    const k = Math.min(options.k, n - 1);
+    let minR = Infinity;
+    for (let i = 0; i < n; i++) minR = Math.min(minR, r[i]);
+    const lists: Hit[][] = new Array(n);
+    const unsettled: number[] = [];
+    const keys = new Float64Array(this.width);
+    for (let i = 0; i < n; i++) {
+      const len = this.length[i],
+        o = i * this.width;
+      if (k <= 0) {
+        lists[i] = [];
+        continue;
+      }
+      for (let c = 0; c < len; c++) keys[c] = 2 * this.score[o + c] - r[i] - r[this.index[o + c]];
+      const local = len >= k ? topK(keys.subarray(0, len), k) : [];
+      const complete = len === n - 1; // the row holds every other part
+      const bound = 2 * this.score[o + len - 1] - r[i] - minR;
+      if (local.length === k && (complete || local[k - 1].score > bound))
+        lists[i] = local.map((h) => ({ index: this.index[o + h.index], score: h.score }));
+      else unsettled.push(i);
+    }
+    if (unsettled.length) {
+      const row = new Float32Array(n);
+      const keyRow = new Float64Array(n);
+      for (const i of unsettled) {
+        scoreRows(i, i + 1, row);
+        for (let j = 0; j < n; j++) keyRow[j] = j === i ? NaN : 2 * row[j] - r[i] - r[j];
+        lists[i] = topK(keyRow, k);
+      }
+    }
+    return { graph: DiffusionGraph.fromNeighbours(lists, options), rescanned: unsettled.length };
+  }
+
+  /**
+   * The table after `added` parts join at the end (the scorer now covers all size + added parts): their rows are
+   * scored in full, and each of them enters an old row when it beats that row's last candidate. Cost: added · n
+   * similarities, not n².
+   */
+  withAdded(added: number, scoreRows: RowScorer): NeighbourTable {
+    const n0 = this.size,
+      n = n0 + added,
+      W = this.width;
+    const next = new NeighbourTable(n, W, new Int32Array(n * W), new Float32Array(n * W), new Int32Array(n));
+    next.index.set(this.index);
+    next.score.set(this.score);
+    next.length.set(this.length);
+    if (added <= 0) return next;
+    const block = new Float32Array(added * n);
+    scoreRows(n0, n, block);
+    next.takeRows(n0, n, block);
+    // cos(i, j) for old i and new j from the new rows (the same pair, scored in row j's block). A row that held
+    // every other part takes any newcomer; a shorter one (cut by removals) only one that beats its last, so it
+    // stays its best among all parts.
+    const keep = Math.min(W, n - 1);
+    for (let i = 0; i < n0; i++) {
+      const candidates = next.row(i);
+      const complete = candidates.length === n0 - 1;
+      const last = candidates.length ? candidates[candidates.length - 1].score : -Infinity;
+      let changed = false;
+      for (let j = n0; j < n; j++) {
+        const s = block[(j - n0) * n + i];
+        if (complete || s > last) {
+          candidates.push({ index: j, score: s });
+          changed = true;
+        }
+      }
+      if (changed) {
+        candidates.sort((a, b) => b.score - a.score || a.index - b.index);
+        next.setRow(i, candidates.slice(0, keep));
+      }
+    }
+    return next;
+  }
+
+  /**
+   * The table without the parts `removed` (indices into this table); the others keep their order and are
+   * renumbered. A row that lost candidates keeps the rest (still its best among the remaining parts); one left
+   * shorter than `minLength` (HUB_NEIGHBOURS by default) is scored again in full with `scoreRows`, which covers
+   * the remaining parts in their new numbering.
+   */
+  withRemoved(removed: Iterable<number>, scoreRows: RowScorer, minLength = HUB_NEIGHBOURS): NeighbourTable {
+    const gone = new Uint8Array(this.size);
+    for (const i of removed) if (i >= 0 && i < this.size) gone[i] = 1;
+    const renumber = new Int32Array(this.size).fill(-1);
+    let n = 0;
+    for (let i = 0; i < this.size; i++) if (!gone[i]) renumber[i] = n++;
+    const W = this.width;
+    const next = new NeighbourTable(n, W, new Int32Array(n * W), new Float32Array(n * W), new Int32Array(n));
+    const short: number[] = [];
+    for (let i = 0; i < this.size; i++) {
+      if (gone[i]) continue;
+      const hits: Hit[] = [];
+      for (const h of this.row(i)) if (!gone[h.index]) hits.push({ index: renumber[h.index], score: h.score });
+      next.setRow(renumber[i], hits);
+      if (hits.length < Math.min(minLength, W, n - 1)) short.push(renumber[i]);
+    }
+    if (short.length) next.scanRows(short, n, scoreRows);
+    return next;
+  }
+}
+
+function range(a: number, b: number): number[] {
+  return Array.from({ length: Math.max(0, b - a) }, (_, m) => a + m);
+}
