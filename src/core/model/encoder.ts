@@ -18,6 +18,11 @@ function heNormal(rng: Rng, fanIn: number, fanOut: number, gain = 2): Float32Arr
   return w;
 }
 
+/** Inference only (no gradient kept): optionally the batch's neighbour lists, computed once for its mirror images. */
+export interface InferenceOptions {
+  readonly neighbours?: Int32Array;
+}
+
 let instances = 0; // tfjs variable names must be unique per process
 
 export class Encoder {
@@ -69,8 +74,11 @@ export class Encoder {
     ];
   }
 
-  /** Pooled features (B, C) of a batch x: (B, N, F). */
-  pooled(x: tf.Tensor3D): tf.Tensor2D {
+  /**
+   * Pooled features (B, C) of a batch x: (B, N, F). For inference (`embed`), the EdgeConv layer may be given the
+   * batch's neighbour lists (`neighbours`), which a mirror image of the same points shares.
+   */
+  pooled(x: tf.Tensor3D, inference?: InferenceOptions): tf.Tensor2D {
     const [B, N, F] = x.shape;
     const expected = inputChannels(this.config.inputFeatures);
     if (F !== expected)
@@ -78,25 +86,37 @@ export class Encoder {
         `encoder: input has ${F} channels per point, expected ${expected} (${this.config.inputFeatures})`,
       );
     if (!this.edge) return pointMlpPool(tf.reshape(x, [B * N, F]), B, N, this.layers, this.config.pooling);
-    return tf.tidy(() => pointMlpPool(this.edgeOutput(x), B, N, this.layers, this.config.pooling));
+    return tf.tidy(() => pointMlpPool(this.edgeOutput(x, inference), B, N, this.layers, this.config.pooling));
+  }
+
+  /**
+   * The EdgeConv layer's neighbour lists for a batch buffer x: (B, N, F) (`neighbourIndex`), or null without the
+   * layer. Distances are unchanged by flipping axes' signs, so the four sign choices of a pose share them.
+   */
+  neighbours(x: Float32Array, B: number, N: number): Int32Array | null {
+    if (!this.config.edge) return null;
+    return neighbourIndex(x, B, N, inputChannels(this.config.inputFeatures), Math.min(this.config.edge.k, N));
   }
 
   /** Per-point output of the EdgeConv layer (B·N, width) for a batch x: (B, N, F); only with an edge layer. */
-  edgeOutput(x: tf.Tensor3D): tf.Tensor2D {
+  edgeOutput(x: tf.Tensor3D, inference?: InferenceOptions): tf.Tensor2D {
     if (!this.edge) throw new Error('encoder: no EdgeConv layer in this configuration');
     const [B, N, F] = x.shape;
     const k = Math.min(this.config.edge!.k, N);
     return tf.tidy(() => {
       const flat = tf.reshape(x, [B * N, F]) as tf.Tensor2D;
-      const neighbours = neighbourIndex(flat.dataSync() as Float32Array, B, N, F, k);
-      return edgeConv(flat, neighbours, k, this.edge!);
+      const given = inference?.neighbours;
+      if (given && given.length !== B * N * k)
+        throw new RangeError(`encoder: ${given.length} neighbour entries for ${B} × ${N} points, k = ${k}`);
+      const neighbours = given ?? neighbourIndex(flat.dataSync() as Float32Array, B, N, F, k);
+      return edgeConv(flat, neighbours, k, this.edge!, inference !== undefined);
     });
   }
 
   /** L2-normalised embeddings: what retrieval uses — the head's output (B, P), or the pooled features (B, C). */
-  embed(x: tf.Tensor3D): tf.Tensor2D {
+  embed(x: tf.Tensor3D, neighbours?: Int32Array): tf.Tensor2D {
     return tf.tidy(() => {
-      const pooled = this.pooled(x);
+      const pooled = this.pooled(x, { neighbours });
       return l2Normalise(this.config.retrieval === 'projection' ? this.project(pooled) : pooled);
     });
   }

