@@ -4,7 +4,7 @@ import { writeFileSync } from 'node:fs';
 import { extname, relative, sep } from 'node:path';
 import { availableParallelism } from 'node:os';
 import { parseArgs } from 'node:util';
-import { initBackend } from '../core/model/backend';
+import { initBackend, type BackendName } from '../core/model/backend';
 import { encodersFromCheckpoint, resumeOptions, type Checkpoint } from '../core/model/checkpoint';
 import {
   DEFAULT_TRAIN,
@@ -15,6 +15,7 @@ import {
   poseReason,
 } from '../core/model/defaults';
 import { disposeEncoders, embedForRetrieval, type Encoders } from '../core/model/embed';
+import { EMBED_CHUNK, embedInThreads } from './embed-pool';
 import { POSE_LABELS, POSES } from '../core/model/train-config';
 import { type ModelPart } from '../core/model/views';
 import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../core/model/encoder-config';
@@ -81,7 +82,7 @@ usage:
 
 every command: [--json] one JSON document on stdout and nothing else there (bad files under "failures")
                [--progress bar|json|none] progress on stderr: a bar on a terminal (default), JSON lines, or none
-               [--threads N] read and sample files on N threads (default: one per core)
+               [--threads N] read, sample and embed on N threads (default: one per core)
                [--max-file-mb N] refuse files larger than N MiB (default ${DEFAULT_MAX_BYTES / 2 ** 20})
                [--units mm|cm|m|inch|<factor>] what one unit of files without units (STL, OBJ, PLY, OFF, VRML, point
                lists) measures; sizes are then shown in mm (STEP and IGES are always mm)
@@ -338,6 +339,22 @@ async function withModel<T>(
   }
 }
 
+/**
+ * Retrieval embeddings of library parts: on the embedding threads (--threads, one per core) when there is more than
+ * one request's worth, else here; the bytes are the same either way (test/cli/embed-pool.test.ts).
+ */
+async function embedLibrary(
+  enc: Encoders,
+  ckpt: Checkpoint,
+  parts: readonly ModelPart[],
+  values: Values,
+): Promise<Float32Array> {
+  const { points, pose } = ckpt.manifest.config;
+  const n = threads(values);
+  if (n === 1 || parts.length <= EMBED_CHUNK) return embedForRetrieval(enc, asModelParts(parts), points, pose);
+  return embedInThreads(ckpt, asModelParts(parts), n, undefined, (values.backend as BackendName) ?? 'wasm');
+}
+
 /** A library's retrieval embeddings with each part's description: from --db's stored vectors, or read and embedded now. */
 interface EmbeddedLibrary {
   readonly rows: EmbeddingRow[];
@@ -373,12 +390,7 @@ async function embeddedLibrary(lib: string, values: Values, command: string): Pr
       ...ckpt.manifest.sampling,
     });
     reportFailures(library.failures, Boolean(values.json));
-    const vectors = embedForRetrieval(
-      enc,
-      asModelParts(library.parts),
-      ckpt.manifest.config.points,
-      ckpt.manifest.config.pose,
-    );
+    const vectors = await embedLibrary(enc, ckpt, library.parts, values);
     return {
       rows: library.parts.map((p, i) => embeddingRow(p.name, library.labels[i], p.info, p.diagonal, mmPerUnit)),
       vectors,
@@ -422,7 +434,7 @@ async function query(file: string, values: Values): Promise<void> {
     });
     reportFailures(library.failures, Boolean(values.json));
     const points = ckpt.manifest.config.points;
-    const vectors = embedForRetrieval(enc, asModelParts(library.parts), points, ckpt.manifest.config.pose);
+    const vectors = await embedLibrary(enc, ckpt, library.parts, values);
     const D = vectors.length / library.parts.length;
     // Sizes compare in mm where units are known (STEP/IGES, or --units), so a part exported in inches still passes the size filter.
     const sizes = library.parts.map((p) => partSize(p.info, mmPerUnit));

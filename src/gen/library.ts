@@ -31,7 +31,7 @@ export interface LibraryEntry {
   readonly tessellationGap: number;
 }
 
-type Format = 'stl-binary' | 'stl-binary-solid-header' | 'stl-ascii' | 'obj' | 'obj-soup' | PlyEncoding | 'off';
+export type Format = 'stl-binary' | 'stl-binary-solid-header' | 'stl-ascii' | 'obj' | 'obj-soup' | PlyEncoding | 'off';
 
 // One slot per (family + variant) modulo the cycle: mostly binary STL, as most CAD libraries are.
 const FORMAT_CYCLE: readonly Format[] = [
@@ -121,7 +121,15 @@ export interface Library {
   readonly entries: LibraryEntry[];
 }
 
-export function generateLibrary(seed = DEMO_SEED): Library {
+export interface GenerateOptions {
+  /** Write every part in these formats, in turn (default: the demo's mix of exports). */
+  readonly formats?: readonly Format[];
+  /** Add the folder of broken files and labels.csv (default true). */
+  readonly extras?: boolean;
+}
+
+export function generateLibrary(seed = DEMO_SEED, options: GenerateOptions = {}): Library {
+  const cycle = options.formats ?? FORMAT_CYCLE;
   const master = createRng(seed);
   const files: LibraryFile[] = [];
   const entries: LibraryEntry[] = [];
@@ -129,7 +137,7 @@ export function generateLibrary(seed = DEMO_SEED): Library {
     const rng = master.fork();
     for (let v = 0; v < VARIANTS_PER_FAMILY; v++) {
       const part = family.make(rng, v);
-      const format = FORMAT_CYCLE[(f * 3 + v * 7) % FORMAT_CYCLE.length];
+      const format = cycle[(f * 3 + v * 7) % cycle.length];
       const units: 'mm' | 'in' = (f + v * 3) % 9 === 4 ? 'in' : 'mm';
       const upAxis: LibraryEntry['upAxis'] = (['z', 'y', 'any'] as const)[(f + v) % 3];
       const windingMixed = (f * 5 + v) % 11 === 3;
@@ -158,8 +166,10 @@ export function generateLibrary(seed = DEMO_SEED): Library {
       });
     }
   });
-  files.push(...brokenFiles(files));
-  files.push({ path: 'labels.csv', bytes: new TextEncoder().encode(labelsCsv(entries)) });
+  if (options.extras ?? true) {
+    files.push(...brokenFiles(files));
+    files.push({ path: 'labels.csv', bytes: new TextEncoder().encode(labelsCsv(entries)) });
+  }
   return { files, entries };
 }
 
