@@ -161,3 +161,6 @@ export function say(store: Store<AppState>, notice: string, action: AppState['no
 
 /** The library job's progress label while the kept library is opened (nothing to stop: it is already read). */
 export const RESTORING = 'restoring the kept library';
+
+/** The look-alike job's progress label while the library's neighbours are found (in a worker; seconds, not minutes). */
+export const ORDERING = 'finding neighbours in the library';

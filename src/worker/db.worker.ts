@@ -3,6 +3,7 @@
 // embeddings, answers one request at a time, and on first start moves over what an earlier version kept in plain
 // IndexedDB records (the library; embeddings are recomputed).
 
+import { NeighbourTable } from '../core/retrieval/neighbour-table';
 import { modelFingerprint } from '../core/checksum';
 import { openEmbedded } from '../core/db/embedded';
 import { PartsDb } from '../core/db/parts-db';
@@ -137,6 +138,20 @@ async function answer(req: DbRequest): Promise<[DbAnswers[DbRequest['type']], Ar
     case 'load-embeddings': {
       const e = await (await store()).embeddings(req.key, req.names);
       return [e, e ? [e.vectors.buffer as ArrayBuffer] : []];
+    }
+    case 'put-ordering': {
+      const t = req.table;
+      const table = NeighbourTable.fromArrays(t.names.length, t.width, t.index, t.score, t.length);
+      return [await (await store()).putOrdering(req.key, t.names, table), []];
+    }
+    case 'load-ordering': {
+      const o = await (await store()).ordering(req.key);
+      if (!o) return [null, []];
+      const { width, index, score, length } = o.table;
+      return [
+        { names: o.names, width, index, score, length },
+        [index.buffer as ArrayBuffer, score.buffer as ArrayBuffer, length.buffer as ArrayBuffer],
+      ];
     }
     case 'export': {
       const s = await store();

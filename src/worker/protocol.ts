@@ -9,6 +9,7 @@ import type { StudyRow } from '../core/quality/study';
 import type { AugmentKind } from '../core/points/augment';
 import type { TrainConfig, TrainProgress, HeldOutCheck, TrainResult } from '../core/model/train-config';
 import type { HashedPart } from '../core/db/workbench';
+import type { PackedLists } from '../core/retrieval/neighbour-table';
 
 export interface FileInput {
   readonly name: string;
@@ -47,6 +48,25 @@ export interface CheckpointMessage {
   readonly adamStep: number;
 }
 
+/** A neighbour table as it crosses a boundary: its rows' part names and its arrays (retrieval/neighbour-table.ts). */
+export interface TableMessage {
+  readonly names: readonly string[];
+  readonly width: number;
+  readonly index: Int32Array;
+  readonly score: Float32Array;
+  readonly length: Int32Array;
+}
+
+/** The ordering through the library an index takes over (`EmbeddingIndex.useOrdering`): its table and graph lists. */
+export interface OrderingMessage {
+  readonly table: TableMessage;
+  readonly graph: PackedLists;
+  /** Rows added to, and removed from, a kept table (0 and 0 when built afresh); rows scanned again for the graph. */
+  readonly added: number;
+  readonly removed: number;
+  readonly fresh: boolean;
+}
+
 export type TrainRequest =
   | {
       readonly type: 'start';
@@ -66,6 +86,18 @@ export type TrainRequest =
       readonly parts: readonly PartArrays[];
       readonly checkpoint: CheckpointMessage | null;
       readonly config: TrainConfig;
+    }
+  /**
+   * Build the ordering through the library from its embeddings (rows in `names` order), carrying `kept` (a table
+   * for the same model) over where there is one.
+   */
+  | {
+      readonly type: 'order';
+      readonly id: number;
+      readonly names: readonly string[];
+      readonly vectors: Float32Array;
+      readonly dim: number;
+      readonly kept: TableMessage | null;
     }
   /** Time one training step with these settings on a sample of the parts (the estimate before Start). */
   | { readonly type: 'probe'; readonly id: number; readonly parts: readonly PartArrays[]; readonly config: TrainConfig }
@@ -123,6 +155,7 @@ export type TrainReply =
     }
   | { readonly type: 'saved'; readonly id: number; readonly checkpoint: CheckpointMessage | null }
   | { readonly type: 'probed'; readonly id: number; readonly msPerStep: number }
+  | { readonly type: 'ordering'; readonly id: number; readonly ordering: OrderingMessage }
   | {
       readonly type: 'explanation';
       readonly id: number;
@@ -173,6 +206,9 @@ export type DbRequest =
       readonly dim: number;
     }
   | { readonly type: 'load-embeddings'; readonly id: number; readonly key: string; readonly names: readonly string[] }
+  /** A model's neighbour table (ordering through the library), kept with the names of its rows. */
+  | { readonly type: 'put-ordering'; readonly id: number; readonly key: string; readonly table: TableMessage }
+  | { readonly type: 'load-ordering'; readonly id: number; readonly key: string }
   /** The whole database as one file (PGlite's dump, a gzipped tar of its data folder). */
   | { readonly type: 'export'; readonly id: number }
   /** Replace the database with a dump. */
@@ -190,6 +226,8 @@ export interface DbAnswers {
   'put-model': string;
   'put-embeddings': boolean;
   'load-embeddings': { vectors: Float32Array; dim: number } | null;
+  'put-ordering': boolean;
+  'load-ordering': TableMessage | null;
   export: Blob;
   import: null;
 }

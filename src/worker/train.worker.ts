@@ -19,6 +19,8 @@ import { Trainer } from '../core/model/trainer';
 import { evaluateMethods, untrainedEncoders } from '../core/quality/evaluate';
 import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
 import { runStudy } from '../core/quality/study';
+import { NeighbourTable } from '../core/retrieval/neighbour-table';
+import { buildOrdering } from '../core/retrieval/tensor-index';
 import type { CheckpointMessage, TrainReply, TrainRequest } from './protocol';
 
 /**
@@ -205,6 +207,37 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
       case 'forget-saved': {
         await tf.io.removeModel(SAVED).catch(() => {});
         post({ type: 'saved', id: req.id, checkpoint: null });
+        return;
+      }
+      case 'order': {
+        const kept = req.kept
+          ? {
+              names: req.kept.names,
+              table: NeighbourTable.fromArrays(
+                req.kept.names.length,
+                req.kept.width,
+                req.kept.index,
+                req.kept.score,
+                req.kept.length,
+              ),
+            }
+          : null;
+        const o = buildOrdering(req.names, req.vectors, req.dim, kept);
+        const { width, index, score, length } = o.table;
+        post(
+          {
+            type: 'ordering',
+            id: req.id,
+            ordering: {
+              table: { names: req.names, width, index, score, length },
+              graph: o.graph,
+              added: o.added,
+              removed: o.removed,
+              fresh: o.fresh,
+            },
+          },
+          [index, score, length, o.graph.index, o.graph.score, o.graph.length].map((a) => a.buffer as ArrayBuffer),
+        );
         return;
       }
       case 'probe': {

@@ -95,6 +95,27 @@ ALTER TABLE parts
 ALTER TABLE models ALTER COLUMN weights SET STORAGE EXTERNAL;
 `,
   },
+  {
+    version: 4,
+    what: "a model's neighbour table (ordering through the library), kept so a reload or a changed library does not redo all pairs",
+    sql: `
+-- Each part's best candidates by cosine under one model (retrieval/neighbour-table.ts): row r stands for
+-- part_paths[r]; neighbours (int32) and scores (float32) hold width entries a row, lengths (int32) how many are used.
+CREATE TABLE orderings (
+  model_id integer PRIMARY KEY REFERENCES models ON DELETE CASCADE,
+  part_paths text[] NOT NULL,
+  width integer NOT NULL CHECK (width > 0),
+  neighbours bytea NOT NULL,
+  scores bytea NOT NULL,
+  lengths bytea NOT NULL,
+  built_at timestamptz NOT NULL DEFAULT now()
+);
+ALTER TABLE orderings
+  ALTER COLUMN neighbours SET STORAGE EXTERNAL,
+  ALTER COLUMN scores SET STORAGE EXTERNAL,
+  ALTER COLUMN lengths SET STORAGE EXTERNAL;
+`,
+  },
 ];
 
 export const SCHEMA_VERSION = MIGRATIONS[MIGRATIONS.length - 1].version;

@@ -7,6 +7,7 @@ import type { ImportFailure } from '../mesh/import';
 import type { ImportErrorCode, MeshInfo } from '../mesh/types';
 import { measuredValues, type PartsDb } from './parts-db';
 import { bytesFloats, floatBytes, vectorLiteral } from './sql';
+import { NeighbourTable, type NamedTable } from '../retrieval/neighbour-table';
 
 export interface WorkbenchLibrary {
   readonly parts: LibraryPart[];
@@ -39,6 +40,11 @@ export class WorkbenchStore {
     if (parts.length === 0) return;
     await this.sql.transaction(async (tx) => {
       for (const p of parts) {
+        // A part read again whose file changed (or is not known not to have): a kept ordering with it is no longer true.
+        const before = await tx.query<{ h: string }>('SELECT content_hash AS h FROM parts WHERE path = $1', [p.name]);
+        const was = before.rows[0]?.h;
+        if (was !== undefined && (was === '' || was !== (p.contentHash ?? '')))
+          await tx.query('DELETE FROM orderings WHERE $1 = ANY(part_paths)', [p.name]);
         await tx.query(
           `INSERT INTO parts (path, content_hash, file_bytes, label, state, failure, failure_code, format, units,
              triangles, closed, bodies, extents, diagonal, info, sample_points, sample_seed, points, normals, centre,
@@ -260,5 +266,60 @@ export class WorkbenchStore {
       vectors.set(v, i * dim);
     }
     return { vectors, dim };
+  }
+
+  /**
+   * Keeps a model's neighbour table (rows in the order of `names`); false when that model is no longer kept. One
+   * table a model: the next replaces it.
+   */
+  async putOrdering(key: string, names: readonly string[], t: NeighbourTable): Promise<boolean> {
+    if (names.length !== t.size) throw new RangeError(`putOrdering: ${names.length} names for a table of ${t.size}`);
+    return this.sql.transaction(async (tx) => {
+      const model = (await tx.query<{ id: number }>('SELECT id FROM models WHERE fingerprint = $1', [key])).rows[0]?.id;
+      if (model === undefined) return false;
+      await tx.query(
+        `INSERT INTO orderings (model_id, part_paths, width, neighbours, scores, lengths) VALUES ($1, $2, $3, $4, $5, $6)
+         ON CONFLICT (model_id) DO UPDATE SET part_paths = EXCLUDED.part_paths, width = EXCLUDED.width,
+           neighbours = EXCLUDED.neighbours, scores = EXCLUDED.scores, lengths = EXCLUDED.lengths, built_at = now()`,
+        [
+          model,
+          [...names],
+          t.width,
+          u32Bytes(new Uint32Array(t.index.buffer, t.index.byteOffset, t.index.length)),
+          floatBytes(t.score),
+          u32Bytes(new Uint32Array(t.length.buffer, t.length.byteOffset, t.length.length)),
+        ],
+      );
+      return true;
+    });
+  }
+
+  /** A model's kept neighbour table with the names of its rows, or null. */
+  async ordering(key: string): Promise<NamedTable | null> {
+    const r = await this.sql.query<{
+      part_paths: string[];
+      width: number;
+      neighbours: Uint8Array;
+      scores: Uint8Array;
+      lengths: Uint8Array;
+    }>(
+      `SELECT o.part_paths, o.width, o.neighbours, o.scores, o.lengths FROM orderings o JOIN models m ON m.id = o.model_id
+       WHERE m.fingerprint = $1`,
+      [key],
+    );
+    const row = r.rows[0];
+    if (!row) return null;
+    const size = row.part_paths.length;
+    const asInt = (b: Uint8Array) => new Int32Array(bytesU32(b).buffer);
+    return {
+      names: row.part_paths,
+      table: NeighbourTable.fromArrays(
+        size,
+        row.width,
+        asInt(row.neighbours),
+        bytesFloats(row.scores),
+        asInt(row.lengths),
+      ),
+    };
   }
 }

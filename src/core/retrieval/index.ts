@@ -5,7 +5,15 @@ import { normaliseRows } from '../vectors';
 import { topK, type Hit } from './topk';
 import { DIFFUSION_DEFAULTS, DiffusionGraph, rankingKeys, type DiffusionOptions } from './diffusion';
 import { HUB_NEIGHBOURS, meanOfTop } from './hubness';
-import { NeighbourTable, TABLE_WIDTH, type RowScorer, type TableBuildProgress } from './neighbour-table';
+import {
+  NeighbourTable,
+  packLists,
+  TABLE_WIDTH,
+  unpackLists,
+  type PackedLists,
+  type RowScorer,
+  type TableBuildProgress,
+} from './neighbour-table';
 
 /**
  * How results are ordered: by cosine similarity to the query, or through the library: hub-corrected (CSLS,
@@ -123,6 +131,7 @@ export class EmbeddingIndex {
     this.table = table;
     this.hubs = null;
     this.graph = null;
+    this.graphLists = null;
     return this;
   }
 
@@ -146,11 +155,36 @@ export class EmbeddingIndex {
     return Float64Array.from({ length: this.count }, (_, j) => 2 * cosine[j] - rq - r[j]);
   }
 
+  private graphLists: Hit[][] | null = null;
+
   /** The library's neighbour graph over hub-corrected scores, from the table (built on first use) and kept. */
   diffusionGraph(options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
-    if (!this.graph || this.graph.options !== options)
-      this.graph = this.neighbourTable().diffusionGraph(this.rowScorer(), options, this.neighbourhoodMeans()).graph;
+    if (!this.graph || this.graph.options !== options) {
+      const built = this.neighbourTable().diffusionGraph(this.rowScorer(), options, this.neighbourhoodMeans());
+      this.graph = built.graph;
+      this.graphLists = options === DIFFUSION_DEFAULTS ? built.lists : null;
+    }
     return this.graph;
+  }
+
+  /**
+   * Everything ordering through the library needs, as arrays a worker can build and hand over: the table and each
+   * part's hub-corrected graph neighbours (the default diffusion settings).
+   */
+  ordering(): { table: NeighbourTable; graph: PackedLists } {
+    this.diffusionGraph(DIFFUSION_DEFAULTS);
+    return { table: this.neighbourTable(), graph: packLists(this.graphLists!, DIFFUSION_DEFAULTS.k) };
+  }
+
+  /** Takes an ordering built elsewhere (`ordering()` of an index over these very vectors): nothing is rebuilt here. */
+  useOrdering(o: { table: NeighbourTable; graph: PackedLists }): this {
+    this.useTable(o.table);
+    const lists = unpackLists(o.graph);
+    if (lists.length !== this.count)
+      throw new RangeError(`useOrdering: a graph of ${lists.length} parts for an index of ${this.count}`);
+    this.graph = DiffusionGraph.fromNeighbours(lists, DIFFUSION_DEFAULTS);
+    this.graphLists = lists;
+    return this;
   }
 
   /**

@@ -157,7 +157,7 @@ export class NeighbourTable {
     scoreRows: RowScorer,
     options: DiffusionOptions = DIFFUSION_DEFAULTS,
     r: Float64Array = this.neighbourhoodMeans(),
-  ): { graph: DiffusionGraph; rescanned: number } {
+  ): { graph: DiffusionGraph; lists: Hit[][]; rescanned: number } {
     const n = this.size;
     const k = Math.min(options.k, n - 1);
     let minR = Infinity;
@@ -189,7 +189,7 @@ export class NeighbourTable {
         lists[i] = topK(keyRow, k);
       }
     }
-    return { graph: DiffusionGraph.fromNeighbours(lists, options), rescanned: unsettled.length };
+    return { graph: DiffusionGraph.fromNeighbours(lists, options), lists, rescanned: unsettled.length };
   }
 
   /**
@@ -258,6 +258,91 @@ export class NeighbourTable {
     if (short.length) next.scanRows(short, n, scoreRows);
     return next;
   }
+
+  /**
+   * The same table with its parts renumbered: row r becomes row `to[r]` (a permutation of 0 … size − 1), and every
+   * candidate is renamed likewise (rows re-sorted, so ties still go to the lower number).
+   */
+  renumbered(to: Int32Array): NeighbourTable {
+    const n = this.size,
+      W = this.width;
+    if (to.length !== n) throw new RangeError(`renumbered: ${to.length} numbers for ${n} parts`);
+    const seen = new Uint8Array(n);
+    for (const t of to) {
+      if (!(t >= 0 && t < n) || seen[t]) throw new RangeError('renumbered: not a permutation');
+      seen[t] = 1;
+    }
+    const next = new NeighbourTable(n, W, new Int32Array(n * W), new Float32Array(n * W), new Int32Array(n));
+    for (let r = 0; r < n; r++) {
+      const hits = this.row(r).map((h) => ({ index: to[h.index], score: h.score }));
+      hits.sort((a, b) => b.score - a.score || a.index - b.index);
+      next.setRow(to[r], hits);
+    }
+    return next;
+  }
+}
+
+/** Neighbour lists (one per part, best first, at most `k` each) as three flat arrays, for messages and storage. */
+export interface PackedLists {
+  readonly k: number;
+  readonly index: Int32Array;
+  readonly score: Float64Array;
+  readonly length: Int32Array;
+}
+
+export function packLists(lists: readonly (readonly Hit[])[], k: number): PackedLists {
+  const n = lists.length;
+  const out = { k, index: new Int32Array(n * k), score: new Float64Array(n * k), length: new Int32Array(n) };
+  lists.forEach((l, i) => {
+    if (l.length > k) throw new RangeError(`packLists: row ${i} has ${l.length} entries, more than ${k}`);
+    out.length[i] = l.length;
+    l.forEach((h, c) => {
+      out.index[i * k + c] = h.index;
+      out.score[i * k + c] = h.score;
+    });
+  });
+  return out;
+}
+
+export function unpackLists(p: PackedLists): Hit[][] {
+  return Array.from({ length: p.length.length }, (_, i) =>
+    Array.from({ length: p.length[i] }, (_, c) => ({ index: p.index[i * p.k + c], score: p.score[i * p.k + c] })),
+  );
+}
+
+/** A table kept with the names of the parts its rows stand for, in row order. */
+export interface NamedTable {
+  readonly names: readonly string[];
+  readonly table: NeighbourTable;
+}
+
+/**
+ * The kept table brought to a library's parts now (`names`, in their order; the same model's embeddings): parts
+ * gone are dropped (`withRemoved`), new ones join (`withAdded`), and rows are renumbered to the library's order.
+ * `scorerOver(order)` gives a RowScorer over the library's parts listed by `order` (indices into `names`).
+ * Cost: the new parts' rows and the rows cut short, not n².
+ */
+export function carryTable(
+  kept: NamedTable,
+  names: readonly string[],
+  scorerOver: (order: readonly number[]) => RowScorer,
+): { table: NeighbourTable; added: number; removed: number } {
+  if (kept.names.length !== kept.table.size)
+    throw new RangeError(`carryTable: ${kept.names.length} names for a table of ${kept.table.size}`);
+  const at = new Map(names.map((n, i) => [n, i]));
+  const gone: number[] = [];
+  const stay: number[] = []; // indices into names, in the kept table's order
+  kept.names.forEach((n, r) => {
+    const i = at.get(n);
+    if (i === undefined) gone.push(r);
+    else stay.push(i);
+  });
+  const stayed = new Set(stay);
+  const fresh = names.map((_, i) => i).filter((i) => !stayed.has(i));
+  let table = gone.length ? kept.table.withRemoved(gone, scorerOver(stay)) : kept.table;
+  const order = [...stay, ...fresh];
+  if (fresh.length) table = table.withAdded(fresh.length, scorerOver(order));
+  return { table: table.renumbered(Int32Array.from(order)), added: fresh.length, removed: gone.length };
 }
 
 function range(a: number, b: number): number[] {

@@ -4,8 +4,15 @@
 
 import * as tf from '@tensorflow/tfjs';
 import { normaliseRows } from '../vectors';
-import { EmbeddingIndex, type IndexEntry } from './index';
-import type { RowScorer } from './neighbour-table';
+import { dot4, EmbeddingIndex, type IndexEntry } from './index';
+import {
+  carryTable,
+  TABLE_WIDTH,
+  type NamedTable,
+  type NeighbourTable,
+  type PackedLists,
+  type RowScorer,
+} from './neighbour-table';
 
 export class TensorIndex extends EmbeddingIndex {
   private readonly matrixT: tf.Tensor2D; // (dim, count): the unit rows as columns
@@ -44,4 +51,68 @@ export class TensorIndex extends EmbeddingIndex {
   dispose(): void {
     this.matrixT.dispose();
   }
+}
+
+/** An ordering through the library built (or carried over from a kept table) for parts in `names` order. */
+export interface BuiltOrdering {
+  readonly table: NeighbourTable;
+  readonly graph: PackedLists;
+  readonly added: number;
+  readonly removed: number;
+  /** Built from all pairs (no usable kept table). */
+  readonly fresh: boolean;
+}
+
+/**
+ * The ordering for a library's embeddings (rows in `names` order): the kept table carried over when it was made
+ * at this table width with these embeddings (a few of its scores are checked against the vectors), else built
+ * afresh; then the graph's lists. Every pass over pairs is a tfjs matrix product.
+ */
+export function buildOrdering(
+  names: readonly string[],
+  vectors: Float32Array,
+  dim: number,
+  kept: NamedTable | null,
+): BuiltOrdering {
+  const entries = names.map((name) => ({ name, label: '', diagonal: 1 }));
+  const index = new TensorIndex(vectors, dim, entries);
+  const made: TensorIndex[] = [];
+  try {
+    let carried: ReturnType<typeof carryTable> | null = null;
+    if (kept && kept.table.width === TABLE_WIDTH && keptMatches(kept, names, index)) {
+      carried = carryTable(kept, names, (order) => {
+        const rows = new Float32Array(order.length * dim);
+        order.forEach((i, r) => rows.set(index.vector(i), r * dim));
+        const sub = new TensorIndex(
+          rows,
+          dim,
+          order.map((i) => entries[i]),
+        );
+        made.push(sub);
+        return sub.rowScorer();
+      });
+      index.useTable(carried.table);
+    }
+    const { table, graph } = index.ordering();
+    return { table, graph, added: carried?.added ?? 0, removed: carried?.removed ?? 0, fresh: !carried };
+  } finally {
+    index.dispose();
+    for (const m of made) m.dispose();
+  }
+}
+
+/** Whether a kept table's first candidates still score as the vectors say (up to 16 rows of parts still present). */
+function keptMatches(kept: NamedTable, names: readonly string[], index: EmbeddingIndex): boolean {
+  const at = new Map(names.map((n, i) => [n, i]));
+  let checked = 0;
+  for (let r = 0; r < kept.table.size && checked < 16; r++) {
+    const i = at.get(kept.names[r]);
+    const first = kept.table.row(r)[0];
+    const j = first ? at.get(kept.names[first.index]) : undefined;
+    if (i === undefined || j === undefined) continue;
+    const s = dot4(index.vectors, j * index.dim, index.vector(i), index.dim);
+    if (!(Math.abs(s - first.score) < 1e-4)) return false;
+    checked++;
+  }
+  return true;
 }

@@ -9,7 +9,7 @@ import { ACCEPT } from '../../core/mesh/formats';
 import { LitElement, css, html } from 'lit';
 import type { Object3D } from 'three';
 import type { LibraryPart } from '../../core/library';
-import { DEFAULT_FILTERS, IDLE, type JobStatus, type MatchExplanation, type SearchFilters } from '../state';
+import { DEFAULT_FILTERS, IDLE, ORDERING, type JobStatus, type MatchExplanation, type SearchFilters } from '../state';
 import type { Hit } from '../../core/retrieval/topk';
 import { alignToFrame, meshObject, pointsObject, PALETTE, weightColours } from '../../render/scene';
 import { principalFrame } from '../../core/points/pca';
@@ -161,6 +161,11 @@ export class SkSearchPanel extends LitElement {
   private renderEmbedding() {
     const e = this.embedding;
     const emit = (name: string) => this.dispatchEvent(new CustomEvent(name, { bubbles: true, composed: true }));
+    if (e.kind === 'running' && e.progress?.what === ORDERING)
+      return html`<div class="embedding" data-testid="order-progress" role="status">
+        <progress aria-label="ordering progress"></progress>
+        Linking each of the ${e.progress.total} parts to its nearest neighbours, so results can be ordered through
+        the library…</div>`;
     if (e.kind === 'running' && e.progress) {
       const p = e.progress;
       const left = timeLeft(p, performance.now());

@@ -5,7 +5,7 @@
 import type { HashedPart, WorkbenchLibrary } from '../../core/db/workbench';
 import type { LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
-import type { CheckpointMessage, DbAnswers, DbReply, DbRequest } from '../../worker/protocol';
+import type { CheckpointMessage, DbAnswers, DbReply, DbRequest, TableMessage } from '../../worker/protocol';
 
 type Waiter = { resolve: (v: unknown) => void; reject: (e: Error) => void };
 
@@ -124,6 +124,16 @@ export const saveEmbeddings = (key: string, names: readonly string[], vectors: F
 /** A model's embeddings of the named parts, in that order, or null unless all are kept. */
 export const loadEmbeddings = (key: string, names: readonly string[]) =>
   db.ask({ type: 'load-embeddings', key, names });
+
+/** Keeps a model's neighbour table (ordering through the library); false when that model is no longer kept. */
+export const saveOrdering = (key: string, table: TableMessage): Promise<boolean> => {
+  const copy = { ...table, index: table.index.slice(), score: table.score.slice(), length: table.length.slice() };
+  return db.ask({ type: 'put-ordering', key, table: copy }, [copy.index.buffer, copy.score.buffer, copy.length.buffer]);
+};
+
+/** A model's kept neighbour table, or null. */
+export const loadOrdering = (key: string): Promise<TableMessage | null> =>
+  db.ask({ type: 'load-ordering', key }).catch(() => null);
 
 /** The whole database as one file, for a colleague. */
 export const exportDatabase = (): Promise<Blob> => db.ask({ type: 'export' });

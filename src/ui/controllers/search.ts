@@ -6,8 +6,18 @@ import type { LibraryPart } from '../../core/library';
 import { EmbeddingIndex, type IndexEntry } from '../../core/retrieval/index';
 import { scaleToMm } from '../../core/units';
 import { shareBelow } from '../../core/retrieval/standing';
-import { IDLE, say, STARTED, type AppState, type SearchFilters, type SearchState, type Store } from '../state';
-import { loadEmbeddings, saveEmbeddings } from './library-db';
+import {
+  IDLE,
+  ORDERING,
+  say,
+  STARTED,
+  type AppState,
+  type SearchFilters,
+  type SearchState,
+  type Store,
+} from '../state';
+import { loadEmbeddings, loadOrdering, saveEmbeddings, saveOrdering } from './library-db';
+import { NeighbourTable } from '../../core/retrieval/neighbour-table';
 import type { LibraryController } from './library';
 import type { TrainingController } from './training';
 
@@ -70,6 +80,8 @@ export class SearchController {
       }
       if (version !== this.version) return;
       const index = new EmbeddingIndex(vectors, dim, this.entries(parts));
+      if (index.diffusionApplies()) await this.order(index, vectors, key, names, version);
+      if (version !== this.version) return;
       const selected = this.store.value.library.selected;
       const query = this.state.query ?? parts.find((p) => p.name === selected) ?? parts[0];
       this.patch({ index, query, status: { kind: 'done' } });
@@ -115,6 +127,39 @@ export class SearchController {
       o += v.length;
     }
     return { vectors, dim };
+  }
+
+  /**
+   * The ordering through the library, built in the training worker (a matrix product over all pairs, off the page)
+   * or carried over from the table kept for this model (only new parts' rows are scored), then kept with the
+   * embeddings. If the worker cannot, the index builds it itself on the first ordered query.
+   */
+  private async order(
+    index: EmbeddingIndex,
+    vectors: Float32Array,
+    key: string | null,
+    names: readonly string[],
+    version: number,
+  ): Promise<void> {
+    this.patch({
+      status: {
+        kind: 'running',
+        progress: { done: 0, total: names.length, what: ORDERING, startedAt: performance.now() },
+      },
+    });
+    try {
+      const kept = key ? await loadOrdering(key) : null;
+      const o = await this.training.client.order(names, vectors, index.dim, kept);
+      if (version !== this.version) return;
+      const t = o.table;
+      index.useOrdering({
+        table: NeighbourTable.fromArrays(t.names.length, t.width, t.index, t.score, t.length),
+        graph: o.graph,
+      });
+      if (key && (o.fresh || o.added > 0 || o.removed > 0)) await saveOrdering(key, t).catch(() => false);
+    } catch {
+      // ordered queries then build it here on first use
+    }
   }
 
   /** Stops embedding the library: look-alikes wait until it is embedded again (`refresh`); nothing half is kept. */

@@ -4,7 +4,14 @@
 import type { TrainConfig } from '../../core/model/train-config';
 import type { EvaluationReport } from '../../core/quality/evaluate';
 import type { StudyRow } from '../../core/quality/study';
-import type { CheckpointMessage, PartArrays, TrainReply, TrainRequest } from '../../worker/protocol';
+import type {
+  CheckpointMessage,
+  OrderingMessage,
+  PartArrays,
+  TableMessage,
+  TrainReply,
+  TrainRequest,
+} from '../../worker/protocol';
 
 type Listener = (msg: TrainReply) => void;
 
@@ -20,10 +27,14 @@ function transfersOf(msg: TrainRequest): Transferable[] {
     a: PartArrays;
     b: PartArrays;
     checkpoint: CheckpointMessage | null;
+    vectors: Float32Array;
+    kept: TableMessage | null;
   }>;
   for (const p of [...(m.parts ?? []), ...(m.a ? [m.a] : []), ...(m.b ? [m.b] : [])])
     out.push(p.points.buffer as ArrayBuffer, p.normals.buffer as ArrayBuffer);
   if (m.checkpoint) out.push(m.checkpoint.weightData);
+  if (m.vectors) out.push(m.vectors.buffer as ArrayBuffer);
+  if (m.kept) out.push(...[m.kept.index, m.kept.score, m.kept.length].map((a) => a.buffer as ArrayBuffer));
   return [...new Set(out)];
 }
 
@@ -131,6 +142,27 @@ export class TrainClient {
       'embeddings',
     );
     return { vectors: reply.vectors, dim: reply.dim };
+  }
+
+  /**
+   * The ordering through the library for embeddings whose rows are the parts `names`, carrying a kept table over
+   * (built in the worker, which has tfjs's matrix products; the page gets arrays).
+   */
+  async order(
+    names: readonly string[],
+    vectors: Float32Array,
+    dim: number,
+    kept: TableMessage | null,
+  ): Promise<OrderingMessage> {
+    const copy = vectors.slice();
+    const keptCopy = kept
+      ? { ...kept, index: kept.index.slice(), score: kept.score.slice(), length: kept.length.slice() }
+      : null;
+    const reply = await this.request(
+      { type: 'order', id: this.nextId++, names, vectors: copy, dim, kept: keptCopy },
+      'ordering',
+    );
+    return reply.ordering;
   }
 
   /** Milliseconds of one training step with `config` (timed in the worker on `parts`, a batch-sized sample). */

@@ -10,6 +10,8 @@ import type { Sql } from '../../../src/core/db/sql';
 import { WorkbenchStore } from '../../../src/core/db/workbench';
 import { replaceContents } from '../../../src/core/db/copy';
 import { loadPart, type LibraryPart } from '../../../src/core/library';
+import { EmbeddingIndex } from '../../../src/core/retrieval/index';
+import { NeighbourTable } from '../../../src/core/retrieval/neighbour-table';
 
 const open: Sql[] = [];
 afterEach(async () => {
@@ -77,6 +79,47 @@ describe('the workbench library in the database', () => {
     await store.putParts([parts[1]]);
     expect(await store.embeddings('untrained:a', [names[2]])).not.toBeNull();
     expect(await store.embeddings('untrained:a', [names[1]])).toBeNull();
+  });
+});
+
+describe('the ordering kept with a model', () => {
+  it('a neighbour table comes back bit for bit with its rows’ names, is replaced by the next, and goes with its model', async () => {
+    const store = await fresh();
+    const parts = demoParts('hex-nut', 6);
+    await store.putParts(parts);
+    await store.setContents(
+      parts.map((p) => p.name),
+      [],
+      'demo',
+    );
+    const names = parts.map((p) => p.name);
+    const v = Float32Array.from({ length: 6 * 3 }, (_, i) => Math.sin(i + 1));
+    const ix = new EmbeddingIndex(
+      v,
+      3,
+      names.map((name) => ({ name, label: '', diagonal: 1 })),
+    );
+    const table = NeighbourTable.build(6, ix.rowScorer(), 4);
+    expect(await store.putOrdering('untrained:b', names, table)).toBe(false); // no such model kept yet
+    await store.putEmbeddings('untrained:b', names, ix.vectors, 3);
+    expect(await store.putOrdering('untrained:b', names, table)).toBe(true);
+    const back = (await store.ordering('untrained:b'))!;
+    expect(back.names).toEqual(names);
+    expect([back.table.index, back.table.score, back.table.length]).toEqual([table.index, table.score, table.length]);
+    await store.putParts(demoParts('washer', 1)); // a new part: the kept table is carried over later, not dropped
+    expect(await store.ordering('untrained:b')).not.toBeNull();
+    await store.putParts([{ ...parts[0], contentHash: 'f'.repeat(64) }]); // read again, maybe changed: dropped
+    expect(await store.ordering('untrained:b')).toBeNull();
+    await store.putParts([{ ...parts[0], contentHash: 'f'.repeat(64) }]);
+    await store.putEmbeddings('untrained:b', names, ix.vectors, 3);
+    await store.putOrdering('untrained:b', names, table);
+    await store.putParts([{ ...parts[0], contentHash: 'f'.repeat(64) }]); // the same file again: kept
+    expect(await store.ordering('untrained:b')).not.toBeNull();
+    const smaller = NeighbourTable.build(6, ix.rowScorer(), 2);
+    await store.putOrdering('untrained:b', [...names].reverse(), smaller);
+    expect((await store.ordering('untrained:b'))!.table.width).toBe(2);
+    await store.putEmbeddings('untrained:c', names, ix.vectors, 3); // one untrained encoder kept: b goes
+    expect(await store.ordering('untrained:b')).toBeNull();
   });
 });
 

@@ -3,7 +3,7 @@
 // k best hub-corrected scores as the graph's edges (Iscen et al. 2017's kNN graph), computed here over every pair
 // with the plain functions `neighbourhoodMeans` and `DiffusionGraph.build`.
 import { describe, expect, it } from 'vitest';
-import { NeighbourTable } from '../../../src/core/retrieval/neighbour-table';
+import { carryTable, NeighbourTable } from '../../../src/core/retrieval/neighbour-table';
 import { EmbeddingIndex, dot4 } from '../../../src/core/retrieval/index';
 import { DIFFUSION_DEFAULTS, DiffusionGraph } from '../../../src/core/retrieval/diffusion';
 import { HUB_NEIGHBOURS, neighbourhoodMeans } from '../../../src/core/retrieval/hubness';
@@ -158,5 +158,42 @@ describe('neighbour table (one pass over all pairs, then n·width)', () => {
     expect(t.diffusionGraph(ix.rowScorer()).rescanned).toBe(0);
     const one = index(clustered(1, dim, 1, 1), dim);
     expect(NeighbourTable.build(1, one.rowScorer()).row(0)).toEqual([]);
+  });
+
+  it('a kept table follows the library: parts gone, parts new and a new order give a fresh build’s rows (a prefix where a row lost parts)', () => {
+    const dim = 16,
+      v = clustered(260, dim, 6, 21);
+    const name = (i: number) => `part-${i}`;
+    // kept: parts 0–219; now: 30 of them gone, 40 new (220–259), all in a shuffled order
+    const before = Array.from({ length: 220 }, (_, i) => i);
+    const rng = createRng(4);
+    const now = [...before.filter((i) => i % 7 !== 3), ...Array.from({ length: 40 }, (_, m) => 220 + m)];
+    for (let i = now.length - 1; i > 0; i--) {
+      const j = rng.int(i + 1);
+      [now[i], now[j]] = [now[j], now[i]];
+    }
+    const rows = (ids: readonly number[]) => {
+      const out = new Float32Array(ids.length * dim);
+      ids.forEach((id, r) => out.set(v.subarray(id * dim, (id + 1) * dim), r * dim));
+      return index(out, dim);
+    };
+    const kept = { names: before.map(name), table: NeighbourTable.build(220, rows(before).rowScorer(), 48) };
+    let scored = 0;
+    const carried = carryTable(kept, now.map(name), (order) => {
+      const ix = rows(order.map((i) => now[i]));
+      return (s, e, out) => {
+        scored += e - s;
+        ix.rowScorer()(s, e, out);
+      };
+    });
+    expect(carried).toMatchObject({ added: 40, removed: 220 - before.filter((i) => i % 7 !== 3).length });
+    expect(scored).toBeLessThan(now.length); // the new rows and a few cut short: never the whole library
+    const fresh = NeighbourTable.build(now.length, rows(now).rowScorer(), 48);
+    for (let i = 0; i < now.length; i++) {
+      const a = carried.table.row(i);
+      expect(a.length).toBeGreaterThanOrEqual(HUB_NEIGHBOURS);
+      expect(a).toEqual(fresh.row(i).slice(0, a.length));
+    }
+    expect(() => kept.table.renumbered(new Int32Array(220))).toThrow(/not a permutation/);
   });
 });
