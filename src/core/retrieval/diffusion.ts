@@ -47,6 +47,14 @@ export type NeighbourLists = readonly (readonly { readonly index: number; readon
  * The symmetric affinity W = (A + Aᵀ)/2 of a kNN graph (A_ij = max(0, s_ij)^γ for the k most similar j ≠ i),
  * stored as compressed rows, with its degrees. Diffusion walks S = D^−½ W D^−½.
  */
+/** W as compressed rows (columns ascending in each row) with 1/√degree per node. */
+interface Rows {
+  readonly rowStart: Int32Array;
+  readonly cols: Int32Array;
+  readonly weights: Float64Array;
+  readonly invSqrtDegree: Float64Array;
+}
+
 export class DiffusionGraph {
   private readonly rowStart: Int32Array;
   private readonly cols: Int32Array;
@@ -60,7 +68,12 @@ export class DiffusionGraph {
     /** Similarity of each node's k-th neighbour: a newcomer closer than this would be among its k nearest. */
     private readonly kthSimilarity: Float64Array,
     readonly options: DiffusionOptions,
+    rows?: Rows,
   ) {
+    if (rows) {
+      ({ rowStart: this.rowStart, cols: this.cols, weights: this.weights, invSqrtDegree: this.invSqrtDegree } = rows);
+      return;
+    }
     // Compressed rows by counting: each directed edge adds w/2 to W_ij and to W_ji; a row's entries sorted by
     // column and equal columns merged (an edge both ways).
     const { from, to, w } = directed;
@@ -177,21 +190,72 @@ export class DiffusionGraph {
     for (let j = 0; j < n; j++)
       if (similarityToParts[j] > this.kthSimilarity[j])
         extra.push({ i: j, j: n, w: affinity(similarityToParts[j], gamma) });
-    const E = this.directed.from.length;
-    const from = new Int32Array(E + extra.length),
-      to = new Int32Array(E + extra.length),
-      w = new Float64Array(E + extra.length);
+    // W_jn = A_nj/2 + A_jn/2 for the parts the query touches, added in the order the constructor would add them.
+    const joined = new Map<number, number>();
+    for (const { i, j, w } of extra) {
+      const part = i === n ? j : i;
+      const before = joined.get(part);
+      joined.set(part, before === undefined ? w / 2 : before + w / 2);
+    }
+    // The rows as they were, with the query's column (n, after every other) appended to the rows it touches.
+    const { rowStart, cols, weights, invSqrtDegree } = this;
+    const E = rowStart[n] + 2 * joined.size;
+    const rs = new Int32Array(n + 2),
+      cs = new Int32Array(E),
+      ws = new Float64Array(E),
+      inv = new Float64Array(n + 1);
+    let o = 0;
+    for (let i = 0; i < n; i++) {
+      rs[i] = o;
+      const a = rowStart[i],
+        b = rowStart[i + 1];
+      cs.set(cols.subarray(a, b), o);
+      ws.set(weights.subarray(a, b), o);
+      o += b - a;
+      const w = joined.get(i);
+      if (w === undefined) inv[i] = invSqrtDegree[i];
+      else {
+        cs[o] = n;
+        ws[o++] = w;
+        let degree = 0;
+        for (let e = rs[i]; e < o; e++) degree += ws[e];
+        inv[i] = degree > 0 ? 1 / Math.sqrt(degree) : 0;
+      }
+    }
+    rs[n] = o;
+    let degree = 0;
+    for (const j of [...joined.keys()].sort((p, q) => p - q)) {
+      cs[o] = j;
+      ws[o] = joined.get(j)!;
+      degree += ws[o++];
+    }
+    rs[n + 1] = o;
+    inv[n] = degree > 0 ? 1 / Math.sqrt(degree) : 0;
+    const D = this.directed.from.length;
+    const from = new Int32Array(D + extra.length),
+      to = new Int32Array(D + extra.length),
+      w = new Float64Array(D + extra.length);
     from.set(this.directed.from);
     to.set(this.directed.to);
     w.set(this.directed.w);
     extra.forEach((x, m) => {
-      from[E + m] = x.i;
-      to[E + m] = x.j;
-      w[E + m] = x.w;
+      from[D + m] = x.i;
+      to[D + m] = x.j;
+      w[D + m] = x.w;
     });
     const kth = new Float64Array(n + 1).fill(-Infinity);
     kth.set(this.kthSimilarity);
-    return new DiffusionGraph(n + 1, { from, to, w }, kth, this.options);
+    return new DiffusionGraph(n + 1, { from, to, w }, kth, this.options, {
+      rowStart: rs,
+      cols: cs,
+      weights: ws,
+      invSqrtDegree: inv,
+    });
+  }
+
+  /** The same graph built by the constructor from the directed edges (what `withQuery` must equal; for checks). */
+  rebuilt(): DiffusionGraph {
+    return new DiffusionGraph(this.size, this.directed, this.kthSimilarity, this.options);
   }
 
   /**

@@ -180,14 +180,23 @@ export class NeighbourTable {
         lists[i] = local.map((h) => ({ index: this.index[o + h.index], score: h.score }));
       else unsettled.push(i);
     }
-    if (unsettled.length) {
-      const row = new Float32Array(n);
-      const keyRow = new Float64Array(n);
-      for (const i of unsettled) {
-        scoreRows(i, i + 1, row);
-        for (let j = 0; j < n; j++) keyRow[j] = j === i ? NaN : 2 * row[j] - r[i] - r[j];
+    // Unsettled rows scored again in blocks of consecutive rows (a matrix product each where the scorer has one).
+    const perBlock = Math.max(1, Math.floor(BLOCK_VALUES / Math.max(1, n)));
+    const keyRow = new Float64Array(n);
+    let block = new Float32Array(0);
+    for (let a = 0; a < unsettled.length;) {
+      let b = a + 1;
+      while (b < unsettled.length && unsettled[b] === unsettled[b - 1] + 1 && b - a < perBlock) b++;
+      const start = unsettled[a],
+        end = unsettled[b - 1] + 1;
+      if (block.length < (end - start) * n) block = new Float32Array((end - start) * n);
+      scoreRows(start, end, block);
+      for (let i = start; i < end; i++) {
+        const o = (i - start) * n;
+        for (let j = 0; j < n; j++) keyRow[j] = j === i ? NaN : 2 * block[o + j] - r[i] - r[j];
         lists[i] = topK(keyRow, k);
       }
+      a = b;
     }
     return { graph: DiffusionGraph.fromNeighbours(lists, options), lists, rescanned: unsettled.length };
   }

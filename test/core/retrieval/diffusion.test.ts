@@ -85,6 +85,9 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
     const s = V.map((v) => dot(q, v));
     const joined = graph.withQuery(s);
     expect(joined.size).toBe(31);
+    // joining patches the rows the query touches; it must equal the graph built from all edges, bit for bit
+    expect(joined.scoresFrom(30)).toEqual(joined.rebuilt().scoresFrom(30));
+    expect(joined.scoresFrom(4)).toEqual(joined.rebuilt().scoresFrom(4));
     // Reference: the library's A, plus A_qj for the query's k nearest, plus A_jq where q beats j's k-th neighbour.
     const n = V.length;
     const A: number[][] = Array.from({ length: n + 1 }, () => new Array<number>(n + 1).fill(0));
