@@ -19,3 +19,18 @@ declare interface Blob {
   readonly size: number;
   arrayBuffer(): Promise<ArrayBuffer>;
 }
+declare function atob(data: string): string;
+/** The part of WebAssembly the core's SIMD kernel uses (ops/neighbour-max.ts). */
+declare namespace WebAssembly {
+  class Module {
+    constructor(bytes: ArrayBufferView | ArrayBuffer);
+  }
+  class Instance {
+    constructor(module: Module, imports?: Record<string, unknown>);
+    readonly exports: Record<string, unknown>;
+  }
+  class Memory {
+    readonly buffer: ArrayBuffer;
+    grow(pages: number): number;
+  }
+}
