@@ -9,7 +9,9 @@ import { modelFingerprint } from '../core/checksum';
 import { artifactsFromModelJson, fromArtifacts, type Checkpoint } from '../core/model/checkpoint';
 import type { ModelJson } from '../core/model/model-json';
 import { openEmbedded } from '../core/db/embedded';
-import { PartsDb, type StoredModel } from '../core/db/parts-db';
+import { PartsDb, type StoredModel, type StoredPart } from '../core/db/parts-db';
+import { WorkbenchStore } from '../core/db/workbench';
+import { buildOrdering, type TensorIndex } from '../core/retrieval/tensor-index';
 import { DatabaseSetupError } from '../core/db/schema';
 import type { Sql, SqlResult } from '../core/db/sql';
 import { CliError } from './errors';
@@ -232,4 +234,26 @@ export function checkpointOf(model: StoredModel): Checkpoint {
   } catch (err) {
     throw new CliError((err as Error).message);
   }
+}
+
+/**
+ * Gives the index the model's ordering kept in the database (`orderings`), carried over to the parts embedded now;
+ * built and kept when there is none. A library of 20,000 parts then orders its first query without a pass over
+ * all pairs.
+ */
+export async function storedOrdering(
+  db: PartsDb,
+  modelId: number,
+  all: { parts: readonly StoredPart[]; vectors: Float32Array; dim: number },
+  index: TensorIndex,
+): Promise<{ fresh: boolean; added: number; removed: number } | null> {
+  const fp = (await db.sql.query<{ f: string }>('SELECT fingerprint AS f FROM models WHERE id = $1', [modelId])).rows[0]
+    ?.f;
+  if (!fp) return null;
+  const store = new WorkbenchStore(db);
+  const names = all.parts.map((p) => p.path);
+  const built = buildOrdering(names, all.vectors, all.dim, await store.ordering(fp));
+  index.useOrdering(built);
+  if (built.fresh || built.added > 0 || built.removed > 0) await store.putOrdering(fp, names, built.table);
+  return { fresh: built.fresh, added: built.added, removed: built.removed };
 }

@@ -44,7 +44,7 @@ import { importInThreads } from './import-pool';
 import { prepareToRead, readBytes } from './read-file';
 import { duration, Progress, setProgressMode } from './progress';
 import { loadRun, saveRun } from './run-dir';
-import { checkpointOf, databaseSpec, isLibraryFile, openDatabase, runFiles } from './db';
+import { checkpointOf, databaseSpec, isLibraryFile, openDatabase, runFiles, storedOrdering } from './db';
 import { syncLibrary } from './sync';
 import type { PartsDb, StoredPart } from '../core/db/parts-db';
 
@@ -641,6 +641,7 @@ async function queryDatabase(
       try {
         meanPair = index.meanPairCosine();
         if (!index.diffusionApplies()) order = 'cosine';
+        else await storedOrdering(db, id, all, index);
         const hits = index.ranked(order, qv, o.k, {
           ...(o.ratio !== undefined ? { sizeRatio: o.ratio, queryDiagonal: q.diagonal * qSize.scale } : {}),
           ...(folders ? { labels: folders } : {}),

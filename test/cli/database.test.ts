@@ -11,6 +11,14 @@ import { vector } from '@electric-sql/pglite-pgvector';
 import { PGLiteSocketServer } from '@electric-sql/pglite-socket';
 import { afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
 import { main } from '../../src/cli/main';
+import { storedOrdering } from '../../src/cli/db';
+import { openEmbedded } from '../../src/core/db/embedded';
+import { PartsDb } from '../../src/core/db/parts-db';
+import { WorkbenchStore } from '../../src/core/db/workbench';
+import { loadPart } from '../../src/core/library';
+import { TensorIndex } from '../../src/core/retrieval/tensor-index';
+import { createRng } from '../../src/core/rng';
+import { useBackend } from '../tf-helpers';
 import { captureOutput } from './capture';
 
 const DEMO = 'demo-shapes';
@@ -295,4 +303,84 @@ describe('a shared server (PostgreSQL wire protocol)', () => {
       holder.kill();
     }
   });
+});
+
+describe('the ordering kept in the database (query --db, ordered through the library)', () => {
+  it('is built once and kept; a later query reads it back, carries it over to parts added and removed, and orders as a fresh build', async () => {
+    await useBackend('wasm');
+    const sql = await openEmbedded();
+    try {
+      const db = await PartsDb.open(sql);
+      const store = new WorkbenchStore(db);
+      const files = readdirSync(DEMO, { withFileTypes: true })
+        .filter((d) => d.isDirectory() && d.name !== 'broken')
+        .flatMap((d) =>
+          readdirSync(join(DEMO, d.name))
+            .sort()
+            .slice(0, 4)
+            .map((f) => join(d.name, f)),
+        );
+      const parts = files.slice(0, 48).map((f) => {
+        const b = readFileSync(join(DEMO, f));
+        return loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer, f, {
+          points: 64,
+          seed: 0,
+        });
+      });
+      await store.putParts(parts);
+      await store.setContents(
+        parts.map((p) => p.name),
+        [],
+        'user',
+      );
+      // spread-out vectors (a trained model's are): 8 families of 6
+      const rng = createRng(2);
+      const centres = Array.from({ length: 8 }, () => Array.from({ length: 16 }, () => rng.normal()));
+      const vectorOf = (i: number) => Float32Array.from(centres[i % 8], (c) => c + 0.5 * rng.normal());
+      const names = parts.map((p) => p.name);
+      const v = new Float32Array(48 * 16);
+      names.forEach((_, i) => v.set(vectorOf(i), i * 16));
+      await store.putEmbeddings('untrained:kept', names, v, 16);
+      const id = (await sql.query<{ id: number }>("SELECT id FROM models WHERE fingerprint = 'untrained:kept'")).rows[0]
+        .id;
+      const ask = async () => {
+        const all = await db.embeddings(id);
+        const index = new TensorIndex(
+          all.vectors,
+          all.dim,
+          all.parts.map((p) => ({ name: p.path, label: p.label, diagonal: 1 })),
+        );
+        const how = await storedOrdering(db, id, all, index);
+        const fresh = new TensorIndex(all.vectors, all.dim, index.entries);
+        for (let q = 0; q < all.parts.length; q += 5)
+          expect(index.queryDiffused(index.vector(q), 8, { exclude: q })).toEqual(
+            fresh.queryDiffused(fresh.vector(q), 8, { exclude: q }),
+          );
+        index.dispose();
+        fresh.dispose();
+        return how;
+      };
+      expect(await ask()).toEqual({ fresh: true, added: 0, removed: 0 });
+      expect(await ask()).toEqual({ fresh: false, added: 0, removed: 0 }); // read back, nothing rebuilt
+      // one part gone, four new: carried over
+      await store.setContents(names.slice(1), [], 'user');
+      const more = files.slice(48, 52).map((f) => {
+        const b = readFileSync(join(DEMO, f));
+        return loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer, f, {
+          points: 64,
+          seed: 0,
+        });
+      });
+      await store.putParts(more);
+      const now = [...names.slice(1), ...more.map((p) => p.name)];
+      await store.setContents(now, [], 'user');
+      const v2 = new Float32Array(now.length * 16);
+      v2.set(v.subarray(16));
+      more.forEach((_, m) => v2.set(vectorOf(m), (47 + m) * 16));
+      await store.putEmbeddings('untrained:kept', now, v2, 16);
+      expect(await ask()).toEqual({ fresh: false, added: 4, removed: 1 });
+    } finally {
+      await sql.close();
+    }
+  }, 120_000);
 });

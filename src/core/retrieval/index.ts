@@ -113,6 +113,7 @@ export class EmbeddingIndex {
           o = (i - start) * n;
         for (let j = 0; j < n; j++) out[o + j] = dot4(v, j * D, q, D);
       }
+      return out;
     };
   }
 

@@ -5,15 +5,16 @@
 // candidates whenever a bound proves no part outside them can beat them (else that row alone is scanned again).
 // So the quadratic work is done once, as matrix products where a backend has them, and queries touch n·width.
 
-import { topK, type Hit } from './topk';
+import { topK, topKRow, type Hit } from './topk';
 import { HUB_NEIGHBOURS } from './hubness';
 import { DIFFUSION_DEFAULTS, DiffusionGraph, type DiffusionOptions } from './diffusion';
 
 /**
- * Cosine similarities of library rows [start, end) to all n parts: out[(i − start)·n + j] = cos(i, j). The same
- * (i, j) must give the same value whichever block it is computed in.
+ * Cosine similarities of library rows [start, end) to all n parts: r[(i − start)·n + j] = cos(i, j), written into
+ * `out` (at least that long) or into an array of the scorer's own, and returned (a matrix product hands its result
+ * over without a second copy). The same (i, j) should give the same value whichever block it is computed in.
  */
-export type RowScorer = (start: number, end: number, out: Float32Array) => void;
+export type RowScorer = (start: number, end: number, out: Float32Array) => Float32Array;
 
 /**
  * Candidates kept per part. Measured on the three real libraries' trained embeddings (bench `scale`): with 64, the
@@ -104,9 +105,7 @@ export class NeighbourTable {
       const start = rows[a],
         end = rows[b - 1] + 1;
       if (block.length < (end - start) * n) block = new Float32Array((end - start) * n);
-      const out = block.subarray(0, (end - start) * n);
-      scoreRows(start, end, out);
-      this.takeRows(start, end, out);
+      this.takeRows(start, end, scoreRows(start, end, block.subarray(0, (end - start) * n)));
       done += end - start;
       a = b;
       onProgress?.({ done, total: rows.length });
@@ -121,7 +120,7 @@ export class NeighbourTable {
       const r = out.subarray((i - start) * n, (i - start + 1) * n);
       const self = r[i];
       r[i] = NaN; // never itself
-      this.setRow(i, keep > 0 ? topK(r, keep) : []);
+      this.setRow(i, keep > 0 ? topKRow(r, keep) : []);
       r[i] = self;
     }
   }
@@ -190,11 +189,11 @@ export class NeighbourTable {
       const start = unsettled[a],
         end = unsettled[b - 1] + 1;
       if (block.length < (end - start) * n) block = new Float32Array((end - start) * n);
-      scoreRows(start, end, block);
+      const got = scoreRows(start, end, block.subarray(0, (end - start) * n));
       for (let i = start; i < end; i++) {
         const o = (i - start) * n;
-        for (let j = 0; j < n; j++) keyRow[j] = j === i ? NaN : 2 * block[o + j] - r[i] - r[j];
-        lists[i] = topK(keyRow, k);
+        for (let j = 0; j < n; j++) keyRow[j] = j === i ? NaN : 2 * got[o + j] - r[i] - r[j];
+        lists[i] = topKRow(keyRow, k);
       }
       a = b;
     }
@@ -215,8 +214,7 @@ export class NeighbourTable {
     next.score.set(this.score);
     next.length.set(this.length);
     if (added <= 0) return next;
-    const block = new Float32Array(added * n);
-    scoreRows(n0, n, block);
+    const block = scoreRows(n0, n, new Float32Array(added * n));
     next.takeRows(n0, n, block);
     // cos(i, j) for old i and new j from the new rows (the same pair, scored in row j's block). A row that held
     // every other part takes any newcomer; a shorter one (cut by removals) only one that beats its last, so it

@@ -20,6 +20,7 @@ import { loadEmbeddings, loadOrdering, saveEmbeddings, saveOrdering } from './li
 import { NeighbourTable } from '../../core/retrieval/neighbour-table';
 import type { LibraryController } from './library';
 import type { TrainingController } from './training';
+import { TrainClient } from './train-client';
 
 /**
  * Parts a request to the training worker embeds: a multiple of embedParts' batch (32), so the worker runs the same
@@ -103,30 +104,50 @@ export class SearchController {
     const { model, config } = this.training.state;
     const total = parts.length;
     const startedAt = performance.now();
-    const pieces: Float32Array[] = [];
-    let dim = 0;
-    for (let start = 0; start < total; start += EMBED_CHUNK) {
-      if (version !== this.version) return null;
+    const chunks = Math.ceil(total / EMBED_CHUNK);
+    const pieces: Float32Array[] = new Array(chunks);
+    let dim = 0,
+      next = 0,
+      done = 0;
+    const progress = () =>
       this.patch({
-        status: { kind: 'running', progress: { done: start, total, what: 'embedding the library', startedAt } },
+        status: { kind: 'running', progress: { done, total, what: 'embedding the library', startedAt } },
       });
-      const r = await this.training.client.embed(
-        parts.slice(start, start + EMBED_CHUNK).map((p) => ({ points: p.points, normals: p.normals })),
-        model,
-        config,
-      );
-      pieces.push(r.vectors);
-      dim = r.dim;
-    }
+    progress();
+    // Each worker takes the next chunk when it is free; the chunks go back in place, so the bytes are one worker's.
+    const run = async (client: TrainClient) => {
+      while (next < chunks && version === this.version) {
+        const c = next++;
+        const slice = parts.slice(c * EMBED_CHUNK, (c + 1) * EMBED_CHUNK);
+        const r = await client.embed(
+          slice.map((p) => ({ points: p.points, normals: p.normals })),
+          model,
+          config,
+        );
+        pieces[c] = r.vectors;
+        dim = r.dim;
+        done += slice.length;
+        if (version === this.version) progress();
+      }
+    };
+    const clients = this.embedders(chunks);
+    await Promise.all(clients.map(run));
     if (version !== this.version) return null;
-    this.patch({ embedPace: (performance.now() - startedAt) / total });
+    // The pace of one worker (the measurement and the study, estimated from it, run on one).
+    this.patch({ embedPace: ((performance.now() - startedAt) * clients.length) / total });
     const vectors = new Float32Array(total * dim);
-    let o = 0;
-    for (const v of pieces) {
-      vectors.set(v, o);
-      o += v.length;
-    }
+    pieces.forEach((v, c) => vectors.set(v, c * EMBED_CHUNK * dim));
     return { vectors, dim };
+  }
+
+  /** A second worker for embedding beside the training worker, made on first use where the machine has two cores. */
+  private helper: TrainClient | null = null;
+
+  /** The workers that embed the library: the training worker, and the helper when there is work for two. */
+  private embedders(chunks: number): TrainClient[] {
+    const cores = typeof navigator !== 'undefined' ? (navigator.hardwareConcurrency ?? 1) : 1;
+    if (cores < 2 || chunks < 2) return [this.training.client];
+    return [this.training.client, (this.helper ??= new TrainClient())];
   }
 
   /**

@@ -97,7 +97,7 @@ describe('neighbour table (one pass over all pairs, then n·width)', () => {
     let scored = 0;
     const counting = (start: number, end: number, out: Float32Array) => {
       scored += end - start;
-      whole.rowScorer()(start, end, out);
+      return whole.rowScorer()(start, end, out);
     };
     const grown = NeighbourTable.build(200, small.rowScorer(), 40).withAdded(40, counting);
     expect(scored).toBe(40);
@@ -116,7 +116,7 @@ describe('neighbour table (one pass over all pairs, then n·width)', () => {
     let scored = 0;
     const shrunk = NeighbourTable.build(200, whole.rowScorer(), 48).withRemoved(gone, (s, e, out) => {
       scored += e - s;
-      rest.rowScorer()(s, e, out);
+      return rest.rowScorer()(s, e, out);
     });
     const fresh = NeighbourTable.build(160, rest.rowScorer(), 48);
     expect(scored).toBeLessThan(160);
@@ -183,7 +183,7 @@ describe('neighbour table (one pass over all pairs, then n·width)', () => {
       const ix = rows(order.map((i) => now[i]));
       return (s, e, out) => {
         scored += e - s;
-        ix.rowScorer()(s, e, out);
+        return ix.rowScorer()(s, e, out);
       };
     });
     expect(carried).toMatchObject({ added: 40, removed: 220 - before.filter((i) => i % 7 !== 3).length });
