@@ -200,6 +200,49 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.getByTestId('own-axes').check();
     await expect.poll(turned, { timeout: 5_000 }).toEqual([false, false]);
     await page.getByTestId('own-axes').uncheck();
+    // The ordering through the library is built in the training worker (tfjs matrix products) and handed over as
+    // arrays: the same neighbours as the index finds on the page with its JS scan.
+    const ordering = await page.evaluate(async () => {
+      type Table = { size: number; row(i: number): { index: number; score: number }[] };
+      const app = document.querySelector('sk-app') as unknown as {
+        state: {
+          search: { index: { vectors: Float32Array; dim: number; neighbourTable(): Table } };
+          library: { parts: { name: string }[] };
+        };
+        search: {
+          training: {
+            client: {
+              order(
+                n: string[],
+                v: Float32Array,
+                d: number,
+                k: null,
+              ): Promise<{ table: { width: number; index: Int32Array; length: Int32Array } }>;
+            };
+          };
+        };
+      };
+      const index = app.state.search.index;
+      const names = app.state.library.parts.map((p) => p.name);
+      const o = await app.search.training.client.order(names, index.vectors, index.dim, null);
+      const here = index.neighbourTable();
+      let agree = 0;
+      for (let i = 0; i < here.size; i++) {
+        const mine = here
+          .row(i)
+          .slice(0, 10)
+          .map((h) => h.index)
+          .join();
+        const theirs = Array.from(o.table.index.subarray(i * o.table.width, i * o.table.width + 10)).join();
+        if (mine === theirs) agree++;
+      }
+      return { rows: here.size, agree, width: o.table.width, full: o.table.length[0] };
+    });
+    expect(ordering.rows).toBeGreaterThan(100);
+    expect(ordering.width).toBe(64);
+    expect(ordering.full).toBe(64);
+    // float32 products and the JS scan may order a near-tie differently; nearly every row must agree exactly
+    expect(ordering.agree).toBeGreaterThanOrEqual(ordering.rows - 2);
     // A new file, not in the library, as the query.
     await page.locator('sk-search-panel input[type=file]').setInputFiles('demo-shapes/spur-gear/BC06-311C.obj');
     await expect
