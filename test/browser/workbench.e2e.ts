@@ -620,7 +620,8 @@ describe.skipIf(!available)('a library kept by an earlier version (plain Indexed
         db.close();
         return keys.map(String).sort();
       });
-      expect(left).toEqual(['thumbnails']);
+      expect(left).toContain('thumbnails'); // the earlier records go; thumbnails stay (in records of 100 once redrawn)
+      expect(left.filter((k) => k !== 'thumbnails' && !/^thumbnails:\d+$/.test(k))).toEqual([]);
     } finally {
       await context.close();
       await server.close();

@@ -78,8 +78,8 @@ export class SkApp extends LitElement {
     this.state = this.store.value;
     this.library = new LibraryController(this.store, {
       onChanged: () => {
-        this.training.followLibrary();
-        void this.search.refresh();
+        // the library's default settings first: the untrained encoder embeds with them
+        void this.training.followLibrary().then(() => this.search.refresh());
       },
       onUnitsChanged: () => this.search.unitsChanged(),
     });
