@@ -26,7 +26,9 @@ const TFJS_CORE = [
   '**/core/model/losses/triplet',
   '**/core/model/losses/margin',
   '**/core/model/adam',
-  '**/core/quality/*',
+  '**/core/quality/evaluate',
+  '**/core/quality/methods',
+  '**/core/quality/study',
   '**/core/retrieval/tensor-index',
 ];
 

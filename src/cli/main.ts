@@ -31,7 +31,7 @@ import type { Ranking } from '../core/retrieval/index';
 import { cosineSimilarity } from '../core/retrieval/metrics';
 import { embeddingRow, embeddingsCsv, embeddingsJson, type EmbeddingRow } from '../core/retrieval/export';
 import { writeNpyFloat32 } from '../core/retrieval/npy';
-import { runStudy } from '../core/quality/study';
+import { runStudy, STUDY_QUERIES } from '../core/quality/study';
 import { failureOf, loadPart, type LibraryPart, type SamplingSettings } from '../core/library';
 import { DEFAULT_MAX_BYTES, importMesh } from '../core/mesh/import';
 import { FORMAT_NAMES } from '../core/mesh/formats';
@@ -76,7 +76,8 @@ usage:
   shapekin eval <library-dir> [--model <run-dir>] [--json]
   shapekin embed|duplicates|eval --db <folder|postgres://…> [--model <run-dir>] …   (the library from the database)
                  (--db also takes a library file saved by the workbench, *.tar.gz, to read and query)
-  shapekin study <library-dir> --model <run-dir> [--augmentations a,b,…] [--strengths 0,0.5,1] [--json]
+  shapekin study <library-dir> --model <run-dir> [--augmentations a,b,…] [--strengths 0,0.5,1] [--queries N] [--json]
+                 (N parts augmented and looked up, a seeded sample; default ${STUDY_QUERIES})
   shapekin duplicates <library-dir> --model <run-dir> [--threshold 0.97] [--json]
   shapekin inspect <file-or-folder> [--json]   (format, bodies, triangles, closed, size and units of each file, or why it cannot be read)
 
@@ -121,6 +122,7 @@ const OPTIONS = {
   neighbours: { type: 'string' },
   augmentations: { type: 'string' },
   strengths: { type: 'string' },
+  queries: { type: 'string' },
 } as const;
 
 type Values = { [K in keyof typeof OPTIONS]?: (typeof OPTIONS)[K]['type'] extends 'boolean' ? boolean : string };
@@ -810,6 +812,7 @@ async function study(lib: string, values: Values): Promise<void> {
       ...(strengths ? { strengths } : {}),
       upAxis: ckpt.manifest.config.pipeline.upAxis,
       seed: ckpt.manifest.config.seed,
+      queries: num(values, 'queries', STUDY_QUERIES, true, 1),
       onProgress: (done, total, what) => {
         progress.total = total;
         progress.update(done, what);
@@ -821,6 +824,11 @@ async function study(lib: string, values: Values): Promise<void> {
       emit({ parts: library.parts.length, rows, failures: failuresJson(library) });
       return;
     }
+    const q = rows[0]?.queries ?? 0;
+    const widest = Math.max(0, ...rows.map((r) => (r.instance_top1_ci95[1] - r.instance_top1_ci95[0]) / 2));
+    console.log(
+      `${q} of ${library.parts.length} parts augmented and looked up in the whole library${q < library.parts.length ? ' (a seeded sample)' : ''}; rates within ±${widest.toFixed(3)} (95 %, Wilson)`,
+    );
     console.log('augmentation   strength  method     instance  label   similarity  chamfer');
     for (const r of rows)
       console.log(

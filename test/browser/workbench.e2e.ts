@@ -8,6 +8,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { BrowserContext, Page } from 'playwright-core';
 import { chromiumAvailable, launch } from './chromium';
 import { startPreview } from './server';
+import { generateLibrary } from '../../src/gen/library';
 
 const ARTIFACTS = 'test-artifacts';
 const available = chromiumAvailable();
@@ -540,6 +541,45 @@ describe.skipIf(!available)('workbench in a real browser', () => {
   it('shows no page errors or console errors', () => {
     expect(errors).toEqual([]);
   });
+});
+
+describe.skipIf(!available)('a library of a few hundred parts', () => {
+  it('is read on the import workers, embedded on two workers and searched, and the page stays responsive', async () => {
+    // 336 generated parts (three generator seeds; OFF and binary STL), written where the folder picker can take them.
+    const dir = mkdtempSync(join(tmpdir(), 'shapekin-e2e-lib-'));
+    for (const seed of [1, 2, 3])
+      for (const f of generateLibrary(seed, { formats: ['off', 'stl-binary'], extras: false }).files) {
+        const path = join(dir, f.path.replace('/', `/s${seed}-`));
+        mkdirSync(join(path, '..'), { recursive: true });
+        writeFileSync(path, f.bytes);
+      }
+    const server = await startPreview();
+    const context = await launch();
+    try {
+      const page = await context.newPage();
+      await page.goto(server.url);
+      const summary = page.getByTestId('library-summary');
+      await expect.poll(async () => summary.textContent(), { timeout: 90_000 }).toMatch(/112 parts in 14 folders/);
+      await page.getByRole('button', { name: 'Empty the library' }).click();
+      await watchLongTasks(page);
+      await page.locator('sk-library-panel input[webkitdirectory]').setInputFiles(dir);
+      await expect.poll(async () => summary.textContent(), { timeout: 120_000 }).toMatch(/336 parts in 14 folders/);
+      const reading = await longTasks(page);
+      await watchLongTasks(page);
+      await page.getByRole('tab', { name: 'Look-alikes' }).click();
+      await expect
+        .poll(async () => page.getByTestId('search-results').locator('li button').count(), { timeout: 300_000 })
+        .toBe(10);
+      const searching = await longTasks(page);
+      // The bound of the other browser tests; the first visit to a tab of 336 parts renders in one task.
+      expect(Math.max(0, ...reading)).toBeLessThan(100);
+      expect(Math.max(0, ...searching)).toBeLessThan(150);
+      await page.screenshot({ path: `${ARTIFACTS}/few-hundred.png` });
+    } finally {
+      await context.close();
+      await server.close();
+    }
+  }, 420_000);
 });
 
 describe.skipIf(!available)('a library kept by an earlier version (plain IndexedDB records)', () => {

@@ -11,6 +11,9 @@ import { chamferDistance } from '../points/distance';
 import { createRng, hashString } from '../rng';
 import { d2Histogram, l1 } from '../retrieval/d2';
 import type { MethodName } from './methods';
+import { sampleQueries, STUDY_QUERIES, wilsonInterval } from './sampling';
+
+export { sampleQueries, STUDY_QUERIES, wilsonInterval } from './sampling';
 
 export const STUDY_STRENGTHS = [0, 0.25, 0.5, 0.75, 1] as const;
 
@@ -26,6 +29,11 @@ export interface StudyRow {
   readonly mean_similarity: number;
   /** Mean Chamfer distance the augmentation moved the points (unit-sphere units²). */
   readonly mean_chamfer: number;
+  /** Parts augmented and looked up (a seeded sample of the library, or all of it); the library searched is whole. */
+  readonly queries: number;
+  /** 95 % Wilson score intervals of instance_top1 and label_top1 over those queries. */
+  readonly instance_top1_ci95: readonly [number, number];
+  readonly label_top1_ci95: readonly [number, number];
 }
 
 export interface StudyInput {
@@ -38,10 +46,13 @@ export interface StudyInput {
   readonly strengths?: readonly number[];
   readonly upAxis?: UpAxis;
   readonly seed?: number;
+  /** Parts to augment and look up (a seeded sample when fewer than the library); default STUDY_QUERIES. */
+  readonly queries?: number;
   readonly onProgress?: (done: number, total: number, what: string) => void;
 }
 
-type Describe = (parts: readonly ModelPart[]) => { vectors: Float32Array; dim: number };
+/** Descriptors of parts; `ids` are the library indices they stand for (a view is described as its part would be). */
+type Describe = (parts: readonly ModelPart[], ids: readonly number[]) => { vectors: Float32Array; dim: number };
 
 function nearestTwo(
   q: Float32Array,
@@ -99,16 +110,18 @@ export function runStudy(input: StudyInput): StudyRow[] {
   }
   methods.push([
     'd2',
-    (ps) => {
+    (ps, ids) => {
       const dim = 64;
       const v = new Float32Array(ps.length * dim);
-      ps.forEach((p, i) => v.set(d2Histogram(p.points, createRng(hashString(`d2:${i}`, seed))), i * dim));
+      ps.forEach((p, i) => v.set(d2Histogram(p.points, createRng(hashString(`d2:${ids[i]}`, seed))), i * dim));
       return { vectors: v, dim };
     },
     (a, ao, b, bo, dim) => 1 - l1(a, b, ao, bo, dim) / 2,
   ]);
 
-  const clean = methods.map(([, describe]) => describe(parts));
+  const everyone = parts.map((_, i) => i);
+  const clean = methods.map(([, describe]) => describe(parts, everyone));
+  const asked = sampleQueries(parts.length, input.queries ?? STUDY_QUERIES, seed);
   const rows: StudyRow[] = [];
   const total = kinds.length * strengths.length;
   let done = 0;
@@ -121,22 +134,24 @@ export function runStudy(input: StudyInput): StudyRow[] {
       };
       const rng = createRng(hashString(`study:${kind}:${strength}`, seed));
       let chamfer = 0;
-      const views: ModelPart[] = parts.map((p) => {
+      const views: ModelPart[] = asked.map((i) => {
+        const p = parts[i];
         const src = makeCloud(p.points, p.normals);
         const v = augment(src, pipeline, rng);
         chamfer += chamferDistance(src, v);
         return { points: v.positions, normals: v.normals ?? p.normals };
       });
+      const q = asked.length;
       methods.forEach(([method, describe, sim], m) => {
-        const { vectors, dim } = describe(views);
+        const { vectors, dim } = describe(views, asked);
         const lib = clean[m].vectors;
         let inst = 0,
           lab = 0,
           simSum = 0;
-        for (let i = 0; i < parts.length; i++) {
+        asked.forEach((i, v) => {
           const { bestI, otherI } = nearestTwo(
             vectors,
-            i * dim,
+            v * dim,
             lib,
             dim,
             parts.length,
@@ -145,16 +160,19 @@ export function runStudy(input: StudyInput): StudyRow[] {
           );
           if (bestI === i) inst++;
           if (otherI >= 0 && labels[otherI] === labels[i]) lab++;
-          simSum += sim(vectors, i * dim, lib, i * dim, dim);
-        }
+          simSum += sim(vectors, v * dim, lib, i * dim, dim);
+        });
         rows.push({
           augmentation: kind,
           strength,
           method,
-          instance_top1: inst / parts.length,
-          label_top1: lab / parts.length,
-          mean_similarity: simSum / parts.length,
-          mean_chamfer: chamfer / parts.length,
+          instance_top1: inst / q,
+          label_top1: lab / q,
+          mean_similarity: simSum / q,
+          mean_chamfer: chamfer / q,
+          queries: q,
+          instance_top1_ci95: wilsonInterval(inst, q),
+          label_top1_ci95: wilsonInterval(lab, q),
         });
       });
       input.onProgress?.(++done, total, `${kind} at ${strength}`);

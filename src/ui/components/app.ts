@@ -219,7 +219,7 @@ export class SkApp extends LitElement {
           @cancel-embedding=${() => this.search.cancel()} @embed-library=${() => void this.search.refresh()}
           .explanation=${search.explanation} @explain-match=${(e: CustomEvent<number>) => void this.search.explain(e.detail)}></sk-search-panel>`;
       case 'study':
-        return html`<sk-study-panel .report=${measure.report} .rows=${measure.rows} .progress=${measure.study.kind === 'running' ? measure.study.progress : null}
+        return html`<sk-study-panel .partCount=${library.parts.length} .report=${measure.report} .rows=${measure.rows} .progress=${measure.study.kind === 'running' ? measure.study.progress : null}
           .busy=${isBusy(measure.status) || isBusy(measure.study) || isBusy(training.status)} .hasModel=${Boolean(training.model)}
           .estimates=${this.measure.estimates()}
           .measuring=${isBusy(measure.status)} .failure=${measure.status.kind === 'failed' ? measure.status.message : measure.study.kind === 'failed' ? measure.study.message : ''}

@@ -29,6 +29,7 @@ export class SkStudyPanel extends LitElement {
     failure: { type: String },
     hasModel: { type: Boolean },
     estimates: { attribute: false },
+    partCount: { type: Number },
     measure: { state: true },
   };
   declare report: EvaluationReport | null;
@@ -43,6 +44,8 @@ export class SkStudyPanel extends LitElement {
   /** Seconds each job should take, from the library's last embedding pace (parts/s), or nulls. */
   declare estimates: { measure: number | null; study: number | null; pace: number | null };
   declare measure: 'instance_top1' | 'label_top1' | 'mean_similarity';
+  /** Parts in the library (the study may look up a sample of them). */
+  declare partCount: number;
 
   constructor() {
     super();
@@ -55,6 +58,7 @@ export class SkStudyPanel extends LitElement {
     this.hasModel = false;
     this.estimates = { measure: null, study: null, pace: null };
     this.measure = 'instance_top1';
+    this.partCount = 0;
   }
 
   static override styles = css`
@@ -122,6 +126,7 @@ export class SkStudyPanel extends LitElement {
           <option value="instance_top1">recognised as itself</option><option value="label_top1">nearest other part in the same folder</option><option value="mean_similarity">similarity to the original</option>
         </select></label>
         <span class="key">${methods.map((m) => html`<span><i style="background:${METHOD_COLOUR[m]}"></i>${m}</span>`)}</span></div>
+        <div class="small" data-testid="study-sample">${studySampleWords(this.rows, this.partCount)}</div>
         <div class="charts" data-testid="study-charts">${kinds.map((k) => this.chart(k, methods))}</div>`
           : null
       }`;
@@ -151,3 +156,14 @@ export class SkStudyPanel extends LitElement {
   }
 }
 customElements.define('sk-study-panel', SkStudyPanel);
+
+/** How many parts the study looked up, and how far its rates may be off (the widest 95 % interval it found). */
+export function studySampleWords(rows: readonly StudyRow[], parts: number): string {
+  const q = rows[0]?.queries ?? 0;
+  if (!q) return '';
+  let widest = 0;
+  for (const r of rows)
+    for (const [lo, hi] of [r.instance_top1_ci95, r.label_top1_ci95]) widest = Math.max(widest, (hi - lo) / 2);
+  const who = parts > q ? `${q} of the ${parts} parts, chosen at random,` : `all ${q} parts`;
+  return `Each view was made from ${who} and looked up in the whole library; the rates are within ±${widest.toFixed(2)} (95 %).`;
+}

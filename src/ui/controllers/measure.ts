@@ -3,6 +3,7 @@
 
 import { csvField } from '../../core/csv';
 import { AUGMENT_KINDS } from '../../core/points/augment';
+import { STUDY_QUERIES } from '../../core/quality/sampling';
 import { STARTED, type AppState, type MeasureState, type Store } from '../state';
 import { download } from './download';
 import type { TrainingController } from './training';
@@ -41,9 +42,10 @@ export class MeasureController {
     if (pace === null || parts === 0) return { measure: null, study: null, pace: null };
     const encoders = this.training.state.model ? 2 : 1;
     const library = (pace * parts) / 1000;
+    const views = (pace * Math.min(parts, STUDY_QUERIES)) / 1000; // the study augments a sample of the parts
     return {
       measure: encoders * library,
-      study: encoders * (1 + AUGMENT_KINDS.length * STUDY_STRENGTHS.length) * library,
+      study: encoders * (library + AUGMENT_KINDS.length * STUDY_STRENGTHS.length * views),
       pace: 1000 / pace,
     };
   }
@@ -104,6 +106,7 @@ export class MeasureController {
       'label_top1',
       'mean_similarity',
       'mean_chamfer',
+      'queries',
     ] as const;
     const rows = this.store.value.measure.rows;
     const lines = [keys.join(','), ...rows.map((r) => keys.map((k) => csvField(String(r[k]))).join(','))];
