@@ -14,8 +14,8 @@ import {
   libraryTraits,
   poseReason,
 } from '../core/model/defaults';
-import { disposeEncoders, embedForRetrieval, type Encoders } from '../core/model/embed';
-import { EMBED_CHUNK, embedInThreads } from './embed-pool';
+import { disposeEncoders, embedForRetrieval, encoderList, type Encoders } from '../core/model/embed';
+import { EMBED_CHUNK, EmbedPool, embedInThreads } from './embed-pool';
 import { POSE_LABELS, POSES } from '../core/model/train-config';
 import { type ModelPart } from '../core/model/views';
 import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../core/model/encoder-config';
@@ -802,7 +802,32 @@ async function study(lib: string, values: Values): Promise<void> {
       ckpt.manifest.config.seed,
     );
     const progress = new Progress('study', 1);
-    const rows = runStudy({
+    // Both encoders embed on the threads (one per core), as the library's embedding does.
+    const n = threads(values);
+    const pools =
+      n > 1
+        ? {
+            learned: new EmbedPool(ckpt, n, (values.backend as BackendName) ?? 'wasm'),
+            untrained: new EmbedPool(
+              {
+                ...ckpt,
+                weights: encoderList(untrained).flatMap((e) => e.variables.map((v) => v.dataSync() as Float32Array)),
+                adam: null,
+              },
+              n,
+              (values.backend as BackendName) ?? 'wasm',
+            ),
+          }
+        : null;
+    const rows = await runStudy({
+      ...(pools
+        ? {
+            embedWith: {
+              learned: (ps: readonly ModelPart[]) => pools.learned.embed(ps),
+              untrained: (ps: readonly ModelPart[]) => pools.untrained.embed(ps),
+            },
+          }
+        : {}),
       parts: asModelParts(library.parts),
       labels: library.labels,
       points: ckpt.manifest.config.points,
@@ -819,6 +844,7 @@ async function study(lib: string, values: Values): Promise<void> {
       },
     });
     progress.done();
+    await Promise.all([pools?.learned.close(), pools?.untrained.close()]);
     disposeEncoders(untrained);
     if (values.json) {
       emit({ parts: library.parts.length, rows, failures: failuresJson(library) });

@@ -180,7 +180,7 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
         const untrained = untrainedEncoders(cfg.encoder, cfg.pose, cfg.seed);
         try {
-          const rows = runStudy({
+          const rows = await runStudy({
             parts: req.parts,
             labels: req.labels,
             points: cfg.points,

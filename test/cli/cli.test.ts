@@ -264,7 +264,23 @@ describe('shapekin embed, query, duplicates, study', () => {
     const clean = r.rows.find((x: { strength: number; method: string }) => x.strength === 0 && x.method === 'learned');
     expect(clean.instance_top1).toBe(1); // an unchanged part finds itself
     expect(clean.mean_chamfer).toBe(0);
-  }, 120_000);
+    expect(clean.queries).toBe(r.parts); // the demo is smaller than the default sample: every part
+    // embedded on the threads (above, one per core) or here: the same figures
+    const study = async (...extra: string[]) => {
+      capture();
+      const args = ['study', DEMO, '--model', run, '--augmentations', 'jitter', '--strengths', '0,1', '--json'];
+      expect(await main([...args, ...extra])).toBe(0);
+      return JSON.parse(out.join('\n'));
+    };
+    expect((await study('--threads', '1')).rows).toEqual(r.rows);
+    const sample = await study('--queries', '40');
+    expect(sample.rows.map((x: { queries: number }) => x.queries)).toEqual(new Array(6).fill(40));
+    const same = sample.rows.find(
+      (x: { strength: number; method: string }) => x.strength === 0 && x.method === 'learned',
+    );
+    expect(same.instance_top1).toBe(1);
+    expect(same.instance_top1_ci95[0]).toBeGreaterThan(0.9); // Wilson, 40 of 40
+  }, 180_000);
 });
 
 describe('bad arguments and unreadable files: one clear line and a non-zero exit', () => {

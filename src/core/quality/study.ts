@@ -48,11 +48,19 @@ export interface StudyInput {
   readonly seed?: number;
   /** Parts to augment and look up (a seeded sample when fewer than the library); default STUDY_QUERIES. */
   readonly queries?: number;
+  /**
+   * Retrieval embeddings made elsewhere (the command line's threads), by method: the same vectors
+   * `embedForRetrieval` gives with that method's encoders. Without one, the encoders embed here.
+   */
+  readonly embedWith?: Partial<Record<'learned' | 'untrained', (parts: readonly ModelPart[]) => Promise<Float32Array>>>;
   readonly onProgress?: (done: number, total: number, what: string) => void;
 }
 
 /** Descriptors of parts; `ids` are the library indices they stand for (a view is described as its part would be). */
-type Describe = (parts: readonly ModelPart[], ids: readonly number[]) => { vectors: Float32Array; dim: number };
+type Describe = (
+  parts: readonly ModelPart[],
+  ids: readonly number[],
+) => Promise<{ vectors: Float32Array; dim: number }> | { vectors: Float32Array; dim: number };
 
 function nearestTwo(
   q: Float32Array,
@@ -81,7 +89,7 @@ function nearestTwo(
   return { bestI, otherI };
 }
 
-export function runStudy(input: StudyInput): StudyRow[] {
+export async function runStudy(input: StudyInput): Promise<StudyRow[]> {
   const { parts, labels, points } = input;
   const kinds = input.kinds ?? AUGMENT_KINDS;
   const strengths = input.strengths ?? STUDY_STRENGTHS;
@@ -98,11 +106,12 @@ export function runStudy(input: StudyInput): StudyRow[] {
   };
   for (const name of ['learned', 'untrained'] as const) {
     const enc = input.encoders[name];
+    const elsewhere = input.embedWith?.[name];
     if (enc)
       methods.push([
         name,
-        (ps) => {
-          const v = embedForRetrieval(enc, ps, points, input.pose);
+        async (ps) => {
+          const v = elsewhere ? await elsewhere(ps) : embedForRetrieval(enc, ps, points, input.pose);
           return { vectors: v, dim: v.length / ps.length };
         },
         cosine,
@@ -120,7 +129,8 @@ export function runStudy(input: StudyInput): StudyRow[] {
   ]);
 
   const everyone = parts.map((_, i) => i);
-  const clean = methods.map(([, describe]) => describe(parts, everyone));
+  const clean: { vectors: Float32Array; dim: number }[] = [];
+  for (const [, describe] of methods) clean.push(await describe(parts, everyone));
   const asked = sampleQueries(parts.length, input.queries ?? STUDY_QUERIES, seed);
   const rows: StudyRow[] = [];
   const total = kinds.length * strengths.length;
@@ -142,8 +152,8 @@ export function runStudy(input: StudyInput): StudyRow[] {
         return { points: v.positions, normals: v.normals ?? p.normals };
       });
       const q = asked.length;
-      methods.forEach(([method, describe, sim], m) => {
-        const { vectors, dim } = describe(views, asked);
+      for (const [m, [method, describe, sim]] of methods.entries()) {
+        const { vectors, dim } = await describe(views, asked);
         const lib = clean[m].vectors;
         let inst = 0,
           lab = 0,
@@ -174,7 +184,7 @@ export function runStudy(input: StudyInput): StudyRow[] {
           instance_top1_ci95: wilsonInterval(inst, q),
           label_top1_ci95: wilsonInterval(lab, q),
         });
-      });
+      }
       input.onProgress?.(++done, total, `${kind} at ${strength}`);
     }
   }

@@ -32,10 +32,10 @@ describe('the study on a sample of queries', () => {
     expect(sampleQueries(7, 300, 4)).toEqual([0, 1, 2, 3, 4, 5, 6]);
   });
 
-  it('looks each sampled view up in the whole library: unchanged views (strength 0) find themselves, with their interval', () => {
+  it('looks each sampled view up in the whole library: unchanged views (strength 0) find themselves, with their interval', async () => {
     const parts = demoModelParts(256).slice(0, 40);
     const labels = parts.map((_, i) => `f${i % 5}`);
-    const rows = runStudy({
+    const rows = await runStudy({
       parts,
       labels,
       points: 256,
