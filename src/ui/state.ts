@@ -97,6 +97,8 @@ export interface SearchState {
   readonly embedPace: number | null;
   /** Why the chosen result matches the query: each part's first points weighted by their share of the similarity. */
   readonly explanation: MatchExplanation | null;
+  /** The map: each part's place on the embeddings' two leading principal components, for the index's vectors `of`. */
+  readonly map: { readonly xy: Float32Array; readonly of: Float32Array } | null;
 }
 
 export interface MatchExplanation {

@@ -255,10 +255,15 @@ describe.skipIf(!available)('workbench in a real browser', () => {
   }, 120_000);
 
   it('the map shows every part, and the quality panel measures the model against the baselines', async () => {
+    await watchLongTasks(page);
     await page.getByRole('tab', { name: 'Map' }).click();
     await expect
       .poll(async () => page.locator('sk-map-panel').locator('path.dot').count(), { timeout: 30_000 })
       .toBe(112);
+    // The projection is worked out in the map worker, not on the page (there it took 68–90 ms on the demo).
+    const mapTasks = await longTasks(page);
+    console.log(`map first visit: long tasks ${JSON.stringify(mapTasks.map(Math.round))}`);
+    expect(Math.max(0, ...mapTasks)).toBeLessThan(100);
     await page.screenshot({ path: `${ARTIFACTS}/map.png` });
     await page.getByRole('tab', { name: 'Quality' }).click();
     // Before starting: how long each job should take, from the library's last embedding here (after training).

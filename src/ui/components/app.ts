@@ -54,6 +54,7 @@ export function initialState(): AppState {
       hits: [],
       standing: [],
       embedPace: null,
+      map: null,
       filters: DEFAULT_FILTERS,
       status: IDLE,
       explanation: null,
@@ -225,7 +226,7 @@ export class SkApp extends LitElement {
           .measuring=${isBusy(measure.status)} .failure=${measure.status.kind === 'failed' ? measure.status.message : measure.study.kind === 'failed' ? measure.study.message : ''}
           @run-evaluation=${() => void this.measure.measureQuality()} @run-study=${() => void this.measure.runStudy()} @cancel-measure=${() => this.measure.cancel()} @export-study=${() => this.measure.exportStudy()}></sk-study-panel>`;
       case 'map':
-        return html`<sk-map-panel .parts=${library.parts} .index=${search.index} .thumbnails=${library.thumbnails} .units=${library.units}
+        return html`<sk-map-panel .parts=${library.parts} .index=${search.index} .map=${search.map} .thumbnails=${library.thumbnails} .units=${library.units}
           @search-query=${(e: CustomEvent<string>) => this.showSearch(e.detail, 'search')}></sk-map-panel>`;
     }
   }

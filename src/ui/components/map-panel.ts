@@ -5,7 +5,6 @@ import { partSize, sizeWords } from '../../core/units';
 import { LitElement, css, html, svg } from 'lit';
 import type { LibraryPart } from '../../core/library';
 import type { EmbeddingIndex } from '../../core/retrieval/index';
-import { pca2d } from '../../core/retrieval/projection';
 
 /**
  * Folder marks that stay apart for 32 folders and under the common colour-vision deficiencies: the eight colours
@@ -39,6 +38,7 @@ export class SkMapPanel extends LitElement {
     index: { attribute: false },
     thumbnails: { attribute: false },
     units: { attribute: false },
+    map: { attribute: false },
     hover: { state: true },
   };
   declare parts: readonly LibraryPart[];
@@ -47,8 +47,8 @@ export class SkMapPanel extends LitElement {
   /** Millimetres per file unit by folder, for files whose format has no units. */
   declare units: Readonly<Record<string, number>>;
   declare hover: number;
-  private xy: Float32Array | null = null;
-  private xyOf: Float32Array | null = null;
+  /** Each part's place on the map (the search's `map`, worked out in the map worker), for the index's vectors. */
+  declare map: { readonly xy: Float32Array; readonly of: Float32Array } | null;
 
   constructor() {
     super();
@@ -57,6 +57,7 @@ export class SkMapPanel extends LitElement {
     this.thumbnails = new Map();
     this.units = {};
     this.hover = -1;
+    this.map = null;
   }
 
   static override styles = css`
@@ -72,18 +73,12 @@ export class SkMapPanel extends LitElement {
     .empty { color: #6b5d4d; padding: 20px; }
   `;
 
-  protected override willUpdate(changed: Map<string, unknown>): void {
-    // An index with other entries (sizes said again) shares its vectors: the map stays.
-    if (changed.has('index') && this.index && this.index.count >= 3 && this.index.vectors !== this.xyOf) {
-      this.xy = pca2d(this.index.vectors, this.index.dim, 60);
-      this.xyOf = this.index.vectors;
-    }
-  }
-
   protected override render() {
     const idx = this.index;
-    if (!idx || !this.xy || idx.count !== this.parts.length)
+    const xy = this.map && idx && this.map.of === idx.vectors ? this.map.xy : null;
+    if (!idx || idx.count !== this.parts.length)
       return html`<div class="empty">The map appears once the library has embeddings.</div>`;
+    if (!xy) return html`<div class="empty" role="status">Laying out the map…</div>`;
     const families = [...new Set(this.parts.map((p) => p.label))].sort();
     const W = 900,
       H = 620,
@@ -93,8 +88,8 @@ export class SkMapPanel extends LitElement {
       y0 = Infinity,
       y1 = -Infinity;
     for (let i = 0; i < idx.count; i++) {
-      const x = this.xy[i * 2],
-        y = this.xy[i * 2 + 1];
+      const x = xy[i * 2],
+        y = xy[i * 2 + 1];
       x0 = Math.min(x0, x);
       x1 = Math.max(x1, x);
       y0 = Math.min(y0, y);
@@ -107,7 +102,7 @@ export class SkMapPanel extends LitElement {
       <svg viewBox="0 0 ${W} ${H}" role="img" aria-label="map of the library by embedding">
         ${this.parts.map((p, i) => {
           const mark = folderMark(families.indexOf(p.label));
-          return svg`<path class="dot" d=${markPath(mark.shape, sx(this.xy![i * 2]), sy(this.xy![i * 2 + 1]), i === this.hover ? 9 : 6)}
+          return svg`<path class="dot" d=${markPath(mark.shape, sx(xy[i * 2]), sy(xy[i * 2 + 1]), i === this.hover ? 9 : 6)}
           fill=${mark.colour} tabindex="0" aria-label=${`${p.name} (folder ${p.label || 'top level'})`}
           @mouseenter=${() => (this.hover = i)} @focus=${() => (this.hover = i)}
           @click=${() => this.dispatchEvent(new CustomEvent('search-query', { detail: p.name, bubbles: true, composed: true }))}

@@ -21,6 +21,7 @@ import { NeighbourTable } from '../../core/retrieval/neighbour-table';
 import type { LibraryController } from './library';
 import type { TrainingController } from './training';
 import { TrainClient } from './train-client';
+import type { MapReply, MapRequest } from '../../worker/map.worker';
 
 /**
  * Parts a request to the training worker embeds: a multiple of embedParts' batch (32), so the worker runs the same
@@ -86,6 +87,7 @@ export class SearchController {
       const selected = this.store.value.library.selected;
       const query = this.state.query ?? parts.find((p) => p.name === selected) ?? parts[0];
       this.patch({ index, query, status: { kind: 'done' } });
+      void this.project(index);
       this.searchLibraryPart(query);
     } catch (err) {
       if (version === this.version)
@@ -138,6 +140,30 @@ export class SearchController {
     const vectors = new Float32Array(total * dim);
     pieces.forEach((v, c) => vectors.set(v, c * EMBED_CHUNK * dim));
     return { vectors, dim };
+  }
+
+  private mapWorker: Worker | null = null;
+  private mapId = 0;
+
+  /** The map's coordinates, worked out in the map worker; kept in the state for the index's vectors. */
+  private async project(index: EmbeddingIndex): Promise<void> {
+    if (index.count < 3 || this.state.map?.of === index.vectors) return;
+    if (typeof Worker === 'undefined') return;
+    this.mapWorker ??= new Worker(new URL('../../worker/map.worker.ts', import.meta.url), { type: 'module' });
+    const id = ++this.mapId;
+    const worker = this.mapWorker;
+    const vectors = index.vectors.slice();
+    const xy = await new Promise<Float32Array>((resolve) => {
+      const on = (e: MessageEvent<MapReply>) => {
+        if (e.data.id !== id) return;
+        worker.removeEventListener('message', on);
+        resolve(e.data.xy);
+      };
+      worker.addEventListener('message', on);
+      worker.postMessage({ id, vectors, dim: index.dim } satisfies MapRequest, [vectors.buffer]);
+    });
+    if (id === this.mapId && this.state.index?.vectors === index.vectors)
+      this.patch({ map: { xy, of: index.vectors } });
   }
 
   /** A second worker for embedding beside the training worker, made on first use where the machine has two cores. */
