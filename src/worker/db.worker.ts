@@ -3,7 +3,7 @@
 // embeddings, answers one request at a time, and on first start moves over what an earlier version kept in plain
 // IndexedDB records (the library; embeddings are recomputed).
 
-import { NeighbourTable } from '../core/retrieval/neighbour-table';
+import { namedTable, tableArrays } from '../core/retrieval/neighbour-table';
 import { modelFingerprint } from '../core/checksum';
 import { openEmbedded } from '../core/db/embedded';
 import { PartsDb } from '../core/db/parts-db';
@@ -140,18 +140,14 @@ async function answer(req: DbRequest): Promise<[DbAnswers[DbRequest['type']], Ar
       return [e, e ? [e.vectors.buffer as ArrayBuffer] : []];
     }
     case 'put-ordering': {
-      const t = req.table;
-      const table = NeighbourTable.fromArrays(t.names.length, t.width, t.index, t.score, t.length);
-      return [await (await store()).putOrdering(req.key, t.names, table), []];
+      const { names, table } = namedTable(req.table);
+      return [await (await store()).putOrdering(req.key, names, table), []];
     }
     case 'load-ordering': {
       const o = await (await store()).ordering(req.key);
       if (!o) return [null, []];
-      const { width, index, score, length } = o.table;
-      return [
-        { names: o.names, width, index, score, length },
-        [index.buffer as ArrayBuffer, score.buffer as ArrayBuffer, length.buffer as ArrayBuffer],
-      ];
+      const t = tableArrays(o);
+      return [t, [t.index, t.score, t.length].map((a) => a.buffer as ArrayBuffer)];
     }
     case 'export': {
       const s = await store();

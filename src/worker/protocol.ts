@@ -9,7 +9,7 @@ import type { StudyRow } from '../core/quality/study';
 import type { AugmentKind } from '../core/points/augment';
 import type { TrainConfig, TrainProgress, HeldOutCheck, TrainResult } from '../core/model/train-config';
 import type { HashedPart } from '../core/db/workbench';
-import type { PackedLists } from '../core/retrieval/neighbour-table';
+import type { PackedLists, TableArrays } from '../core/retrieval/neighbour-table';
 
 export interface FileInput {
   readonly name: string;
@@ -49,13 +49,7 @@ export interface CheckpointMessage {
 }
 
 /** A neighbour table as it crosses a boundary: its rows' part names and its arrays (retrieval/neighbour-table.ts). */
-export interface TableMessage {
-  readonly names: readonly string[];
-  readonly width: number;
-  readonly index: Int32Array;
-  readonly score: Float32Array;
-  readonly length: Int32Array;
-}
+export type TableMessage = TableArrays;
 
 /** The ordering through the library an index takes over (`EmbeddingIndex.useOrdering`): its table and graph lists. */
 export interface OrderingMessage {

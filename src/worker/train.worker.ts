@@ -19,7 +19,7 @@ import { Trainer } from '../core/model/trainer';
 import { evaluateMethods, untrainedEncoders } from '../core/quality/evaluate';
 import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
 import { runStudy } from '../core/quality/study';
-import { NeighbourTable } from '../core/retrieval/neighbour-table';
+import { namedTable, tableArrays } from '../core/retrieval/neighbour-table';
 import { buildOrdering } from '../core/retrieval/tensor-index';
 import type { CheckpointMessage, TrainReply, TrainRequest } from './protocol';
 
@@ -210,33 +210,24 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         return;
       }
       case 'order': {
-        const kept = req.kept
-          ? {
-              names: req.kept.names,
-              table: NeighbourTable.fromArrays(
-                req.kept.names.length,
-                req.kept.width,
-                req.kept.index,
-                req.kept.score,
-                req.kept.length,
-              ),
-            }
-          : null;
+        const kept = req.kept ? namedTable(req.kept) : null;
         const o = buildOrdering(req.names, req.vectors, req.dim, kept);
-        const { width, index, score, length } = o.table;
+        const table = tableArrays({ names: req.names, table: o.table });
         post(
           {
             type: 'ordering',
             id: req.id,
             ordering: {
-              table: { names: req.names, width, index, score, length },
+              table,
               graph: o.graph,
               added: o.added,
               removed: o.removed,
               fresh: o.fresh,
             },
           },
-          [index, score, length, o.graph.index, o.graph.score, o.graph.length].map((a) => a.buffer as ArrayBuffer),
+          [table.index, table.score, table.length, o.graph.index, o.graph.score, o.graph.length].map(
+            (a) => a.buffer as ArrayBuffer,
+          ),
         );
         return;
       }

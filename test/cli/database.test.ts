@@ -320,13 +320,14 @@ describe('the ordering kept in the database (query --db, ordered through the lib
             .slice(0, 4)
             .map((f) => join(d.name, f)),
         );
-      const parts = files.slice(0, 48).map((f) => {
+      const readPart = (f: string) => {
         const b = readFileSync(join(DEMO, f));
         return loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer, f, {
           points: 64,
           seed: 0,
         });
-      });
+      };
+      const parts = files.slice(0, 48).map(readPart);
       await store.putParts(parts);
       await store.setContents(
         parts.map((p) => p.name),
@@ -364,13 +365,7 @@ describe('the ordering kept in the database (query --db, ordered through the lib
       expect(await ask()).toEqual({ fresh: false, added: 0, removed: 0 }); // read back, nothing rebuilt
       // one part gone, four new: carried over
       await store.setContents(names.slice(1), [], 'user');
-      const more = files.slice(48, 52).map((f) => {
-        const b = readFileSync(join(DEMO, f));
-        return loadPart(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength) as ArrayBuffer, f, {
-          points: 64,
-          seed: 0,
-        });
-      });
+      const more = files.slice(48, 52).map(readPart);
       await store.putParts(more);
       const now = [...names.slice(1), ...more.map((p) => p.name)];
       await store.setContents(now, [], 'user');

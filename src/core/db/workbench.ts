@@ -7,7 +7,7 @@ import type { ImportFailure } from '../mesh/import';
 import type { ImportErrorCode, MeshInfo } from '../mesh/types';
 import { measuredValues, type PartsDb } from './parts-db';
 import { bytesFloats, floatBytes, vectorLiteral } from './sql';
-import { NeighbourTable, type NamedTable } from '../retrieval/neighbour-table';
+import { namedTable, type NamedTable, type NeighbourTable } from '../retrieval/neighbour-table';
 
 export interface WorkbenchLibrary {
   readonly parts: LibraryPart[];
@@ -18,7 +18,8 @@ export interface WorkbenchLibrary {
 /** A part as the workbench hands it over: a library part and the SHA-256 of its file, when known. */
 export type HashedPart = LibraryPart & { readonly contentHash?: string };
 
-const u32Bytes = (a: Uint32Array): Uint8Array => new Uint8Array(a.buffer, a.byteOffset, a.byteLength);
+/** The bytes of a 32-bit integer array, as they lie (little-endian on every host we run on). */
+const u32Bytes = (a: Uint32Array | Int32Array): Uint8Array => new Uint8Array(a.buffer, a.byteOffset, a.byteLength);
 function bytesU32(b: Uint8Array): Uint32Array {
   const out = new Uint32Array(b.byteLength / 4);
   new Uint8Array(out.buffer).set(b);
@@ -39,12 +40,13 @@ export class WorkbenchStore {
   async putParts(parts: readonly HashedPart[]): Promise<void> {
     if (parts.length === 0) return;
     await this.sql.transaction(async (tx) => {
+      // A part read again whose file changed (or is not known not to have): a kept ordering with it is no longer true.
+      await tx.query(
+        `DELETE FROM orderings o USING parts p, unnest($1::text[], $2::text[]) AS u(path, hash)
+         WHERE p.path = u.path AND (p.content_hash = '' OR p.content_hash <> u.hash) AND u.path = ANY(o.part_paths)`,
+        [parts.map((p) => p.name), parts.map((p) => p.contentHash ?? '')],
+      );
       for (const p of parts) {
-        // A part read again whose file changed (or is not known not to have): a kept ordering with it is no longer true.
-        const before = await tx.query<{ h: string }>('SELECT content_hash AS h FROM parts WHERE path = $1', [p.name]);
-        const was = before.rows[0]?.h;
-        if (was !== undefined && (was === '' || was !== (p.contentHash ?? '')))
-          await tx.query('DELETE FROM orderings WHERE $1 = ANY(part_paths)', [p.name]);
         await tx.query(
           `INSERT INTO parts (path, content_hash, file_bytes, label, state, failure, failure_code, format, units,
              triangles, closed, bodies, extents, diagonal, info, sample_points, sample_seed, points, normals, centre,
@@ -281,14 +283,7 @@ export class WorkbenchStore {
         `INSERT INTO orderings (model_id, part_paths, width, neighbours, scores, lengths) VALUES ($1, $2, $3, $4, $5, $6)
          ON CONFLICT (model_id) DO UPDATE SET part_paths = EXCLUDED.part_paths, width = EXCLUDED.width,
            neighbours = EXCLUDED.neighbours, scores = EXCLUDED.scores, lengths = EXCLUDED.lengths, built_at = now()`,
-        [
-          model,
-          [...names],
-          t.width,
-          u32Bytes(new Uint32Array(t.index.buffer, t.index.byteOffset, t.index.length)),
-          floatBytes(t.score),
-          u32Bytes(new Uint32Array(t.length.buffer, t.length.byteOffset, t.length.length)),
-        ],
+        [model, [...names], t.width, u32Bytes(t.index), floatBytes(t.score), u32Bytes(t.length)],
       );
       return true;
     });
@@ -309,17 +304,13 @@ export class WorkbenchStore {
     );
     const row = r.rows[0];
     if (!row) return null;
-    const size = row.part_paths.length;
     const asInt = (b: Uint8Array) => new Int32Array(bytesU32(b).buffer);
-    return {
+    return namedTable({
       names: row.part_paths,
-      table: NeighbourTable.fromArrays(
-        size,
-        row.width,
-        asInt(row.neighbours),
-        bytesFloats(row.scores),
-        asInt(row.lengths),
-      ),
-    };
+      width: row.width,
+      index: asInt(row.neighbours),
+      score: bytesFloats(row.scores),
+      length: asInt(row.lengths),
+    });
   }
 }

@@ -43,10 +43,6 @@ export interface DirectedEdges {
 /** Each node's k most similar other nodes, best first, as from a top-k selection. */
 export type NeighbourLists = readonly (readonly { readonly index: number; readonly score: number }[])[];
 
-/**
- * The symmetric affinity W = (A + Aᵀ)/2 of a kNN graph (A_ij = max(0, s_ij)^γ for the k most similar j ≠ i),
- * stored as compressed rows, with its degrees. Diffusion walks S = D^−½ W D^−½.
- */
 /** W as compressed rows (columns ascending in each row) with 1/√degree per node. */
 interface Rows {
   readonly rowStart: Int32Array;
@@ -55,6 +51,10 @@ interface Rows {
   readonly invSqrtDegree: Float64Array;
 }
 
+/**
+ * The symmetric affinity W = (A + Aᵀ)/2 of a kNN graph (A_ij = max(0, s_ij)^γ for the k most similar j ≠ i),
+ * stored as compressed rows, with its degrees. Diffusion walks S = D^−½ W D^−½.
+ */
 export class DiffusionGraph {
   private readonly rowStart: Int32Array;
   private readonly cols: Int32Array;

@@ -12,7 +12,6 @@ import {
   unpackLists,
   type PackedLists,
   type RowScorer,
-  type TableBuildProgress,
 } from './neighbour-table';
 
 /**
@@ -121,8 +120,8 @@ export class EmbeddingIndex {
    * The library's neighbour table (neighbour-table.ts): built on first use in one pass over all pairs, or the one
    * given to `useTable` (kept with the embeddings).
    */
-  neighbourTable(onProgress?: (p: TableBuildProgress) => void): NeighbourTable {
-    return (this.table ??= NeighbourTable.build(this.count, this.rowScorer(), TABLE_WIDTH, onProgress));
+  neighbourTable(): NeighbourTable {
+    return (this.table ??= NeighbourTable.build(this.count, this.rowScorer(), TABLE_WIDTH));
   }
 
   /** Use a table built before for these very vectors (its size must match); the graph is rebuilt from it. */
@@ -134,11 +133,6 @@ export class EmbeddingIndex {
     this.graph = null;
     this.graphLists = null;
     return this;
-  }
-
-  /** Whether the table (the quadratic part of ordering through the library) is already at hand. */
-  hasTable(): boolean {
-    return this.table !== null;
   }
 
   private hubs: Float64Array | null = null;

@@ -5,7 +5,7 @@
 // candidates whenever a bound proves no part outside them can beat them (else that row alone is scanned again).
 // So the quadratic work is done once, as matrix products where a backend has them, and queries touch n·width.
 
-import { topK, topKRow, type Hit } from './topk';
+import { topK, type Hit } from './topk';
 import { HUB_NEIGHBOURS } from './hubness';
 import { DIFFUSION_DEFAULTS, DiffusionGraph, type DiffusionOptions } from './diffusion';
 
@@ -17,18 +17,15 @@ import { DIFFUSION_DEFAULTS, DiffusionGraph, type DiffusionOptions } from './dif
 export type RowScorer = (start: number, end: number, out: Float32Array) => Float32Array;
 
 /**
- * Candidates kept per part. Measured on the three real libraries' trained embeddings (bench `scale`): with 64, the
- * bound settles the graph's 15 hub-corrected neighbours without a rescan for most rows.
+ * Candidates kept per part: more than the hub correction's 30, so r(i) and the graph's first choices come from the
+ * table. The bound that lets a row's 15 hub-corrected neighbours be taken from its candidates rarely settles a row
+ * on the libraries measured (bench `scale`: 46 of 6,225 KiCad rows, 27 of 20,000 generated ones); the rest are
+ * scored again.
  */
 export const TABLE_WIDTH = 64;
 
 /** Rows scored per block: at most this many similarities in memory at once (64 MB of float32). */
 const BLOCK_VALUES = 1 << 24;
-
-export interface TableBuildProgress {
-  readonly done: number;
-  readonly total: number;
-}
 
 export class NeighbourTable {
   /** Row i's candidates are index[i·width .. i·width + length[i]), best first; score holds their cosines. */
@@ -41,12 +38,7 @@ export class NeighbourTable {
   ) {}
 
   /** The table of n parts from their cosines, scored in blocks of rows. */
-  static build(
-    n: number,
-    scoreRows: RowScorer,
-    width = TABLE_WIDTH,
-    onProgress?: (p: TableBuildProgress) => void,
-  ): NeighbourTable {
+  static build(n: number, scoreRows: RowScorer, width = TABLE_WIDTH): NeighbourTable {
     if (!(Number.isInteger(width) && width >= 1))
       throw new RangeError(`neighbour table: width must be ≥ 1, got ${width}`);
     const table = new NeighbourTable(
@@ -56,7 +48,7 @@ export class NeighbourTable {
       new Float32Array(n * width),
       new Int32Array(n),
     );
-    table.scanRows(range(0, n), n, scoreRows, onProgress);
+    table.scanRows(range(0, n), scoreRows);
     return table;
   }
 
@@ -88,28 +80,9 @@ export class NeighbourTable {
     return out;
   }
 
-  /** Scores `rows` against all `n` parts in blocks and keeps each one's best `width` (itself left out). */
-  private scanRows(
-    rows: readonly number[],
-    n: number,
-    scoreRows: RowScorer,
-    onProgress?: (p: TableBuildProgress) => void,
-  ): void {
-    const perBlock = Math.max(1, Math.floor(BLOCK_VALUES / Math.max(1, n)));
-    let block = new Float32Array(0);
-    // Consecutive rows go in one block; scattered rows (rescans) one block each run of consecutive numbers.
-    let done = 0;
-    for (let a = 0; a < rows.length;) {
-      let b = a + 1;
-      while (b < rows.length && rows[b] === rows[b - 1] + 1 && b - a < perBlock) b++;
-      const start = rows[a],
-        end = rows[b - 1] + 1;
-      if (block.length < (end - start) * n) block = new Float32Array((end - start) * n);
-      this.takeRows(start, end, scoreRows(start, end, block.subarray(0, (end - start) * n)));
-      done += end - start;
-      a = b;
-      onProgress?.({ done, total: rows.length });
-    }
+  /** Scores `rows` against all parts in blocks and keeps each one's best `width` (itself left out). */
+  private scanRows(rows: readonly number[], scoreRows: RowScorer): void {
+    inBlocks(rows, this.size, scoreRows, (start, end, scores) => this.takeRows(start, end, scores));
   }
 
   /** Rows [start, end) from their scores against all parts (`out` as a RowScorer fills it); itself left out. */
@@ -120,7 +93,7 @@ export class NeighbourTable {
       const r = out.subarray((i - start) * n, (i - start + 1) * n);
       const self = r[i];
       r[i] = NaN; // never itself
-      this.setRow(i, keep > 0 ? topKRow(r, keep) : []);
+      this.setRow(i, keep > 0 ? topK(r, keep) : []);
       r[i] = self;
     }
   }
@@ -180,23 +153,14 @@ export class NeighbourTable {
       else unsettled.push(i);
     }
     // Unsettled rows scored again in blocks of consecutive rows (a matrix product each where the scorer has one).
-    const perBlock = Math.max(1, Math.floor(BLOCK_VALUES / Math.max(1, n)));
     const keyRow = new Float64Array(n);
-    let block = new Float32Array(0);
-    for (let a = 0; a < unsettled.length;) {
-      let b = a + 1;
-      while (b < unsettled.length && unsettled[b] === unsettled[b - 1] + 1 && b - a < perBlock) b++;
-      const start = unsettled[a],
-        end = unsettled[b - 1] + 1;
-      if (block.length < (end - start) * n) block = new Float32Array((end - start) * n);
-      const got = scoreRows(start, end, block.subarray(0, (end - start) * n));
+    inBlocks(unsettled, n, scoreRows, (start, end, got) => {
       for (let i = start; i < end; i++) {
         const o = (i - start) * n;
         for (let j = 0; j < n; j++) keyRow[j] = j === i ? NaN : 2 * got[o + j] - r[i] - r[j];
-        lists[i] = topKRow(keyRow, k);
+        lists[i] = topK(keyRow, k);
       }
-      a = b;
-    }
+    });
     return { graph: DiffusionGraph.fromNeighbours(lists, options), lists, rescanned: unsettled.length };
   }
 
@@ -262,7 +226,7 @@ export class NeighbourTable {
       next.setRow(renumber[i], hits);
       if (hits.length < Math.min(minLength, W, n - 1)) short.push(renumber[i]);
     }
-    if (short.length) next.scanRows(short, n, scoreRows);
+    if (short.length) next.scanRows(short, scoreRows);
     return next;
   }
 
@@ -323,6 +287,24 @@ export interface NamedTable {
   readonly table: NeighbourTable;
 }
 
+/** A named table as plain arrays (for messages between threads): the rows' names, the width and the three arrays. */
+export interface TableArrays {
+  readonly names: readonly string[];
+  readonly width: number;
+  readonly index: Int32Array;
+  readonly score: Float32Array;
+  readonly length: Int32Array;
+}
+
+export function tableArrays({ names, table }: NamedTable): TableArrays {
+  return { names, width: table.width, index: table.index, score: table.score, length: table.length };
+}
+
+/** The named table back from its arrays (checked for shape by `fromArrays`). */
+export function namedTable(t: TableArrays): NamedTable {
+  return { names: t.names, table: NeighbourTable.fromArrays(t.names.length, t.width, t.index, t.score, t.length) };
+}
+
 /**
  * The kept table brought to a library's parts now (`names`, in their order; the same model's embeddings): parts
  * gone are dropped (`withRemoved`), new ones join (`withAdded`), and rows are renumbered to the library's order.
@@ -350,6 +332,29 @@ export function carryTable(
   const order = [...stay, ...fresh];
   if (fresh.length) table = table.withAdded(fresh.length, scorerOver(order));
   return { table: table.renumbered(Int32Array.from(order)), added: fresh.length, removed: gone.length };
+}
+
+/**
+ * Scores `rows` (ascending) against all n parts, a run of consecutive rows per block and at most BLOCK_VALUES
+ * similarities at a time, and hands each block's scores to `take`.
+ */
+function inBlocks(
+  rows: readonly number[],
+  n: number,
+  scoreRows: RowScorer,
+  take: (start: number, end: number, scores: Float32Array) => void,
+): void {
+  const perBlock = Math.max(1, Math.floor(BLOCK_VALUES / Math.max(1, n)));
+  let block = new Float32Array(0);
+  for (let a = 0; a < rows.length;) {
+    let b = a + 1;
+    while (b < rows.length && rows[b] === rows[b - 1] + 1 && b - a < perBlock) b++;
+    const start = rows[a],
+      end = rows[b - 1] + 1;
+    if (block.length < (end - start) * n) block = new Float32Array((end - start) * n);
+    take(start, end, scoreRows(start, end, block.subarray(0, (end - start) * n)));
+    a = b;
+  }
 }
 
 function range(a: number, b: number): number[] {

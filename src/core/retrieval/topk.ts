@@ -32,6 +32,9 @@ export function topK(scores: ArrayLike<number>, k: number, keep?: (i: number) =>
   };
   for (let i = 0; i < scores.length; i++) {
     const s = scores[i];
+    // Once k are held, a value enters only if strictly higher than the lowest held (a later equal value has the
+    // higher index and loses the tie); one comparison for most values of a long row. NaN fails it too.
+    if (size === k && !(s > heapScore[0])) continue;
     if (Number.isNaN(s)) continue;
     if (keep && !keep(i)) continue;
     if (size < k) {
@@ -57,61 +60,5 @@ export function topK(scores: ArrayLike<number>, k: number, keep?: (i: number) =>
   }
   const out: Hit[] = [];
   for (let j = 0; j < size; j++) out.push({ index: heapIndex[j], score: heapScore[j] });
-  return out.sort((a, b) => b.score - a.score || a.index - b.index);
-}
-
-/**
- * `topK` without a filter, for long rows scanned whole (the neighbour table's pass over all pairs): once k values
- * are held, a value enters only if it is strictly higher than the lowest held — one comparison for most values,
- * and exact, since a later equal value has the higher index and so loses the tie. NaN never enters. Same hits,
- * same order as `topK(scores, k)`.
- */
-export function topKRow(scores: ArrayLike<number>, k: number): Hit[] {
-  if (!(k >= 1) || !Number.isInteger(k)) throw new RangeError(`topK: k must be a whole number ≥ 1, got ${k}`);
-  const n = scores.length;
-  let i = 0;
-  const first: number[] = [];
-  for (; i < n && first.length < k; i++) if (!Number.isNaN(scores[i])) first.push(i);
-  if (first.length < k) return topK(scores, k);
-  // A min-heap of the k held (worst at the top: lowest score, then highest index).
-  const hs = new Float64Array(k),
-    hi = new Int32Array(k);
-  const worse = (a: number, b: number) => hs[a] < hs[b] || (hs[a] === hs[b] && hi[a] > hi[b]);
-  const swap = (a: number, b: number) => {
-    const s = hs[a],
-      x = hi[a];
-    hs[a] = hs[b];
-    hi[a] = hi[b];
-    hs[b] = s;
-    hi[b] = x;
-  };
-  const down = (p: number) => {
-    for (;;) {
-      const l = 2 * p + 1,
-        r = l + 1;
-      let m = p;
-      if (l < k && worse(l, m)) m = l;
-      if (r < k && worse(r, m)) m = r;
-      if (m === p) return;
-      swap(m, p);
-      p = m;
-    }
-  };
-  first.forEach((j, c) => {
-    hs[c] = scores[j];
-    hi[c] = j;
-  });
-  for (let p = (k >> 1) - 1; p >= 0; p--) down(p);
-  let floor = hs[0];
-  for (; i < n; i++) {
-    const s = scores[i];
-    if (!(s > floor)) continue; // the common case: one comparison (NaN fails it too)
-    hs[0] = s;
-    hi[0] = i;
-    down(0);
-    floor = hs[0];
-  }
-  const out: Hit[] = [];
-  for (let c = 0; c < k; c++) out.push({ index: hi[c], score: hs[c] });
   return out.sort((a, b) => b.score - a.score || a.index - b.index);
 }

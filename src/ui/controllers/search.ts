@@ -17,7 +17,7 @@ import {
   type Store,
 } from '../state';
 import { loadEmbeddings, loadOrdering, saveEmbeddings, saveOrdering } from './library-db';
-import { NeighbourTable } from '../../core/retrieval/neighbour-table';
+import { namedTable } from '../../core/retrieval/neighbour-table';
 import type { LibraryController } from './library';
 import type { TrainingController } from './training';
 import { TrainClient } from './train-client';
@@ -198,12 +198,8 @@ export class SearchController {
       const kept = key ? await loadOrdering(key) : null;
       const o = await this.training.client.order(names, vectors, index.dim, kept);
       if (version !== this.version) return;
-      const t = o.table;
-      index.useOrdering({
-        table: NeighbourTable.fromArrays(t.names.length, t.width, t.index, t.score, t.length),
-        graph: o.graph,
-      });
-      if (key && (o.fresh || o.added > 0 || o.removed > 0)) await saveOrdering(key, t).catch(() => false);
+      index.useOrdering({ table: namedTable(o.table).table, graph: o.graph });
+      if (key && (o.fresh || o.added > 0 || o.removed > 0)) await saveOrdering(key, o.table).catch(() => false);
     } catch {
       // ordered queries then build it here on first use
     }
