@@ -18,7 +18,13 @@ import { disposeEncoders, embedForRetrieval, encoderList, type Encoders } from '
 import { EMBED_CHUNK, EmbedPool, embedInThreads } from './embed-pool';
 import { POSE_LABELS, POSES } from '../core/model/train-config';
 import { type ModelPart } from '../core/model/views';
-import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../core/model/encoder-config';
+import {
+  EDGE_WIDTH,
+  SURFACE_GRID_CELLS,
+  INPUT_FEATURES,
+  INPUT_LABELS,
+  type InputFeatures,
+} from '../core/model/encoder-config';
 import { LOSS_NAMES, type LossName } from '../core/model/losses/names';
 import { Trainer } from '../core/model/trainer';
 import { type TrainConfig } from '../core/model/train-config';
@@ -59,6 +65,8 @@ usage:
                  [--batch B] [--lr X] [--loss ${LOSS_NAMES.join('|')}] [--temperature T] [--resume]
                  [--inputs ${INPUT_FEATURES.join('|')}]   (default: normals only if most meshes are closed)
                  [--neighbours K]   (a first layer over each point's K nearest neighbours, EdgeConv; 0: off)
+                 [--grid-share S]   (share of each similarity taken from the parts' surface grids, which need no
+                 training; 0: the encoder alone)
                  [--pose principal-axes|file-axes|as-is|file-and-principal]
                  (default: file-and-principal, two encoders trained one after the other, when most parts sit square in
                  their files' axes; principal-axes otherwise)
@@ -120,6 +128,7 @@ const OPTIONS = {
   inputs: { type: 'string' },
   pose: { type: 'string' },
   neighbours: { type: 'string' },
+  'grid-share': { type: 'string' },
   augmentations: { type: 'string' },
   strengths: { type: 'string' },
   queries: { type: 'string' },
@@ -188,7 +197,7 @@ const asModelParts = (parts: readonly ModelPart[]): ModelPart[] =>
 
 /** train's numeric options: whole or not, and the range each must lie in. */
 const TRAIN_NUMBERS: Record<
-  'epochs' | 'seed' | 'points' | 'batch' | 'lr' | 'temperature' | 'neighbours',
+  'epochs' | 'seed' | 'points' | 'batch' | 'lr' | 'temperature' | 'neighbours' | 'grid-share',
   [integer: boolean, min: number, max: number]
 > = {
   epochs: [true, 1, Infinity],
@@ -198,6 +207,7 @@ const TRAIN_NUMBERS: Record<
   lr: [false, 1e-9, 1],
   temperature: [false, 1e-3, 100],
   neighbours: [true, 0, 64],
+  'grid-share': [false, 0, 0.95],
 };
 
 async function train(lib: string, values: Values): Promise<void> {
@@ -224,7 +234,8 @@ async function train(lib: string, values: Values): Promise<void> {
   const inputs = (values.inputs ?? base.encoder.inputFeatures) as InputFeatures;
   const pose = (values.pose ?? base.pose) as TrainConfig['pose'];
   const neighbours = trainNum('neighbours', base.encoder.edge?.k ?? 0);
-  const { edge: _edge, ...plainEncoder } = base.encoder;
+  const gridShare = trainNum('grid-share', base.encoder.surfaceGrid?.share ?? 0);
+  const { edge: _edge, surfaceGrid: _grid, ...plainEncoder } = base.encoder;
   const config: TrainConfig = {
     ...base,
     pose,
@@ -232,6 +243,9 @@ async function train(lib: string, values: Values): Promise<void> {
       ...plainEncoder,
       inputFeatures: inputs,
       ...(neighbours > 0 ? { edge: { k: neighbours, width: base.encoder.edge?.width ?? EDGE_WIDTH } } : {}),
+      ...(gridShare > 0
+        ? { surfaceGrid: { cells: base.encoder.surfaceGrid?.cells ?? SURFACE_GRID_CELLS, share: gridShare } }
+        : {}),
     },
     epochs: trainNum('epochs', base.epochs),
     seed: trainNum('seed', DEFAULT_TRAIN.seed),
@@ -445,6 +459,7 @@ async function query(file: string, values: Values): Promise<void> {
       vectors,
       D,
       library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal * sizes[i].scale })),
+      { gridShare: ckpt.manifest.config.encoder.surfaceGrid?.share ?? 0 },
     );
     const qv = embedForRetrieval(enc, [{ points: q.points, normals: q.normals }], points, ckpt.manifest.config.pose);
     if (!qv.every(Number.isFinite)) {
@@ -639,6 +654,7 @@ async function queryDatabase(
           label: p.label,
           diagonal: p.diagonal * partSize(p.info, o.mmPerUnit).scale,
         })),
+        { gridShare: ckpt.manifest.config.encoder.surfaceGrid?.share ?? 0 },
       );
       try {
         meanPair = index.meanPairCosine();

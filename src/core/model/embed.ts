@@ -5,6 +5,7 @@ import * as tf from '@tensorflow/tfjs';
 import { SIGN_FLIPS } from '../points/pca';
 import { transformPoints } from '../points/rotation';
 import { normaliseRows } from '../vectors';
+import { shapeGrid, shapeGridLength } from '../descriptors/shape-grid';
 import { Encoder } from './encoder';
 import { inputChannels } from './encoder-config';
 import { memberPoses, type Pose, type SinglePose } from './train-config';
@@ -45,11 +46,51 @@ export function embedForRetrieval(
     poses = memberPoses(pose);
   if (list.length !== poses.length)
     throw new RangeError(`embedForRetrieval: the pose "${pose}" needs ${poses.length} encoder(s), got ${list.length}`);
-  if (list.length === 1) return embedInPose(list[0], parts, n, poses[0], resamplings);
+  const learned =
+    list.length === 1
+      ? embedInPose(list[0], parts, n, poses[0], resamplings)
+      : sideBySide(
+          list.map((e, m) => embedInPose(e, parts, n, poses[m], resamplings)),
+          parts.length,
+        );
+  const grid = list[0].config.surfaceGrid;
+  if (!grid || grid.share === 0) return learned;
+  return fused(learned, surfaceGrids(parts, poses, grid.cells), parts.length, grid.share);
+}
+
+/**
+ * The surface grid of each part's whole pool in every pose the encoders read (sign-free, as retrieval averages
+ * the sign choices), side by side (scaled 1/√m): unit rows.
+ */
+export function surfaceGrids(parts: readonly ModelPart[], poses: readonly SinglePose[], cells: number): Float32Array {
+  const options = { cells, facing: true, signFree: true };
   return sideBySide(
-    list.map((e, m) => embedInPose(e, parts, n, poses[m], resamplings)),
+    poses.map((pose) => {
+      const len = shapeGridLength(options),
+        out = new Float32Array(parts.length * len);
+      posed(parts, pose).forEach((p, i) => {
+        // 'as-is' keeps the files' signs; every other pose leaves them open.
+        out.set(shapeGrid(p.points, p.normals, { ...options, signFree: pose !== 'as-is' }), i * len);
+      });
+      return out;
+    }),
     parts.length,
   );
+}
+
+/** Unit rows a and b side by side, scaled √(1 − share) and √share: unit rows whose cosine is (1 − share)·a + share·b. */
+export function fused(a: Float32Array, b: Float32Array, count: number, share: number): Float32Array {
+  const da = a.length / Math.max(1, count),
+    db = b.length / Math.max(1, count),
+    D = da + db;
+  const sa = Math.sqrt(1 - share),
+    sb = Math.sqrt(share);
+  const out = new Float32Array(count * D);
+  for (let i = 0; i < count; i++) {
+    for (let d = 0; d < da; d++) out[i * D + d] = a[i * da + d] * sa;
+    for (let d = 0; d < db; d++) out[i * D + da + d] = b[i * db + d] * sb;
+  }
+  return out;
 }
 
 /**

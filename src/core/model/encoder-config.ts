@@ -34,7 +34,16 @@ export interface EncoderConfig {
    * over the k neighbours j (the point itself included), then the per-point MLP. Absent or null: none.
    */
   readonly edge?: { readonly k: number; readonly width: number } | null;
+  /**
+   * A training-free surface grid (descriptors/shape-grid.ts) set beside the learned rows at retrieval: `share` of
+   * each cosine comes from the grid of `cells`³ cells, the rest from the encoder. Absent or null (models saved
+   * before it existed): the encoder alone. Not part of the network: training never sees it.
+   */
+  readonly surfaceGrid?: { readonly cells: number; readonly share: number } | null;
 }
+
+/** Cells per axis of the surface grid when the command line or the workbench sets one beside the encoder. */
+export const SURFACE_GRID_CELLS = 8;
 
 /** Width of the EdgeConv layer when the command line or the workbench switches it on. */
 export const EDGE_WIDTH = 64;
@@ -81,6 +90,18 @@ export function validateEncoderConfig(c: EncoderConfig): void {
         `encoder: edge needs whole numbers k in [1, 64] and width in [1, 4096] and nothing else, got ${JSON.stringify(e)}`,
       );
     }
+  }
+  const g = c.surfaceGrid;
+  if (g != null) {
+    const extra = Object.keys(g).filter((key) => key !== 'cells' && key !== 'share');
+    if (
+      !(Number.isInteger(g.cells) && g.cells >= 2 && g.cells <= 16) ||
+      !(g.share >= 0 && g.share < 1) ||
+      extra.length > 0
+    )
+      throw new RangeError(
+        `encoder: surfaceGrid needs a whole number of cells in [2, 16] and a share in [0, 1) and nothing else, got ${JSON.stringify(g)}`,
+      );
   }
   for (const [name, list] of [
     ['widths', c.widths],

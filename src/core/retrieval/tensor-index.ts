@@ -4,7 +4,7 @@
 
 import * as tf from '@tensorflow/tfjs';
 import { normaliseRows } from '../vectors';
-import { dot4, EmbeddingIndex, type IndexEntry } from './index';
+import { dot4, EmbeddingIndex, type IndexEntry, type IndexOptions } from './index';
 import {
   carryTable,
   TABLE_WIDTH,
@@ -17,8 +17,8 @@ import {
 export class TensorIndex extends EmbeddingIndex {
   private readonly matrixT: tf.Tensor2D; // (dim, count): the unit rows as columns
 
-  constructor(vectors: Float32Array, dim: number, entries: readonly IndexEntry[]) {
-    super(vectors, dim, entries);
+  constructor(vectors: Float32Array, dim: number, entries: readonly IndexEntry[], options: IndexOptions = {}) {
+    super(vectors, dim, entries, options);
     // Stored transposed: a (1, dim) x (dim, count) product ran 0.6–0.8× the time of (count, dim) x (dim, 1).
     this.matrixT = tf.tidy(() => tf.transpose(tf.tensor2d(this.vectors, [this.count, dim])));
   }

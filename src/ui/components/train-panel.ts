@@ -6,7 +6,13 @@ import { LitElement, css, html } from 'lit';
 import { LOSS_NAMES, type LossName } from '../../core/model/losses/names';
 import type { TrainConfig, TrainProgress, HeldOutCheck } from '../../core/model/train-config';
 import { PRESETS } from '../../core/points/augment';
-import { EDGE_WIDTH, INPUT_FEATURES, INPUT_LABELS, type InputFeatures } from '../../core/model/encoder-config';
+import {
+  EDGE_WIDTH,
+  SURFACE_GRID_CELLS,
+  INPUT_FEATURES,
+  INPUT_LABELS,
+  type InputFeatures,
+} from '../../core/model/encoder-config';
 import { memberPoses, POSE_LABELS, POSES } from '../../core/model/train-config';
 import { isBusy, type TrainingState } from '../state';
 import { formatDuration } from '../words';
@@ -111,7 +117,7 @@ export class SkTrainPanel extends LitElement {
             ${Object.entries(PRESETS).map(([n, pipe]) => html`<option value=${n} ?selected=${JSON.stringify(pipe) === JSON.stringify(c.pipeline)}>${n}</option>`)}
             ${Object.values(PRESETS).some((pipe) => JSON.stringify(pipe) === JSON.stringify(c.pipeline)) ? null : html`<option selected>as composed on the Augmentations tab</option>`}
           </select>
-          <details class="expert"><summary>Expert settings: batch, loss, learning rate, inputs, neighbour layer, seed, checks</summary><div class="inner">
+          <details class="expert"><summary>Expert settings: batch, loss, learning rate, inputs, neighbour layer, surface grid, seed, checks</summary><div class="inner">
           <label for="batch" title="parts compared with each other in one training step">parts per batch</label><input id="batch" type="number" min="2" max="256" .value=${String(c.batchSize)} ?disabled=${busy} @change=${(e: Event) => this.set('batchSize', this.num(e))} />
           <label for="loss" title="what training optimises: NT-Xent pulls two altered copies of a part together and pushes other parts away">loss</label><select id="loss" ?disabled=${busy} @change=${(e: Event) => this.set('loss', { ...c.loss, name: (e.target as HTMLSelectElement).value as LossName })}>
             ${LOSS_NAMES.map((n) => html`<option value=${n} ?selected=${c.loss.name === n} ?disabled=${n === 'supervised-contrastive' && !this.hasLabels}>${n}</option>`)}
@@ -132,6 +138,20 @@ export class SkTrainPanel extends LitElement {
             this.set('encoder', k > 0 ? { ...rest, edge: { k, width: EDGE_WIDTH } } : rest);
           }}>
             ${[0, 8, 16, 32].map((k) => html`<option value=${k} ?selected=${(c.encoder.edge?.k ?? 0) === k}>${k === 0 ? 'off' : `${k} neighbours`}</option>`)}
+          </select>
+          <label for="grid" title="a training-free description of each part: how much of its surface lies in each box of an ${SURFACE_GRID_CELLS}×${SURFACE_GRID_CELLS}×${SURFACE_GRID_CELLS} grid and which way it faces there. This share of every similarity comes from it, the rest from the trained model">share from the surface grid</label><select id="grid" ?disabled=${busy} @change=${(
+            e: Event,
+          ) => {
+            const share = Number((e.target as HTMLSelectElement).value);
+            const { surfaceGrid: _grid, ...rest } = c.encoder;
+            this.set(
+              'encoder',
+              share > 0
+                ? { ...rest, surfaceGrid: { cells: c.encoder.surfaceGrid?.cells ?? SURFACE_GRID_CELLS, share } }
+                : rest,
+            );
+          }}>
+            ${[...new Set([0, 0.3, 0.5, 0.7, c.encoder.surfaceGrid?.share ?? 0])].sort((a, b) => a - b).map((v) => html`<option value=${v} ?selected=${(c.encoder.surfaceGrid?.share ?? 0) === v}>${v === 0 ? 'none: the trained model alone' : `${Math.round(v * 100)} %`}</option>`)}
           </select>
           <label for="seed" title="the same seed on the same library trains the same model">seed</label><input id="seed" type="number" min="0" step="1" .value=${String(c.seed)} ?disabled=${busy} @change=${(e: Event) => this.set('seed', this.num(e))} />
           <label for="held" title="a share of parts kept out of training to check progress on (0: none)">parts kept for checks</label><input id="held" type="number" min="0" max="0.5" step="0.05" .value=${String(c.heldOutFraction)} ?disabled=${busy} @change=${(e: Event) => this.set('heldOutFraction', this.num(e))} />

@@ -58,6 +58,12 @@ export class SearchController {
     return `untrained:${JSON.stringify(config.encoder)}:${config.seed}`;
   }
 
+  /** Share of each similarity the current model takes from the surface grid (the trained model's, or the settings'). */
+  private gridShare(): number {
+    const { model, config } = this.training.state;
+    return (model ? model.manifest.config.encoder : config.encoder).surfaceGrid?.share ?? 0;
+  }
+
   /** Re-embed the library (or reuse the stored embeddings), then repeat the current search. */
   async refresh(): Promise<void> {
     const parts = this.store.value.library.parts;
@@ -81,7 +87,7 @@ export class SearchController {
         if (key) await saveEmbeddings(key, names, vectors, dim).catch(() => false);
       }
       if (version !== this.version) return;
-      const index = new EmbeddingIndex(vectors, dim, this.entries(parts));
+      const index = new EmbeddingIndex(vectors, dim, this.entries(parts), { gridShare: this.gridShare() });
       if (index.diffusionApplies()) await this.order(index, vectors, key, names, version);
       if (version !== this.version) return;
       const selected = this.store.value.library.selected;

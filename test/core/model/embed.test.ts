@@ -6,6 +6,7 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { embedForRetrieval, embedParts, RETRIEVAL_RESAMPLINGS } from '../../../src/core/model/embed';
 import { Encoder } from '../../../src/core/model/encoder';
 import { DEFAULT_ENCODER } from '../../../src/core/model/encoder-config';
+import { shapeGrid } from '../../../src/core/descriptors/shape-grid';
 import { posed, resampled, type ModelPart } from '../../../src/core/model/views';
 import { SIGN_FLIPS } from '../../../src/core/points/pca';
 import { transformPoints } from '../../../src/core/points/rotation';
@@ -37,7 +38,7 @@ describe('retrieval embedding (default encoder, EdgeConv k = 32)', () => {
   });
 
   it('equals its definition byte for byte: every subset and sign flip embedded on its own, summed, renormalised', () => {
-    const enc = new Encoder(DEFAULT_ENCODER, createRng(7));
+    const enc = new Encoder({ ...DEFAULT_ENCODER, surfaceGrid: null }, createRng(7));
     const n = 128;
     const got = embedForRetrieval(enc, demo, n, 'principal-axes');
     const ready = posed(demo, 'principal-axes');
@@ -54,5 +55,37 @@ describe('retrieval embedding (default encoder, EdgeConv k = 32)', () => {
       }
     expect(got).toEqual(normaliseRows(sum!, sum!.length / demo.length));
     enc.dispose();
+  });
+
+  // The fused row's cosine is the weighted mean of the two cosines: (√(1−s)a, √s b)·(√(1−s)a', √s b') = (1−s) a·a' + s b·b'.
+  it('sets the surface grid beside the learned rows with its share of every cosine', () => {
+    const share = 0.4;
+    const plain = new Encoder({ ...DEFAULT_ENCODER, surfaceGrid: null }, createRng(7));
+    const withGrid = new Encoder({ ...DEFAULT_ENCODER, surfaceGrid: { cells: 8, share } }, createRng(7));
+    const parts = demo.slice(0, 6);
+    const learned = embedForRetrieval(plain, parts, 128, 'principal-axes');
+    const got = embedForRetrieval(withGrid, parts, 128, 'principal-axes');
+    const grids = posed(parts, 'principal-axes').map((p) =>
+      shapeGrid(p.points, p.normals, { cells: 8, facing: true, signFree: true }),
+    );
+    const dl = learned.length / parts.length,
+      D = got.length / parts.length;
+    expect(D).toBe(dl + grids[0].length);
+    const dot = (a: ArrayLike<number>, ao: number, b: ArrayLike<number>, bo: number, len: number) => {
+      let s = 0;
+      for (let d = 0; d < len; d++) s += a[ao + d] * b[bo + d];
+      return s;
+    };
+    for (let i = 0; i < parts.length; i++) {
+      expect(dot(got, i * D, got, i * D, D)).toBeCloseTo(1, 5);
+      for (let j = 0; j < parts.length; j++) {
+        const want =
+          (1 - share) * dot(learned, i * dl, learned, j * dl, dl) +
+          share * dot(grids[i], 0, grids[j], 0, grids[i].length);
+        expect(dot(got, i * D, got, j * D, D)).toBeCloseTo(want, 5);
+      }
+    }
+    plain.dispose();
+    withGrid.dispose();
   });
 });

@@ -344,6 +344,12 @@ describe('EdgeConv first layer (Wang et al. 2019, eq. 8, on the input points)', 
     expectClose(b, a, { atol: 1e-5 });
     enc.dispose();
     expect(() => new Encoder({ ...tiny, edge: { k: 0, width: 8 } }, createRng(0))).toThrow(/edge needs whole numbers/);
+    for (const surfaceGrid of [
+      { cells: 1, share: 0.5 },
+      { cells: 8, share: 1 },
+      { cells: 8, share: -0.1 },
+    ])
+      expect(() => new Encoder({ ...tiny, surfaceGrid }, createRng(0))).toThrow(/surfaceGrid needs a whole number/);
     const none = new Encoder({ ...tiny, edge: null }, createRng(0)); // null, as JSON overrides write "no layer"
     expect(none.edge).toBe(null);
     none.dispose();

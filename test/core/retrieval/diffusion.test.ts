@@ -9,7 +9,7 @@ import {
   type DiffusionOptions,
 } from '../../../src/core/retrieval/diffusion';
 import { throughLibrary } from '../../../src/core/retrieval/hubness';
-import { EmbeddingIndex } from '../../../src/core/retrieval/index';
+import { DIFFUSION_MAX_MEAN_COSINE, diffusionCeiling, EmbeddingIndex } from '../../../src/core/retrieval/index';
 import { createRng } from '../../../src/core/rng';
 import { expectClose } from '../../helpers';
 
@@ -246,5 +246,29 @@ describe('when diffusion applies', () => {
       const want = applies ? index.queryDiffused(q, 5, { exclude: 3 }) : index.query(q, 5, { exclude: 3 });
       expect(index.ranked('diffusion', q, 5, { exclude: 3 })).toEqual(want);
     }
+  });
+
+  // A fused cosine is (1 − s)·encoder + s·grid, so the mean pair cosine mixes the same way; worked values:
+  // s = 0 keeps 0.2; s = 0.5 gives 0.5·0.2 + 0.5·0.7 = 0.45.
+  it("lets the surface grid's share through the spread test", () => {
+    expect(diffusionCeiling(0)).toBe(DIFFUSION_MAX_MEAN_COSINE);
+    expect(diffusionCeiling(0.5)).toBeCloseTo(0.45, 12);
+    // Four unit rows with mean pair cosine 0.4: too concentrated alone, spread enough when half of it is the grid.
+    const c = 0.4,
+      a = Math.sqrt(c),
+      b = Math.sqrt(1 - c);
+    const rows = [
+      [a, b, 0, 0, 0],
+      [a, 0, b, 0, 0],
+      [a, 0, 0, b, 0],
+      [a, 0, 0, 0, b],
+    ];
+    const entries = rows.map((_, i) => ({ name: `p${i}`, label: 'x', diagonal: 1 }));
+    const plain = new EmbeddingIndex(Float32Array.from(rows.flat()), 5, entries);
+    const fused = new EmbeddingIndex(Float32Array.from(rows.flat()), 5, entries, { gridShare: 0.5 });
+    expectClose(plain.meanPairCosine(), 0.4, { atol: 1e-6 });
+    expect(plain.diffusionApplies()).toBe(false);
+    expect(fused.diffusionApplies()).toBe(true);
+    expect(fused.withEntries(entries).diffusionApplies()).toBe(true);
   });
 });
