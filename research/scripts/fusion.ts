@@ -73,10 +73,15 @@ const needLearned = weights.some((w) => w < 1);
 const seed = run ? run.manifest.config.seed : 0;
 const encoderSets: [string, Encoders][] = [];
 if (needLearned) {
-  if (run) encoderSets.push(['learned', encodersFromCheckpoint(run)]);
+  // The encoders alone: a surface grid saved with the run is what this script sets beside them itself.
+  if (run) {
+    const config = run.manifest.config;
+    const manifest = { ...run.manifest, config: { ...config, encoder: { ...config.encoder, surfaceGrid: null } } };
+    encoderSets.push(['learned', encodersFromCheckpoint({ ...run, manifest })]);
+  }
   encoderSets.push([
     'untrained',
-    untrainedEncoders({ ...defaults.encoder, ...(run?.manifest.config.encoder ?? {}) }, pose, seed),
+    untrainedEncoders({ ...defaults.encoder, ...(run?.manifest.config.encoder ?? {}), surfaceGrid: null }, pose, seed),
   ]);
 }
 const embedded = encoderSets.map(([name, e]) => {

@@ -98,8 +98,10 @@ export function shapeGrid(points: Float32Array, normals: Float32Array, o: ShapeG
     const nx = normals[3 * p],
       ny = normals[3 * p + 1],
       nz = normals[3 * p + 2];
-    const facing = C === 3 ? [nx * nx, ny * ny, nz * nz] : [1];
-    const fs = facing[0] + (facing[1] ?? 0) + (facing[2] ?? 0) || 1;
+    const squares = nx * nx + ny * ny + nz * nz;
+    // A point without a normal (zero vector) faces every way equally.
+    const facing = C === 1 ? [1] : squares > 0 ? [nx * nx, ny * ny, nz * nz] : [1, 1, 1];
+    const fs = C === 1 ? 1 : squares > 0 ? squares : 3;
     for (const [sx, sy, sz] of flips) {
       const [i, fx] = cellOf(sx * points[3 * p]),
         [j, fy] = cellOf(sy * points[3 * p + 1]),

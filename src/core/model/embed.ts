@@ -63,15 +63,13 @@ export function embedForRetrieval(
  * the sign choices), side by side (scaled 1/√m): unit rows.
  */
 export function surfaceGrids(parts: readonly ModelPart[], poses: readonly SinglePose[], cells: number): Float32Array {
-  const options = { cells, facing: true, signFree: true };
   return sideBySide(
     poses.map((pose) => {
+      // 'as-is' keeps the files' signs; every other pose leaves them open.
+      const options = { cells, facing: true, signFree: pose !== 'as-is' };
       const len = shapeGridLength(options),
         out = new Float32Array(parts.length * len);
-      posed(parts, pose).forEach((p, i) => {
-        // 'as-is' keeps the files' signs; every other pose leaves them open.
-        out.set(shapeGrid(p.points, p.normals, { ...options, signFree: pose !== 'as-is' }), i * len);
-      });
+      posed(parts, pose).forEach((p, i) => out.set(shapeGrid(p.points, p.normals, options), i * len));
       return out;
     }),
     parts.length,

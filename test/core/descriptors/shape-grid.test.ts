@@ -66,6 +66,17 @@ describe('shape grid', () => {
     expect(g[cell + 2]).toBe(0);
   });
 
+  it('lets a point without a normal face every way equally', () => {
+    const centre = -1 + (2 * 2 + 1) / 4;
+    const g = shapeGrid(new Float32Array([centre, centre, centre]), new Float32Array(3), {
+      cells: 4,
+      facing: true,
+      signFree: false,
+    });
+    const cell = ((2 * 4 + 2) * 4 + 2) * 3;
+    for (let ch = 0; ch < 3; ch++) expect(g[cell + ch] ** 2).toBeCloseTo(1 / 3, 6);
+  });
+
   // Cosine of √-histograms is the Bhattacharyya coefficient Σ √(p_i q_i) (Bhattacharyya 1943), computed here
   // from the plain histograms: squaring the rows gives the distributions back.
   it('compares by the Bhattacharyya coefficient', () => {
