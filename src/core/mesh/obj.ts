@@ -2,7 +2,7 @@
 // Advanced Visualizer manual, appendix B1): "v x y z [w]" vertices, "f" faces of vertex references
 // ("i", "i/t", "i//n", "i/t/n"; negative ones count back from the latest vertex), fan-triangulated; lines
 // may be indented and continued with a trailing backslash. Everything else (groups, materials, texture
-// coordinates, normals, lines, curves) carries no surface and is skipped. Memory grows with the vertices
+// coordinates, normals, lines, curves, faces of fewer than three corners) carries no surface and is skipped. Memory grows with the vertices
 // and face corners the file really has, in typed arrays, whatever else the file repeats.
 
 import { finishMesh } from './geometry';
@@ -109,13 +109,8 @@ export function parseObj(text: string, file: string, fileBytes: number): Importe
         }
         corners.push(absolute);
       }
-      if (corners.length < 3) {
-        throw new MeshImportError(
-          file,
-          'parse-failed',
-          `line ${firstLine}: a face needs at least 3 vertices, got ${corners.length}`,
-        );
-      }
+      // A face of one or two corners has no area: skipped like a line, as three.js's OBJLoader does (real
+      // exports write them: 5 of the furniture validation set's 152 files).
       for (let k = 1; k < corners.length - 1; k++) {
         indices.push(corners[0]);
         indices.push(corners[k]);
