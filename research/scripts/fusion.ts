@@ -8,18 +8,12 @@ import { POOL_POINTS, defaultTrainFor, libraryTraits } from '../../src/core/mode
 import { loadLibrary } from '../../src/cli/library-dir';
 import { loadRun } from '../../src/cli/run-dir';
 import { encodersFromCheckpoint } from '../../src/core/model/checkpoint';
-import { embedForRetrieval, disposeEncoders, fused, type Encoders } from '../../src/core/model/embed';
+import { embedForRetrieval, disposeEncoders, fused, surfaceGrids, type Encoders } from '../../src/core/model/embed';
 import { memberPoses, type Pose } from '../../src/core/model/train-config';
-import { posed } from '../../src/core/model/views';
 import { evaluateRetrieval, cosineSimilarity } from '../../src/core/retrieval/metrics';
 import { throughLibrary } from '../../src/core/retrieval/hubness';
 import { DIFFUSION_DEFAULTS } from '../../src/core/retrieval/diffusion';
-import {
-  shapeGrid,
-  shapeGridLength,
-  SHAPE_GRID_DEFAULTS,
-  type ShapeGridOptions,
-} from '../../src/core/descriptors/shape-grid';
+import { SHAPE_GRID_DEFAULTS, type ShapeGridOptions } from '../../src/core/descriptors/shape-grid';
 import { untrainedEncoders } from '../../src/core/quality/evaluate';
 
 const arg = (flag: string) => {
@@ -49,23 +43,10 @@ function score(v: Float32Array, dim: number) {
     library: round(evaluateRetrieval(lib.labels, throughLibrary(n, sim, DIFFUSION_DEFAULTS))),
   };
 }
-/** The grid descriptor in every pose the encoders use, side by side (each pose's share equal). */
+/** The grid descriptor in every pose the encoders use, side by side, as retrieval makes it. */
 function grid(o: ShapeGridOptions) {
-  const poses = memberPoses(pose);
-  const len = shapeGridLength(o);
-  const dim = len * poses.length;
-  const v = new Float32Array(n * dim);
-  poses.forEach((p, m) => {
-    const ready = posed(parts, p);
-    ready.forEach((q, i) => {
-      const g = shapeGrid(q.points, q.normals, {
-        ...o,
-        signFree: o.signFree && (p !== 'as-is' || (o as { fileSignFree?: boolean }).fileSignFree === true),
-      });
-      for (let d = 0; d < len; d++) v[i * dim + m * len + d] = g[d] / Math.sqrt(poses.length);
-    });
-  });
-  return { v, dim };
+  const v = surfaceGrids(parts, memberPoses(pose), o);
+  return { v, dim: v.length / n };
 }
 const t0 = Date.now();
 const needLearned = weights.some((w) => w < 1);

@@ -5,7 +5,7 @@ import * as tf from '@tensorflow/tfjs';
 import { SIGN_FLIPS } from '../points/pca';
 import { transformPoints } from '../points/rotation';
 import { normaliseRows } from '../vectors';
-import { shapeGrid, shapeGridLength } from '../descriptors/shape-grid';
+import { shapeGrid, shapeGridLength, type ShapeGridOptions } from '../descriptors/shape-grid';
 import { Encoder } from './encoder';
 import { inputChannels } from './encoder-config';
 import { memberPoses, type Pose, type SinglePose } from './train-config';
@@ -55,18 +55,22 @@ export function embedForRetrieval(
         );
   const grid = list[0].config.surfaceGrid;
   if (!grid || grid.share === 0) return learned;
-  return fused(learned, surfaceGrids(parts, poses, grid.cells), parts.length, grid.share);
+  return fused(learned, surfaceGrids(parts, poses, { cells: grid.cells, facing: true }), parts.length, grid.share);
 }
 
 /**
  * The surface grid of each part's whole pool in every pose the encoders read (sign-free, as retrieval averages
  * the sign choices), side by side (scaled 1/√m): unit rows.
  */
-export function surfaceGrids(parts: readonly ModelPart[], poses: readonly SinglePose[], cells: number): Float32Array {
+export function surfaceGrids(
+  parts: readonly ModelPart[],
+  poses: readonly SinglePose[],
+  grid: Omit<ShapeGridOptions, 'signFree'>,
+): Float32Array {
   return sideBySide(
     poses.map((pose) => {
       // 'as-is' keeps the files' signs; every other pose leaves them open.
-      const options = { cells, facing: true, signFree: pose !== 'as-is' };
+      const options = { ...grid, signFree: pose !== 'as-is' };
       const len = shapeGridLength(options),
         out = new Float32Array(parts.length * len);
       posed(parts, pose).forEach((p, i) => out.set(shapeGrid(p.points, p.normals, options), i * len));
