@@ -130,7 +130,12 @@ export function pointsObject(points: Float32Array, size = 0.025, colour?: number
   return new Points(g, pointsMaterial(size, colour));
 }
 
-/** The mesh in unit-sphere coordinates (same frame as the sampled cloud). */
+/**
+ * The mesh in unit-sphere coordinates (same frame as the sampled cloud). It carries no vertex normals: its material
+ * is flat-shaded, and three.js then takes each face's normal from the screen-space derivatives of the position
+ * (shader chunk normal_fragment_begin, FLAT_SHADED), never from the attribute; working them out cost the page
+ * 13 ms for one demo part in a view.
+ */
 export function meshObject(
   positions: Float32Array,
   indices: Uint32Array,
@@ -143,7 +148,6 @@ export function meshObject(
   const g = new BufferGeometry();
   g.setAttribute('position', new BufferAttribute(p, 3));
   g.setIndex(new BufferAttribute(indices, 1));
-  g.computeVertexNormals();
   return new Mesh(g, meshMaterial(colour));
 }
 

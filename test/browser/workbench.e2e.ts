@@ -17,11 +17,13 @@ if (!available) console.warn('browser tests skipped: no Chromium at /usr/bin/chr
 /** Starts collecting the page's long tasks (over 50 ms, by the Long Tasks API) afresh. */
 async function watchLongTasks(page: Page): Promise<void> {
   await page.evaluate(() => {
-    const w = window as unknown as { longTasks: number[] };
+    const w = window as unknown as { longTasks: number[]; longTaskObserver?: PerformanceObserver };
     w.longTasks = [];
-    new PerformanceObserver((list) => {
+    // One observer a page (another would count every task again).
+    w.longTaskObserver ??= new PerformanceObserver((list) => {
       for (const e of list.getEntries()) w.longTasks.push(e.duration);
-    }).observe({ type: 'longtask', buffered: false });
+    });
+    w.longTaskObserver.observe({ type: 'longtask', buffered: false });
   });
 }
 
@@ -119,6 +121,7 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     expect(losses.length).toBe(9);
     expect((losses[7] + losses[8]) / 2).toBeLessThan((losses[0] + losses[1]) / 2);
     const tasks = await longTasks(page);
+    console.log(`training: long tasks ${JSON.stringify(tasks.map(Math.round))}`);
     // Measured here after requests handed their copies over and the 3-D views moved to the view worker: in most runs
     // none over 50 ms; in some one of 52–63 ms (the Training tab's first render, or Start) or one of 86–90 ms (a
     // garbage collection). Before: 56–75 ms; and 55 tasks of 60–206 ms before thumbnails moved to their worker.
@@ -247,7 +250,7 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     // A new file, not in the library, as the query.
     await page.locator('sk-search-panel input[type=file]').setInputFiles('demo-shapes/spur-gear/BC06-311C.obj');
     await expect
-      .poll(async () => page.locator('sk-search-panel select[aria-label="Query part"]').inputValue(), {
+      .poll(async () => page.locator('sk-search-panel input[aria-label="Query part"]').inputValue(), {
         timeout: 30_000,
       })
       .toMatch(/BC06-311C\.obj \(dropped file\)/);
@@ -295,7 +298,7 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.getByRole('tab', { name: 'Look-alikes' }).click();
     await page.locator('sk-search-panel input[type=file]').setInputFiles('demo-shapes/hex-nut/BC04-224B.stl');
     await expect
-      .poll(async () => page.locator('sk-search-panel select[aria-label="Query part"]').inputValue(), {
+      .poll(async () => page.locator('sk-search-panel input[aria-label="Query part"]').inputValue(), {
         timeout: 60_000,
       })
       .toMatch(/BC04-224B\.stl \(dropped file\)/);
@@ -326,8 +329,15 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.locator('sk-search-panel sk-viewer canvas').first().waitFor({ timeout: 10_000 });
     await page.waitForTimeout(1_000);
     const switching = await longTasks(page);
+    console.log(`back to Look-alikes: long tasks ${JSON.stringify(switching.map(Math.round))}`);
     expect(Math.max(0, ...switching)).toBeLessThan(100);
-    await page.locator('sk-search-panel select[aria-label="Query part"]').selectOption('washer/BC01-100A.stl');
+    // The query box: a part's name typed (or picked from the names it offers) starts the search.
+    const queryBox = page.locator('sk-search-panel input[aria-label="Query part"]');
+    await queryBox.fill('BC01-100');
+    expect(await page.locator('sk-search-panel datalist option').count()).toBeGreaterThan(0);
+    await queryBox.fill('washer/BC01-100A.stl');
+    await queryBox.press('Enter');
+    await expect.poll(async () => queryBox.inputValue(), { timeout: 10_000 }).toBe('washer/BC01-100A.stl');
     const folder = page.locator('sk-search-panel select[aria-label="Folder filter"]');
     await folder.selectOption('washer');
     const listed = async () => (await page.getByTestId('search-results').textContent()) ?? '';
@@ -424,9 +434,10 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       .poll(async () => page.getByTestId('library-summary').textContent(), { timeout: 10_000 })
       .toMatch(/112 parts in 14 folders/);
     const tasks = await longTasks(page);
+    console.log(`broken files dropped: long tasks ${JSON.stringify(tasks.map(Math.round))}`);
     // No reader runs on the page. What remains are the page's own steps after an import (saving the library,
-    // handing parts to the training worker): 50–240 ms measured here, to be cut with the workbench's status work.
-    expect(Math.max(0, ...tasks)).toBeLessThan(500);
+    // handing parts to the training worker): 50–240 ms measured here before they were sliced, 54–77 ms after.
+    expect(Math.max(0, ...tasks)).toBeLessThan(250);
   }, 120_000);
 
   it('STEP and VRML files import in the page, STEP sizes in millimetres (KiCad models, test/fixtures/kicad)', async () => {
@@ -578,7 +589,13 @@ describe.skipIf(!available)('a library of a few hundred parts', () => {
         .poll(async () => page.getByTestId('search-results').locator('li button').count(), { timeout: 300_000 })
         .toBe(10);
       const searching = await longTasks(page);
-      // The bound of the other browser tests; the first visit to a tab of 336 parts renders in one task.
+      console.log(
+        `336 parts: long tasks reading ${JSON.stringify(reading.map(Math.round))}, searching ${JSON.stringify(searching.map(Math.round))}`,
+      );
+      // Searching, measured here: 50–135 ms before the page's steps were cut into tasks of their own (pace.ts), in
+      // CI up to 173 ms; after, none in most runs, one of 68 ms in some. A task's wall time here is 2–5× its CPU
+      // time: two embedding workers, the thumbnail worker and the software GL share the machine's two cores with
+      // the page. Goal 50 ms; the bound leaves room for a slower, loaded machine.
       expect(Math.max(0, ...reading)).toBeLessThan(100);
       expect(Math.max(0, ...searching)).toBeLessThan(150);
       await page.screenshot({ path: `${ARTIFACTS}/few-hundred.png` });

@@ -19,6 +19,7 @@ import './train-panel';
 import './search-panel';
 import './map-panel';
 import './study-panel';
+import { yieldToPage } from '../pace';
 
 const PANELS: readonly { id: Panel; label: string }[] = [
   { id: 'library', label: 'Parts library' },
@@ -64,8 +65,13 @@ export function initialState(): AppState {
 }
 
 export class SkApp extends LitElement {
-  static override properties = { state: { state: true } };
+  static override properties = { state: { state: true }, shown: { state: true } };
   declare state: AppState;
+  /**
+   * The panel in the page: it follows `state.panel` one task later, so taking the old panel away and making the new
+   * one are two tasks (pace.ts), not one long one; the tabs show the choice at once.
+   */
+  declare shown: Panel | null;
 
   private readonly store = new Store<AppState>(initialState());
   private readonly library: LibraryController;
@@ -77,6 +83,7 @@ export class SkApp extends LitElement {
   constructor() {
     super();
     this.state = this.store.value;
+    this.shown = this.state.panel;
     this.library = new LibraryController(this.store, {
       onChanged: () => {
         // the library's default settings first: the untrained encoder embeds with them
@@ -139,6 +146,12 @@ export class SkApp extends LitElement {
     void this.search.searchFor(part);
   }
 
+  protected override willUpdate(): void {
+    if (this.shown === null || this.shown === this.state.panel) return;
+    this.shown = null;
+    void yieldToPage().then(() => (this.shown = this.state.panel));
+  }
+
   protected override render() {
     const { training, search } = this.state;
     const m = training.model?.manifest;
@@ -182,7 +195,7 @@ export class SkApp extends LitElement {
     const { library, training, search, measure } = this.state;
     const part = library.parts.find((p) => p.name === library.selected) ?? null;
     const families = [...new Set(library.parts.map((p) => p.label))].sort();
-    switch (this.state.panel) {
+    switch (this.shown) {
       case 'library':
         return html`<sk-library-panel .parts=${library.parts} .failures=${library.failures} .status=${library.status} .thumbnails=${library.thumbnails} .selected=${library.selected} .units=${library.units}
           @set-units=${(e: CustomEvent<{ folders: string[]; mm: number | null }>) => void this.library.setUnits(e.detail.folders, e.detail.mm)}

@@ -16,6 +16,9 @@ import { principalFrame } from '../../core/points/pca';
 import { CameraLink } from '../controllers/viewer';
 import './viewer';
 
+/** Names offered under the query box at a time. */
+const SUGGESTIONS = 50;
+
 export class SkSearchPanel extends LitElement {
   static override properties = {
     parts: { attribute: false },
@@ -36,6 +39,8 @@ export class SkSearchPanel extends LitElement {
     explanation: { attribute: false },
     why: { state: true },
     ownAxes: { state: true },
+    typed: { state: true },
+    pickNote: { state: true },
   };
   declare parts: readonly LibraryPart[];
   declare query: LibraryPart | null;
@@ -63,6 +68,10 @@ export class SkSearchPanel extends LitElement {
   declare why: boolean;
   /** Show each part as its file has it, rather than both turned into their principal axes. */
   declare ownAxes: boolean;
+  /** What is typed in the query box (the suggestions follow it). */
+  declare typed: string;
+  /** Why a typed name did not start a search ('' : it did, or nothing was typed). */
+  declare pickNote: string;
   private readonly link = new CameraLink();
   private objects: { query: Object3D | null; result: Object3D | null } = { query: null, result: null };
 
@@ -86,12 +95,47 @@ export class SkSearchPanel extends LitElement {
     this.explanation = null;
     this.why = false;
     this.ownAxes = false;
+    this.typed = '';
+    this.pickNote = '';
+  }
+
+  /**
+   * Parts offered under the query box: those whose name or folder holds what is typed, at most SUGGESTIONS (a list
+   * of every part would cost the page a long task per render on a library of thousands).
+   */
+  private suggestions(): LibraryPart[] {
+    const t = this.typed.trim().toLowerCase();
+    const out: LibraryPart[] = [];
+    for (const p of this.parts) {
+      if (out.length >= SUGGESTIONS) break;
+      if (!t || p.name.toLowerCase().includes(t)) out.push(p);
+    }
+    return out;
+  }
+
+  /** A name typed or chosen in the query box: the part of that name, or the only part whose name holds it. */
+  private pick(value: string): void {
+    const v = value.trim();
+    if (!v || (this.query && (v === this.query.name || v === `${this.query.name} (dropped file)`))) return;
+    const exact = this.parts.find((p) => p.name === v);
+    const t = v.toLowerCase();
+    const matches = exact ? [exact] : this.parts.filter((p) => p.name.toLowerCase().includes(t)).slice(0, 2);
+    if (matches.length === 1) {
+      this.pickNote = '';
+      this.typed = '';
+      this.emit('search-query', matches[0].name);
+    } else
+      this.pickNote =
+        matches.length === 0
+          ? `No part’s name holds “${v}”.`
+          : `Several parts’ names hold “${v}”: choose one from the list.`;
   }
 
   static override styles = css`
     :host { display: block; }
     .error { color: #9b2c1f; }
     .bar { display: flex; gap: 12px; align-items: center; flex-wrap: wrap; margin-bottom: 10px; }
+    input.query { width: 300px; }
     select, input { font: inherit; padding: 4px 6px; border: 1px solid #b7ab96; border-radius: 4px; }
     label.button { font: inherit; padding: 5px 12px; border: 1px solid #1d2b33; background: #fff; border-radius: 4px; cursor: pointer; }
     input[type=file] { position: absolute; opacity: 0; width: 1px; height: 1px; }
@@ -187,10 +231,12 @@ export class SkSearchPanel extends LitElement {
       <div class="caution" role="note">Similar shape is not the same part: material, tolerances, loads and standards must be checked by a qualified person, following local codes and your engineering sign-off, before any substitution.</div>
       <div class="bar">
         <label>Find parts like
-          <select aria-label="Query part" @change=${(e: Event) => this.emit('search-query', (e.target as HTMLSelectElement).value)}>
-            ${q && !this.parts.some((p) => p.name === q.name) ? html`<option selected>${q.name} (dropped file)</option>` : null}
-            ${this.parts.map((p) => html`<option value=${p.name} ?selected=${q?.name === p.name}>${p.name}</option>`)}
-          </select></label>
+          <input type="search" class="query" list="query-names" aria-label="Query part" placeholder="type a part’s name or folder"
+            .value=${q ? (this.parts.some((p) => p.name === q.name) ? q.name : `${q.name} (dropped file)`) : ''}
+            @input=${(e: Event) => (this.typed = (e.target as HTMLInputElement).value)}
+            @change=${(e: Event) => this.pick((e.target as HTMLInputElement).value)} /></label>
+        <datalist id="query-names">${this.suggestions().map((p) => html`<option value=${p.name}></option>`)}</datalist>
+        ${this.pickNote ? html`<span class="small" data-testid="pick-note">${this.pickNote}</span>` : null}
         <label class="button">…or a new file<input type="file" accept=${ACCEPT} @change=${(e: Event) => {
           const file = (e.target as HTMLInputElement).files?.[0];
           if (file) this.emit('search-file', file);

@@ -184,8 +184,11 @@ async function thumbsTx<T>(mode: IDBTransactionMode, fn: (s: IDBObjectStore) => 
   });
 }
 
-/** Thumbnails per record: one record of 990 thumbnails held the page for 247 ms while IndexedDB cloned it. */
-const THUMBS_PER_RECORD = 100;
+/**
+ * Thumbnails per record: IndexedDB clones a record on the page's thread; one of 990 thumbnails held the page for
+ * 247 ms, one of 100 for 45–53 ms (336 generated parts, while the workers embedded).
+ */
+const THUMBS_PER_RECORD = 20;
 
 /**
  * Thumbnails (PNG data URLs by part name), kept so a reload shows them without drawing them again: records of

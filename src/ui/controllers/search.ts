@@ -21,6 +21,7 @@ import { namedTable } from '../../core/retrieval/neighbour-table';
 import type { LibraryController } from './library';
 import type { TrainingController } from './training';
 import { TrainClient } from './train-client';
+import { yieldToPage } from '../pace';
 import type { MapReply, MapRequest } from '../../worker/map.worker';
 
 /**
@@ -86,15 +87,22 @@ export class SearchController {
         ({ vectors, dim } = embedded);
         if (key) await saveEmbeddings(key, names, vectors, dim).catch(() => false);
       }
+      // Each step below is a task of its own (pace.ts), so the page never holds still for all of them at once.
+      await yieldToPage();
       if (version !== this.version) return;
       const index = new EmbeddingIndex(vectors, dim, this.entries(parts), { gridShare: this.gridShare() });
+      await yieldToPage();
       if (index.diffusionApplies()) await this.order(index, vectors, key, names, version);
+      await yieldToPage();
       if (version !== this.version) return;
       const selected = this.store.value.library.selected;
       const query = this.state.query ?? parts.find((p) => p.name === selected) ?? parts[0];
-      this.patch({ index, query, status: { kind: 'done' } });
+      const i = parts.findIndex((p) => p.name === query.name);
+      const found = i >= 0 ? this.ranking(index, query, index.vector(i), i) : { hits: [], standing: [] };
+      await yieldToPage(); // the list renders in a task of its own
+      if (version !== this.version) return;
+      this.patch({ index, query, status: { kind: 'done' }, ...found });
       void this.project(index);
-      this.searchLibraryPart(query);
     } catch (err) {
       if (version === this.version)
         this.patch({ status: { kind: 'failed', message: `Embedding failed: ${(err as Error).message}` } });
@@ -291,8 +299,19 @@ export class SearchController {
   }
 
   private rank(vector: ArrayLike<number>, exclude: number): void {
-    const { index, query, filters: f } = this.state;
+    const { index, query } = this.state;
     if (!index || !query) return;
+    this.patch(this.ranking(index, query, vector, exclude));
+  }
+
+  /** The results for a query vector under the current filters, and where each stands in the library. */
+  private ranking(
+    index: EmbeddingIndex,
+    query: LibraryPart,
+    vector: ArrayLike<number>,
+    exclude: number,
+  ): Pick<SearchState, 'hits' | 'standing'> {
+    const f = this.state.filters;
     this.last = { vector: Array.from(vector), exclude };
     // ranked() orders by cosine instead where the embedding is too concentrated for diffusion (e.g. untrained).
     const hits = index.ranked(f.ranking, vector, f.k, {
@@ -305,6 +324,6 @@ export class SearchController {
       hits.map((h) => h.index),
       exclude,
     );
-    this.patch({ hits, standing });
+    return { hits, standing };
   }
 }

@@ -13,14 +13,12 @@ import { download } from './download';
 import { loadModel, saveModel } from './library-db';
 import { SAMPLING } from './library';
 import { TrainClient } from './train-client';
+import { inSlices } from '../pace';
 
 export interface TrainingEvents {
   /** The model changed (a run ended, a model was imported): embeddings must follow. */
   onModelChanged(): void;
 }
-
-/** Parts whose box ratio is worked out per slice (about 10 ms of the page's time). */
-const TRAITS_SLICE = 40;
 
 /** Each part's file-frame box ratio, worked out once. */
 const boxRatios = new WeakMap<LibraryPart, number>();
@@ -94,15 +92,14 @@ export class TrainingController {
   }
 
   /**
-   * Each part's box ratio (a principal-axes fit of its cloud, ~0.25 ms a part), worked out a slice at a time
-   * between the page's other work: all at once, 990 KiCad parts held the page for 285 ms.
+   * Each part's box ratio (a principal-axes fit of its cloud, 0.25–1 ms a part), worked out in slices between the
+   * page's other work (pace.ts): all at once, 990 KiCad parts held the page for 285 ms.
    */
   private async measureParts(parts: readonly LibraryPart[]): Promise<void> {
-    const todo = parts.filter((p) => !boxRatios.has(p));
-    for (let i = 0; i < todo.length; i += TRAITS_SLICE) {
-      for (const p of todo.slice(i, i + TRAITS_SLICE)) boxRatioOf(p);
-      if (i + TRAITS_SLICE < todo.length) await new Promise((r) => setTimeout(r, 0));
-    }
+    await inSlices(
+      parts.filter((p) => !boxRatios.has(p)),
+      (p) => boxRatioOf(p),
+    );
   }
 
   /** A model (restored or imported) becomes the current one, with its settings and its training's history. */

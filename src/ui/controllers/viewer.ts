@@ -6,6 +6,7 @@ import { OrbitControls } from 'three/examples/jsm/controls/OrbitControls.js';
 import type { ReactiveController, ReactiveControllerHost } from 'lit';
 import { describeObject, viewTransfers } from '../../render/scene';
 import type { ViewReply, ViewRequest } from '../../worker/view.worker';
+import { yieldToPage } from '../pace';
 
 export class CameraLink {
   private readonly members = new Set<ViewerController>();
@@ -68,7 +69,22 @@ export class ViewerController implements ReactiveController {
 
   hostConnected(): void {}
 
+  private attaching = false;
+
+  /**
+   * The canvas, its orbit controls and the first object go to the view in a task after the host's render (pace.ts):
+   * done inside it, they made a panel's first render with its results one long task.
+   */
   hostUpdated(): void {
+    if (this.canvas || this.webglMissing || this.attaching || !this.stageOf()) return;
+    this.attaching = true;
+    void yieldToPage().then(() => {
+      this.attaching = false;
+      if (this.host.isConnected) this.attach();
+    });
+  }
+
+  private attach(): void {
     const stage = this.stageOf();
     if (this.canvas || this.webglMissing || !stage) return;
     let taken = spare.pop();

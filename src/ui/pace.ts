@@ -1,0 +1,35 @@
+// Keeping the page's tasks short: long work on the page's own thread is cut into slices, and each slice ends by
+// handing the thread back (a new task), so input and painting go on between them. The Long Tasks API calls any
+// task over 50 ms long; slices of about 10 ms leave room for a frame around them (common practice).
+
+/** Milliseconds of work a slice does before it hands the thread back. */
+export const SLICE_MS = 10;
+
+/** A new task: the page may paint and take input first (scheduler.yield where the browser has it). */
+export function yieldToPage(): Promise<void> {
+  const s = (globalThis as { scheduler?: { yield?: () => Promise<void> } }).scheduler;
+  if (typeof s?.yield === 'function') return s.yield();
+  return new Promise((resolve) => setTimeout(resolve, 0));
+}
+
+/**
+ * Calls `fn` on each item in order, handing the thread back whenever a slice has run `budgetMs`; `stop` is asked
+ * between slices (true: the rest is left undone). Resolves to the number of items done.
+ */
+export async function inSlices<T>(
+  items: readonly T[],
+  fn: (item: T, i: number) => void,
+  budgetMs = SLICE_MS,
+  stop: () => boolean = () => false,
+): Promise<number> {
+  let start = performance.now();
+  for (let i = 0; i < items.length; i++) {
+    if (performance.now() - start >= budgetMs) {
+      await yieldToPage();
+      if (stop()) return i;
+      start = performance.now();
+    }
+    fn(items[i], i);
+  }
+  return items.length;
+}

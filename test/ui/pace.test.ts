@@ -1,0 +1,69 @@
+// Slicing the page's work (src/ui/pace.ts). A "long task" is one over 50 ms (W3C Long Tasks API, §3); the slices
+// are meant to stay well under it and to let other tasks run between them.
+
+import { describe, expect, it } from 'vitest';
+import { inSlices, SLICE_MS, yieldToPage } from '../../src/ui/pace';
+
+/** Busy-waits `ms` (a slice of work that takes real time). */
+const spin = (ms: number) => {
+  const end = performance.now() + ms;
+  while (performance.now() < end);
+};
+
+describe('work in slices', () => {
+  it('a slice is far below the 50 ms of a long task', () => {
+    expect(SLICE_MS).toBeLessThanOrEqual(50 / 4);
+  });
+
+  it('yieldToPage lets a task queued before it run first', async () => {
+    const order: string[] = [];
+    setTimeout(() => order.push('other task'), 0);
+    await yieldToPage();
+    order.push('after the yield');
+    expect(order).toEqual(['other task', 'after the yield']);
+  });
+
+  it('does every item once, in order, and hands the thread back between slices', async () => {
+    const done: number[] = [];
+    const between: number[] = [];
+    // A timer that fires whenever the thread is free: it can only run between slices.
+    let ticking = true;
+    const tick = () => {
+      between.push(done.length);
+      if (ticking) setTimeout(tick, 0);
+    };
+    setTimeout(tick, 0);
+    const n = await inSlices(
+      Array.from({ length: 12 }, (_, i) => i),
+      (x) => {
+        spin(2);
+        done.push(x);
+      },
+      5,
+    );
+    ticking = false;
+    expect(n).toBe(12);
+    expect(done).toEqual([...Array(12).keys()]);
+    // 12 items of 2 ms in slices of 5 ms: the thread came free at least three times with work still to do.
+    expect(between.filter((k) => k > 0 && k < 12).length).toBeGreaterThanOrEqual(3);
+    // and no slice ran more than its budget plus one item (5 + 2 ms) between two of those moments
+    const gaps = between.slice(1).map((k, i) => k - between[i]);
+    expect(Math.max(...gaps)).toBeLessThanOrEqual(4);
+  });
+
+  it('stops between slices when asked, and says how many were done', async () => {
+    const done: number[] = [];
+    const n = await inSlices(
+      Array.from({ length: 20 }, (_, i) => i),
+      (x) => {
+        spin(2);
+        done.push(x);
+      },
+      3,
+      () => done.length >= 4,
+    );
+    expect(n).toBe(done.length);
+    expect(n).toBeGreaterThanOrEqual(4);
+    expect(n).toBeLessThan(20);
+  });
+});
