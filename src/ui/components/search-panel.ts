@@ -280,7 +280,7 @@ export class SkSearchPanel extends LitElement {
               ] as const
             ).map(([v, t]) => html`<option value=${v} ?selected=${f.ranking === v}>${t}</option>`)}
           </select></label>
-        ${f.ranking === 'diffusion' && !this.diffusionApplies ? html`<span class="small" data-testid="order-note">ordered by similarity: this embedding is too concentrated to order through the library (train a model)</span>` : null}
+        ${f.ranking === 'diffusion' && !this.diffusionApplies ? html`<span class="small" data-testid="order-note">${this.trained ? 'ordered by similarity alone: this model still finds most parts alike, so ordering through the library would mislead (train it longer)' : 'ordered by similarity alone until a model is trained: an untrained encoder finds most parts alike'}</span>` : null}
         <span class="small" data-testid="search-source">${this.busy ? (this.embedding.kind === 'running' && this.embedding.progress ? '' : 'embedding the library…') : this.source}</span>
         ${this.renderEmbedding()}
         ${this.failure ? html`<span class="small error" role="alert">${this.failure}</span>` : null}
