@@ -143,6 +143,8 @@ export class SkSearchPanel extends LitElement {
     .main { display: grid; grid-template-columns: 360px 1fr; gap: 14px; }
     .order-explained { margin: 0 0 8px; max-width: 900px; }
     ol { list-style: none; margin: 0; padding: 0; max-height: 560px; overflow: auto; }
+    li button > span:last-child { min-width: 0; }
+    .name { overflow-wrap: anywhere; }
     li button { display: grid; grid-template-columns: 28px 88px 1fr; gap: 8px; align-items: center; width: 100%; text-align: left; font: inherit; color: inherit; background: #fff; border: 1px solid #d8d1c3; border-radius: 6px; padding: 4px; margin-bottom: 6px; cursor: pointer; }
     li button[aria-pressed=true] { border-color: #c2571a; box-shadow: 0 0 0 2px #c2571a; }
     img { width: 88px; border-radius: 4px; }
@@ -307,7 +309,7 @@ export class SkSearchPanel extends LitElement {
               <span><span class="score" title="direct similarity to the query (cosine of the embeddings)">${this.trained ? h.score.toFixed(3) : '—'}</span> <span class="small">${p.label}</span>
                 ${this.trained ? html`<div class="bar-score" style="width:${Math.max(2, Math.round(Math.max(0, h.score) * 100))}%"></div>` : null}
                 ${this.standing[i] !== undefined ? html`<div class="small standing" title="the share of the other parts in the library that are less similar to the query than this one">${standingWords(this.standing[i])}</div>` : null}
-                <div class="small">${p.name.split('/').pop()}</div>
+                <div class="small name" title=${p.name}>${p.name.split('/').pop()}</div>
                 <div class="small">${sizeWords(size)} · size ×${ratio.toFixed(2)}</div></span>
             </button></li>`;
           })}
