@@ -93,12 +93,15 @@ export class TrainingController {
 
   /**
    * Each part's box ratio (a principal-axes fit of its cloud, 0.25–1 ms a part), worked out in slices between the
-   * page's other work (pace.ts): all at once, 990 KiCad parts held the page for 285 ms.
+   * page's other work (pace.ts): all at once, 990 KiCad parts held the page for 285 ms. A library replaced meanwhile
+   * stops it (its own call measures the new one).
    */
   private async measureParts(parts: readonly LibraryPart[]): Promise<void> {
     await inSlices(
       parts.filter((p) => !boxRatios.has(p)),
       (p) => boxRatioOf(p),
+      undefined,
+      () => this.store.value.library.parts !== parts,
     );
   }
 
