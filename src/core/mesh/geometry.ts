@@ -176,25 +176,69 @@ export function signedVolume(positions: Float32Array, indices: Uint32Array): num
  * each shared edge is walked in opposite directions. Each connected shell keeps the winding most of its
  * faces already had, so a shell that is mostly outward stays outward.
  */
+/**
+ * For each face edge (slot t·3 + e, from corner e to corner e+1 of the input), the other face on that edge; null
+ * unless every edge has exactly two faces. Edges are grouped by their lower vertex (counting sort), then by their
+ * higher vertex within the group, in typed arrays: linear in the faces for the small vertex degrees meshes have.
+ */
+function acrossEdges(indices: Uint32Array, vertexCount: number): Int32Array | null {
+  const slots = indices.length;
+  const start = new Uint32Array(vertexCount + 1);
+  for (let s = 0; s < slots; s++) {
+    const a = indices[s];
+    const b = indices[s - (s % 3) + ((s + 1) % 3)];
+    start[(a < b ? a : b) + 1]++;
+  }
+  for (let v = 0; v < vertexCount; v++) start[v + 1] += start[v];
+  const fill = start.slice(0, vertexCount);
+  const bySlot = new Uint32Array(slots); // edge slots, grouped by lower vertex
+  for (let s = 0; s < slots; s++) {
+    const a = indices[s];
+    const b = indices[s - (s % 3) + ((s + 1) % 3)];
+    bySlot[fill[a < b ? a : b]++] = s;
+  }
+  const higher = (s: number) => {
+    const a = indices[s];
+    const b = indices[s - (s % 3) + ((s + 1) % 3)];
+    return a < b ? b : a;
+  };
+  const across = new Int32Array(slots);
+  for (let v = 0; v < vertexCount; v++) {
+    const from = start[v];
+    const to = start[v + 1];
+    if (to - from > 2) bySlot.subarray(from, to).sort((x, y) => higher(x) - higher(y));
+    for (let i = from; i < to;) {
+      const h = higher(bySlot[i]);
+      let j = i + 1;
+      while (j < to && higher(bySlot[j]) === h) j++;
+      if (j - i !== 2) return null; // an edge with one face (a border) or three or more: not a closed 2-manifold
+      const s1 = bySlot[i];
+      const s2 = bySlot[i + 1];
+      across[s1] = (s2 / 3) | 0;
+      across[s2] = (s1 / 3) | 0;
+      i = j;
+    }
+  }
+  return across;
+}
+
+/** Which slot of input face t runs between vertices a and b (either way round). */
+function edgeSlot(indices: Uint32Array, t: number, a: number, b: number): number {
+  for (let e = 0; e < 3; e++) {
+    const p = indices[t * 3 + e];
+    const q = indices[t * 3 + ((e + 1) % 3)];
+    if ((p === a && q === b) || (p === b && q === a)) return e;
+  }
+  return 0;
+}
+
 export function orientClosed(
   indices: Uint32Array,
   vertexCount: number,
 ): { closed: boolean; oriented: Uint32Array | null } {
   const triCount = indices.length / 3;
-  const edgeFaces = new Map<number, number[]>();
-  for (let t = 0; t < triCount; t++) {
-    for (let e = 0; e < 3; e++) {
-      const a = indices[t * 3 + e],
-        b = indices[t * 3 + ((e + 1) % 3)];
-      const key = a < b ? a * vertexCount + b : b * vertexCount + a;
-      const list = edgeFaces.get(key);
-      if (!list) edgeFaces.set(key, [t]);
-      else if (list.length === 2)
-        return { closed: false, oriented: null }; // a third face on one edge: not a closed 2-manifold
-      else list.push(t);
-    }
-  }
-  for (const faces of edgeFaces.values()) if (faces.length !== 2) return { closed: false, oriented: null };
+  const across = acrossEdges(indices, vertexCount);
+  if (!across) return { closed: false, oriented: null };
 
   const out = indices.slice();
   const visited = new Uint8Array(triCount);
@@ -220,9 +264,8 @@ export function orientClosed(
       for (let e = 0; e < 3; e++) {
         const a = out[t * 3 + e],
           b = out[t * 3 + ((e + 1) % 3)];
-        const key = a < b ? a * vertexCount + b : b * vertexCount + a;
-        const pair = edgeFaces.get(key)!;
-        const u = pair[0] === t ? pair[1] : pair[0];
+        // Flips only swap corners 1 and 2 of a face, so the edge at slot e may have moved: find it by its ends.
+        const u = across[t * 3 + edgeSlot(indices, t, a, b)];
         if (visited[u]) continue;
         visited[u] = 1;
         if (hasDirected(u, a, b)) {

@@ -4,6 +4,7 @@ import bunny from 'bunny';
 import { finishMesh } from '../../../src/core/mesh/geometry';
 import { importBatch, importMesh } from '../../../src/core/mesh/import';
 import { MeshImportError } from '../../../src/core/mesh/types';
+import { createRng } from '../../../src/core/rng';
 import { expectClose } from '../../helpers';
 import { asciiStl, cubeTriangles, fixture, fromThree, textBuffer, writeBinaryStl } from '../../meshes';
 
@@ -119,6 +120,30 @@ describe('orientation and welding', () => {
     }
     const part = importMesh(writeBinaryStl(tris), 'flipped.stl');
     expectClose(part.info.volume!, 8, { atol: 1e-9 });
+  });
+  it('a torus with a quarter of its faces flipped at random comes out consistently outward: every edge walked both ways, volume 2π²Rr²', () => {
+    const soup = Float32Array.from(new TorusGeometry(2, 0.5, 24, 48).toNonIndexed().getAttribute('position').array);
+    const rng = createRng(3);
+    for (let t = 0; t < soup.length / 9; t++) {
+      if (rng.next() >= 0.25) continue;
+      const o = t * 9; // swap corners 1 and 2
+      for (let k = 0; k < 3; k++) [soup[o + 3 + k], soup[o + 6 + k]] = [soup[o + 6 + k], soup[o + 3 + k]];
+    }
+    const part = finishMesh('torus', 'obj', { positions: soup, indices: null, soup: true }, 0);
+    expect(part.info.closed).toBe(true);
+    const idx = part.mesh.indices!;
+    const directed = new Set<string>();
+    for (let t = 0; t < idx.length; t += 3)
+      for (let e = 0; e < 3; e++) directed.add(`${idx[t + e]}>${idx[t + ((e + 1) % 3)]}`);
+    for (const edge of directed) expect(directed.has(edge.split('>').reverse().join('>')), edge).toBe(true);
+    expect(directed.size).toBe(idx.length); // no edge walked the same way twice
+    // the tessellated torus's volume is a little under the smooth one's (Pappus: 2π²Rr²)
+    expectClose(part.info.volume!, 2 * Math.PI ** 2 * 2 * 0.25, { rtol: 0.02 });
+  });
+  it('a third face on an edge makes a mesh not closed', () => {
+    const tris = cubeTriangles();
+    tris.push([...tris[0].slice(0, 6), 0, 0, 5]); // shares the first face's first edge
+    expect(importMesh(writeBinaryStl(tris), 'fin.stl').info.closed).toBe(false);
   });
   it('an open mesh has no volume', () => {
     const part = importMesh(writeBinaryStl(cubeTriangles().slice(0, 10)), 'open.stl');
