@@ -3,7 +3,7 @@
 // then F faces "n i0 … i(n-1) [colour]", fan-triangulated.
 
 import { finishMesh } from './geometry';
-import { readNumber } from './text';
+import { isSpace, numbersIn } from './text';
 import { MeshImportError, type ImportedMesh } from './types';
 
 /**
@@ -54,32 +54,13 @@ class Lines {
 
   /** This line's words as numbers (as `Number()` reads each); `into` is reused. */
   numbers(into: number[]): number[] {
-    into.length = 0;
-    const text = this.text;
-    let i = this.start;
-    const end = this.end;
-    while (i < end) {
-      while (i < end && isSpace(text.charCodeAt(i))) i++;
-      if (i >= end) break;
-      let e = i;
-      while (e < end && !isSpace(text.charCodeAt(e))) e++;
-      into.push(readNumber(text, i, e));
-      i = e;
-    }
-    return into;
+    return numbersIn(this.text, this.start, this.end, into);
   }
 
   /** This line's words as text (for messages and the header). */
   words(): string[] {
     return this.text.slice(this.start, this.end).split(/\s+/);
   }
-}
-
-/** White space as `String.prototype.trim` and `/\s/` see it. */
-function isSpace(c: number): boolean {
-  if (c === 32 || (c >= 9 && c <= 13)) return true;
-  if (c < 128) return false;
-  return /\s/.test(String.fromCharCode(c));
 }
 
 export function parseOff(text: string, file: string, fileBytes: number): ImportedMesh {

@@ -95,3 +95,25 @@ export function readNumber(text: string, start: number, end: number): number {
   const value = scale >= 0 ? mantissa * EXACT_TENS[scale] : mantissa / EXACT_TENS[-scale];
   return negative ? -value : value;
 }
+
+/** White space as `String.prototype.trim` and `/\s/` see it. */
+export function isSpace(c: number): boolean {
+  if (c === 32 || (c >= 9 && c <= 13)) return true;
+  if (c < 128) return false;
+  return /\s/.test(String.fromCharCode(c));
+}
+
+/** The numbers in text[from, to), split at white space (as `split(/\s+/)` and `Number()` on each would). */
+export function numbersIn(text: string, from: number, to: number, into: number[]): number[] {
+  into.length = 0;
+  let i = from;
+  while (i < to) {
+    while (i < to && isSpace(text.charCodeAt(i))) i++;
+    if (i >= to) break;
+    let e = i;
+    while (e < to && !isSpace(text.charCodeAt(e))) e++;
+    into.push(readNumber(text, i, e));
+    i = e;
+  }
+  return into;
+}
