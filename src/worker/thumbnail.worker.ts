@@ -1,5 +1,5 @@
-// The thumbnail worker: draws each part it is sent on an OffscreenCanvas and answers with a PNG data URL, so the
-// page never waits on a (software) WebGL draw.
+// The thumbnail worker: draws each part it is sent on an OffscreenCanvas and answers with the PNG as a Blob, so the
+// page never waits on a (software) WebGL draw, nor on reading the picture back out of a data URL.
 
 import { renderThumbnail, type ThumbnailInput } from '../render/thumbnail';
 
@@ -8,14 +8,13 @@ export interface ThumbnailRequest {
   readonly part: ThumbnailInput;
 }
 export type ThumbnailReply =
-  { readonly id: number; readonly url: string } | { readonly id: number; readonly error: string };
+  { readonly id: number; readonly png: Blob } | { readonly id: number; readonly error: string };
 
 self.onmessage = async (e: MessageEvent<ThumbnailRequest>) => {
   const { id, part } = e.data;
   try {
-    const blob = await renderThumbnail(part);
-    const url = new FileReaderSync().readAsDataURL(blob);
-    (self as unknown as Worker).postMessage({ id, url } satisfies ThumbnailReply);
+    const png = await renderThumbnail(part);
+    (self as unknown as Worker).postMessage({ id, png } satisfies ThumbnailReply);
   } catch (err) {
     (self as unknown as Worker).postMessage({ id, error: (err as Error).message } satisfies ThumbnailReply);
   }

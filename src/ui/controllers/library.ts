@@ -19,9 +19,15 @@ import {
   saveFolderUnits,
   saveLibrary,
   saveThumbnails,
+  type KeptThumbnail,
 } from './library-db';
 import { download } from './download';
 import { ThumbnailClient } from './thumbnails';
+
+/** Lets an object URL's picture go (data URLs kept by an earlier version need nothing). */
+const forget = (url: string | undefined) => {
+  if (url?.startsWith('blob:')) URL.revokeObjectURL(url);
+};
 
 /** How library parts are sampled: the pool views draw from, and the seed. */
 export const SAMPLING = { ...DEFAULT_SAMPLING, points: POOL_POINTS };
@@ -37,7 +43,9 @@ export class LibraryController {
   private readonly client = new LibraryClient();
   private readonly thumbs = new ThumbnailClient();
   private thumbPending = 0;
-  private readonly thumbDone = new Map<string, string>();
+  private readonly thumbDone = new Map<string, Blob>();
+  /** The pictures behind the shown thumbnails, as they are kept for the next visit. */
+  private thumbKept = new Map<string, KeptThumbnail>();
   private thumbTimer = 0;
   private cancelling = false;
 
@@ -65,9 +73,9 @@ export class LibraryController {
     );
     if (!stored || stored.parts.length === 0) return this.loadDemo();
     const units = await loadFolderUnits();
-    const kept = (await loadThumbnails()) ?? new Map<string, string>();
+    const kept = (await loadThumbnails()) ?? new Map<string, KeptThumbnail>();
     const names = new Set(stored.parts.map((p) => p.name));
-    const thumbnails = new Map([...kept].filter(([name]) => names.has(name)));
+    const thumbnails = this.showThumbnails(new Map([...kept].filter(([name]) => names.has(name))));
     this.store.patch('library', {
       parts: stored.parts,
       failures: stored.failures,
@@ -84,7 +92,7 @@ export class LibraryController {
     this.store.patch('library', {
       parts: [],
       failures: [],
-      thumbnails: new Map(),
+      thumbnails: this.showThumbnails(new Map()),
       status: { kind: 'running', progress: { done: 0, total: 1, what: 'fetching the demo library' } },
     });
     try {
@@ -111,7 +119,7 @@ export class LibraryController {
     this.store.patch('library', {
       parts: [],
       failures: [],
-      thumbnails: new Map(),
+      thumbnails: this.showThumbnails(new Map()),
       selected: '',
       status: IDLE,
       units: {},
@@ -267,13 +275,28 @@ export class LibraryController {
       });
   }
 
+  /**
+   * The addresses the pages show for these kept pictures (an object URL per PNG: the page never reads a data URL's
+   * text, which took 8–11 ms of the page a batch). The addresses shown before are let go.
+   */
+  private showThumbnails(kept: Map<string, KeptThumbnail>): Map<string, string> {
+    for (const url of this.state.thumbnails.values()) forget(url);
+    this.thumbKept = kept;
+    return new Map([...kept].map(([name, png]) => [name, typeof png === 'string' ? png : URL.createObjectURL(png)]));
+  }
+
   private flushThumbnails(): void {
     this.thumbTimer = 0;
     if (this.thumbDone.size === 0) return;
-    const thumbnails = new Map([...this.state.thumbnails, ...this.thumbDone]);
+    const thumbnails = new Map(this.state.thumbnails);
+    for (const [name, png] of this.thumbDone) {
+      forget(thumbnails.get(name));
+      thumbnails.set(name, URL.createObjectURL(png));
+      this.thumbKept.set(name, png);
+    }
     this.thumbDone.clear();
     this.store.patch('library', { thumbnails });
-    if (this.thumbPending === 0) void saveThumbnails(thumbnails); // all drawn: kept for the next visit
+    if (this.thumbPending === 0) void saveThumbnails(this.thumbKept); // all drawn: kept for the next visit
   }
 
   dispose(): void {

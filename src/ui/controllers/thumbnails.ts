@@ -1,4 +1,4 @@
-// The page's side of the thumbnail worker: one request per part, answered in order with a PNG data URL. Drawing
+// The page's side of the thumbnail worker: one request per part, answered in order with a PNG (a Blob). Drawing
 // happens in the worker (OffscreenCanvas), so the page stays responsive however many parts arrive.
 
 import type { LibraryPart } from '../../core/library';
@@ -12,7 +12,7 @@ const IN_FLIGHT = 4;
 
 interface Job {
   readonly part: LibraryPart;
-  readonly resolve: (url: string) => void;
+  readonly resolve: (png: Blob) => void;
   readonly reject: (e: Error) => void;
 }
 
@@ -29,7 +29,7 @@ export class ThumbnailClient {
         const job = this.waiting.get(e.data.id);
         if (!job) return;
         this.waiting.delete(e.data.id);
-        if ('url' in e.data) job.resolve(e.data.url);
+        if ('png' in e.data) job.resolve(e.data.png);
         else job.reject(new Error(e.data.error));
         this.pump();
       };
@@ -42,8 +42,8 @@ export class ThumbnailClient {
     return this.worker;
   }
 
-  /** The part's thumbnail as a PNG data URL. */
-  draw(part: LibraryPart): Promise<string> {
+  /** The part's thumbnail as a PNG. */
+  draw(part: LibraryPart): Promise<Blob> {
     return new Promise((resolve, reject) => {
       this.queued.push({ part, resolve, reject });
       this.pump();
