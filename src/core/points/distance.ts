@@ -1,13 +1,13 @@
-// How far one cloud is from another: Chamfer and Hausdorff distances over kd-tree nearest neighbours.
+// How far one cloud is from another: Chamfer and Hausdorff distances over nearest points (nearest.ts).
 
 import type { PointCloud } from './cloud';
 import { assertValidCloud } from './cloud';
-import { PointIndex } from './kdtree';
+import { NearestPoint } from './nearest';
 
-function nearestSqFrom(from: PointCloud, to: PointIndex): Float64Array {
+function nearestSqFrom(from: PointCloud, to: NearestPoint): Float64Array {
   const d = new Float64Array(from.count);
   const p = from.positions;
-  for (let i = 0; i < from.count; i++) d[i] = to.nearestDistanceSq(p[i * 3], p[i * 3 + 1], p[i * 3 + 2]);
+  for (let i = 0; i < from.count; i++) d[i] = to.distanceSq(p[i * 3], p[i * 3 + 1], p[i * 3 + 2]);
   return d;
 }
 
@@ -22,8 +22,8 @@ export interface CloudDistances {
 export function cloudDistances(a: PointCloud, b: PointCloud): CloudDistances {
   assertValidCloud(a, 'cloudDistances (first cloud)');
   assertValidCloud(b, 'cloudDistances (second cloud)');
-  const ab = nearestSqFrom(a, new PointIndex(b.positions));
-  const ba = nearestSqFrom(b, new PointIndex(a.positions));
+  const ab = nearestSqFrom(a, new NearestPoint(b.positions));
+  const ba = nearestSqFrom(b, new NearestPoint(a.positions));
   let sab = 0,
     sba = 0,
     mab = 0,
