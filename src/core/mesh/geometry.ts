@@ -171,37 +171,21 @@ export function signedVolume(positions: Float32Array, indices: Uint32Array): num
 }
 
 /**
- * Closed 2-manifold test (every undirected edge used by exactly two triangles) and, when it holds,
- * a consistently oriented copy of the indices: faces are flipped by breadth-first propagation so that
- * each shared edge is walked in opposite directions. Each connected shell keeps the winding most of its
- * faces already had, so a shell that is mostly outward stays outward.
- */
-/**
  * For each face edge (slot t·3 + e, from corner e to corner e+1 of the input), the other face on that edge; null
  * unless every edge has exactly two faces. Edges are grouped by their lower vertex (counting sort), then by their
  * higher vertex within the group, in typed arrays: linear in the faces for the small vertex degrees meshes have.
  */
 function acrossEdges(indices: Uint32Array, vertexCount: number): Int32Array | null {
   const slots = indices.length;
+  // The edge at slot s runs from indices[s] to the next corner of its face.
+  const lower = (s: number) => Math.min(indices[s], indices[s - (s % 3) + ((s + 1) % 3)]);
+  const higher = (s: number) => Math.max(indices[s], indices[s - (s % 3) + ((s + 1) % 3)]);
   const start = new Uint32Array(vertexCount + 1);
-  for (let s = 0; s < slots; s++) {
-    const a = indices[s];
-    const b = indices[s - (s % 3) + ((s + 1) % 3)];
-    start[(a < b ? a : b) + 1]++;
-  }
+  for (let s = 0; s < slots; s++) start[lower(s) + 1]++;
   for (let v = 0; v < vertexCount; v++) start[v + 1] += start[v];
   const fill = start.slice(0, vertexCount);
   const bySlot = new Uint32Array(slots); // edge slots, grouped by lower vertex
-  for (let s = 0; s < slots; s++) {
-    const a = indices[s];
-    const b = indices[s - (s % 3) + ((s + 1) % 3)];
-    bySlot[fill[a < b ? a : b]++] = s;
-  }
-  const higher = (s: number) => {
-    const a = indices[s];
-    const b = indices[s - (s % 3) + ((s + 1) % 3)];
-    return a < b ? b : a;
-  };
+  for (let s = 0; s < slots; s++) bySlot[fill[lower(s)]++] = s;
   const across = new Int32Array(slots);
   for (let v = 0; v < vertexCount; v++) {
     const from = start[v];
@@ -232,6 +216,12 @@ function edgeSlot(indices: Uint32Array, t: number, a: number, b: number): number
   return 0;
 }
 
+/**
+ * Closed 2-manifold test (every undirected edge used by exactly two triangles) and, when it holds,
+ * a consistently oriented copy of the indices: faces are flipped by breadth-first propagation so that
+ * each shared edge is walked in opposite directions. Each connected shell keeps the winding most of its
+ * faces already had, so a shell that is mostly outward stays outward.
+ */
 export function orientClosed(
   indices: Uint32Array,
   vertexCount: number,
@@ -242,7 +232,6 @@ export function orientClosed(
 
   const out = indices.slice();
   const visited = new Uint8Array(triCount);
-  const flipped = new Uint8Array(triCount);
   const queue = new Int32Array(triCount);
   const hasDirected = (t: number, a: number, b: number): boolean => {
     for (let e = 0; e < 3; e++) if (out[t * 3 + e] === a && out[t * 3 + ((e + 1) % 3)] === b) return true;
@@ -273,7 +262,6 @@ export function orientClosed(
           const tmp = out[u * 3 + 1];
           out[u * 3 + 1] = out[u * 3 + 2];
           out[u * 3 + 2] = tmp;
-          flipped[u] = 1;
           flips++;
         }
         queue[tail++] = u;

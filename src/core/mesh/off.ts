@@ -86,13 +86,7 @@ export function parseOff(text: string, file: string, fileBytes: number): Importe
   const positions = new Float32Array(vertexCount * 3);
   const row: number[] = [];
   for (let v = 0; v < vertexCount; v++) {
-    if (!lines.next()) {
-      throw new MeshImportError(
-        file,
-        'truncated',
-        `OFF header declares ${vertexCount} vertices but the file ends after ${v}`,
-      );
-    }
+    if (!lines.next()) throw endsEarly(file, vertexCount, 'vertices', v);
     const values = lines.numbers(row);
     if (values.length < 3)
       throw new MeshImportError(
@@ -114,13 +108,7 @@ export function parseOff(text: string, file: string, fileBytes: number): Importe
   let indices = new Uint32Array(Math.max(16, faceCount * 3));
   let used = 0;
   for (let f = 0; f < faceCount; f++) {
-    if (!lines.next()) {
-      throw new MeshImportError(
-        file,
-        'truncated',
-        `OFF header declares ${faceCount} faces but the file ends after ${f}`,
-      );
-    }
+    if (!lines.next()) throw endsEarly(file, faceCount, 'faces', f);
     const parts = lines.numbers(row);
     const n = parts[0];
     if (!Number.isInteger(n) || n < 3 || parts.length < n + 1) {
@@ -153,6 +141,15 @@ export function parseOff(text: string, file: string, fileBytes: number): Importe
   }
   const raw = faceCount === 0 ? { positions, indices: null } : { positions, indices: indices.slice(0, used) };
   return finishMesh(file, 'off', raw, fileBytes);
+}
+
+/** The file ends after `read` of the `declared` vertices or faces. */
+function endsEarly(file: string, declared: number, what: string, read: number): MeshImportError {
+  return new MeshImportError(
+    file,
+    'truncated',
+    `OFF header declares ${declared} ${what} but the file ends after ${read}`,
+  );
 }
 
 function vertexIndex(i: number): number {

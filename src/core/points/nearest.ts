@@ -1,8 +1,8 @@
 // The nearest point of a cloud, for distances between whole clouds (Chamfer, Hausdorff): a kd-tree kept in one
 // typed array of point indices (each range's median at its middle, split on x, y, z in turn: Bentley 1975,
-// "Multidimensional binary search trees used for associative searching"). kd-tree-javascript (points.ts's
+// "Multidimensional binary search trees used for associative searching"). kd-tree-javascript (kdtree.ts's
 // PointIndex) answers the same question through objects and a heap for any k; for k = 1 over 2,048-point clouds
-// this is several times faster (measured: docs/log/2026-12-04-readers-and-thumbnails.md). Exact: the same squared
+// this is 12× faster (measured: docs/log/2026-12-04-readers-and-thumbnails.md). Exact: the same squared
 // distances, in double precision, as a scan of every point.
 
 /** Below this many points a range is scanned rather than split. */

@@ -9,6 +9,7 @@ import { PRESETS } from '../../core/points/augment';
 import {
   EDGE_WIDTH,
   SURFACE_GRID_CELLS,
+  SURFACE_GRID_SHARE,
   INPUT_FEATURES,
   INPUT_LABELS,
   type InputFeatures,
@@ -151,7 +152,7 @@ export class SkTrainPanel extends LitElement {
                 : rest,
             );
           }}>
-            ${[...new Set([0, 0.3, 0.5, 0.7, c.encoder.surfaceGrid?.share ?? 0])].sort((a, b) => a - b).map((v) => html`<option value=${v} ?selected=${(c.encoder.surfaceGrid?.share ?? 0) === v}>${v === 0 ? 'none: the trained model alone' : `${Math.round(v * 100)} %`}</option>`)}
+            ${[...new Set([0, SURFACE_GRID_SHARE, 0.5, 0.7, c.encoder.surfaceGrid?.share ?? 0])].sort((a, b) => a - b).map((v) => html`<option value=${v} ?selected=${(c.encoder.surfaceGrid?.share ?? 0) === v}>${v === 0 ? 'none: the trained model alone' : `${Math.round(v * 100)} %`}</option>`)}
           </select>
           <label for="seed" title="the same seed on the same library trains the same model">seed</label><input id="seed" type="number" min="0" step="1" .value=${String(c.seed)} ?disabled=${busy} @change=${(e: Event) => this.set('seed', this.num(e))} />
           <label for="held" title="a share of parts kept out of training to check progress on (0: none)">parts kept for checks</label><input id="held" type="number" min="0" max="0.5" step="0.05" .value=${String(c.heldOutFraction)} ?disabled=${busy} @change=${(e: Event) => this.set('heldOutFraction', this.num(e))} />
