@@ -37,3 +37,30 @@ export async function initBackend(options: BackendOptions = {}): Promise<Backend
 export function currentBackend(): string {
   return tf.getBackend();
 }
+
+interface WasmInternals {
+  readonly wasm?: { readonly HEAPU8?: Uint8Array };
+  readonly dataIdMap?: { get(id: object): { memoryOffset?: number; dtype?: string } | undefined };
+}
+
+/**
+ * A float32 tensor's values without a copy where the backend allows it: on wasm, a view into the backend's own heap
+ * (what its `readSync` copies out of, 8 MB a batch for the last point layer); elsewhere `dataSync()`. The view is
+ * only good until the next tfjs call — any op may grow the heap and detach it — so read it at once and keep nothing.
+ */
+export function readFloats(t: tf.Tensor): Float32Array {
+  if (t.dtype === 'float32' && tf.getBackend() === 'wasm') {
+    const b = tf.backend() as unknown as WasmInternals;
+    const heap = b.wasm?.HEAPU8,
+      info = b.dataIdMap?.get(t.dataId);
+    if (
+      heap &&
+      info &&
+      typeof info.memoryOffset === 'number' &&
+      info.memoryOffset % 4 === 0 &&
+      info.dtype === 'float32'
+    )
+      return new Float32Array(heap.buffer, heap.byteOffset + info.memoryOffset, t.size);
+  }
+  return t.dataSync() as Float32Array;
+}

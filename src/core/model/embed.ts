@@ -46,11 +46,27 @@ export function embedForRetrieval(
     poses = memberPoses(pose);
   if (list.length !== poses.length)
     throw new RangeError(`embedForRetrieval: the pose "${pose}" needs ${poses.length} encoder(s), got ${list.length}`);
+  if (!(Number.isInteger(resamplings) && resamplings >= 1))
+    throw new RangeError(`embedForRetrieval: resamplings must be a whole number ≥ 1, got ${resamplings}`);
+  // Neighbour lists depend only on distances, which no pose or sign flip changes: each subset's lists are found
+  // once, in the files' coordinates, and read by every pose and flip (the same lists whether one encoder or two).
+  const k = list[0].config.edge?.k;
+  const shared: NeighbourCache[] = [];
+  for (let r = 0; r < resamplings; r++)
+    shared.push(
+      k && list.every((e) => e.config.edge?.k === k)
+        ? neighbourLists(
+            list[0],
+            parts.map((p) => resampled(p, r, n)),
+            n,
+          )
+        : [],
+    );
   const learned =
     list.length === 1
-      ? embedInPose(list[0], parts, n, poses[0], resamplings)
+      ? embedInPose(list[0], parts, n, poses[0], shared)
       : sideBySide(
-          list.map((e, m) => embedInPose(e, parts, n, poses[m], resamplings)),
+          list.map((e, m) => embedInPose(e, parts, n, poses[m], shared)),
           parts.length,
         );
   const grid = list[0].config.surfaceGrid;
@@ -113,20 +129,18 @@ export function sideBySide(embeddings: readonly Float32Array[], count: number): 
   return out;
 }
 
+/** Each subset's neighbour lists (`shared[r]`, per batch) are read here, or filled by the first pass when empty. */
 function embedInPose(
   encoder: Encoder,
   parts: readonly ModelPart[],
   n: number,
   pose: SinglePose,
-  resamplings: number,
+  shared: readonly NeighbourCache[],
 ): Float32Array {
-  if (!(Number.isInteger(resamplings) && resamplings >= 1))
-    throw new RangeError(`embedForRetrieval: resamplings must be a whole number ≥ 1, got ${resamplings}`);
   const ready = posed(parts, pose);
   let sum: Float32Array | null = null;
-  for (let r = 0; r < resamplings; r++) {
+  for (let r = 0; r < shared.length; r++) {
     const subset = ready.map((p) => resampled(p, r, n));
-    const shared: NeighbourCache = []; // the sign flips of one subset share its neighbour lists
     for (const flip of pose === 'as-is' ? [null] : SIGN_FLIPS) {
       const turned = flip
         ? subset.map((p) => ({
@@ -135,7 +149,7 @@ function embedInPose(
             normals: transformPoints(flip, p.normals),
           }))
         : subset;
-      const e = embedParts(encoder, turned, n, EMBED_BATCH, shared);
+      const e = embedParts(encoder, turned, n, EMBED_BATCH, shared[r]);
       if (!sum) sum = e;
       else for (let i = 0; i < e.length; i++) sum[i] += e[i];
     }
@@ -147,10 +161,29 @@ function embedInPose(
 export const EMBED_BATCH = 32;
 
 /**
- * Neighbour lists per batch (index = batch number), filled by the first `embedParts` call and read by the next
- * ones: only for the same parts' points up to a sign flip per axis, in the same order and batch size.
+ * Neighbour lists per batch (index = batch number), filled by `neighbourLists` or the first `embedParts` call and
+ * read by the next ones: only for the same parts' points up to a turn or sign flip (distances unchanged), in the
+ * same order and batch size.
  */
 export type NeighbourCache = (Int32Array | null)[];
+
+/** The EdgeConv neighbour lists of parts' first n points, batch by batch as `embedParts` reads them. */
+export function neighbourLists(
+  encoder: Encoder,
+  parts: readonly ModelPart[],
+  n: number,
+  batch = EMBED_BATCH,
+): NeighbourCache {
+  const F = inputChannels(encoder.config.inputFeatures);
+  const lists: NeighbourCache = [];
+  for (let start = 0; start < parts.length; start += batch) {
+    const group = parts.slice(start, start + batch);
+    const buf = new Float32Array(group.length * n * F);
+    group.forEach((p, i) => fillSlot(buf, i, n, encoder.config.inputFeatures, p.points, p.normals));
+    lists.push(encoder.neighbours(buf, group.length, n));
+  }
+  return lists;
+}
 
 /** Unit-length embeddings (count × D, row-major) of parts, n points each, in batches. */
 export function embedParts(

@@ -85,8 +85,9 @@ export class Encoder {
       throw new RangeError(
         `encoder: input has ${F} channels per point, expected ${expected} (${this.config.inputFeatures})`,
       );
-    if (!this.edge) return pointMlpPool(tf.reshape(x, [B * N, F]), B, N, this.layers, this.config.pooling);
-    return tf.tidy(() => pointMlpPool(this.edgeOutput(x, inference), B, N, this.layers, this.config.pooling));
+    const values = inference !== undefined;
+    if (!this.edge) return pointMlpPool(tf.reshape(x, [B * N, F]), B, N, this.layers, this.config.pooling, values);
+    return tf.tidy(() => pointMlpPool(this.edgeOutput(x, inference), B, N, this.layers, this.config.pooling, values));
   }
 
   /**

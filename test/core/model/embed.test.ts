@@ -1,11 +1,15 @@
-// Retrieval embedding's shortcuts change no byte: the inference path of the EdgeConv layer (maxima without their
-// winners) equals the training path, and the sign flips of one point subset share its neighbour lists (a
-// reflection keeps every distance: |−a − (−b)| = |a − b| in floating point too, negation being exact in IEEE 754).
+// Retrieval embedding's shortcuts change no byte: the inference path (maxima without their winners, the pooling as
+// the backend's max-pool, the last layer read in place) equals the training path, and the sign flips of one point
+// subset share its neighbour lists (a reflection keeps every distance: |−a − (−b)| = |a − b| in floating point too,
+// negation being exact in IEEE 754). Both poses share the lists found in the files' coordinates: a turn keeps
+// distances only up to rounding, so the definition below is checked with lists found in each view's own coordinates
+// and holds on these parts, and a pair's principal block is checked to be the principal encoder alone, exactly.
 import * as tf from '@tensorflow/tfjs';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { embedForRetrieval, embedParts, RETRIEVAL_RESAMPLINGS } from '../../../src/core/model/embed';
 import { Encoder } from '../../../src/core/model/encoder';
-import { DEFAULT_ENCODER } from '../../../src/core/model/encoder-config';
+import { DEFAULT_ENCODER, type EncoderConfig } from '../../../src/core/model/encoder-config';
+import { readFloats } from '../../../src/core/model/backend';
 import { shapeGrid } from '../../../src/core/descriptors/shape-grid';
 import { posed, resampled, type ModelPart } from '../../../src/core/model/views';
 import { SIGN_FLIPS } from '../../../src/core/points/pca';
@@ -35,6 +39,66 @@ describe('retrieval embedding (default encoder, EdgeConv k = 32)', () => {
       /5 neighbour entries for 3 × 64 points, k = 32/,
     );
     enc.dispose();
+  });
+
+  it('pools the same bits in inference with a mean term and without the EdgeConv layer', () => {
+    // PointNet's symmetric pooling (Qi et al. 2017, eq. 1): max over the points, channel by channel (and here the mean).
+    const rng = createRng(4);
+    const x = Float32Array.from({ length: 3 * 50 * 6 }, () => rng.uniform(-1, 1));
+    const configs: EncoderConfig[] = [
+      { ...DEFAULT_ENCODER, pooling: 'max+mean' },
+      { ...DEFAULT_ENCODER, edge: null },
+      { ...DEFAULT_ENCODER, edge: null, pooling: 'max+mean' },
+    ];
+    for (const config of configs) {
+      const enc = new Encoder(config, createRng(5));
+      const train = tf.tidy(() => enc.pooled(tf.tensor3d(x, [3, 50, 6])).dataSync());
+      const infer = tf.tidy(() => enc.pooled(tf.tensor3d(x, [3, 50, 6]), {}).dataSync());
+      expect(infer).toEqual(train);
+      // The max by hand from the last layer's per-point output: the definition.
+      const h = tf.tidy(() => {
+        const flat = enc.edge ? enc.edgeOutput(tf.tensor3d(x, [3, 50, 6])) : tf.tensor2d(x, [150, 6]);
+        let a: tf.Tensor2D = flat;
+        for (const l of enc.layers) a = tf.relu(tf.add(tf.matMul(a, l.w), l.b)) as tf.Tensor2D;
+        return a;
+      });
+      const v = h.dataSync(),
+        C = h.shape[1];
+      const width = config.pooling === 'max' ? C : 2 * C;
+      for (let b = 0; b < 3; b++)
+        for (let c = 0; c < C; c += 37) {
+          let best = -Infinity;
+          for (let p = 0; p < 50; p++) best = Math.max(best, v[(b * 50 + p) * C + c]);
+          expect(infer[b * width + c]).toBeCloseTo(best, 5);
+        }
+      h.dispose();
+      enc.dispose();
+    }
+  });
+
+  it('reads a tensor in place with the values dataSync copies out', () => {
+    const t = tf.randomNormal([64, 33], 0, 1, 'float32', 9);
+    const view = readFloats(t);
+    expect(view).toEqual(t.dataSync());
+    const part = tf.slice(t, [1, 0], [2, 33]);
+    expect(readFloats(part)).toEqual(t.dataSync().slice(33, 99));
+    tf.dispose([t, part]);
+  });
+
+  it('embeds the principal block of a pair exactly as the principal encoder alone (the same shared lists)', () => {
+    const a = new Encoder({ ...DEFAULT_ENCODER, surfaceGrid: null }, createRng(7)),
+      b = new Encoder({ ...DEFAULT_ENCODER, surfaceGrid: null }, createRng(8));
+    const parts = demo.slice(0, 34);
+    const both = embedForRetrieval([a, b], parts, 128, 'file-and-principal');
+    const alone = embedForRetrieval(b, parts, 128, 'principal-axes');
+    const D = alone.length / parts.length,
+      scale = 1 / Math.sqrt(2); // sideBySide's factor for two blocks
+    for (let i = 0; i < parts.length; i++)
+      expect(Array.from(both.subarray(i * 2 * D + D, (i + 1) * 2 * D))).toEqual(
+        Array.from(alone.subarray(i * D, (i + 1) * D), (v) => Math.fround(v * scale)),
+      );
+    a.dispose();
+    b.dispose();
   });
 
   it('equals its definition byte for byte: every subset and sign flip embedded on its own, summed, renormalised', () => {

@@ -4,6 +4,7 @@
 import * as tf from '@tensorflow/tfjs';
 import { columnSums, type Layer } from './point-mlp';
 import { neighbourMax as neighbourMaxKernel } from './neighbour-max';
+import { readFloats } from '../backend';
 
 /**
  * The EdgeConv layer (Wang et al. 2019, eq. 8) on the input points: h_i = max_j relu([f_i, x_j − x_i]·W + b)
@@ -68,7 +69,7 @@ function neighbourMax(c: tf.Tensor2D, neighbours: Int32Array, k: number): tf.Ten
     const save = args[args.length - 1] as (t: tf.Tensor[]) => void;
     const input = args[0] as tf.Tensor2D;
     const [P, W] = input.shape;
-    const v = input.dataSync() as Float32Array;
+    const v = readFloats(input); // read through before the tensors below are made
     const out = new Float32Array(P * W);
     const win = new Int32Array(P * W);
     for (let p = 0; p < P; p++) {
@@ -110,5 +111,5 @@ function neighbourMax(c: tf.Tensor2D, neighbours: Int32Array, k: number): tf.Ten
  */
 function neighbourMaxValues(c: tf.Tensor2D, neighbours: Int32Array, k: number): tf.Tensor2D {
   const [P, W] = c.shape;
-  return tf.tensor2d(neighbourMaxKernel(c.dataSync() as Float32Array, neighbours, P, W, k), [P, W]);
+  return tf.tensor2d(neighbourMaxKernel(readFloats(c), neighbours, P, W, k), [P, W]);
 }
