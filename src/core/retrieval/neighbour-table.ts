@@ -18,11 +18,16 @@ export type RowScorer = (start: number, end: number, out: Float32Array) => Float
 
 /**
  * Candidates kept per part: more than the hub correction's 30, so r(i) and the graph's first choices come from the
- * table. The bound that lets a row's 15 hub-corrected neighbours be taken from its candidates rarely settles a row
- * on the libraries measured (bench `scale`: 46 of 6,225 KiCad rows, 27 of 20,000 generated ones); the rest are
- * scored again.
+ * table, and a row's 15 hub-corrected neighbours can be taken from its candidates when a bound proves it
+ * (`outsideBounds`); the rest are scored again.
  */
 export const TABLE_WIDTH = 64;
+
+/**
+ * Room left in the graph's bound for rounding: a pair's cosine computed in the other part's block may differ from
+ * its own row's in the last place of float32 (about 6e-8 near 1).
+ */
+const BOUND_SLACK = 1e-6;
 
 /** Rows scored per block: at most this many similarities in memory at once (64 MB of float32). */
 const BLOCK_VALUES = 1 << 24;
@@ -122,8 +127,8 @@ export class NeighbourTable {
 
   /**
    * The diffusion graph over hub-corrected scores 2·cos(i, j) − r(i) − r(j), each row's k best taken from its
-   * candidates when the bound 2·(row's last cosine) − r(i) − min r proves nothing outside can beat its k-th;
-   * the rows it does not settle are scored again in full (`scoreRows`). Returns the graph and how many rows that took.
+   * candidates when a bound proves no part outside them can beat its k-th (`outsideBounds`); the rows it does not
+   * settle are scored again in full (`scoreRows`). Returns the graph and how many rows that took.
    */
   diffusionGraph(
     scoreRows: RowScorer,
@@ -132,8 +137,7 @@ export class NeighbourTable {
   ): { graph: DiffusionGraph; lists: Hit[][]; rescanned: number } {
     const n = this.size;
     const k = Math.min(options.k, n - 1);
-    let minR = Infinity;
-    for (let i = 0; i < n; i++) minR = Math.min(minR, r[i]);
+    const outside = this.outsideBounds(r);
     const lists: Hit[][] = new Array(n);
     const unsettled: number[] = [];
     const keys = new Float64Array(this.width);
@@ -147,8 +151,7 @@ export class NeighbourTable {
       for (let c = 0; c < len; c++) keys[c] = 2 * this.score[o + c] - r[i] - r[this.index[o + c]];
       const local = len >= k ? topK(keys.subarray(0, len), k) : [];
       const complete = len === n - 1; // the row holds every other part
-      const bound = 2 * this.score[o + len - 1] - r[i] - minR;
-      if (local.length === k && (complete || local[k - 1].score > bound))
+      if (local.length === k && (complete || local[k - 1].score > outside[i] - r[i] + BOUND_SLACK))
         lists[i] = local.map((h) => ({ index: this.index[o + h.index], score: h.score }));
       else unsettled.push(i);
     }
@@ -162,6 +165,55 @@ export class NeighbourTable {
       }
     });
     return { graph: DiffusionGraph.fromNeighbours(lists, options), lists, rescanned: unsettled.length };
+  }
+
+  /**
+   * For each row i, a bound M(i) on 2·cos(i, j) − r(j) over every part j outside its candidates, so that no such j
+   * scores above M(i) − r(i) hub-corrected. With c_i the row's last (lowest) candidate cosine, any j outside the row
+   * has cos(i, j) ≤ c_i; if i is not in j's row either, also cos(i, j) ≤ c_j. Hence
+   *   M(i) = max( max over all j of 2·min(c_i, c_j) − r(j),  2·c_i − min{ r(j) : i in j's row } ),
+   * the first term from the parts sorted by c (a suffix minimum of r and a prefix maximum of 2c − r), the second from
+   * the table read backwards. The earlier bound, 2·c_i − min over all r, let through any row the library's lowest r
+   * could reach: it settled 46 of 6,225 KiCad rows and 27 of 20,000 generated ones.
+   */
+  outsideBounds(r: Float64Array): Float64Array {
+    const n = this.size,
+      W = this.width;
+    const last = new Float64Array(n);
+    for (let i = 0; i < n; i++) last[i] = this.length[i] > 0 ? this.score[i * W + this.length[i] - 1] : Infinity;
+    const order = Int32Array.from({ length: n }, (_, i) => i).sort((a, b) => last[a] - last[b] || a - b);
+    const sorted = Float64Array.from(order, (j) => last[j]);
+    const suffixMinR = new Float64Array(n + 1).fill(Infinity); // min r over sorted positions ≥ p
+    for (let p = n - 1; p >= 0; p--) suffixMinR[p] = Math.min(suffixMinR[p + 1], r[order[p]]);
+    const prefixMax = new Float64Array(n + 1).fill(-Infinity); // max 2c − r over sorted positions < p
+    for (let p = 0; p < n; p++) {
+      const j = order[p];
+      prefixMax[p + 1] = Math.max(prefixMax[p], last[j] === Infinity ? Infinity : 2 * last[j] - r[j]);
+    }
+    const minRevR = new Float64Array(n).fill(Infinity);
+    for (let j = 0; j < n; j++)
+      for (let c = 0; c < this.length[j]; c++) {
+        const i = this.index[j * W + c];
+        if (r[j] < minRevR[i]) minRevR[i] = r[j];
+      }
+    const out = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const ci = last[i];
+      if (ci === Infinity) {
+        out[i] = Infinity;
+        continue;
+      }
+      // First sorted position with c ≥ c_i: those j give 2·c_i − r(j); the ones before give 2·c_j − r(j).
+      let lo = 0,
+        hi = n;
+      while (lo < hi) {
+        const mid = (lo + hi) >> 1;
+        if (sorted[mid] < ci) lo = mid + 1;
+        else hi = mid;
+      }
+      out[i] = Math.max(2 * ci - suffixMinR[lo], prefixMax[lo], 2 * ci - minRevR[i]);
+    }
+    return out;
   }
 
   /**

@@ -72,6 +72,33 @@ describe('neighbour table (one pass over all pairs, then n·width)', () => {
     for (let m = 1; m < best.length; m++) expect(best[m]).toBeLessThanOrEqual(best[m - 1]);
   });
 
+  it('bounds every part outside a row: 2·cos(i, j) − r(j) never exceeds the row’s bound, checked over every pair', () => {
+    for (const [n, dim, families, width] of [
+      [300, 24, 9, 64],
+      [240, 16, 4, 20],
+      [200, 8, 40, 12],
+    ]) {
+      const v = clustered(n, dim, families, 11);
+      const ix = index(v, dim);
+      const table = NeighbourTable.build(ix.count, ix.rowScorer(), width);
+      const r = table.neighbourhoodMeans(Math.min(HUB_NEIGHBOURS, width));
+      const bound = table.outsideBounds(r);
+      const cos = (i: number, j: number) => Math.fround(dot4(ix.vectors, j * ix.dim, ix.vector(i), ix.dim));
+      let tightest = -Infinity;
+      for (let i = 0; i < n; i++) {
+        const inside = new Set(table.row(i).map((h) => h.index));
+        for (let j = 0; j < n; j++) {
+          if (j === i || inside.has(j)) continue;
+          const key = 2 * cos(i, j) - r[j];
+          expect(key).toBeLessThanOrEqual(bound[i] + 1e-6);
+          tightest = Math.max(tightest, key - bound[i]);
+        }
+      }
+      // Not vacuous: some outside part comes within 0.1 of its row's bound.
+      expect(tightest).toBeGreaterThan(-0.1);
+    }
+  });
+
   it('rows are each part’s best cosines, best first, itself never among them (checked against a sort of every pair)', () => {
     const dim = 8,
       v = clustered(60, dim, 4, 11);
