@@ -83,16 +83,29 @@ const stored = new WeakSet<LibraryPart>();
 let saving = 0;
 
 /**
- * Keeps the library: parts the database lacks, a few per message, then what the library now is (its parts in
- * order and the files that failed; anything else goes). A newer save stops an older one between writes.
+ * How often a long save also writes the library's list (the parts written so far, in order), so that a reload or a
+ * closed tab keeps them: with the list written only at the end, a reload 20 s after reading 3,000 parts brought
+ * back the library as it was before the import.
  */
-export async function saveLibrary(lib: {
-  parts: readonly HashedPart[];
-  failures: readonly ImportFailure[];
-  source: 'demo' | 'user';
-}): Promise<void> {
+export const LIST_EVERY_MS = 3000;
+
+/**
+ * Keeps the library: parts the database lacks, a few per message, then what the library now is (its parts in
+ * order and the files that failed; anything else goes). While the parts are written, the list of those written so
+ * far is kept every `listEveryMs`. A newer save stops an older one between writes.
+ */
+export async function saveLibrary(
+  lib: {
+    parts: readonly HashedPart[];
+    failures: readonly ImportFailure[];
+    source: 'demo' | 'user';
+  },
+  listEveryMs = LIST_EVERY_MS,
+): Promise<void> {
   const generation = ++saving;
   const fresh = lib.parts.filter((p) => !stored.has(p));
+  const list = (names: string[]) => db.ask({ type: 'set-contents', names, failures: lib.failures, source: lib.source });
+  let listed = performance.now();
   for (let i = 0; i < fresh.length;) {
     if (generation !== saving) return;
     let end = i + 1,
@@ -104,14 +117,13 @@ export async function saveLibrary(lib: {
     await db.ask({ type: 'put-parts', parts: copies }, copies.flatMap(partBuffers));
     batch.forEach((p) => stored.add(p));
     i = end;
+    if (i < fresh.length && performance.now() - listed >= listEveryMs && generation === saving) {
+      await list(lib.parts.filter((p) => stored.has(p)).map((p) => p.name));
+      listed = performance.now();
+    }
   }
   if (generation !== saving) return;
-  await db.ask({
-    type: 'set-contents',
-    names: lib.parts.map((p) => p.name),
-    failures: lib.failures,
-    source: lib.source,
-  });
+  await list(lib.parts.map((p) => p.name));
 }
 
 /** Parts read per message on restore: one message of 990 KiCad parts held the page for 0.5 s. */
