@@ -156,14 +156,11 @@ export function shapeGrid(points: Float32Array, normals: Float32Array, o: ShapeG
   const out = new Float32Array(fold ? fold.representatives.length : h.length);
   let norm = 0;
   for (let r = 0; r < out.length; r++) {
-    let v: number;
-    if (fold) {
-      const im = fold.images;
-      v =
-        Math.sqrt((h[im[4 * r]] + h[im[4 * r + 1]] + h[im[4 * r + 2]] + h[im[4 * r + 3]]) / (4 * s || 1)) *
-        fold.weights[r];
-    } else v = Math.sqrt(h[r] / (s || 1));
-    out[r] = v;
+    const im = fold?.images;
+    out[r] = im
+      ? Math.sqrt((h[im[4 * r]] + h[im[4 * r + 1]] + h[im[4 * r + 2]] + h[im[4 * r + 3]]) / (4 * s || 1)) *
+        fold!.weights[r]
+      : Math.sqrt(h[r] / (s || 1));
     norm += out[r] * out[r];
   }
   // √ of a distribution that sums to 1 is already unit length; renormalise against rounding.

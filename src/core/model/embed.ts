@@ -174,15 +174,19 @@ export function neighbourLists(
   n: number,
   batch = EMBED_BATCH,
 ): NeighbourCache {
-  const F = inputChannels(encoder.config.inputFeatures);
   const lists: NeighbourCache = [];
   for (let start = 0; start < parts.length; start += batch) {
     const group = parts.slice(start, start + batch);
-    const buf = new Float32Array(group.length * n * F);
-    group.forEach((p, i) => fillSlot(buf, i, n, encoder.config.inputFeatures, p.points, p.normals));
-    lists.push(encoder.neighbours(buf, group.length, n));
+    lists.push(encoder.neighbours(batchInput(encoder, group, n), group.length, n));
   }
   return lists;
+}
+
+/** A batch's input buffer (B, n, F) as the encoder reads it. */
+function batchInput(encoder: Encoder, group: readonly ModelPart[], n: number): Float32Array {
+  const buf = new Float32Array(group.length * n * inputChannels(encoder.config.inputFeatures));
+  group.forEach((p, i) => fillSlot(buf, i, n, encoder.config.inputFeatures, p.points, p.normals));
+  return buf;
 }
 
 /** Unit-length embeddings (count × D, row-major) of parts, n points each, in batches. */
@@ -198,8 +202,7 @@ export function embedParts(
   const chunks: Float32Array[] = [];
   for (let start = 0; start < parts.length; start += batch) {
     const group = parts.slice(start, start + batch);
-    const buf = new Float32Array(group.length * n * F);
-    group.forEach((p, i) => fillSlot(buf, i, n, encoder.config.inputFeatures, p.points, p.normals));
+    const buf = batchInput(encoder, group, n);
     const g = start / batch;
     let lists: Int32Array | null | undefined = neighbours?.[g];
     if (lists === undefined) {
