@@ -164,5 +164,8 @@ export function say(store: Store<AppState>, notice: string, action: AppState['no
 /** The library job's progress label while the kept library is opened (nothing to stop: it is already read). */
 export const RESTORING = 'restoring the kept library';
 
+/** The library job's progress label while the parts read are written to the parts database after reading. */
+export const KEEPING = 'keeping the library on this computer';
+
 /** The look-alike job's progress label while the library's neighbours are found (in a worker; seconds, not minutes). */
 export const ORDERING = 'finding neighbours in the library';

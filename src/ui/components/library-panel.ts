@@ -6,7 +6,7 @@ import { partSize, UNIT_CHOICES } from '../../core/units';
 import { ACCEPT, FORMAT_NAMES } from '../../core/mesh/formats';
 import type { LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
-import { RESTORING, type LibraryState } from '../state';
+import { KEEPING, RESTORING, type LibraryState } from '../state';
 import { timeLeft } from '../words';
 
 export class SkLibraryPanel extends LitElement {
@@ -130,7 +130,9 @@ export class SkLibraryPanel extends LitElement {
         ${
           s.progress.what === RESTORING
             ? html`<div class="summary">Opening the kept library: ${s.progress.done} of ${s.progress.total} parts${left ? ` · ${left}` : ''}</div>`
-            : html`<div class="summary">Reading ${s.progress.done} of ${s.progress.total}${left ? ` (${left})` : ''}: ${s.progress.what}
+            : s.progress.what === KEEPING
+              ? html`<div class="summary" data-testid="keeping">All files read. Keeping the parts on this computer so a reload finds them: ${count(s.progress.total - s.progress.done, 'part')} still to write${left ? ` (${left})` : ''}</div>`
+              : html`<div class="summary">Reading ${s.progress.done} of ${s.progress.total}${left ? ` (${left})` : ''}: ${s.progress.what}
           <button data-testid="cancel-import" @click=${() => this.emit('cancel-import')}>Stop reading</button></div>`
         }`
           : null

@@ -80,7 +80,6 @@ export const partBuffers = (p: LibraryPart): ArrayBuffer[] =>
 
 /** Parts the database already holds as they are (restored from it, or written by a save). */
 const stored = new WeakSet<LibraryPart>();
-let saving = 0;
 
 /**
  * How often a long save also writes the library's list (the parts written so far, in order), so that a reload or a
@@ -89,41 +88,100 @@ let saving = 0;
  */
 export const LIST_EVERY_MS = 3000;
 
+export interface SavedLibrary {
+  readonly parts: readonly HashedPart[];
+  readonly failures: readonly ImportFailure[];
+  readonly source: 'demo' | 'user';
+}
+
+export interface SaveOptions {
+  /**
+   * The library is still growing (an import under way, its arrays filled as files are read): write what is there,
+   * keep the list every `listEveryMs`, and leave the closing list to a later, final save.
+   */
+  readonly interim?: boolean;
+  readonly listEveryMs?: number;
+  /** Parts of this library written so far, after each write. */
+  readonly onWritten?: (written: number, total: number) => void;
+}
+
+/** What the one writer works towards: the newest library handed to `saveLibrary`. */
+let target: { lib: SavedLibrary; options: SaveOptions } | null = null;
+let writing: Promise<void> | null = null;
+let listedAt = -Infinity;
+
 /**
  * Keeps the library: parts the database lacks, a few per message, then what the library now is (its parts in
- * order and the files that failed; anything else goes). While the parts are written, the list of those written so
- * far is kept every `listEveryMs`. A newer save stops an older one between writes.
+ * order and the files that failed; anything else goes). One writer does it; a newer call hands it a newer library
+ * (a save of the growing import, then of the finished one; or an emptied library), which it takes up between
+ * writes, and the promise ends when the newest is kept. While parts are written, the list of those written so far
+ * is kept every `listEveryMs`, so a reload finds them.
  */
-export async function saveLibrary(
-  lib: {
-    parts: readonly HashedPart[];
-    failures: readonly ImportFailure[];
-    source: 'demo' | 'user';
-  },
-  listEveryMs = LIST_EVERY_MS,
-): Promise<void> {
-  const generation = ++saving;
-  const fresh = lib.parts.filter((p) => !stored.has(p));
-  const list = (names: string[]) => db.ask({ type: 'set-contents', names, failures: lib.failures, source: lib.source });
-  let listed = performance.now();
-  for (let i = 0; i < fresh.length;) {
-    if (generation !== saving) return;
-    let end = i + 1,
-      bytes = partBytes(fresh[i]);
-    while (end < fresh.length && end - i < PARTS_PER_WRITE && bytes + partBytes(fresh[end]) <= BYTES_PER_WRITE)
-      bytes += partBytes(fresh[end++]);
-    const batch = fresh.slice(i, end);
-    const copies = batch.map(withOwnArrays);
-    await db.ask({ type: 'put-parts', parts: copies }, copies.flatMap(partBuffers));
-    batch.forEach((p) => stored.add(p));
-    i = end;
-    if (i < fresh.length && performance.now() - listed >= listEveryMs && generation === saving) {
-      await list(lib.parts.filter((p) => stored.has(p)).map((p) => p.name));
-      listed = performance.now();
+export function saveLibrary(lib: SavedLibrary, options: SaveOptions = {}): Promise<void> {
+  target = { lib, options };
+  // The writer starts after `writing` is set and clears it itself as it ends, so no call falls between the two.
+  writing ??= Promise.resolve().then(write);
+  return writing;
+}
+
+/**
+ * Writes the newest target until nothing newer is waiting. It clears `writing` in the same step as it ends (done
+ * or failed), so a call after that starts a new writer rather than joining one that has stopped.
+ */
+async function write(): Promise<void> {
+  const list = (lib: SavedLibrary, names: string[]) =>
+    db.ask({ type: 'set-contents', names, failures: [...lib.failures], source: lib.source });
+  try {
+    let cursorOf: SavedLibrary | null = null;
+    let cursor = 0; // the target's parts before it are written
+    for (;;) {
+      const { lib, options } = target!;
+      const listEvery = options.listEveryMs ?? LIST_EVERY_MS;
+      if (lib !== cursorOf) [cursorOf, cursor] = [lib, 0];
+      const parts = lib.parts;
+      while (cursor < parts.length && stored.has(parts[cursor])) cursor++;
+      if (cursor < parts.length) {
+        const batch = [parts[cursor]];
+        let bytes = partBytes(parts[cursor]);
+        for (let j = cursor + 1; j < parts.length && batch.length < PARTS_PER_WRITE; j++) {
+          if (stored.has(parts[j])) continue;
+          if (bytes + partBytes(parts[j]) > BYTES_PER_WRITE) break;
+          bytes += partBytes(parts[j]);
+          batch.push(parts[j]);
+        }
+        const copies = batch.map(withOwnArrays);
+        await db.ask({ type: 'put-parts', parts: copies }, copies.flatMap(partBuffers));
+        batch.forEach((p) => stored.add(p));
+        while (cursor < parts.length && stored.has(parts[cursor])) cursor++;
+        options.onWritten?.(cursor, parts.length);
+        const more = cursor < parts.length;
+        if (more && target!.lib === lib && performance.now() - listedAt >= listEvery) {
+          await list(
+            lib,
+            parts.filter((p) => stored.has(p)).map((p) => p.name),
+          );
+          listedAt = performance.now();
+        }
+        continue;
+      }
+      // All of this library is written.
+      if (!options.interim || performance.now() - listedAt >= listEvery) {
+        await list(
+          lib,
+          parts.map((p) => p.name),
+        );
+        listedAt = performance.now();
+      }
+      if (target!.lib === lib && target!.options === options) {
+        target = null;
+        writing = null;
+        return;
+      }
     }
+  } catch (err) {
+    writing = null;
+    throw err;
   }
-  if (generation !== saving) return;
-  await list(lib.parts.map((p) => p.name));
 }
 
 /** Parts read per message on restore: one message of 990 KiCad parts held the page for 0.5 s. */

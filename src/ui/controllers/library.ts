@@ -8,7 +8,7 @@ import { POOL_POINTS } from '../../core/model/defaults';
 import type { FileInput } from '../../worker/protocol';
 import { fetchDemoLibrary } from '../demo-library';
 import { readFiles, type NamedFile } from '../files';
-import { IDLE, RESTORING, say, type AppState, type Progress, type Store } from '../state';
+import { IDLE, KEEPING, RESTORING, say, type AppState, type LibraryState, type Progress, type Store } from '../state';
 import { LibraryClient, type TimeLimits } from './library-client';
 import {
   exportDatabase,
@@ -211,6 +211,10 @@ export class LibraryController {
     this.store.patch('library', {
       status: { kind: 'running', progress: { done: 0, total: inputs.length, what: inputs[0].name, startedAt } },
     });
+    // What is read is written to the database as it comes (one writer, a few parts a message), with the list of
+    // the parts written so far every few seconds: a reload or a closed tab during a long import keeps them.
+    const growing = { parts, failures, source };
+    const keepSoFar = () => void saveLibrary(growing, { interim: true }).catch(() => {}); // the last save says
     let flushAt = 0;
     const flush = (progress: Progress | null) => {
       flushAt = performance.now();
@@ -221,6 +225,28 @@ export class LibraryController {
         selected,
         ...(progress ? { status: { kind: 'running', progress } } : {}),
       });
+      keepSoFar();
+    };
+    /** After reading: the parts not yet written are written, with their count on screen; then the job ends. */
+    const keep = async (end: LibraryState['status']) => {
+      const keepingFrom = performance.now();
+      let shownAt = 0;
+      let before = -1; // parts written while reading: the time left counts from the rest
+      try {
+        await saveLibrary(growing, {
+          onWritten: (done, total) => {
+            if (before < 0) before = Math.max(0, done - 1);
+            if (performance.now() - shownAt < 100 || done === total) return;
+            shownAt = performance.now();
+            const progress = { done: done - before, total: total - before, what: KEEPING, startedAt: keepingFrom };
+            this.store.patch('library', { status: { kind: 'running', progress } });
+          },
+        });
+        this.store.patch('library', { status: end });
+      } catch (err) {
+        this.keepFailed(err as Error);
+      }
+      this.events.onChanged();
     };
     try {
       if (this.cancelling) throw new Error('superseded'); // stopped while the files were still being fetched
@@ -235,20 +261,26 @@ export class LibraryController {
         },
       });
       flush(null);
-      this.store.patch('library', { status: { kind: 'done', ms } });
-      await saveLibrary({ parts, failures, source });
-      this.events.onChanged();
+      await keep({ kind: 'done', ms });
     } catch (err) {
       if (this.cancelling) {
         // What was read before the cancel stays in the library, and is kept.
         this.cancelling = false;
         flush(null);
-        this.store.patch('library', { status: { kind: 'cancelled' } });
-        await saveLibrary({ parts, failures, source });
-        this.events.onChanged();
+        await keep({ kind: 'cancelled' });
       } else if ((err as Error).message !== 'superseded')
         this.store.patch('library', { status: { kind: 'failed', message: (err as Error).message } });
     }
+  }
+
+  /** The parts read could not be written to the database: they stay in this tab, and the page says so. */
+  private keepFailed(err: Error): void {
+    this.store.patch('library', {
+      status: {
+        kind: 'failed',
+        message: `The parts were read but could not be kept on this computer (a reload will not show them): ${err.message}`,
+      },
+    });
   }
 
   /** Stops the import under way; the parts read so far stay. */
