@@ -17,7 +17,7 @@ export async function fetchDemoLibrary(): Promise<FileInput[]> {
     entries.map(async ([path, url]) => {
       const response = await fetch(url);
       if (!response.ok) throw new Error(`demo file ${path}: HTTP ${response.status}`);
-      return { name: path.replace(/^\/demo-shapes\//, ''), buffer: await response.arrayBuffer() };
+      return { name: path.replace(/^\/demo-shapes\//, ''), bytes: await response.arrayBuffer() };
     }),
   );
 }

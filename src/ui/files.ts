@@ -37,7 +37,10 @@ export async function namedFromDrop(dt: DataTransfer): Promise<NamedFile[]> {
   return out;
 }
 
-/** Read the supported files; unsupported extensions are returned by name so the page can list them. */
+/**
+ * The supported files, to be read one by one as the import workers take them; unsupported extensions are returned
+ * by name so the page can list them.
+ */
 export async function readFiles(files: readonly NamedFile[]): Promise<{ inputs: FileInput[]; skipped: string[] }> {
   const inputs: FileInput[] = [];
   const skipped: string[] = [];
@@ -46,7 +49,7 @@ export async function readFiles(files: readonly NamedFile[]): Promise<{ inputs: 
       skipped.push(f.name);
       continue;
     }
-    inputs.push({ name: f.name, buffer: await f.file.arrayBuffer() });
+    inputs.push({ name: f.name, bytes: f.file });
   }
   return { inputs, skipped };
 }

@@ -58,6 +58,8 @@ export interface LibraryState {
   readonly status: JobStatus<{ readonly ms: number }>;
   readonly thumbnails: ReadonlyMap<string, string>;
   readonly selected: string;
+  /** Counts meshes fetched back from the parts database for the views (meshes.ts); a view redraws when it moves. */
+  readonly meshesFetched: number;
   /**
    * Millimetres per file unit by folder, for files whose format does not say its units (STL, OBJ, PLY, OFF, VRML,
    * point lists), as the person set them; folders not named stay in file units.

@@ -94,8 +94,12 @@ async function answer(req: DbRequest): Promise<[DbAnswers[DbRequest['type']], Ar
     case 'load-library':
       return [await (await store()).outline(), []];
     case 'load-parts': {
-      const parts = await (await store()).parts(req.names);
+      const parts = await (await store()).parts(req.names, { meshes: req.meshes ?? true });
       return [parts, parts.flatMap(partTransfers)];
+    }
+    case 'load-meshes': {
+      const meshes = await (await store()).meshes(req.names);
+      return [meshes, meshes.flatMap((m) => [m.positions.buffer as ArrayBuffer, m.indices.buffer as ArrayBuffer])];
     }
     case 'put-parts':
       await (await store()).putParts(req.parts as HashedPart[]);

@@ -27,9 +27,10 @@ self.onmessage = async (event: MessageEvent<LibraryRequest>) => {
   post({ type: 'reading', id: req.id });
   for (const file of req.files) {
     try {
+      const buffer = file.bytes instanceof Blob ? await file.bytes.arrayBuffer() : file.bytes;
       // The file's SHA-256, so the parts database can tell a changed file from an unchanged one.
-      const contentHash = await sha256Hex(file.buffer);
-      const part = { ...loadPart(file.buffer, file.name, req.sampling, req.maxBytes), contentHash };
+      const contentHash = await sha256Hex(buffer);
+      const part = { ...loadPart(buffer, file.name, req.sampling, req.maxBytes), contentHash };
       post({ type: 'part', id: req.id, part }, partTransfers(part));
     } catch (err) {
       post({ type: 'failed', id: req.id, failure: failureOf(file.name, err) });

@@ -8,13 +8,20 @@ import type { EvaluationReport } from '../core/quality/evaluate';
 import type { StudyRow } from '../core/quality/study';
 import type { AugmentKind } from '../core/points/augment';
 import type { TrainConfig, TrainProgress, HeldOutCheck, TrainResult } from '../core/model/train-config';
-import type { HashedPart } from '../core/db/workbench';
+import type { HashedPart, PartMesh } from '../core/db/workbench';
 import type { PackedLists, TableArrays } from '../core/retrieval/neighbour-table';
 
+/**
+ * A file to read: its bytes, or the picked file itself (a Blob, read in the worker), so the page never holds a whole
+ * library's bytes at once (KiCad's 6,225 models are 871 MB of OFF).
+ */
 export interface FileInput {
   readonly name: string;
-  readonly buffer: ArrayBuffer;
+  readonly bytes: ArrayBuffer | Blob;
 }
+
+/** How many bytes a file input holds. */
+export const inputBytes = (f: FileInput): number => (f.bytes instanceof Blob ? f.bytes.size : f.bytes.byteLength);
 
 export type LibraryRequest = {
   readonly type: 'import';
@@ -176,8 +183,10 @@ export type TrainReply =
 export type DbRequest =
   /** The library's outline: part names in order, failures, source. */
   | { readonly type: 'load-library'; readonly id: number }
-  /** Some of its parts with their data. */
-  | { readonly type: 'load-parts'; readonly id: number; readonly names: readonly string[] }
+  /** Some of its parts with their data (without their meshes when `meshes` is false). */
+  | { readonly type: 'load-parts'; readonly id: number; readonly names: readonly string[]; readonly meshes?: boolean }
+  /** The meshes of some of its parts, for the views. */
+  | { readonly type: 'load-meshes'; readonly id: number; readonly names: readonly string[] }
   | { readonly type: 'put-parts'; readonly id: number; readonly parts: readonly HashedPart[] }
   | {
       readonly type: 'set-contents';
@@ -212,6 +221,7 @@ export type DbRequest =
 export interface DbAnswers {
   'load-library': { names: string[]; failures: ImportFailure[]; source: 'demo' | 'user' } | null;
   'load-parts': LibraryPart[];
+  'load-meshes': PartMesh[];
   'put-parts': null;
   'set-contents': null;
   'load-units': Record<string, number>;

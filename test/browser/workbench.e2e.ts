@@ -402,6 +402,19 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await expect
       .poll(async () => page.getByTestId('search-results').locator('li button').count(), { timeout: 60_000 })
       .toBe(10);
+    // The restored parts came without their meshes: the views fetched the shown ones back from the database, and
+    // the page holds no other part's mesh.
+    const meshes = () =>
+      page.evaluate(() => {
+        const app = document.querySelector('sk-app') as unknown as {
+          state: { library: { meshesFetched: number; parts: { meshIndices: Uint32Array }[] } };
+        };
+        const lib = app.state.library;
+        return { fetched: lib.meshesFetched, held: lib.parts.filter((p) => p.meshIndices.length > 0).length };
+      });
+    await expect.poll(async () => (await meshes()).fetched, { timeout: 10_000 }).toBeGreaterThanOrEqual(2);
+    expect((await meshes()).held).toBe(0);
+    expect(await page.locator('sk-app .notice').textContent()).not.toMatch(/could not be read back/);
     await page.getByRole('tab', { name: 'Parts library' }).click();
   }, 120_000);
 

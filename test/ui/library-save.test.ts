@@ -4,6 +4,7 @@
 
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import type { LibraryPart } from '../../src/core/library';
+import { fakePart } from './fake-part';
 
 interface Sent {
   type: string;
@@ -41,18 +42,7 @@ function checkLists(): string[] {
 
 const tick = () => new Promise((r) => setTimeout(r, 0));
 
-const part = (i: number) =>
-  ({
-    name: `washer/p${i}.stl`,
-    label: 'washer',
-    points: new Float32Array(6),
-    normals: new Float32Array(6),
-    meshPositions: new Float32Array(9),
-    meshIndices: Uint32Array.from([0, 1, 2]),
-    centre: [0, 0, 0],
-    radius: 1,
-    diagonal: 1,
-  }) as unknown as LibraryPart;
+const part = (i: number) => fakePart(`washer/p${i}.stl`);
 
 beforeAll(() => vi.stubGlobal('Worker', FakeWorker));
 afterAll(() => vi.unstubAllGlobals());

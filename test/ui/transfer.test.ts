@@ -4,19 +4,9 @@
 
 import { describe, expect, it } from 'vitest';
 import { partBuffers, withOwnArrays } from '../../src/ui/controllers/library-db';
-import type { LibraryPart } from '../../src/core/library';
+import { fakePart } from './fake-part';
 
-const part = {
-  name: 'washer/BC01-100A.stl',
-  label: 'washer',
-  points: Float32Array.from([0, 0, 0, 1, 0, 0]),
-  normals: Float32Array.from([0, 0, 1, 0, 0, 1]),
-  meshPositions: Float32Array.from([0, 0, 0, 1, 0, 0, 0, 1, 0]),
-  meshIndices: Uint32Array.from([0, 1, 2]),
-  centre: [0, 0, 0],
-  radius: 1,
-  diagonal: 1.5,
-} as unknown as LibraryPart;
+const part = fakePart('washer/BC01-100A.stl');
 
 describe('a part handed over rather than cloned', () => {
   it('the copy has the same values in buffers of its own', () => {

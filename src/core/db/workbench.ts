@@ -15,6 +15,13 @@ export interface WorkbenchLibrary {
   readonly source: 'demo' | 'user';
 }
 
+/** A part's mesh as the views draw it (positions x y z, triangle indices; no indices: a point list). */
+export interface PartMesh {
+  readonly name: string;
+  readonly positions: Float32Array;
+  readonly indices: Uint32Array;
+}
+
 /** A part as the workbench hands it over: a library part and the SHA-256 of its file, when known. */
 export type HashedPart = LibraryPart & { readonly contentHash?: string };
 
@@ -174,8 +181,12 @@ export class WorkbenchStore {
     return { names: order.filter((n) => held.has(n)), failures, source: meta.rows[0].value.source };
   }
 
-  /** The named parts with their data, in the order named (names not held are left out). */
-  async parts(names: readonly string[]): Promise<LibraryPart[]> {
+  /**
+   * The named parts with their data, in the order named (names not held are left out). Without `meshes`, each
+   * part's mesh arrays are left empty (fetch them with `meshes` when a view needs them).
+   */
+  async parts(names: readonly string[], options: { meshes?: boolean } = {}): Promise<LibraryPart[]> {
+    const withMeshes = options.meshes ?? true;
     const rows = await this.sql.query<{
       path: string;
       label: string;
@@ -188,7 +199,8 @@ export class WorkbenchStore {
       mesh_positions: Uint8Array | null;
       mesh_indices: Uint8Array | null;
     }>(
-      `SELECT path, label, info, diagonal, points, normals, centre, radius, mesh_positions, mesh_indices
+      `SELECT path, label, info, diagonal, points, normals, centre, radius,
+         ${withMeshes ? 'mesh_positions, mesh_indices' : 'NULL AS mesh_positions, NULL AS mesh_indices'}
        FROM parts WHERE state = 'ready' AND path = ANY($1::text[])`,
       [[...names]],
     );
@@ -212,6 +224,29 @@ export class WorkbenchStore {
       });
     }
     return parts;
+  }
+
+  /** The meshes of the named parts that are held, in the order named. */
+  async meshes(names: readonly string[]): Promise<PartMesh[]> {
+    const rows = await this.sql.query<{
+      path: string;
+      mesh_positions: Uint8Array | null;
+      mesh_indices: Uint8Array | null;
+    }>(`SELECT path, mesh_positions, mesh_indices FROM parts WHERE state = 'ready' AND path = ANY($1::text[])`, [
+      [...names],
+    ]);
+    const byName = new Map(rows.rows.map((r) => [r.path, r]));
+    return names.flatMap((name) => {
+      const r = byName.get(name);
+      if (!r) return [];
+      return [
+        {
+          name,
+          positions: r.mesh_positions ? bytesFloats(r.mesh_positions) : new Float32Array(0),
+          indices: r.mesh_indices ? bytesU32(r.mesh_indices) : new Uint32Array(0),
+        },
+      ];
+    });
   }
 
   /**

@@ -2,12 +2,14 @@
 // current panel from the store's state, and turns the panels' events into controller calls. It holds no state of
 // its own beyond the store and does no I/O: the controllers (../controllers) act, the panels render.
 
+import type { LibraryPart } from '../../core/library';
 import { LitElement, css, html } from 'lit';
 import { DEFAULT_TRAIN, inputsReason, poseReason } from '../../core/model/defaults';
 import type { TrainConfig } from '../../core/model/train-config';
 import type { Pipeline } from '../../core/points/augment';
 import { exportEmbeddings, type EmbeddingFormat } from '../controllers/exports';
 import { LibraryController } from '../controllers/library';
+import { meshNow } from '../controllers/meshes';
 import { MeasureController } from '../controllers/measure';
 import { SearchController } from '../controllers/search';
 import { TrainingController } from '../controllers/training';
@@ -35,7 +37,15 @@ export function initialState(): AppState {
     panel: 'library',
     notice: '',
     noticeAction: null,
-    library: { parts: [], failures: [], status: IDLE, thumbnails: new Map(), selected: '', units: {} },
+    library: {
+      parts: [],
+      failures: [],
+      status: IDLE,
+      thumbnails: new Map(),
+      selected: '',
+      units: {},
+      meshesFetched: 0,
+    },
     training: {
       config: DEFAULT_TRAIN,
       pipeline: DEFAULT_TRAIN.pipeline,
@@ -231,6 +241,7 @@ export class SkApp extends LitElement {
           @search-file=${(e: CustomEvent<File>) => void this.search.searchFile(e.detail)}
           @search-filters=${(e: CustomEvent<SearchFilters>) => this.search.setFilters(e.detail)}
           @cancel-embedding=${() => this.search.cancel()} @embed-library=${() => void this.search.refresh()}
+          .meshFor=${meshNow} .meshVersion=${library.meshesFetched} @need-mesh=${(e: CustomEvent<LibraryPart>) => this.library.fetchMesh(e.detail)}
           .explanation=${search.explanation} @explain-match=${(e: CustomEvent<number>) => void this.search.explain(e.detail)}></sk-search-panel>`;
       case 'study':
         return html`<sk-study-panel .partCount=${library.parts.length} .report=${measure.report} .rows=${measure.rows} .progress=${measure.study.kind === 'running' ? measure.study.progress : null}

@@ -9,6 +9,7 @@ import { ACCEPT } from '../../core/mesh/formats';
 import { LitElement, css, html } from 'lit';
 import type { Object3D } from 'three';
 import type { LibraryPart } from '../../core/library';
+import type { PartMesh } from '../../core/db/workbench';
 import { DEFAULT_FILTERS, IDLE, ORDERING, type JobStatus, type MatchExplanation, type SearchFilters } from '../state';
 import type { Hit } from '../../core/retrieval/topk';
 import { alignToFrame, meshObject, pointsObject, PALETTE, weightColours } from '../../render/scene';
@@ -37,6 +38,8 @@ export class SkSearchPanel extends LitElement {
     diffusionApplies: { type: Boolean },
     trained: { type: Boolean },
     explanation: { attribute: false },
+    meshFor: { attribute: false },
+    meshVersion: { type: Number },
     why: { state: true },
     ownAxes: { state: true },
     typed: { state: true },
@@ -65,6 +68,10 @@ export class SkSearchPanel extends LitElement {
   declare trained: boolean;
   /** Why the chosen result matches (from the controller), shown when `why` is on. */
   declare explanation: MatchExplanation | null;
+  /** A part's mesh if the page has it now, else null (the panel then asks for it with `need-mesh`). */
+  declare meshFor: (p: LibraryPart) => PartMesh | null;
+  /** Changes when fetched meshes arrive. */
+  declare meshVersion: number;
   declare why: boolean;
   /** Show each part as its file has it, rather than both turned into their principal axes. */
   declare ownAxes: boolean;
@@ -93,6 +100,8 @@ export class SkSearchPanel extends LitElement {
     this.diffusionApplies = true;
     this.trained = false;
     this.explanation = null;
+    this.meshFor = (p) => ({ name: p.name, positions: p.meshPositions, indices: p.meshIndices });
+    this.meshVersion = 0;
     this.why = false;
     this.ownAxes = false;
     this.typed = '';
@@ -168,7 +177,7 @@ export class SkSearchPanel extends LitElement {
 
   protected override willUpdate(changed: Map<string, unknown>): void {
     if (changed.has('hits') || changed.has('query')) this.chosen = 0;
-    if (['hits', 'query', 'chosen', 'why', 'explanation', 'ownAxes'].some((k) => changed.has(k))) {
+    if (['hits', 'query', 'chosen', 'why', 'explanation', 'ownAxes', 'meshVersion'].some((k) => changed.has(k))) {
       const q = this.query;
       const hit = this.hits[this.chosen];
       const r = hit ? this.parts[hit.index] : null;
@@ -186,10 +195,19 @@ export class SkSearchPanel extends LitElement {
           pointsObject(r.points.subarray(0, 3 * n), 0.07, undefined, weightColours(e.b, max)),
         );
       } else {
-        this.objects.query = q ? this.posed(q, objectFor(q, PALETTE.teal)) : null;
-        this.objects.result = r ? this.posed(r, objectFor(r, PALETTE.rust)) : null;
+        this.objects.query = q ? this.posed(q, this.objectFor(q, PALETTE.teal)) : null;
+        this.objects.result = r ? this.posed(r, this.objectFor(r, PALETTE.rust)) : null;
       }
     }
+  }
+
+  /** The part's mesh, or its points until the mesh is fetched (asked for here) or when it has none. */
+  private objectFor(p: LibraryPart, colour: number): Object3D {
+    const mesh = this.meshFor(p);
+    if (!mesh) this.emit('need-mesh', p);
+    return mesh && mesh.indices.length > 0
+      ? meshObject(mesh.positions, mesh.indices, p.centre, p.radius, colour)
+      : pointsObject(p.points, 0.03);
   }
 
   /** Both parts in their principal axes (computed from the sampled points), unless the files' own axes are asked for. */
@@ -330,12 +348,6 @@ export class SkSearchPanel extends LitElement {
           : html`<div class="empty">Choose a part or a file to search with.</div>`
       }`;
   }
-}
-
-function objectFor(p: LibraryPart, colour: number): Object3D {
-  return p.meshIndices.length > 0
-    ? meshObject(p.meshPositions, p.meshIndices, p.centre, p.radius, colour)
-    : pointsObject(p.points, 0.03);
 }
 
 customElements.define('sk-search-panel', SkSearchPanel);

@@ -6,7 +6,7 @@
 
 import type { LibraryPart, SamplingSettings } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
-import type { FileInput, LibraryReply } from '../../worker/protocol';
+import { inputBytes, type FileInput, type LibraryReply } from '../../worker/protocol';
 
 export interface ImportCallbacks {
   onPart(part: LibraryPart): void;
@@ -94,7 +94,7 @@ export class LibraryClient {
     const run = async (slot: number) => {
       while (next < files.length && this.current === batch) {
         const i = next++;
-        const limitMs = fileTimeLimitMs(files[i].buffer.byteLength, this.timeLimits);
+        const limitMs = fileTimeLimitMs(inputBytes(files[i]), this.timeLimits);
         outcomes[i] = await this.importOne(slot, files[i], sampling, limitMs, batch);
         deliver();
       }
@@ -152,7 +152,11 @@ export class LibraryClient {
       this.inFlight.add(abandon);
       worker.addEventListener('message', onMessage);
       worker.addEventListener('error', onError);
-      worker.postMessage({ type: 'import', id, files: [file], sampling }, [file.buffer]);
+      // A picked file goes as its Blob (the worker reads it); bytes already read are handed over.
+      worker.postMessage(
+        { type: 'import', id, files: [file], sampling },
+        file.bytes instanceof Blob ? [] : [file.bytes],
+      );
     });
   }
 

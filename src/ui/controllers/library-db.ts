@@ -2,7 +2,7 @@
 // (PGlite with pgvector in IndexedDB), so a reload restores them and the page never waits on storage. Thumbnails,
 // a cache that can always be drawn again, stay in a plain IndexedDB record.
 
-import type { HashedPart, WorkbenchLibrary } from '../../core/db/workbench';
+import type { HashedPart, PartMesh, WorkbenchLibrary } from '../../core/db/workbench';
 import type { LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
 import type { CheckpointMessage, DbAnswers, DbReply, DbRequest, TableMessage } from '../../worker/protocol';
@@ -103,6 +103,8 @@ export interface SaveOptions {
   readonly listEveryMs?: number;
   /** Parts of this library written so far, after each write. */
   readonly onWritten?: (written: number, total: number) => void;
+  /** The parts of each write, once it is done. */
+  readonly onPartsWritten?: (parts: readonly LibraryPart[]) => void;
 }
 
 /** What the one writer works towards: the newest library handed to `saveLibrary`. */
@@ -152,6 +154,7 @@ async function write(): Promise<void> {
         const copies = batch.map(withOwnArrays);
         await db.ask({ type: 'put-parts', parts: copies }, copies.flatMap(partBuffers));
         batch.forEach((p) => stored.add(p));
+        options.onPartsWritten?.(batch);
         while (cursor < parts.length && stored.has(parts[cursor])) cursor++;
         options.onWritten?.(cursor, parts.length);
         const more = cursor < parts.length;
@@ -187,14 +190,18 @@ async function write(): Promise<void> {
 /** Parts read per message on restore: one message of 990 KiCad parts held the page for 0.5 s. */
 const PARTS_PER_READ = 50;
 
-/** The kept library, or null (none kept, or the database cannot be read); `onProgress` as its parts arrive. */
+/**
+ * The kept library, or null (none kept, or the database cannot be read); `onProgress` as its parts arrive. The
+ * parts come without their meshes (`loadMeshes` fetches one for a view).
+ */
 export async function loadLibrary(onProgress?: (done: number, total: number) => void): Promise<StoredLibrary | null> {
   try {
     const outline = await db.ask({ type: 'load-library' });
     if (!outline) return null;
     const parts: LibraryPart[] = [];
     for (let i = 0; i < outline.names.length; i += PARTS_PER_READ) {
-      const batch = await db.ask({ type: 'load-parts', names: outline.names.slice(i, i + PARTS_PER_READ) });
+      const names = outline.names.slice(i, i + PARTS_PER_READ);
+      const batch = await db.ask({ type: 'load-parts', names, meshes: false });
       batch.forEach((p) => stored.add(p));
       parts.push(...batch);
       onProgress?.(parts.length, outline.names.length);
@@ -204,6 +211,9 @@ export async function loadLibrary(onProgress?: (done: number, total: number) => 
     return null;
   }
 }
+
+/** The meshes of the named parts the database holds, in the order named. */
+export const loadMeshes = (names: readonly string[]): Promise<PartMesh[]> => db.ask({ type: 'load-meshes', names });
 
 /** Millimetres per file unit by folder (files whose format has no units), as a person set them; {} when none. */
 export const loadFolderUnits = (): Promise<Record<string, number>> => db.ask({ type: 'load-units' }).catch(() => ({}));

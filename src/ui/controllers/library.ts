@@ -23,6 +23,7 @@ import {
 } from './library-db';
 import { download } from './download';
 import { ThumbnailClient } from './thumbnails';
+import { cameWithoutMesh, markWritten, meshOf } from './meshes';
 
 /** Lets an object URL's picture go (data URLs kept by an earlier version need nothing). */
 const forget = (url: string | undefined) => {
@@ -48,6 +49,8 @@ export class LibraryController {
   private thumbKept = new Map<string, KeptThumbnail>();
   private thumbTimer = 0;
   private cancelling = false;
+  /** Parts whose meshes are being fetched for the views. */
+  private readonly fetching = new Set<string>();
 
   constructor(
     private readonly store: Store<AppState>,
@@ -72,6 +75,7 @@ export class LibraryController {
       }),
     );
     if (!stored || stored.parts.length === 0) return this.loadDemo();
+    stored.parts.forEach(cameWithoutMesh);
     const units = await loadFolderUnits();
     const kept = (await loadThumbnails()) ?? new Map<string, KeptThumbnail>();
     const names = new Set(stored.parts.map((p) => p.name));
@@ -183,10 +187,20 @@ export class LibraryController {
     return this.state.parts.find((p) => p.name === name) ?? null;
   }
 
+  /** Fetches a part's mesh from the parts database for the views; they redraw when it comes. */
+  fetchMesh(part: LibraryPart): void {
+    if (this.fetching.has(part.name)) return;
+    this.fetching.add(part.name);
+    meshOf(part)
+      .then(() => this.store.patch('library', { meshesFetched: this.state.meshesFetched + 1 }))
+      .catch((err: Error) => say(this.store, `The shape of ${part.name} could not be read back: ${err.message}`))
+      .finally(() => this.fetching.delete(part.name));
+  }
+
   /** Samples one file that is not added to the library (a query from elsewhere); its failure goes to `onFailure`. */
   async readOne(file: File, onFailure: (f: ImportFailure) => void): Promise<LibraryPart | null> {
     let found: LibraryPart | null = null;
-    await this.client.importFiles([{ name: file.name, buffer: await file.arrayBuffer() }], SAMPLING, {
+    await this.client.importFiles([{ name: file.name, bytes: file }], SAMPLING, {
       onPart: (p) => (found = p),
       onFailure,
       onProgress: () => {},
@@ -214,7 +228,8 @@ export class LibraryController {
     // What is read is written to the database as it comes (one writer, a few parts a message), with the list of
     // the parts written so far every few seconds: a reload or a closed tab during a long import keeps them.
     const growing = { parts, failures, source };
-    const keepSoFar = () => void saveLibrary(growing, { interim: true }).catch(() => {}); // the last save says
+    const onPartsWritten = (written: readonly LibraryPart[]) => written.forEach(markWritten);
+    const keepSoFar = () => void saveLibrary(growing, { interim: true, onPartsWritten }).catch(() => {}); // the last save says
     let flushAt = 0;
     const flush = (progress: Progress | null) => {
       flushAt = performance.now();
@@ -234,6 +249,7 @@ export class LibraryController {
       let before = -1; // parts written while reading: the time left counts from the rest
       try {
         await saveLibrary(growing, {
+          onPartsWritten,
           onWritten: (done, total) => {
             if (before < 0) before = Math.max(0, done - 1);
             if (performance.now() - shownAt < 100 || done === total) return;

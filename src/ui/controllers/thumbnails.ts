@@ -3,6 +3,7 @@
 
 import type { LibraryPart } from '../../core/library';
 import type { ThumbnailReply, ThumbnailRequest } from '../../worker/thumbnail.worker';
+import { meshNow, meshOf, type PartMesh } from './meshes';
 
 /**
  * Requests in the worker at a time; the rest wait on the page, uncopied. Posting a whole delivered batch at once
@@ -50,27 +51,43 @@ export class ThumbnailClient {
     });
   }
 
-  /** Hands the next requests to the worker while fewer than IN_FLIGHT are there. */
+  /**
+   * Hands the next requests to the worker while fewer than IN_FLIGHT are there. A part whose mesh the page has let
+   * go (meshes.ts) has it fetched from the database first.
+   */
   private pump(): void {
     while (this.waiting.size < IN_FLIGHT && this.queued.length > 0) {
       const job = this.queued.shift()!;
       const id = this.nextId++;
-      const p = job.part;
-      const request: ThumbnailRequest = {
-        id,
-        part: {
-          // Copies handed over (a memcpy each) rather than cloned, as for the database (library-db.ts).
-          meshPositions: p.meshPositions.slice(),
-          meshIndices: p.meshIndices.slice(),
-          centre: p.centre,
-          radius: p.radius,
-          points: p.points.slice(),
-        },
-      };
-      const r = request.part;
       this.waiting.set(id, job);
-      this.w.postMessage(request, [r.meshPositions.buffer, r.meshIndices.buffer, r.points.buffer] as ArrayBuffer[]);
+      const now = meshNow(job.part);
+      if (now) this.post(id, job.part, now);
+      else
+        meshOf(job.part).then(
+          (mesh) => this.post(id, job.part, mesh),
+          (err: Error) => {
+            this.waiting.delete(id);
+            job.reject(err);
+            this.pump();
+          },
+        );
     }
+  }
+
+  private post(id: number, p: LibraryPart, mesh: PartMesh): void {
+    const request: ThumbnailRequest = {
+      id,
+      part: {
+        // Copies handed over (a memcpy each) rather than cloned, as for the database (library-db.ts).
+        meshPositions: mesh.positions.slice(),
+        meshIndices: mesh.indices.slice(),
+        centre: p.centre,
+        radius: p.radius,
+        points: p.points.slice(),
+      },
+    };
+    const r = request.part;
+    this.w.postMessage(request, [r.meshPositions.buffer, r.meshIndices.buffer, r.points.buffer] as ArrayBuffer[]);
   }
 
   dispose(): void {

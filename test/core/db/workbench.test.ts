@@ -57,6 +57,28 @@ describe('the workbench library in the database', () => {
     }
   });
 
+  it('parts can be read without their meshes, and the meshes alone, bit for bit, when a view needs them', async () => {
+    const store = await fresh();
+    const parts = [...demoParts('washer', 2), ...demoParts('angle', 1)];
+    await store.putParts(parts);
+    const names = [parts[2].name, parts[0].name, 'not/held.stl', parts[1].name];
+    const light = await store.parts(names, { meshes: false });
+    expect(light.map((p) => p.name)).toEqual([parts[2], parts[0], parts[1]].map((p) => p.name));
+    for (const p of light) {
+      const orig = parts.find((q) => q.name === p.name)!;
+      expect(p).toEqual({ ...orig, meshPositions: new Float32Array(0), meshIndices: new Uint32Array(0) });
+    }
+    const meshes = await store.meshes(names);
+    expect(meshes.map((m) => m.name)).toEqual(light.map((p) => p.name));
+    for (const m of meshes) {
+      const orig = parts.find((q) => q.name === m.name)!;
+      expect(orig.meshIndices.length).toBeGreaterThan(0);
+      expect(m.positions).toEqual(orig.meshPositions);
+      expect(m.indices).toEqual(orig.meshIndices);
+      expect(m.indices).toBeInstanceOf(Uint32Array);
+    }
+  });
+
   it('a part dropped from the library goes, with its embeddings; a part read again loses its old embeddings', async () => {
     const store = await fresh();
     const parts = demoParts('flange', 3);
