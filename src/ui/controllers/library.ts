@@ -49,6 +49,8 @@ export class LibraryController {
   private thumbKept = new Map<string, KeptThumbnail>();
   private thumbTimer = 0;
   private cancelling = false;
+  /** Counts imports and emptyings: an import's end speaks only if nothing came after it. */
+  private generation = 0;
   /** Parts whose meshes are being fetched for the views. */
   private readonly fetching = new Set<string>();
 
@@ -120,6 +122,7 @@ export class LibraryController {
   }
 
   clear(): void {
+    this.generation++;
     this.store.patch('library', {
       parts: [],
       failures: [],
@@ -210,6 +213,7 @@ export class LibraryController {
   }
 
   private async importInputs(inputs: FileInput[], refused: ImportFailure[], source: 'demo' | 'user'): Promise<void> {
+    const generation = ++this.generation;
     const incoming = new Set(inputs.map((f) => f.name));
     // Parts arrive one by one; they are collected here and handed to the store in batches, so a library of
     // thousands does not copy its list once per part.
@@ -258,7 +262,8 @@ export class LibraryController {
             this.store.patch('library', { status: { kind: 'running', progress } });
           },
         });
-        this.store.patch('library', { status: end });
+        // Unless the library was emptied or another import began meanwhile (their status then stands).
+        if (this.generation === generation) this.store.patch('library', { status: end });
       } catch (err) {
         this.keepFailed(err as Error);
       }
