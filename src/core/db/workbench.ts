@@ -33,6 +33,14 @@ function bytesU32(b: Uint8Array): Uint32Array {
   return out;
 }
 
+/** A row's mesh columns as arrays (empty when the row has none, or they were not selected). */
+function meshArrays(r: { mesh_positions: Uint8Array | null; mesh_indices: Uint8Array | null }) {
+  return {
+    meshPositions: r.mesh_positions ? bytesFloats(r.mesh_positions) : new Float32Array(0),
+    meshIndices: r.mesh_indices ? bytesU32(r.mesh_indices) : new Uint32Array(0),
+  };
+}
+
 /** The key under which the untrained encoder's embeddings are kept (it is a model too: its seed and settings). */
 export const isUntrainedKey = (key: string): boolean => key.startsWith('untrained:');
 
@@ -219,8 +227,7 @@ export class WorkbenchStore {
         centre: [c[0], c[1], c[2]],
         radius: Number(r.radius ?? 1),
         diagonal: Number(r.diagonal),
-        meshPositions: r.mesh_positions ? bytesFloats(r.mesh_positions) : new Float32Array(0),
-        meshIndices: r.mesh_indices ? bytesU32(r.mesh_indices) : new Uint32Array(0),
+        ...meshArrays(r),
       });
     }
     return parts;
@@ -239,13 +246,8 @@ export class WorkbenchStore {
     return names.flatMap((name) => {
       const r = byName.get(name);
       if (!r) return [];
-      return [
-        {
-          name,
-          positions: r.mesh_positions ? bytesFloats(r.mesh_positions) : new Float32Array(0),
-          indices: r.mesh_indices ? bytesU32(r.mesh_indices) : new Uint32Array(0),
-        },
-      ];
+      const { meshPositions: positions, meshIndices: indices } = meshArrays(r);
+      return [{ name, positions, indices }];
     });
   }
 

@@ -233,7 +233,8 @@ export class LibraryController {
     // the parts written so far every few seconds: a reload or a closed tab during a long import keeps them.
     const growing = { parts, failures, source };
     const onPartsWritten = (written: readonly LibraryPart[]) => written.forEach(markWritten);
-    const keepSoFar = () => void saveLibrary(growing, { interim: true, onPartsWritten }).catch(() => {}); // the last save says
+    // A failed write here is reported by the closing save (`keep`), which meets it again.
+    const keepSoFar = () => void saveLibrary(growing, { interim: true, onPartsWritten }).catch(() => {});
     let flushAt = 0;
     const flush = (progress: Progress | null) => {
       flushAt = performance.now();

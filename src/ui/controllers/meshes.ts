@@ -1,8 +1,7 @@
 // A part's mesh is kept on the page only until the part is written to the parts database. After that the page
 // lets it go and fetches it back from the database when a view shows the part or its thumbnail is drawn (a few
-// kept). A restored library comes without meshes. Meshes are most of a real
-// library's bytes (990 KiCad parts: 84 KB of mesh a part against 48 KB of point pool), all of them held by the
-// tab before.
+// kept). A restored library comes without meshes. Meshes are most of a real library's bytes (990 KiCad parts:
+// 84 KB of mesh a part against 48 KB of point pool), all of them held by the tab before.
 
 import type { PartMesh } from '../../core/db/workbench';
 import type { LibraryPart } from '../../core/library';
