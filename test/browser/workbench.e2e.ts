@@ -679,6 +679,35 @@ describe.skipIf(!available)('a reload before an import has ended', () => {
   }, 300_000);
 });
 
+describe.skipIf(!available)('emptying the library while an import is under way', () => {
+  it('stops the import: no part of it comes back, before or after a reload', async () => {
+    // Before, the import read on and refilled the emptied library (its parts were shown and kept again).
+    const seeds = Array.from({ length: 6 }, (_, i) => 40 + i);
+    const dir = generatedFolder('shapekin-e2e-empty-', seeds, ['off']);
+    await inEmptiedWorkbench(async (page) => {
+      const summary = page.getByTestId('library-summary');
+      const cards = page.locator('sk-library-panel .card');
+      await page.locator('sk-library-panel input[webkitdirectory]').setInputFiles(dir);
+      const progress = page.locator('sk-library-panel progress');
+      await expect.poll(async () => cards.count(), { timeout: 60_000 }).toBeGreaterThan(0);
+      expect(await progress.count()).toBe(1); // still reading (672 parts take several seconds)
+      await page.getByRole('button', { name: 'Empty the library' }).click();
+      await page.waitForTimeout(4000);
+      const empty = page.getByTestId('empty-library');
+      expect(await cards.count()).toBe(0);
+      expect(await progress.count()).toBe(0);
+      expect(await empty.count()).toBe(1);
+      expect(await summary.textContent()).not.toMatch(/[1-9]\d* parts? in/);
+      // After a reload the kept library is opened: empty, as it was left (neither the import's parts nor the demo).
+      await page.reload();
+      await expect.poll(async () => empty.count(), { timeout: 60_000 }).toBe(1);
+      await page.waitForTimeout(2000);
+      expect(await cards.count()).toBe(0);
+      expect(await summary.textContent()).not.toMatch(/[1-9]\d* parts? in/);
+    });
+  }, 300_000);
+});
+
 describe.skipIf(!available)('a library kept by an earlier version (plain IndexedDB records)', () => {
   it('moves into the parts database on first start, and the earlier records go (thumbnails stay)', async () => {
     const server = await startPreview();

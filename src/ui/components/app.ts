@@ -14,7 +14,7 @@ import { MeasureController } from '../controllers/measure';
 import { SearchController } from '../controllers/search';
 import { TrainingController } from '../controllers/training';
 import { namedFromDrop, namedFromInput } from '../files';
-import { DEFAULT_FILTERS, IDLE, isBusy, Store, type AppState, type Panel, type SearchFilters } from '../state';
+import { DEFAULT_FILTERS, IDLE, isBusy, STARTED, Store, type AppState, type Panel, type SearchFilters } from '../state';
 import './library-panel';
 import './augment-panel';
 import './train-panel';
@@ -40,7 +40,7 @@ export function initialState(): AppState {
     library: {
       parts: [],
       failures: [],
-      status: IDLE,
+      status: STARTED, // the kept library is being opened (restore ends it)
       thumbnails: new Map(),
       selected: '',
       units: {},

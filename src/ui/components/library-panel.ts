@@ -137,6 +137,8 @@ export class SkLibraryPanel extends LitElement {
         }`
           : null
       }
+      ${s.kind === 'running' && !s.progress ? html`<div class="summary" role="status">Opening the kept library…</div>` : null}
+      ${this.parts.length === 0 && s.kind !== 'running' ? html`<div class="summary" data-testid="empty-library">The library is empty. Add part files or a folder above, or reload the demo library.</div>` : null}
       ${s.kind === 'cancelled' ? html`<div class="summary" role="status">Reading was stopped: the parts read before it are in the library.</div>` : null}
       ${s.kind === 'failed' ? html`<div class="failures" role="alert">${s.message}</div>` : null}
       <div class="summary" data-testid="library-summary">

@@ -76,7 +76,12 @@ export class LibraryController {
         status: { kind: 'running', progress: { done, total, what: RESTORING, startedAt } },
       }),
     );
-    if (!stored || stored.parts.length === 0) return this.loadDemo();
+    if (!stored) return this.loadDemo(); // first start
+    if (stored.parts.length === 0) {
+      // Emptied on purpose: it stays empty (the demo is one button away).
+      this.store.patch('library', { failures: stored.failures, status: IDLE });
+      return;
+    }
     stored.parts.forEach(cameWithoutMesh);
     const units = await loadFolderUnits();
     const kept = (await loadThumbnails()) ?? new Map<string, KeptThumbnail>();
@@ -123,6 +128,10 @@ export class LibraryController {
 
   clear(): void {
     this.generation++;
+    // An import under way stops: its files are not read on, and what it read is not put back (its end sees the
+    // newer generation).
+    if (this.state.status.kind === 'running') this.client.cancel();
+    this.cancelling = false;
     this.store.patch('library', {
       parts: [],
       failures: [],
@@ -236,7 +245,9 @@ export class LibraryController {
     // A failed write here is reported by the closing save (`keep`), which meets it again.
     const keepSoFar = () => void saveLibrary(growing, { interim: true, onPartsWritten }).catch(() => {});
     let flushAt = 0;
+    const live = () => this.generation === generation;
     const flush = (progress: Progress | null) => {
+      if (!live()) return; // the library was emptied or another import began: this one's parts are not shown
       flushAt = performance.now();
       const selected = this.state.selected || parts[0]?.name || '';
       this.store.patch('library', {
@@ -264,9 +275,9 @@ export class LibraryController {
           },
         });
         // Unless the library was emptied or another import began meanwhile (their status then stands).
-        if (this.generation === generation) this.store.patch('library', { status: end });
+        if (live()) this.store.patch('library', { status: end });
       } catch (err) {
-        this.keepFailed(err as Error);
+        if (live()) this.keepFailed(err as Error);
       }
       this.events.onChanged();
     };
@@ -274,6 +285,7 @@ export class LibraryController {
       if (this.cancelling) throw new Error('superseded'); // stopped while the files were still being fetched
       const ms = await this.client.importFiles(inputs, SAMPLING, {
         onPart: (part) => {
+          if (!live()) return;
           parts.push(part);
           this.queueThumbnail(part);
         },
@@ -285,6 +297,7 @@ export class LibraryController {
       flush(null);
       await keep({ kind: 'done', ms });
     } catch (err) {
+      if (!live()) return; // emptied or superseded: the newer job speaks
       if (this.cancelling) {
         // What was read before the cancel stays in the library, and is kept.
         this.cancelling = false;
