@@ -1,6 +1,7 @@
 // Training-free descriptors alone and fused with a trained encoder's retrieval embedding, leave-one-out on a
 // labelled library, by cosine and ordered through the library. One JSON line per configuration.
 //   npx tsx research/scripts/fusion.ts <library-dir> [--run <run-dir>] [--weights 0,0.25,0.5] [--grids '[{"cells":8,"facing":true}]']
+//       [--points 256] [--resamplings 4]   (points a pass and point subsets at retrieval; the defaults are the product's)
 // Fusion sets the learned row (unit) and the descriptor row (unit) side by side, scaled by √(1−w) and √w: the
 // fused row is unit length and its cosine is (1−w)·learned + w·descriptor, so every ordering downstream applies.
 import { initBackend } from '../../src/core/model/backend';
@@ -8,7 +9,14 @@ import { POOL_POINTS, defaultTrainFor, libraryTraits } from '../../src/core/mode
 import { loadLibrary } from '../../src/cli/library-dir';
 import { loadRun } from '../../src/cli/run-dir';
 import { encodersFromCheckpoint } from '../../src/core/model/checkpoint';
-import { embedForRetrieval, disposeEncoders, fused, surfaceGrids, type Encoders } from '../../src/core/model/embed';
+import {
+  embedForRetrieval,
+  disposeEncoders,
+  fused,
+  surfaceGrids,
+  RETRIEVAL_RESAMPLINGS,
+  type Encoders,
+} from '../../src/core/model/embed';
 import { memberPoses, type Pose } from '../../src/core/model/train-config';
 import { evaluateRetrieval, cosineSimilarity } from '../../src/core/retrieval/metrics';
 import { throughLibrary } from '../../src/core/retrieval/hubness';
@@ -30,6 +38,8 @@ const run = runDir ? await loadRun(runDir) : null;
 const pose: Pose = run ? run.manifest.config.pose : defaults.pose;
 const weights = (arg('--weights') ?? '0,0.2,0.3,0.4,0.5').split(',').map(Number);
 const grids: Partial<ShapeGridOptions>[] = JSON.parse(arg('--grids') ?? '[{}]');
+const points = Number(arg('--points') ?? 256);
+const resamplings = Number(arg('--resamplings') ?? RETRIEVAL_RESAMPLINGS);
 
 const round = (m: { nn: number; first_tier: number; map: number }) => ({
   nn: +m.nn.toFixed(3),
@@ -66,7 +76,7 @@ if (needLearned) {
   ]);
 }
 const embedded = encoderSets.map(([name, e]) => {
-  const v = embedForRetrieval(e, parts, 256, pose);
+  const v = embedForRetrieval(e, parts, points, pose, resamplings);
   disposeEncoders(e);
   return [name, v] as const;
 });
@@ -91,6 +101,8 @@ for (const g of grids) {
           grid: o,
           gridMs: ms,
           w,
+          points,
+          resamplings,
           ...score(fusedRows, D),
         }),
       );
