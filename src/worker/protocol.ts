@@ -69,10 +69,13 @@ export interface OrderingMessage {
 }
 
 export type TrainRequest =
+  /** Parts for the run `id`, handed over a chunk at a time before its start (each chunk a short task on the page). */
+  | { readonly type: 'stage'; readonly id: number; readonly parts: readonly PartArrays[] }
   | {
       readonly type: 'start';
       readonly id: number;
-      readonly parts: readonly PartArrays[];
+      /** The run's parts; the ones staged under this id when absent. */
+      readonly parts?: readonly PartArrays[];
       readonly labels: readonly number[] | null;
       readonly config: TrainConfig;
       readonly sampling: { points: number; seed: number };
@@ -85,7 +88,10 @@ export type TrainRequest =
       readonly type: 'embed';
       readonly id: number;
       readonly parts: readonly PartArrays[];
+      /** The model; null with a `modelKey` means the one handed over earlier under that key (the worker keeps it). */
       readonly checkpoint: CheckpointMessage | null;
+      /** Names the model so later requests need not carry it again. */
+      readonly modelKey?: number;
       readonly config: TrainConfig;
     }
   /**

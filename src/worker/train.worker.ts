@@ -13,15 +13,16 @@ import {
   toArtifacts,
   type Checkpoint,
 } from '../core/model/checkpoint';
-import { disposeEncoders, embedForRetrieval } from '../core/model/embed';
+import { disposeEncoders, embedForRetrieval, type Encoders } from '../core/model/embed';
 import { explainMatch } from '../core/model/explain';
 import { Trainer } from '../core/model/trainer';
+import type { TrainConfig } from '../core/model/train-config';
 import { evaluateMethods, untrainedEncoders } from '../core/quality/evaluate';
 import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
 import { runStudy } from '../core/quality/study';
 import { namedTable, tableArrays } from '../core/retrieval/neighbour-table';
 import { buildOrdering } from '../core/retrieval/tensor-index';
-import type { CheckpointMessage, TrainReply, TrainRequest } from './protocol';
+import type { CheckpointMessage, PartArrays, TrainReply, TrainRequest } from './protocol';
 
 /**
  * Where earlier versions kept the current model (tfjs's own IndexedDB handler). The parts database keeps it now;
@@ -103,16 +104,37 @@ function snapshot(
   });
 }
 
+/** The model embedding requests name by key (the latest handed over). */
+let keptModel: { key: number; enc: Encoders; cfg: TrainConfig } | null = null;
+
+/** The parts of the run being handed over (`stage` messages), until its `start`. */
+let staged: { id: number; parts: PartArrays[]; cancelled: boolean } | null = null;
+
 self.onmessage = async (event: MessageEvent<TrainRequest>) => {
   const req = event.data;
   try {
     const name = await ready();
     switch (req.type) {
+      case 'stage':
+        if (staged?.id !== req.id) staged = { id: req.id, parts: [], cancelled: false };
+        staged.parts.push(...req.parts);
+        return;
       case 'start': {
+        const stagedHere = staged?.id === req.id ? staged : null;
+        staged = null;
+        if (stagedHere?.cancelled) {
+          // Stopped while its parts were still being handed over: it ends before its first step.
+          post({
+            type: 'done',
+            id: req.id,
+            result: { status: 'cancelled', steps: 0, finalLoss: NaN, history: [], checks: [] },
+          });
+          return;
+        }
         if (trainer) throw new Error('a training run is already in progress');
         post({ type: 'backend', id: req.id, backend: name });
         const resume = req.resume ? fromMessage(req.resume) : null;
-        trainer = new Trainer(req.parts, resume ? resume.manifest.config : req.config, {
+        trainer = new Trainer(req.parts ?? stagedHere?.parts ?? [], resume ? resume.manifest.config : req.config, {
           labels: req.labels,
           ...(resume ? resumeOptions(resume) : {}),
         });
@@ -152,6 +174,7 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         return;
       case 'cancel':
         if (trainer && req.id === trainerId) trainer.cancel();
+        if (staged?.id === req.id) staged.cancelled = true;
         return;
       case 'evaluate': {
         const ckpt = req.checkpoint ? fromMessage(req.checkpoint) : null;
@@ -260,10 +283,26 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         return;
       }
       case 'embed': {
-        const enc = req.checkpoint
-          ? encodersFromCheckpoint(fromMessage(req.checkpoint))
-          : untrainedEncoders(req.config.encoder, req.config.pose, req.config.seed);
-        const cfg = req.checkpoint ? fromMessage(req.checkpoint).manifest.config : req.config;
+        // A model handed over with a key is kept for the next requests (a library is embedded a chunk at a time).
+        let enc: Encoders, cfg: TrainConfig;
+        let own = true;
+        if (req.checkpoint) {
+          const c = fromMessage(req.checkpoint);
+          enc = encodersFromCheckpoint(c);
+          cfg = c.manifest.config;
+          if (req.modelKey !== undefined) {
+            if (keptModel) disposeEncoders(keptModel.enc);
+            keptModel = { key: req.modelKey, enc, cfg };
+            own = false;
+          }
+        } else if (req.modelKey !== undefined) {
+          if (keptModel?.key !== req.modelKey) throw new Error('the model for these embeddings was not handed over');
+          ({ enc, cfg } = keptModel);
+          own = false;
+        } else {
+          enc = untrainedEncoders(req.config.encoder, req.config.pose, req.config.seed);
+          cfg = req.config;
+        }
         try {
           const vectors = embedForRetrieval(enc, req.parts, cfg.points, cfg.pose);
           post(
@@ -272,12 +311,12 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
               id: req.id,
               vectors,
               dim: vectors.length / Math.max(1, req.parts.length),
-              learned: Boolean(req.checkpoint),
+              learned: Boolean(req.checkpoint) || req.modelKey !== undefined,
             },
             [vectors.buffer as ArrayBuffer],
           );
         } finally {
-          disposeEncoders(enc);
+          if (own) disposeEncoders(enc);
         }
         return;
       }

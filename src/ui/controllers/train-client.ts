@@ -12,8 +12,21 @@ import type {
   TrainReply,
   TrainRequest,
 } from '../../worker/protocol';
+import { yieldToPage } from '../pace';
 
 type Listener = (msg: TrainReply) => void;
+
+/** A number for each model object the page holds (a new checkpoint is a new object). */
+const modelKeys = new WeakMap<CheckpointMessage, number>();
+let lastModelKey = 0;
+const keyOf = (c: CheckpointMessage): number => {
+  let k = modelKeys.get(c);
+  if (k === undefined) modelKeys.set(c, (k = ++lastModelKey));
+  return k;
+};
+
+/** Parts handed to the training worker a message at a time: about 3 MB of clouds, a few ms of copying (measured). */
+const STAGE_CHUNK = 64;
 
 /**
  * The buffers a request may hand over instead of cloning: every request carries fresh copies made here (the
@@ -45,6 +58,8 @@ export class TrainClient {
   /** Rejecters of the requests still waiting for their reply. */
   private readonly pending = new Set<() => void>();
   runId = 0;
+  /** The key of the model this worker keeps for embedding (0: none). */
+  private modelSent = 0;
 
   private get w(): Worker {
     if (!this.worker) {
@@ -67,7 +82,11 @@ export class TrainClient {
     this.w.postMessage(msg, transfer);
   }
 
-  /** Copies the clouds (the page keeps its own) and starts a run; returns its id. */
+  /**
+   * Starts a run; returns its id. The clouds are copied (the page keeps its own) and handed over a chunk at a
+   * time, each chunk a task of its own, so a library of thousands does not hold the page still while it is copied;
+   * the run starts once all are there. A stop before then ends it before its first step.
+   */
   start(
     parts: readonly PartArrays[],
     labels: readonly number[] | null,
@@ -77,20 +96,36 @@ export class TrainClient {
   ): number {
     const id = this.nextId++;
     this.runId = id;
-    const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
-    this.send(
-      {
-        type: 'start',
-        id,
-        parts: copies,
-        labels,
-        config,
-        sampling,
-        ...(resume ? { resume: { ...resume, weightData: resume.weightData.slice(0) } } : {}),
-      },
-      copies.flatMap((c) => [c.points.buffer, c.normals.buffer]),
-    );
+    void this.stageAndStart(id, parts, labels, config, sampling, resume);
     return id;
+  }
+
+  private async stageAndStart(
+    id: number,
+    parts: readonly PartArrays[],
+    labels: readonly number[] | null,
+    config: TrainConfig,
+    sampling: { points: number; seed: number },
+    resume?: CheckpointMessage,
+  ): Promise<void> {
+    for (let i = 0; i < parts.length; i += STAGE_CHUNK) {
+      const copies = parts
+        .slice(i, i + STAGE_CHUNK)
+        .map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+      this.send(
+        { type: 'stage', id, parts: copies },
+        copies.flatMap((c) => [c.points.buffer, c.normals.buffer]),
+      );
+      if (i + STAGE_CHUNK < parts.length) await yieldToPage();
+    }
+    this.send({
+      type: 'start',
+      id,
+      labels,
+      config,
+      sampling,
+      ...(resume ? { resume: { ...resume, weightData: resume.weightData.slice(0) } } : {}),
+    });
   }
 
   pause(): void {
@@ -131,17 +166,27 @@ export class TrainClient {
   ): Promise<{ vectors: Float32Array; dim: number }> {
     const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
     const id = this.nextId++;
-    const reply = await this.request(
-      {
-        type: 'embed',
-        id,
-        parts: copies,
-        checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
-        config,
-      },
-      'embeddings',
-    );
-    return { vectors: reply.vectors, dim: reply.dim };
+    // The model goes over once; the worker keeps it under its key for the chunks after.
+    const modelKey = checkpoint ? keyOf(checkpoint) : undefined;
+    const carry = checkpoint !== null && this.modelSent !== modelKey;
+    if (carry) this.modelSent = modelKey!;
+    try {
+      const reply = await this.request(
+        {
+          type: 'embed',
+          id,
+          parts: copies,
+          checkpoint: carry ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
+          ...(modelKey !== undefined ? { modelKey } : {}),
+          config,
+        },
+        'embeddings',
+      );
+      return { vectors: reply.vectors, dim: reply.dim };
+    } catch (err) {
+      this.modelSent = 0; // the worker may not hold the model: the next request carries it again
+      throw err;
+    }
   }
 
   /**
@@ -265,11 +310,13 @@ export class TrainClient {
   abort(): void {
     this.worker?.terminate();
     this.worker = null;
+    this.modelSent = 0;
     for (const abort of [...this.pending]) abort();
   }
 
   dispose(): void {
     this.worker?.terminate();
     this.worker = null;
+    this.modelSent = 0;
   }
 }
