@@ -1,6 +1,7 @@
 // Train with the defaults plus JSON overrides, then evaluate against the baselines; prints one JSON line.
 //   npx tsx research/experiment.ts <library-dir> '{"epochs": 60, "encoder": {"inputFeatures": "xyz+normal"}}' [--embed-points N] [--init <run-dir>]
-// --save <dir> keeps the trained encoder as a run folder (for research/scripts/rerank.ts and the CLI).
+// --save <dir> keeps the trained encoder as a run folder (for research/scripts/rerank.ts and the CLI), as soon as
+// it is trained; with --train-only nothing is scored.
 // --init starts training from a saved encoder (e.g. the pre-trained one) and also reports it before fine-tuning.
 // Used for the ablation tables in docs/: every row there names the command that produced it.
 
@@ -12,11 +13,11 @@ import { PRESETS } from '../src/core/points/augment';
 import { evaluateMethods } from '../src/core/quality/evaluate';
 import { DIFFUSION_DEFAULTS } from '../src/core/retrieval/diffusion';
 import { EmbeddingIndex } from '../src/core/retrieval/index';
-import { embedForRetrieval, RETRIEVAL_RESAMPLINGS } from '../src/core/model/embed';
+import { disposeEncoders, embedForRetrieval, RETRIEVAL_RESAMPLINGS } from '../src/core/model/embed';
 import { loadLibrary } from '../src/cli/library-dir';
 import { loadRun, saveRun } from '../src/cli/run-dir';
 
-import { encoderFromCheckpoint } from '../src/core/model/checkpoint';
+import { encodersFromCheckpoint } from '../src/core/model/checkpoint';
 import { evaluateRetrieval } from '../src/core/retrieval/metrics';
 import { encoderDescriptors } from '../src/core/quality/methods';
 
@@ -42,14 +43,14 @@ const initArg = process.argv.indexOf('--init');
 const init = initArg > 0 ? await loadRun(process.argv[initArg + 1]) : null;
 let start: Record<string, number> | null = null;
 if (init) {
-  const enc = encoderFromCheckpoint(init);
+  const enc = encodersFromCheckpoint(init);
   const m = evaluateRetrieval(
     library.labels,
     encoderDescriptors('learned', enc, parts, config.points, config.pose).similarity,
   );
   start = { nn: m.nn, first_tier: m.first_tier, map: m.map };
   console.error('before fine-tuning', JSON.stringify(start));
-  enc.dispose();
+  disposeEncoders(enc);
 }
 const t0 = Date.now();
 // Labels from folders only for the supervised contrastive loss (its figures are then not label-free).
@@ -58,24 +59,6 @@ const labels = config.loss.name === 'supervised-contrastive' ? library.labels.ma
 const trainer = new Trainer(parts, config, { labels, ...(init ? { initialWeights: init.weights } : {}) });
 const result = await trainer.run({ yieldEvery: 1000 });
 const seconds = (Date.now() - t0) / 1000;
-const points = embedPointsArg > 0 ? Number(process.argv[embedPointsArg + 1]) : config.points;
-const report = evaluateMethods({
-  parts,
-  labels: library.labels,
-  points,
-  pose: config.pose,
-  learned: trainer.encoders,
-  untrainedConfig: config.encoder,
-  seed: config.seed,
-  diffusion: DIFFUSION_DEFAULTS,
-});
-// How spread out the learned embedding is (diffusion applies below DIFFUSION_MAX_MEAN_COSINE; see EmbeddingIndex.diffusionApplies).
-const learnedVectors = embedForRetrieval(trainer.encoders, parts, points, config.pose);
-const meanPairCosine = new EmbeddingIndex(
-  learnedVectors,
-  learnedVectors.length / parts.length,
-  parts.map(() => ({ name: '', label: '', diagonal: 1 })),
-).meanPairCosine();
 const saveArg = process.argv.indexOf('--save');
 if (saveArg > 0)
   await saveRun(process.argv[saveArg + 1], {
@@ -94,6 +77,29 @@ if (saveArg > 0)
     weights: trainer.weights(),
     adam: null,
   });
+// --train-only: keep the run and stop (a pre-training library's own scores are not wanted).
+if (process.argv.includes('--train-only')) {
+  trainer.dispose();
+  process.exit(0);
+}
+const points = embedPointsArg > 0 ? Number(process.argv[embedPointsArg + 1]) : config.points;
+const report = evaluateMethods({
+  parts,
+  labels: library.labels,
+  points,
+  pose: config.pose,
+  learned: trainer.encoders,
+  untrainedConfig: config.encoder,
+  seed: config.seed,
+  diffusion: DIFFUSION_DEFAULTS,
+});
+// How spread out the learned embedding is (diffusion applies below DIFFUSION_MAX_MEAN_COSINE; see EmbeddingIndex.diffusionApplies).
+const learnedVectors = embedForRetrieval(trainer.encoders, parts, points, config.pose);
+const meanPairCosine = new EmbeddingIndex(
+  learnedVectors,
+  learnedVectors.length / parts.length,
+  parts.map(() => ({ name: '', label: '', diagonal: 1 })),
+).meanPairCosine();
 trainer.dispose();
 const round = (m: Record<string, number>) =>
   Object.fromEntries(Object.entries(m).map(([k, v]) => [k, Math.round(v * 1000) / 1000]));
