@@ -8,6 +8,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { BrowserContext, Page } from 'playwright-core';
 import { chromiumAvailable, launch } from './chromium';
 import { startPreview } from './server';
+import { longest, mostCpu, tracePageTasks } from './page-cpu';
 import { generateLibrary } from '../../src/gen/library';
 
 const ARTIFACTS = 'test-artifacts';
@@ -117,8 +118,7 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await page.screenshot({ path: `${ARTIFACTS}/augment.png` });
   }, 60_000);
 
-  it('trains a few steps in the worker with progress and a falling loss, and the page never blocks for 100 ms', async () => {
-    await watchLongTasks(page);
+  it('trains a few steps in the worker with progress and a falling loss, and the page never blocks for 50 ms of its own work', async () => {
     await page.getByRole('tab', { name: 'Training' }).click();
     // The demo's meshes are all closed, so the library's default inputs keep the normals, and say why.
     expect(await page.getByLabel('per-point inputs').inputValue()).toBe('xyz+normal');
@@ -137,6 +137,10 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await expect
       .poll(async () => page.getByTestId('train-estimate').textContent(), { timeout: 60_000 })
       .toMatch(/Estimated training time: about \d+ (min \d+ )?s \(one step timed on this machine: \d+ ms\)/);
+    // From Start to the end: each task on the page, with the CPU time the page's thread spent in it.
+    // (The settings above are typed in by the test driver, whose own checks run on the page's thread.)
+    await watchLongTasks(page);
+    const stopTrace = await tracePageTasks(page);
     await page.getByRole('button', { name: 'Start training' }).click();
     const stats = page.getByTestId('train-stats');
     await expect
@@ -152,12 +156,18 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     );
     expect(losses.length).toBe(9);
     expect((losses[7] + losses[8]) / 2).toBeLessThan((losses[0] + losses[1]) / 2);
-    const tasks = await longTasks(page);
-    console.log(`training: long tasks ${JSON.stringify(tasks.map(Math.round))}`);
-    // Measured here after requests handed their copies over and the 3-D views moved to the view worker: in most runs
-    // none over 50 ms; in some one of 52–63 ms (the Training tab's first render, or Start) or one of 86–90 ms (a
-    // garbage collection). Before: 56–75 ms; and 55 tasks of 60–206 ms before thumbnails moved to their worker.
-    // Goal 50 ms; the bound leaves room for a loaded machine.
+    const tasks = await longTasks(page); // before the trace ends: its flush is a task of its own on the page
+    const own = await stopTrace();
+    console.log(
+      `training: long tasks ${JSON.stringify(tasks.map(Math.round))}; tasks wall/CPU ms, longest ${longest(own).join(' ')}, most CPU ${mostCpu(own).join(' ')} of ${own.length}`,
+    );
+    // The page's own work: no task runs the page's thread for 50 ms (the goal), whatever the machine's load.
+    expect(own.length).toBeGreaterThan(100);
+    expect(Math.max(...own.map((t) => t.cpuMs))).toBeLessThan(50);
+    // Wall time (the Long Tasks API) also counts the page waiting for a core while the training worker runs: on this
+    // 2-core machine with one core taken by another job, tasks of 10 ms CPU took up to 40 ms, and the tab switch
+    // and the driver typing the settings (before this window) 82–100 ms. Idle: no long task in most runs. Earlier:
+    // 55 tasks of 60–206 ms before thumbnails moved to their worker. The bound leaves room for a loaded machine.
     expect(Math.max(0, ...tasks)).toBeLessThan(100);
   }, 240_000);
 
@@ -617,14 +627,19 @@ describe.skipIf(!available)('a library of a few hundred parts', () => {
       await expect.poll(async () => summary.textContent(), { timeout: 120_000 }).toMatch(/336 parts in 14 folders/);
       const reading = await longTasks(page);
       await watchLongTasks(page);
+      const stopTrace = await tracePageTasks(page);
       await page.getByRole('tab', { name: 'Look-alikes' }).click();
       await expect
         .poll(async () => page.getByTestId('search-results').locator('li button').count(), { timeout: 300_000 })
         .toBe(10);
-      const searching = await longTasks(page);
+      const searching = await longTasks(page); // before the trace ends (its flush is a task of its own)
+      const own = await stopTrace();
       console.log(
-        `336 parts: long tasks reading ${JSON.stringify(reading.map(Math.round))}, searching ${JSON.stringify(searching.map(Math.round))}`,
+        `336 parts: long tasks reading ${JSON.stringify(reading.map(Math.round))}, searching ${JSON.stringify(searching.map(Math.round))}; searching, tasks wall/CPU ms, longest ${longest(own).join(' ')}, most CPU ${mostCpu(own).join(' ')} of ${own.length}`,
       );
+      // The page's own work while the library is embedded, ordered and searched: no task over 50 ms of its thread.
+      expect(own.length).toBeGreaterThan(100);
+      expect(Math.max(...own.map((t) => t.cpuMs))).toBeLessThan(50);
       // Searching, measured here: 50–135 ms before the page's steps were cut into tasks of their own (pace.ts), in
       // CI up to 173 ms; after, none in most runs, one of 68 ms in some. A task's wall time here is 2–5× its CPU
       // time: two embedding workers, the thumbnail worker and the software GL share the machine's two cores with

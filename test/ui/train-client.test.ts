@@ -46,10 +46,10 @@ describe('starting a training run', () => {
     const types = sent.map((s) => s.msg.type);
     expect(types).toEqual(['stage', 'stage', 'stage', 'start']);
     const staged = sent.filter((s) => s.msg.type === 'stage');
-    expect(staged.map((s) => (s.msg as { parts: unknown[] }).parts.length)).toEqual([64, 64, 22]);
+    expect(staged.map((s) => (s.msg as { parts: readonly unknown[] }).parts.length)).toEqual([64, 64, 22]);
     expect(sent.every((s) => s.msg.id === id)).toBe(true);
     for (const s of staged) {
-      const chunk = (s.msg as { parts: { points: Float32Array }[] }).parts;
+      const chunk = (s.msg as { parts: readonly { points: Float32Array }[] }).parts;
       // Copies, handed over (the page keeps its own clouds).
       expect(chunk.every((p) => !parts.some((q) => q.points === p.points))).toBe(true);
       expect(s.transfer.length).toBe(chunk.length * 2);
