@@ -1,7 +1,7 @@
 // The embedding index: unit-length vectors in one contiguous Float32Array, exact cosine top-k, filters on real
 // size and on folder, and results ordered through the library (hub-corrected scores diffused over its graph).
 
-import { normaliseRows } from '../vectors';
+import { normaliseRows, unitRows } from '../vectors';
 import { topK, type Hit } from './topk';
 import { DIFFUSION_DEFAULTS, DiffusionGraph, rankingKeys, type DiffusionOptions } from './diffusion';
 import { HUB_NEIGHBOURS, meanOfTop } from './hubness';
@@ -54,7 +54,8 @@ export class EmbeddingIndex {
       throw new RangeError(`EmbeddingIndex: ${vectors.length} values for ${entries.length} × ${dim}`);
     this.dim = dim;
     this.entries = entries;
-    this.vectors = normaliseRows(vectors, dim);
+    // Unit rows are kept as given (not copied): the caller hands the array over.
+    this.vectors = unitRows(vectors, dim);
     this.gridShare = options.gridShare ?? 0;
   }
 
