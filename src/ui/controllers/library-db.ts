@@ -231,8 +231,11 @@ export const loadModel = (): Promise<{ checkpoint: CheckpointMessage; fingerprin
   db.ask({ type: 'load-model' });
 
 /** Keeps a model's embeddings of the named parts; false when that model is no longer kept (stale). */
-export const saveEmbeddings = (key: string, names: readonly string[], vectors: Float32Array, dim: number) =>
-  db.ask({ type: 'put-embeddings', key, names, vectors: vectors.slice(), dim });
+export const saveEmbeddings = (key: string, names: readonly string[], vectors: Float32Array, dim: number) => {
+  // A copy, handed over (without the hand-over, the message's clone was a second copy on the page's thread).
+  const copy = vectors.slice();
+  return db.ask({ type: 'put-embeddings', key, names, vectors: copy, dim }, [copy.buffer]);
+};
 
 /** A model's embeddings of the named parts, in that order, or null unless all are kept. */
 export const loadEmbeddings = (key: string, names: readonly string[]) =>

@@ -85,6 +85,8 @@ export class SearchController {
         const embedded = await this.embedLibrary(parts, version);
         if (!embedded) return; // stopped, or a newer refresh took over
         ({ vectors, dim } = embedded);
+        await yieldToPage(); // the rows were put together in this task; their copy for the database in the next
+        if (version !== this.version) return;
         if (key) await saveEmbeddings(key, names, vectors, dim).catch(() => false);
       }
       // Each step below is a task of its own (pace.ts), so the page never holds still for all of them at once.
