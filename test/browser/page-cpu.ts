@@ -33,7 +33,9 @@ export function mainThreadTasks(events: readonly TraceEvent[]): PageTask[] {
   for (const e of events) {
     const key = `${e.pid}:${e.tid}`;
     if (e.ph !== 'X' || e.name !== 'ThreadControllerImpl::RunTask' || !mains.has(key)) continue;
-    byThread.set(key, [...(byThread.get(key) ?? []), e]);
+    const list = byThread.get(key);
+    if (list) list.push(e);
+    else byThread.set(key, [e]);
   }
   const tasks = [...byThread.values()].sort((a, b) => b.length - a.length)[0] ?? [];
   tasks.sort((a, b) => a.ts - b.ts || (b.dur ?? 0) - (a.dur ?? 0));

@@ -25,6 +25,9 @@ const keyOf = (c: CheckpointMessage): number => {
   return k;
 };
 
+/** A copy of a part's clouds, to hand over (the page keeps its own). */
+const copyCloud = (p: PartArrays): PartArrays => ({ points: p.points.slice(), normals: p.normals.slice() });
+
 /** Parts handed to the training worker a message at a time: about 3 MB of clouds, a few ms of copying (measured). */
 const STAGE_CHUNK = 64;
 
@@ -109,13 +112,8 @@ export class TrainClient {
     resume?: CheckpointMessage,
   ): Promise<void> {
     for (let i = 0; i < parts.length; i += STAGE_CHUNK) {
-      const copies = parts
-        .slice(i, i + STAGE_CHUNK)
-        .map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
-      this.send(
-        { type: 'stage', id, parts: copies },
-        copies.flatMap((c) => [c.points.buffer, c.normals.buffer]),
-      );
+      const msg: TrainRequest = { type: 'stage', id, parts: parts.slice(i, i + STAGE_CHUNK).map(copyCloud) };
+      this.send(msg, transfersOf(msg));
       if (i + STAGE_CHUNK < parts.length) await yieldToPage();
     }
     this.send({
@@ -164,7 +162,7 @@ export class TrainClient {
     checkpoint: CheckpointMessage | null,
     config: TrainConfig,
   ): Promise<{ vectors: Float32Array; dim: number }> {
-    const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+    const copies = parts.map(copyCloud);
     const id = this.nextId++;
     // The model goes over once; the worker keeps it under its key for the chunks after.
     const modelKey = checkpoint ? keyOf(checkpoint) : undefined;
@@ -212,7 +210,7 @@ export class TrainClient {
 
   /** Milliseconds of one training step with `config` (timed in the worker on `parts`, a batch-sized sample). */
   async probe(parts: readonly PartArrays[], config: TrainConfig): Promise<number> {
-    const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+    const copies = parts.map(copyCloud);
     return (await this.request({ type: 'probe', id: this.nextId++, parts: copies, config }, 'probed')).msPerStep;
   }
 
@@ -223,13 +221,12 @@ export class TrainClient {
     checkpoint: CheckpointMessage | null,
     config: TrainConfig,
   ): Promise<{ a: Float32Array; b: Float32Array; pooledCosine: number; points: number }> {
-    const copy = (p: PartArrays) => ({ points: p.points.slice(), normals: p.normals.slice() });
     const r = await this.request(
       {
         type: 'explain',
         id: this.nextId++,
-        a: copy(a),
-        b: copy(b),
+        a: copyCloud(a),
+        b: copyCloud(b),
         checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
         config,
       },
@@ -254,7 +251,7 @@ export class TrainClient {
     checkpoint: CheckpointMessage | null,
     config: TrainConfig,
   ): Promise<EvaluationReport> {
-    const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+    const copies = parts.map(copyCloud);
     const r = await this.request(
       {
         type: 'evaluate',
@@ -282,7 +279,7 @@ export class TrainClient {
       if (m.id === id && m.type === 'study-progress') onProgress(m.done, m.total, m.what);
     });
     try {
-      const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+      const copies = parts.map(copyCloud);
       return (
         await this.request(
           {
