@@ -15,7 +15,17 @@ export interface ThumbnailInput {
   readonly meshIndices: Uint32Array;
   readonly centre: readonly number[];
   readonly radius: number;
+  /** The part's unit-sphere cloud; may be empty when the mesh can be drawn (the vertices then stand in for it). */
   readonly points: Float32Array;
+}
+
+/** The points to draw: the part's cloud, else its mesh's vertices brought to the unit sphere. */
+function pointsOf(part: ThumbnailInput): Float32Array {
+  if (part.points.length > 0) return part.points;
+  const v = part.meshPositions;
+  const out = new Float32Array(v.length);
+  for (let i = 0; i < v.length; i++) out[i] = (v[i] - part.centre[i % 3]) / part.radius;
+  return out;
 }
 
 let renderer: { r: WebGLRenderer; canvas: OffscreenCanvas } | null | undefined;
@@ -35,12 +45,12 @@ function getRenderer(): { r: WebGLRenderer; canvas: OffscreenCanvas } | null {
 
 export async function renderThumbnail(part: ThumbnailInput): Promise<Blob> {
   const gl = getRenderer();
-  if (!gl) return pointsThumbnail(part.points);
+  if (!gl) return pointsThumbnail(pointsOf(part));
   const scene = litScene();
   const object =
     part.meshIndices.length > 0 && part.meshIndices.length / 3 <= MAX_THUMBNAIL_TRIANGLES
       ? meshObject(part.meshPositions, part.meshIndices, part.centre, part.radius)
-      : pointsObject(part.points, 0.04);
+      : pointsObject(pointsOf(part), 0.04);
   scene.add(object);
   const camera = new PerspectiveCamera(30, THUMBNAIL_SIZE.w / THUMBNAIL_SIZE.h, 0.1, 20);
   camera.position.set(2.4, -2.9, 2.1);

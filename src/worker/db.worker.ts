@@ -10,6 +10,7 @@ import { PartsDb } from '../core/db/parts-db';
 import { replaceContents } from '../core/db/copy';
 import { WorkbenchStore, type HashedPart } from '../core/db/workbench';
 import { partTransfers, type LibraryPart } from '../core/library';
+import { fileFrameBoxRatio } from '../core/points/pca';
 import type { ImportFailure } from '../core/mesh/import';
 import { modelJsonFor, readModelJson, type ModelJson } from '../core/model/model-json';
 import type { DbAnswers, DbReply, DbRequest } from './protocol';
@@ -25,6 +26,9 @@ const OPFS = typeof (globalThis as { FileSystemSyncAccessHandle?: unknown }).Fil
 const DATA = OPFS ? `opfs-ahp://${NAME}` : `idb://${NAME}`;
 
 let current: Promise<WorkbenchStore> | null = null;
+
+/** A part's cloud arrays when it goes to the page without them (one empty array, never handed over). */
+const NO_FLOATS = new Float32Array(0);
 
 async function open(): Promise<WorkbenchStore> {
   const sql = await openEmbedded(DATA);
@@ -94,8 +98,14 @@ async function answer(req: DbRequest): Promise<[DbAnswers[DbRequest['type']], Ar
     case 'load-library':
       return [await (await store()).outline(), []];
     case 'load-parts': {
-      const parts = await (await store()).parts(req.names, { meshes: req.meshes ?? true });
-      return [parts, parts.flatMap(partTransfers)];
+      const read = await (await store()).parts(req.names, { meshes: req.meshes ?? true });
+      const boxRatios = read.map((p) => fileFrameBoxRatio(p.points));
+      const parts = req.clouds === false ? read.map((p) => ({ ...p, points: NO_FLOATS, normals: NO_FLOATS })) : read;
+      return [{ parts, boxRatios }, parts.flatMap(partTransfers).filter((b) => b.byteLength > 0)];
+    }
+    case 'load-clouds': {
+      const clouds = await (await store()).clouds(req.names);
+      return [clouds, clouds.flatMap((c) => [c.points.buffer as ArrayBuffer, c.normals.buffer as ArrayBuffer])];
     }
     case 'load-meshes': {
       const meshes = await (await store()).meshes(req.names);

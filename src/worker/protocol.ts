@@ -8,7 +8,7 @@ import type { EvaluationReport } from '../core/quality/evaluate';
 import type { StudyRow } from '../core/quality/study';
 import type { AugmentKind } from '../core/points/augment';
 import type { TrainConfig, TrainProgress, HeldOutCheck, TrainResult } from '../core/model/train-config';
-import type { HashedPart, PartMesh } from '../core/db/workbench';
+import type { HashedPart, PartClouds, PartMesh } from '../core/db/workbench';
 import type { PackedLists, TableArrays } from '../core/retrieval/neighbour-table';
 
 /**
@@ -125,7 +125,8 @@ export type TrainRequest =
   | {
       readonly type: 'evaluate';
       readonly id: number;
-      readonly parts: readonly PartArrays[];
+      /** The parts; the ones staged under this id when absent. */
+      readonly parts?: readonly PartArrays[];
       readonly labels: readonly string[];
       readonly checkpoint: CheckpointMessage | null;
       readonly config: TrainConfig;
@@ -134,7 +135,8 @@ export type TrainRequest =
   | {
       readonly type: 'study';
       readonly id: number;
-      readonly parts: readonly PartArrays[];
+      /** The parts; the ones staged under this id when absent. */
+      readonly parts?: readonly PartArrays[];
       readonly labels: readonly string[];
       readonly checkpoint: CheckpointMessage | null;
       readonly config: TrainConfig;
@@ -189,8 +191,19 @@ export type TrainReply =
 export type DbRequest =
   /** The library's outline: part names in order, failures, source. */
   | { readonly type: 'load-library'; readonly id: number }
-  /** Some of its parts with their data (without their meshes when `meshes` is false). */
-  | { readonly type: 'load-parts'; readonly id: number; readonly names: readonly string[]; readonly meshes?: boolean }
+  /**
+   * Some of its parts with their data: without their meshes when `meshes` is false, without their point clouds
+   * when `clouds` is false; with each part's file-frame box ratio (worked out here, from its cloud).
+   */
+  | {
+      readonly type: 'load-parts';
+      readonly id: number;
+      readonly names: readonly string[];
+      readonly meshes?: boolean;
+      readonly clouds?: boolean;
+    }
+  /** The point clouds of some of its parts, for training, embedding and the views. */
+  | { readonly type: 'load-clouds'; readonly id: number; readonly names: readonly string[] }
   /** The meshes of some of its parts, for the views. */
   | { readonly type: 'load-meshes'; readonly id: number; readonly names: readonly string[] }
   | { readonly type: 'put-parts'; readonly id: number; readonly parts: readonly HashedPart[] }
@@ -226,7 +239,8 @@ export type DbRequest =
 /** What each request answers with. */
 export interface DbAnswers {
   'load-library': { names: string[]; failures: ImportFailure[]; source: 'demo' | 'user' } | null;
-  'load-parts': LibraryPart[];
+  'load-parts': { parts: LibraryPart[]; boxRatios: number[] };
+  'load-clouds': PartClouds[];
   'load-meshes': PartMesh[];
   'put-parts': null;
   'set-contents': null;

@@ -107,22 +107,31 @@ function snapshot(
 /** The model embedding requests name by key (the latest handed over). */
 let keptModel: { key: number; enc: Encoders; cfg: TrainConfig } | null = null;
 
-/** The parts of the run being handed over (`stage` messages), until its `start`. */
-let staged: { id: number; parts: PartArrays[]; cancelled: boolean } | null = null;
+/** The parts of each request being handed over (`stage` messages), until the request that reads them. */
+const staged = new Map<number, { parts: PartArrays[]; cancelled: boolean }>();
+
+/** The request's own parts, or those staged under its id (then forgotten here). */
+function partsOf(req: { id: number; parts?: readonly PartArrays[] }): readonly PartArrays[] {
+  const s = staged.get(req.id);
+  staged.delete(req.id);
+  return req.parts ?? s?.parts ?? [];
+}
 
 self.onmessage = async (event: MessageEvent<TrainRequest>) => {
   const req = event.data;
   try {
     const name = await ready();
     switch (req.type) {
-      case 'stage':
-        if (staged?.id !== req.id) staged = { id: req.id, parts: [], cancelled: false };
-        staged.parts.push(...req.parts);
+      case 'stage': {
+        let s = staged.get(req.id);
+        if (!s) staged.set(req.id, (s = { parts: [], cancelled: false }));
+        s.parts.push(...req.parts);
         return;
+      }
       case 'start': {
-        const stagedHere = staged?.id === req.id ? staged : null;
-        staged = null;
-        if (stagedHere?.cancelled) {
+        const cancelled = staged.get(req.id)?.cancelled ?? false;
+        const parts = partsOf(req);
+        if (cancelled) {
           // Stopped while its parts were still being handed over: it ends before its first step.
           post({
             type: 'done',
@@ -134,7 +143,7 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         if (trainer) throw new Error('a training run is already in progress');
         post({ type: 'backend', id: req.id, backend: name });
         const resume = req.resume ? fromMessage(req.resume) : null;
-        trainer = new Trainer(req.parts ?? stagedHere?.parts ?? [], resume ? resume.manifest.config : req.config, {
+        trainer = new Trainer(parts, resume ? resume.manifest.config : req.config, {
           labels: req.labels,
           ...(resume ? resumeOptions(resume) : {}),
         });
@@ -174,7 +183,7 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         return;
       case 'cancel':
         if (trainer && req.id === trainerId) trainer.cancel();
-        if (staged?.id === req.id) staged.cancelled = true;
+        if (staged.has(req.id)) staged.get(req.id)!.cancelled = true;
         return;
       case 'evaluate': {
         const ckpt = req.checkpoint ? fromMessage(req.checkpoint) : null;
@@ -182,7 +191,7 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
         try {
           const report = evaluateMethods({
-            parts: req.parts,
+            parts: partsOf(req),
             labels: req.labels,
             points: cfg.points,
             pose: cfg.pose,
@@ -204,7 +213,7 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         const untrained = untrainedEncoders(cfg.encoder, cfg.pose, cfg.seed);
         try {
           const rows = await runStudy({
-            parts: req.parts,
+            parts: partsOf(req),
             labels: req.labels,
             points: cfg.points,
             pose: cfg.pose,

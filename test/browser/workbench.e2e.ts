@@ -412,19 +412,29 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     await expect
       .poll(async () => page.getByTestId('search-results').locator('li button').count(), { timeout: 60_000 })
       .toBe(10);
-    // The restored parts came without their meshes: the views fetched the shown ones back from the database, and
-    // the page holds no other part's mesh.
+    // The restored parts came without their meshes and point clouds: the views fetched the shown ones back from
+    // the database, and the page holds no other part's mesh or cloud.
     const meshes = () =>
       page.evaluate(() => {
         const app = document.querySelector('sk-app') as unknown as {
-          state: { library: { meshesFetched: number; parts: { meshIndices: Uint32Array }[] } };
+          state: { library: { meshesFetched: number; parts: { meshIndices: Uint32Array; points: Float32Array }[] } };
         };
         const lib = app.state.library;
-        return { fetched: lib.meshesFetched, held: lib.parts.filter((p) => p.meshIndices.length > 0).length };
+        return {
+          fetched: lib.meshesFetched,
+          held: lib.parts.filter((p) => p.meshIndices.length > 0).length,
+          clouds: lib.parts.filter((p) => p.points.length > 0).length,
+        };
       });
     await expect.poll(async () => (await meshes()).fetched, { timeout: 10_000 }).toBeGreaterThanOrEqual(2);
     expect((await meshes()).held).toBe(0);
+    expect((await meshes()).clouds).toBe(0);
     expect(await page.locator('sk-app .notice').textContent()).not.toMatch(/could not be read back/);
+    // The augmentation preview fetches its part's cloud too.
+    await page.getByRole('tab', { name: 'Augmentations' }).click();
+    await expect
+      .poll(async () => (await page.getByTestId('augment-distances').textContent()) ?? '', { timeout: 10_000 })
+      .toMatch(/Chamfer \d/);
     await page.getByRole('tab', { name: 'Parts library' }).click();
   }, 120_000);
 

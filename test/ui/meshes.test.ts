@@ -3,21 +3,13 @@
 // by name and answers 'load-meshes'.
 
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import { fakeDbWorker } from './fake-db';
 import { fakePart } from './fake-part';
 
 const held = new Map<string, { positions: Float32Array; indices: Uint32Array }>();
 const asked: string[][] = [];
 
-class FakeWorker {
-  onmessage: ((e: { data: unknown }) => void) | null = null;
-  onerror: ((e: { message: string }) => void) | null = null;
-  postMessage(msg: { id: number; type: string; names?: string[] }): void {
-    if (msg.type !== 'load-meshes') throw new Error(`unexpected ${msg.type}`);
-    asked.push(msg.names!);
-    const value = msg.names!.filter((n) => held.has(n)).map((name) => ({ name, ...held.get(name)! }));
-    setTimeout(() => this.onmessage?.({ data: { id: msg.id, ok: true, value } }), 0);
-  }
-}
+const FakeWorker = fakeDbWorker('load-meshes', held, asked);
 
 const part = fakePart;
 

@@ -2,7 +2,7 @@
 // are meant to stay well under it and to let other tasks run between them.
 
 import { describe, expect, it } from 'vitest';
-import { inSlices, SLICE_MS, yieldToPage } from '../../src/ui/pace';
+import { copyInSlices, inSlices, SLICE_MS, yieldToPage } from '../../src/ui/pace';
 
 /** Busy-waits `ms` (a slice of work that takes real time). */
 const spin = (ms: number) => {
@@ -65,5 +65,23 @@ describe('work in slices', () => {
     expect(n).toBe(done.length);
     expect(n).toBeGreaterThanOrEqual(4);
     expect(n).toBeLessThan(20);
+  });
+
+  it('copies a long array exactly, handing the thread back between slices', async () => {
+    const source = Float32Array.from({ length: 3 * 2 ** 18 + 5 }, (_, i) => Math.sin(i));
+    let between = 0;
+    let ticking = true;
+    const tick = () => {
+      between++;
+      if (ticking) setTimeout(tick, 0);
+    };
+    setTimeout(tick, 0);
+    // A zero budget: every 1 MB step is a task of its own (four of them here).
+    const copy = await copyInSlices(source, 0);
+    ticking = false;
+    expect(copy).not.toBe(source);
+    expect(copy).toEqual(source);
+    expect(between).toBeGreaterThanOrEqual(3);
+    expect(await copyInSlices(new Float32Array(0))).toEqual(new Float32Array(0));
   });
 });

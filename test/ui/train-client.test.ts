@@ -1,5 +1,6 @@
-// The page's side of the training worker (ui/controllers/train-client.ts): a run's clouds go over a chunk at a
-// time before its start, and a model goes over once for all the chunks of a library's embedding. The worker is
+// The page's side of the training worker (ui/controllers/train-client.ts): a run's clouds (and a measurement's)
+// are read and go over a chunk at a time before its start, and a model goes over once for all the chunks of a
+// library's embedding. The worker is
 // stood in for by a fake that records what it is sent and answers embedding requests.
 
 import { afterAll, beforeAll, beforeEach, describe, expect, it, vi } from 'vitest';
@@ -36,25 +37,86 @@ beforeEach(() => {
   failEmbeds = false;
 });
 
+/** A source over `parts` that records the ranges read and hands out copies (as clouds.ts does). */
+function sourceOf(parts: { points: Float32Array; normals: Float32Array }[]) {
+  const reads: [number, number][] = [];
+  return {
+    reads,
+    source: {
+      count: parts.length,
+      read: async (from: number, to: number) => {
+        reads.push([from, to]);
+        return parts.slice(from, to).map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+      },
+    },
+  };
+}
+
 describe('starting a training run', () => {
-  it('hands the clouds over in chunks of at most 64, each copied and handed over, then starts without them', async () => {
+  it('reads the clouds and hands them over in chunks of at most 64, then starts without them', async () => {
     const { TrainClient } = await import('../../src/ui/controllers/train-client');
     const client = new TrainClient();
     const parts = Array.from({ length: 150 }, cloud);
-    const id = client.start(parts, null, DEFAULT_TRAIN, { points: 2048, seed: 0 });
-    for (let i = 0; i < 10 && !sent.some((s) => s.msg.type === 'start'); i++) await tick();
+    const { source, reads } = sourceOf(parts);
+    const id = client.start(source, null, DEFAULT_TRAIN, { points: 2048, seed: 0 });
+    for (let i = 0; i < 20 && !sent.some((s) => s.msg.type === 'start'); i++) await tick();
     const types = sent.map((s) => s.msg.type);
     expect(types).toEqual(['stage', 'stage', 'stage', 'start']);
+    expect(reads).toEqual([
+      [0, 64],
+      [64, 128],
+      [128, 150],
+    ]);
     const staged = sent.filter((s) => s.msg.type === 'stage');
     expect(staged.map((s) => (s.msg as { parts: readonly unknown[] }).parts.length)).toEqual([64, 64, 22]);
     expect(sent.every((s) => s.msg.id === id)).toBe(true);
     for (const s of staged) {
       const chunk = (s.msg as { parts: readonly { points: Float32Array }[] }).parts;
-      // Copies, handed over (the page keeps its own clouds).
-      expect(chunk.every((p) => !parts.some((q) => q.points === p.points))).toBe(true);
+      // What the source gave, handed over rather than cloned.
       expect(s.transfer.length).toBe(chunk.length * 2);
+      expect(chunk.every((p) => s.transfer.includes(p.points.buffer))).toBe(true);
     }
     expect((sent[3].msg as { parts?: unknown }).parts).toBeUndefined();
+  });
+
+  it('a chunk that cannot be read ends the run with an error naming why, and it never starts', async () => {
+    const { TrainClient } = await import('../../src/ui/controllers/train-client');
+    const client = new TrainClient();
+    const errors: string[] = [];
+    client.on((m) => m.type === 'error' && errors.push(m.message));
+    const source = {
+      count: 100,
+      read: async (from: number) => {
+        if (from > 0) throw new Error('washer/w7.stl: its point cloud is not in the parts database');
+        return [cloud()];
+      },
+    };
+    client.start(source, null, DEFAULT_TRAIN, { points: 2048, seed: 0 });
+    for (let i = 0; i < 20 && errors.length === 0; i++) await tick();
+    expect(errors).toEqual(['washer/w7.stl: its point cloud is not in the parts database']);
+    expect(sent.map((s) => s.msg.type)).toEqual(['stage']);
+  });
+});
+
+describe('measuring on the whole library', () => {
+  it('stages the clouds under the request id, then asks without them; a stop during the hand-over sends nothing more', async () => {
+    const { TrainClient } = await import('../../src/ui/controllers/train-client');
+    const client = new TrainClient();
+    const { source } = sourceOf(Array.from({ length: 70 }, cloud));
+    const asked = client.evaluate(source, [], null, DEFAULT_TRAIN);
+    for (let i = 0; i < 20 && !sent.some((s) => s.msg.type === 'evaluate'); i++) await tick();
+    expect(sent.map((s) => s.msg.type)).toEqual(['stage', 'stage', 'evaluate']);
+    expect(new Set(sent.map((s) => s.msg.id)).size).toBe(1);
+    expect((sent[2].msg as { parts?: unknown }).parts).toBeUndefined();
+    client.abort();
+    await expect(asked).rejects.toThrow('cancelled');
+
+    sent.length = 0;
+    const study = client.study(sourceOf(Array.from({ length: 200 }, cloud)).source, [], null, DEFAULT_TRAIN, () => {});
+    await tick();
+    client.abort(); // after the first chunk
+    await expect(study).rejects.toThrow('cancelled');
+    expect(sent.map((s) => s.msg.type)).toEqual(['stage']);
   });
 });
 

@@ -22,6 +22,13 @@ export interface PartMesh {
   readonly indices: Uint32Array;
 }
 
+/** A part's point pool as training and embedding read it (unit sphere, stride 3) with its normals. */
+export interface PartClouds {
+  readonly name: string;
+  readonly points: Float32Array;
+  readonly normals: Float32Array;
+}
+
 /** A part as the workbench hands it over: a library part and the SHA-256 of its file, when known. */
 export type HashedPart = LibraryPart & { readonly contentHash?: string };
 
@@ -248,6 +255,20 @@ export class WorkbenchStore {
       if (!r) return [];
       const { meshPositions: positions, meshIndices: indices } = meshArrays(r);
       return [{ name, positions, indices }];
+    });
+  }
+
+  /** The point clouds (unit-sphere pools with normals) of the named parts that are held, in the order named. */
+  async clouds(names: readonly string[]): Promise<PartClouds[]> {
+    const rows = await this.sql.query<{ path: string; points: Uint8Array | null; normals: Uint8Array | null }>(
+      `SELECT path, points, normals FROM parts WHERE state = 'ready' AND path = ANY($1::text[])`,
+      [[...names]],
+    );
+    const byName = new Map(rows.rows.map((r) => [r.path, r]));
+    return names.flatMap((name) => {
+      const r = byName.get(name);
+      if (!r?.points || !r.normals) return [];
+      return [{ name, points: bytesFloats(r.points), normals: bytesFloats(r.normals) }];
     });
   }
 

@@ -10,6 +10,7 @@ import type { Pipeline } from '../../core/points/augment';
 import { exportEmbeddings, type EmbeddingFormat } from '../controllers/exports';
 import { LibraryController } from '../controllers/library';
 import { meshNow } from '../controllers/meshes';
+import { cloudNow, type PartClouds } from '../controllers/clouds';
 import { MeasureController } from '../controllers/measure';
 import { SearchController } from '../controllers/search';
 import { TrainingController } from '../controllers/training';
@@ -201,6 +202,13 @@ export class SkApp extends LitElement {
       <main>${this.renderPanel()}</main>`;
   }
 
+  /** The part's point cloud if the page has it, else null and it is fetched (the page draws again when it comes). */
+  private cloudOrFetch(part: LibraryPart): PartClouds | null {
+    const c = cloudNow(part);
+    if (!c) this.library.fetchMesh(part);
+    return c;
+  }
+
   private renderPanel() {
     const { library, training, search, measure } = this.state;
     const part = library.parts.find((p) => p.name === library.selected) ?? null;
@@ -218,7 +226,7 @@ export class SkApp extends LitElement {
           @import-database=${(e: CustomEvent<File>) => void this.library.importDatabase(e.detail)}
           @cancel-import=${() => this.library.cancel()}></sk-library-panel>`;
       case 'augment':
-        return html`<sk-augment-panel .subject=${part} .pipeline=${training.pipeline} .pose=${training.config.pose}
+        return html`<sk-augment-panel .subject=${part ? this.cloudOrFetch(part) : null} .fetching=${part !== null} .pipeline=${training.pipeline} .pose=${training.config.pose}
           @pipeline-change=${(e: CustomEvent<Pipeline>) => this.training.configure({ ...training.config, pipeline: e.detail })}></sk-augment-panel>`;
       case 'train': {
         const traits = library.parts.length ? this.training.traits() : null;
@@ -241,7 +249,7 @@ export class SkApp extends LitElement {
           @search-file=${(e: CustomEvent<File>) => void this.search.searchFile(e.detail)}
           @search-filters=${(e: CustomEvent<SearchFilters>) => this.search.setFilters(e.detail)}
           @cancel-embedding=${() => this.search.cancel()} @embed-library=${() => void this.search.refresh()}
-          .meshFor=${meshNow} .meshVersion=${library.meshesFetched} @need-mesh=${(e: CustomEvent<LibraryPart>) => this.library.fetchMesh(e.detail)}
+          .meshFor=${meshNow} .cloudFor=${cloudNow} .meshVersion=${library.meshesFetched} @need-mesh=${(e: CustomEvent<LibraryPart>) => this.library.fetchMesh(e.detail)}
           .explanation=${search.explanation} @explain-match=${(e: CustomEvent<number>) => void this.search.explain(e.detail)}></sk-search-panel>`;
       case 'study':
         return html`<sk-study-panel .partCount=${library.parts.length} .report=${measure.report} .rows=${measure.rows} .progress=${measure.study.kind === 'running' ? measure.study.progress : null}

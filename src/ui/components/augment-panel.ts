@@ -3,7 +3,7 @@
 
 import { LitElement, css, html } from 'lit';
 import type { Object3D } from 'three';
-import type { LibraryPart } from '../../core/library';
+import type { PartClouds } from '../../core/db/workbench';
 import {
   AUGMENT_KINDS,
   PRESETS,
@@ -25,12 +25,16 @@ import './viewer';
 export class SkAugmentPanel extends LitElement {
   static override properties = {
     subject: { attribute: false },
+    fetching: { type: Boolean },
     pipeline: { attribute: false },
     pose: { type: String },
     roll: { state: true },
   };
 
-  declare subject: LibraryPart | null;
+  /** The chosen part's point cloud (null: none chosen, or it is being fetched). */
+  declare subject: PartClouds | null;
+  /** A part is chosen and its points are on their way from the parts database. */
+  declare fetching: boolean;
   declare pipeline: Pipeline;
   declare pose: Pose;
   declare roll: number;
@@ -46,6 +50,7 @@ export class SkAugmentPanel extends LitElement {
   constructor() {
     super();
     this.subject = null;
+    this.fetching = false;
     this.pipeline = PRESETS['scan-like'];
     this.pose = 'as-is';
     this.roll = 1;
@@ -152,7 +157,7 @@ export class SkAugmentPanel extends LitElement {
             view B: Chamfer ${this.views.chamfer[1].toFixed(4)}, Hausdorff ${this.views.hausdorff[1].toFixed(3)}
             (unit-sphere units; roll ${this.roll}). Drag any view to turn all three.
           </div>`
-            : html`<div class="empty">Pick a part in the library to preview its augmentations.</div>`
+            : html`<div class="empty">${this.fetching ? 'Reading the part’s points from the library…' : 'Pick a part in the library to preview its augmentations.'}</div>`
         }
       </div>
     </div>`;

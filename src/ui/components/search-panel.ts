@@ -9,7 +9,7 @@ import { ACCEPT } from '../../core/mesh/formats';
 import { LitElement, css, html } from 'lit';
 import type { Object3D } from 'three';
 import type { LibraryPart } from '../../core/library';
-import type { PartMesh } from '../../core/db/workbench';
+import type { PartClouds, PartMesh } from '../../core/db/workbench';
 import { DEFAULT_FILTERS, IDLE, ORDERING, type JobStatus, type MatchExplanation, type SearchFilters } from '../state';
 import type { Hit } from '../../core/retrieval/topk';
 import { alignToFrame, meshObject, pointsObject, PALETTE, weightColours } from '../../render/scene';
@@ -39,6 +39,7 @@ export class SkSearchPanel extends LitElement {
     trained: { type: Boolean },
     explanation: { attribute: false },
     meshFor: { attribute: false },
+    cloudFor: { attribute: false },
     meshVersion: { type: Number },
     why: { state: true },
     ownAxes: { state: true },
@@ -70,6 +71,8 @@ export class SkSearchPanel extends LitElement {
   declare explanation: MatchExplanation | null;
   /** A part's mesh if the page has it now, else null (the panel then asks for it with `need-mesh`). */
   declare meshFor: (p: LibraryPart) => PartMesh | null;
+  /** A part's point cloud if the page has it now, else null (asked for with `need-mesh` too). */
+  declare cloudFor: (p: LibraryPart) => PartClouds | null;
   /** Changes when fetched meshes arrive. */
   declare meshVersion: number;
   declare why: boolean;
@@ -101,6 +104,7 @@ export class SkSearchPanel extends LitElement {
     this.trained = false;
     this.explanation = null;
     this.meshFor = (p) => ({ name: p.name, positions: p.meshPositions, indices: p.meshIndices });
+    this.cloudFor = (p) => ({ name: p.name, points: p.points, normals: p.normals });
     this.meshVersion = 0;
     this.why = false;
     this.ownAxes = false;
@@ -182,37 +186,46 @@ export class SkSearchPanel extends LitElement {
       const hit = this.hits[this.chosen];
       const r = hit ? this.parts[hit.index] : null;
       const e = this.explanation;
-      if (this.why && q && r && e && e.query === q.name && e.result === r.name) {
+      const qc = q ? this.cloudOrAsk(q) : null;
+      const rc = r ? this.cloudOrAsk(r) : null;
+      if (this.why && q && r && qc && rc && e && e.query === q.name && e.result === r.name) {
         // The points that carry the similarity, on the same scale in both views.
         const max = Math.max(...e.a, ...e.b);
         const n = e.a.length;
         this.objects.query = this.posed(
-          q,
-          pointsObject(q.points.subarray(0, 3 * n), 0.07, undefined, weightColours(e.a, max)),
+          qc,
+          pointsObject(qc.points.subarray(0, 3 * n), 0.07, undefined, weightColours(e.a, max)),
         );
         this.objects.result = this.posed(
-          r,
-          pointsObject(r.points.subarray(0, 3 * n), 0.07, undefined, weightColours(e.b, max)),
+          rc,
+          pointsObject(rc.points.subarray(0, 3 * n), 0.07, undefined, weightColours(e.b, max)),
         );
       } else {
-        this.objects.query = q ? this.posed(q, this.objectFor(q, PALETTE.teal)) : null;
-        this.objects.result = r ? this.posed(r, this.objectFor(r, PALETTE.rust)) : null;
+        this.objects.query = q && qc ? this.posed(qc, this.objectFor(q, qc, PALETTE.teal)) : null;
+        this.objects.result = r && rc ? this.posed(rc, this.objectFor(r, rc, PALETTE.rust)) : null;
       }
     }
   }
 
+  /** The part's point cloud, or null until it is fetched (asked for here). */
+  private cloudOrAsk(p: LibraryPart): PartClouds | null {
+    const c = this.cloudFor(p);
+    if (!c) this.emit('need-mesh', p);
+    return c;
+  }
+
   /** The part's mesh, or its points until the mesh is fetched (asked for here) or when it has none. */
-  private objectFor(p: LibraryPart, colour: number): Object3D {
+  private objectFor(p: LibraryPart, cloud: PartClouds, colour: number): Object3D {
     const mesh = this.meshFor(p);
     if (!mesh) this.emit('need-mesh', p);
     return mesh && mesh.indices.length > 0
       ? meshObject(mesh.positions, mesh.indices, p.centre, p.radius, colour)
-      : pointsObject(p.points, 0.03);
+      : pointsObject(cloud.points, 0.03);
   }
 
   /** Both parts in their principal axes (computed from the sampled points), unless the files' own axes are asked for. */
-  private posed(p: LibraryPart, obj: Object3D): Object3D {
-    return this.ownAxes ? obj : alignToFrame(obj, principalFrame(p.points));
+  private posed(cloud: PartClouds, obj: Object3D): Object3D {
+    return this.ownAxes ? obj : alignToFrame(obj, principalFrame(cloud.points));
   }
 
   protected override updated(changed: Map<string, unknown>): void {

@@ -2,10 +2,11 @@
 // (PGlite with pgvector in IndexedDB), so a reload restores them and the page never waits on storage. Thumbnails,
 // a cache that can always be drawn again, stay in a plain IndexedDB record.
 
-import type { HashedPart, PartMesh, WorkbenchLibrary } from '../../core/db/workbench';
+import type { HashedPart, PartClouds, PartMesh, WorkbenchLibrary } from '../../core/db/workbench';
 import type { LibraryPart } from '../../core/library';
 import type { ImportFailure } from '../../core/mesh/import';
 import type { CheckpointMessage, DbAnswers, DbReply, DbRequest, TableMessage } from '../../worker/protocol';
+import { copyInSlices } from '../pace';
 
 type Waiter = { resolve: (v: unknown) => void; reject: (e: Error) => void };
 
@@ -46,7 +47,8 @@ class DatabaseClient {
 
 const db = new DatabaseClient();
 
-export type StoredLibrary = WorkbenchLibrary;
+/** The kept library, its parts without meshes or clouds, and each part's file-frame box ratio (in order). */
+export type StoredLibrary = WorkbenchLibrary & { readonly boxRatios: readonly number[] };
 
 /** Parts written per message: each is cloned on the page's thread, so a few at a time keep every task short. */
 const PARTS_PER_WRITE = 10;
@@ -192,25 +194,30 @@ const PARTS_PER_READ = 50;
 
 /**
  * The kept library, or null (none kept, or the database cannot be read); `onProgress` as its parts arrive. The
- * parts come without their meshes (`loadMeshes` fetches one for a view).
+ * parts come without their meshes and point clouds (`loadMeshes` and `loadClouds` fetch them when needed).
  */
 export async function loadLibrary(onProgress?: (done: number, total: number) => void): Promise<StoredLibrary | null> {
   try {
     const outline = await db.ask({ type: 'load-library' });
     if (!outline) return null;
     const parts: LibraryPart[] = [];
+    const boxRatios: number[] = [];
     for (let i = 0; i < outline.names.length; i += PARTS_PER_READ) {
       const names = outline.names.slice(i, i + PARTS_PER_READ);
-      const batch = await db.ask({ type: 'load-parts', names, meshes: false });
-      batch.forEach((p) => stored.add(p));
-      parts.push(...batch);
+      const batch = await db.ask({ type: 'load-parts', names, meshes: false, clouds: false });
+      batch.parts.forEach((p) => stored.add(p));
+      parts.push(...batch.parts);
+      boxRatios.push(...batch.boxRatios);
       onProgress?.(parts.length, outline.names.length);
     }
-    return { parts, failures: outline.failures, source: outline.source };
+    return { parts, boxRatios, failures: outline.failures, source: outline.source };
   } catch {
     return null;
   }
 }
+
+/** The point clouds of the named parts the database holds, in the order named. */
+export const loadClouds = (names: readonly string[]): Promise<PartClouds[]> => db.ask({ type: 'load-clouds', names });
 
 /** The meshes of the named parts the database holds, in the order named. */
 export const loadMeshes = (names: readonly string[]): Promise<PartMesh[]> => db.ask({ type: 'load-meshes', names });
@@ -231,9 +238,10 @@ export const loadModel = (): Promise<{ checkpoint: CheckpointMessage; fingerprin
   db.ask({ type: 'load-model' });
 
 /** Keeps a model's embeddings of the named parts; false when that model is no longer kept (stale). */
-export const saveEmbeddings = (key: string, names: readonly string[], vectors: Float32Array, dim: number) => {
-  // A copy, handed over (without the hand-over, the message's clone was a second copy on the page's thread).
-  const copy = vectors.slice();
+export const saveEmbeddings = async (key: string, names: readonly string[], vectors: Float32Array, dim: number) => {
+  // A copy, made a slice at a time and handed over (without the hand-over, the message's clone was a second copy
+  // on the page's thread, in one task).
+  const copy = await copyInSlices(vectors);
   return db.ask({ type: 'put-embeddings', key, names, vectors: copy, dim }, [copy.buffer]);
 };
 

@@ -24,6 +24,7 @@ import {
 import { download } from './download';
 import { ThumbnailClient } from './thumbnails';
 import { cameWithoutMesh, markWritten, meshOf } from './meshes';
+import { cameWithoutCloud, cloudOf, cloudWritten } from './clouds';
 
 /** Lets an object URL's picture go (data URLs kept by an earlier version need nothing). */
 const forget = (url: string | undefined) => {
@@ -53,6 +54,8 @@ export class LibraryController {
   private generation = 0;
   /** Parts whose meshes are being fetched for the views. */
   private readonly fetching = new Set<string>();
+  /** Parts whose mesh or cloud could not be read back (not asked for again). */
+  private readonly unreadable = new Set<string>();
 
   constructor(
     private readonly store: Store<AppState>,
@@ -82,7 +85,10 @@ export class LibraryController {
       this.store.patch('library', { failures: stored.failures, status: IDLE });
       return;
     }
-    stored.parts.forEach(cameWithoutMesh);
+    stored.parts.forEach((p, i) => {
+      cameWithoutMesh(p);
+      cameWithoutCloud(p, stored.boxRatios[i]);
+    });
     const units = await loadFolderUnits();
     const kept = (await loadThumbnails()) ?? new Map<string, KeptThumbnail>();
     const names = new Set(stored.parts.map((p) => p.name));
@@ -199,13 +205,16 @@ export class LibraryController {
     return this.state.parts.find((p) => p.name === name) ?? null;
   }
 
-  /** Fetches a part's mesh from the parts database for the views; they redraw when it comes. */
+  /** Fetches a part's mesh and point cloud from the parts database for the views; they redraw when both came. */
   fetchMesh(part: LibraryPart): void {
-    if (this.fetching.has(part.name)) return;
+    if (this.fetching.has(part.name) || this.unreadable.has(part.name)) return;
     this.fetching.add(part.name);
-    meshOf(part)
+    Promise.all([meshOf(part), cloudOf(part)])
       .then(() => this.store.patch('library', { meshesFetched: this.state.meshesFetched + 1 }))
-      .catch((err: Error) => say(this.store, `The shape of ${part.name} could not be read back: ${err.message}`))
+      .catch((err: Error) => {
+        this.unreadable.add(part.name); // asked for again at every drawing: said once
+        say(this.store, `The shape of ${part.name} could not be read back: ${err.message}`);
+      })
       .finally(() => this.fetching.delete(part.name));
   }
 
@@ -241,7 +250,11 @@ export class LibraryController {
     // What is read is written to the database as it comes (one writer, a few parts a message), with the list of
     // the parts written so far every few seconds: a reload or a closed tab during a long import keeps them.
     const growing = { parts, failures, source };
-    const onPartsWritten = (written: readonly LibraryPart[]) => written.forEach(markWritten);
+    const onPartsWritten = (written: readonly LibraryPart[]) =>
+      written.forEach((p) => {
+        markWritten(p);
+        cloudWritten(p);
+      });
     // A failed write here is reported by the closing save (`keep`), which meets it again.
     const keepSoFar = () => void saveLibrary(growing, { interim: true, onPartsWritten }).catch(() => {});
     let flushAt = 0;

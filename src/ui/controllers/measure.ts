@@ -6,6 +6,7 @@ import { AUGMENT_KINDS } from '../../core/points/augment';
 import { STUDY_QUERIES } from '../../core/quality/sampling';
 import { STARTED, type AppState, type MeasureState, type Store } from '../state';
 import { download } from './download';
+import { librarySource } from './clouds';
 import type { TrainingController } from './training';
 
 /** Three strengths keep the browser study to a few minutes; `shapekin study` runs five. */
@@ -24,7 +25,7 @@ export class MeasureController {
   private inputs() {
     const parts = this.store.value.library.parts;
     return {
-      parts: parts.map((p) => ({ points: p.points, normals: p.normals })),
+      parts: librarySource(parts),
       labels: parts.map((p) => p.label),
       model: this.training.state.model,
       config: this.training.state.config,

@@ -3,7 +3,11 @@
 
 import type { LibraryPart } from '../../core/library';
 import type { ThumbnailReply, ThumbnailRequest } from '../../worker/thumbnail.worker';
+import { MAX_THUMBNAIL_TRIANGLES } from '../../render/thumbnail';
 import { meshNow, meshOf, type PartMesh } from './meshes';
+import { cloudNow, cloudOf } from './clouds';
+
+const NO_POINTS = new Float32Array(0);
 
 /**
  * Requests in the worker at a time; the rest wait on the page, uncopied. Posting a whole delivered batch at once
@@ -53,7 +57,8 @@ export class ThumbnailClient {
 
   /**
    * Hands the next requests to the worker while fewer than IN_FLIGHT are there. A part whose mesh the page has let
-   * go (meshes.ts) has it fetched from the database first.
+   * go (meshes.ts) has it fetched from the database first; its point cloud only when the picture needs it (a part
+   * without triangles, or with too many to draw), since a large import's thumbnails are drawn after its parts went.
    */
   private pump(): void {
     while (this.waiting.size < IN_FLIGHT && this.queued.length > 0) {
@@ -61,10 +66,20 @@ export class ThumbnailClient {
       const id = this.nextId++;
       this.waiting.set(id, job);
       const now = meshNow(job.part);
-      if (now) this.post(id, job.part, now);
+      const points = (mesh: PartMesh): Float32Array | Promise<Float32Array> => {
+        const cloud = cloudNow(job.part);
+        if (cloud) return cloud.points;
+        const drawable = mesh.indices.length > 0 && mesh.indices.length / 3 <= MAX_THUMBNAIL_TRIANGLES;
+        return drawable ? NO_POINTS : cloudOf(job.part).then((c) => c.points);
+      };
+      const ready = now ? points(now) : null;
+      if (now && ready instanceof Float32Array) this.post(id, job.part, now, ready);
       else
-        meshOf(job.part).then(
-          (mesh) => this.post(id, job.part, mesh),
+        (async () => {
+          const mesh = now ?? (await meshOf(job.part));
+          return [mesh, await points(mesh)] as const;
+        })().then(
+          ([mesh, pts]) => this.post(id, job.part, mesh, pts),
           (err: Error) => {
             this.waiting.delete(id);
             job.reject(err);
@@ -74,7 +89,7 @@ export class ThumbnailClient {
     }
   }
 
-  private post(id: number, p: LibraryPart, mesh: PartMesh): void {
+  private post(id: number, p: LibraryPart, mesh: PartMesh, points: Float32Array): void {
     const request: ThumbnailRequest = {
       id,
       part: {
@@ -83,7 +98,7 @@ export class ThumbnailClient {
         meshIndices: mesh.indices.slice(),
         centre: p.centre,
         radius: p.radius,
-        points: p.points.slice(),
+        points: points.slice(),
       },
     };
     const r = request.part;

@@ -25,16 +25,22 @@ const keyOf = (c: CheckpointMessage): number => {
   return k;
 };
 
-/** A copy of a part's clouds, to hand over (the page keeps its own). */
-const copyCloud = (p: PartArrays): PartArrays => ({ points: p.points.slice(), normals: p.normals.slice() });
+/**
+ * Where a whole-library job's clouds come from, a chunk at a time: `read(from, to)` gives the clouds of parts
+ * from..to-1 as arrays the client may hand over (copies of the page's, or fresh from the parts database).
+ */
+export interface CloudSource {
+  readonly count: number;
+  read(from: number, to: number): Promise<PartArrays[]>;
+}
 
 /** Parts handed to the training worker a message at a time: about 3 MB of clouds, a few ms of copying (measured). */
-const STAGE_CHUNK = 64;
+export const STAGE_CHUNK = 64;
 
 /**
- * The buffers a request may hand over instead of cloning: every request carries fresh copies made here (the
- * page keeps its own), so the clouds and the model's weights move to the worker without a second copy on the
- * page's thread (cloning them took 50–70 ms a request on the demo).
+ * The buffers a request hands over instead of cloning: clouds come to the client as arrays it owns (clouds.ts
+ * copies the page's own or fetches them), the model's weights are copied here, so they move to the worker without
+ * a second copy on the page's thread (cloning them took 50–70 ms a request on the demo).
  */
 function transfersOf(msg: TrainRequest): Transferable[] {
   const out: Transferable[] = [];
@@ -63,6 +69,8 @@ export class TrainClient {
   runId = 0;
   /** The key of the model this worker keeps for embedding (0: none). */
   private modelSent = 0;
+  /** Counts the ends of the worker (abort, dispose): a hand-over under way stops at the next chunk. */
+  private epoch = 0;
 
   private get w(): Worker {
     if (!this.worker) {
@@ -86,12 +94,13 @@ export class TrainClient {
   }
 
   /**
-   * Starts a run; returns its id. The clouds are copied (the page keeps its own) and handed over a chunk at a
-   * time, each chunk a task of its own, so a library of thousands does not hold the page still while it is copied;
-   * the run starts once all are there. A stop before then ends it before its first step.
+   * Starts a run; returns its id. The clouds are read from `source` and handed over a chunk at a time, each chunk
+   * a task of its own, so a library of thousands does not hold the page still (nor all its clouds on the page at
+   * once); the run starts once all are there. A stop before then ends it before its first step; a chunk that
+   * cannot be read ends it with an error.
    */
   start(
-    parts: readonly PartArrays[],
+    source: CloudSource,
     labels: readonly number[] | null,
     config: TrainConfig,
     sampling: { points: number; seed: number },
@@ -99,31 +108,27 @@ export class TrainClient {
   ): number {
     const id = this.nextId++;
     this.runId = id;
-    void this.stageAndStart(id, parts, labels, config, sampling, resume);
+    const weights = resume ? { ...resume, weightData: resume.weightData.slice(0) } : null;
+    void this.stage(id, source).then(
+      () => this.send({ type: 'start', id, labels, config, sampling, ...(weights ? { resume: weights } : {}) }),
+      (err: Error) => this.listeners.forEach((l) => l({ type: 'error', id, message: err.message })),
+    );
     return id;
   }
 
-  private async stageAndStart(
-    id: number,
-    parts: readonly PartArrays[],
-    labels: readonly number[] | null,
-    config: TrainConfig,
-    sampling: { points: number; seed: number },
-    resume?: CheckpointMessage,
-  ): Promise<void> {
-    for (let i = 0; i < parts.length; i += STAGE_CHUNK) {
-      const msg: TrainRequest = { type: 'stage', id, parts: parts.slice(i, i + STAGE_CHUNK).map(copyCloud) };
+  /** Hands the source's clouds to the worker under `id`, a chunk a message, each read and sent in a task of its own. */
+  private async stage(id: number, source: CloudSource): Promise<void> {
+    const epoch = this.epoch;
+    for (let i = 0; i < source.count; i += STAGE_CHUNK) {
+      if (epoch !== this.epoch) throw new Error('cancelled'); // the worker was ended meanwhile
+      const msg: TrainRequest = {
+        type: 'stage',
+        id,
+        parts: await source.read(i, Math.min(source.count, i + STAGE_CHUNK)),
+      };
       this.send(msg, transfersOf(msg));
-      if (i + STAGE_CHUNK < parts.length) await yieldToPage();
+      if (i + STAGE_CHUNK < source.count) await yieldToPage();
     }
-    this.send({
-      type: 'start',
-      id,
-      labels,
-      config,
-      sampling,
-      ...(resume ? { resume: { ...resume, weightData: resume.weightData.slice(0) } } : {}),
-    });
   }
 
   pause(): void {
@@ -157,12 +162,12 @@ export class TrainClient {
     });
   }
 
+  /** Embeddings of `parts` (handed over: the caller owns them and lets them go). */
   async embed(
     parts: readonly PartArrays[],
     checkpoint: CheckpointMessage | null,
     config: TrainConfig,
   ): Promise<{ vectors: Float32Array; dim: number }> {
-    const copies = parts.map(copyCloud);
     const id = this.nextId++;
     // The model goes over once; the worker keeps it under its key for the chunks after.
     const modelKey = checkpoint ? keyOf(checkpoint) : undefined;
@@ -173,7 +178,7 @@ export class TrainClient {
         {
           type: 'embed',
           id,
-          parts: copies,
+          parts,
           checkpoint: carry ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
           ...(modelKey !== undefined ? { modelKey } : {}),
           config,
@@ -208,13 +213,15 @@ export class TrainClient {
     return reply.ordering;
   }
 
-  /** Milliseconds of one training step with `config` (timed in the worker on `parts`, a batch-sized sample). */
+  /**
+   * Milliseconds of one training step with `config` (timed in the worker on `parts`, a batch-sized sample, handed
+   * over).
+   */
   async probe(parts: readonly PartArrays[], config: TrainConfig): Promise<number> {
-    const copies = parts.map(copyCloud);
-    return (await this.request({ type: 'probe', id: this.nextId++, parts: copies, config }, 'probed')).msPerStep;
+    return (await this.request({ type: 'probe', id: this.nextId++, parts, config }, 'probed')).msPerStep;
   }
 
-  /** Contributions of the first `points` points of a and b to their similarity. */
+  /** Contributions of the first `points` points of a and b (handed over) to their similarity. */
   async explain(
     a: PartArrays,
     b: PartArrays,
@@ -225,8 +232,8 @@ export class TrainClient {
       {
         type: 'explain',
         id: this.nextId++,
-        a: copyCloud(a),
-        b: copyCloud(b),
+        a,
+        b,
         checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
         config,
       },
@@ -245,18 +252,19 @@ export class TrainClient {
     await this.request({ type: 'forget-saved', id: this.nextId++ }, 'saved');
   }
 
+  /** Retrieval quality against the baselines, on the clouds of `source` (handed over a chunk at a time first). */
   async evaluate(
-    parts: readonly PartArrays[],
+    source: CloudSource,
     labels: readonly string[],
     checkpoint: CheckpointMessage | null,
     config: TrainConfig,
   ): Promise<EvaluationReport> {
-    const copies = parts.map(copyCloud);
+    const id = this.nextId++;
+    await this.stage(id, source);
     const r = await this.request(
       {
         type: 'evaluate',
-        id: this.nextId++,
-        parts: copies,
+        id,
         labels,
         checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
         config,
@@ -266,8 +274,9 @@ export class TrainClient {
     return r.report;
   }
 
+  /** The augmentation study on the clouds of `source` (handed over a chunk at a time first). */
   async study(
-    parts: readonly PartArrays[],
+    source: CloudSource,
     labels: readonly string[],
     checkpoint: CheckpointMessage | null,
     config: TrainConfig,
@@ -279,13 +288,12 @@ export class TrainClient {
       if (m.id === id && m.type === 'study-progress') onProgress(m.done, m.total, m.what);
     });
     try {
-      const copies = parts.map(copyCloud);
+      await this.stage(id, source);
       return (
         await this.request(
           {
             type: 'study',
             id,
-            parts: copies,
             labels,
             checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
             config,
@@ -305,6 +313,7 @@ export class TrainClient {
    * in IndexedDB and every request carries what it needs, so nothing is lost.
    */
   abort(): void {
+    this.epoch++;
     this.worker?.terminate();
     this.worker = null;
     this.modelSent = 0;
@@ -312,6 +321,7 @@ export class TrainClient {
   }
 
   dispose(): void {
+    this.epoch++;
     this.worker?.terminate();
     this.worker = null;
     this.modelSent = 0;

@@ -3,7 +3,6 @@
 // is shared with the embedding and measurement jobs, which run in the same worker between training runs.
 
 import { defaultEpochs, defaultInputs, defaultPose, type LibraryTraits } from '../../core/model/defaults';
-import { fileFrameBoxRatio } from '../../core/points/pca';
 import { modelJsonFor, readModelJson, WEIGHTS_FILE, type ModelJson } from '../../core/model/model-json';
 import type { TrainConfig } from '../../core/model/train-config';
 import type { LibraryPart } from '../../core/library';
@@ -13,19 +12,12 @@ import { download } from './download';
 import { loadModel, saveModel } from './library-db';
 import { SAMPLING } from './library';
 import { TrainClient } from './train-client';
+import { boxRatioOf, cloudsToHand, hasBoxRatio, librarySource } from './clouds';
 import { inSlices } from '../pace';
 
 export interface TrainingEvents {
   /** The model changed (a run ended, a model was imported): embeddings must follow. */
   onModelChanged(): void;
-}
-
-/** Each part's file-frame box ratio, worked out once. */
-const boxRatios = new WeakMap<LibraryPart, number>();
-function boxRatioOf(p: LibraryPart): number {
-  let r = boxRatios.get(p);
-  if (r === undefined) boxRatios.set(p, (r = fileFrameBoxRatio(p.points)));
-  return r;
 }
 
 export class TrainingController {
@@ -98,7 +90,7 @@ export class TrainingController {
    */
   private async measureParts(parts: readonly LibraryPart[]): Promise<void> {
     await inSlices(
-      parts.filter((p) => !boxRatios.has(p)),
+      parts.filter((p) => !hasBoxRatio(p)),
       (p) => boxRatioOf(p),
       undefined,
       () => this.store.value.library.parts !== parts,
@@ -214,7 +206,10 @@ export class TrainingController {
     this.probing = key;
     try {
       const sample = parts.slice(0, Math.min(parts.length, config.batchSize));
-      const ms = await this.client.probe(sample, { ...config, batchSize: Math.min(config.batchSize, sample.length) });
+      const ms = await this.client.probe(await cloudsToHand(sample), {
+        ...config,
+        batchSize: Math.min(config.batchSize, sample.length),
+      });
       if (this.probing === key) this.patch({ stepMs: { key, ms } });
     } catch {
       // no estimate: the panel says nothing rather than a guess
@@ -238,13 +233,7 @@ export class TrainingController {
     this.patch({ config, status: STARTED, progress: null, ...(resume ? {} : { history: [], checks: [] }) });
     say(this.store, '');
     const labels = config.loss.name === 'supervised-contrastive' ? labelIds(parts) : null;
-    this.client.start(
-      parts.map((p) => ({ points: p.points, normals: p.normals })),
-      labels,
-      config,
-      SAMPLING,
-      resume,
-    );
+    this.client.start(librarySource(parts), labels, config, SAMPLING, resume);
   }
 
   continueSaved(): void {

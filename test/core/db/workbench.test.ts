@@ -57,7 +57,7 @@ describe('the workbench library in the database', () => {
     }
   });
 
-  it('parts can be read without their meshes, and the meshes alone, bit for bit, when a view needs them', async () => {
+  it('parts can be read without their meshes, and the meshes or the clouds alone, bit for bit, when needed', async () => {
     const store = await fresh();
     const parts = [...demoParts('washer', 2), ...demoParts('angle', 1)];
     await store.putParts(parts);
@@ -76,6 +76,14 @@ describe('the workbench library in the database', () => {
       expect(m.positions).toEqual(orig.meshPositions);
       expect(m.indices).toEqual(orig.meshIndices);
       expect(m.indices).toBeInstanceOf(Uint32Array);
+    }
+    // The clouds alone, in the order named (a name not held is left out), bit for bit as written.
+    const clouds = await store.clouds([parts[1].name, 'nowhere/none.stl', parts[2].name]);
+    expect(clouds.map((c) => c.name)).toEqual([parts[1].name, parts[2].name]);
+    for (const c of clouds) {
+      const orig = parts.find((q) => q.name === c.name)!;
+      expect(c.points).toEqual(orig.points);
+      expect(c.normals).toEqual(orig.normals);
     }
   });
 
