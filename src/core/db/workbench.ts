@@ -48,6 +48,9 @@ function meshArrays(r: { mesh_positions: Uint8Array | null; mesh_indices: Uint8A
   };
 }
 
+/** Embeddings written per INSERT (measured: docs/log/2026-12-05-clouds-and-resamplings.md). */
+export const EMBEDDINGS_PER_STATEMENT = 500;
+
 /** The key under which the untrained encoder's embeddings are kept (it is a model too: its seed and settings). */
 export const isUntrainedKey = (key: string): boolean => key.startsWith('untrained:');
 
@@ -299,33 +302,47 @@ export class WorkbenchStore {
       }
       if (model === undefined) return false; // the model was replaced meanwhile: these embeddings are stale
       await tx.query('DELETE FROM embeddings WHERE model_id = $1', [model]);
-      const literals = names.map((_, i) => vectorLiteral(vectors.subarray(i * dim, (i + 1) * dim)));
-      await tx.query(
-        `INSERT INTO embeddings (model_id, part_id, embedding)
-         SELECT $1, p.id, u.e::vector FROM unnest($2::text[], $3::text[]) AS u(path, e) JOIN parts p ON p.path = u.path`,
-        [model, [...names], literals],
-      );
+      // A few hundred rows a statement: all 20,000 rows of 1,024 values in one grew the database's memory by 3 GB
+      // (PGlite in Node), which WebAssembly memory never gives back.
+      for (let from = 0; from < names.length; from += EMBEDDINGS_PER_STATEMENT) {
+        const to = Math.min(names.length, from + EMBEDDINGS_PER_STATEMENT);
+        const literals: string[] = [];
+        for (let i = from; i < to; i++) literals.push(vectorLiteral(vectors.subarray(i * dim, (i + 1) * dim)));
+        await tx.query(
+          `INSERT INTO embeddings (model_id, part_id, embedding)
+           SELECT $1, p.id, u.e::vector FROM unnest($2::text[], $3::text[]) AS u(path, e) JOIN parts p ON p.path = u.path`,
+          [model, names.slice(from, to), literals],
+        );
+      }
       return true;
     });
   }
 
   /** A model's embeddings of the named parts in that order, or null unless every one is kept. */
   async embeddings(key: string, names: readonly string[]): Promise<{ vectors: Float32Array; dim: number } | null> {
-    const r = await this.sql.query<{ path: string; v: number[] }>(
-      `SELECT p.path, e.embedding::real[] AS v FROM embeddings e JOIN parts p ON p.id = e.part_id
-       JOIN models m ON m.id = e.model_id WHERE m.fingerprint = $1`,
-      [key],
-    );
-    if (r.rows.length === 0) return null;
-    const byName = new Map(r.rows.map((x) => [x.path, x.v]));
-    const dim = r.rows[0].v.length;
-    const vectors = new Float32Array(names.length * dim);
-    for (const [i, n] of names.entries()) {
-      const v = byName.get(n);
-      if (!v) return null;
-      vectors.set(v, i * dim);
+    // Read a few hundred at a time, as they are written: one read of 20,000 rows grew the memory by 0.8 GB.
+    let vectors: Float32Array | null = null;
+    let dim = 0;
+    for (let from = 0; from < names.length; from += EMBEDDINGS_PER_STATEMENT) {
+      const chunk = names.slice(from, from + EMBEDDINGS_PER_STATEMENT);
+      const r = await this.sql.query<{ path: string; v: number[] }>(
+        `SELECT p.path, e.embedding::real[] AS v FROM embeddings e JOIN parts p ON p.id = e.part_id
+         JOIN models m ON m.id = e.model_id WHERE m.fingerprint = $1 AND p.path = ANY($2::text[])`,
+        [key, chunk],
+      );
+      if (r.rows.length === 0) return null;
+      if (!vectors) {
+        dim = r.rows[0].v.length;
+        vectors = new Float32Array(names.length * dim);
+      }
+      const byName = new Map(r.rows.map((x) => [x.path, x.v]));
+      for (const [j, n] of chunk.entries()) {
+        const v = byName.get(n);
+        if (!v) return null;
+        vectors.set(v, (from + j) * dim);
+      }
     }
-    return { vectors, dim };
+    return vectors ? { vectors, dim } : null;
   }
 
   /**

@@ -12,6 +12,8 @@ export interface ImportCallbacks {
   onPart(part: LibraryPart): void;
   onFailure(failure: ImportFailure): void;
   onProgress(done: number, total: number, file: string): void;
+  /** Awaited before each file is started: the caller holds reading back while it catches up (e.g. with writing). */
+  ready?(): Promise<void>;
 }
 
 export interface TimeLimits {
@@ -93,6 +95,8 @@ export class LibraryClient {
     };
     const run = async (slot: number) => {
       while (next < files.length && this.current === batch) {
+        if (callbacks.ready) await callbacks.ready();
+        if (next >= files.length || this.current !== batch) break;
         const i = next++;
         const limitMs = fileTimeLimitMs(inputBytes(files[i]), this.timeLimits);
         outcomes[i] = await this.importOne(slot, files[i], sampling, limitMs, batch);

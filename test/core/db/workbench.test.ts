@@ -7,7 +7,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { openEmbedded } from '../../../src/core/db/embedded';
 import { PartsDb } from '../../../src/core/db/parts-db';
 import type { Sql } from '../../../src/core/db/sql';
-import { WorkbenchStore } from '../../../src/core/db/workbench';
+import { EMBEDDINGS_PER_STATEMENT, WorkbenchStore } from '../../../src/core/db/workbench';
 import { replaceContents } from '../../../src/core/db/copy';
 import { loadPart, type LibraryPart } from '../../../src/core/library';
 import { EmbeddingIndex } from '../../../src/core/retrieval/index';
@@ -109,6 +109,28 @@ describe('the workbench library in the database', () => {
     await store.putParts([parts[1]]);
     expect(await store.embeddings('untrained:a', [names[2]])).not.toBeNull();
     expect(await store.embeddings('untrained:a', [names[1]])).toBeNull();
+  });
+
+  it('a library larger than one statement writes and reads its embeddings in pieces, bit for bit, in order', async () => {
+    const store = await fresh();
+    const n = 2 * EMBEDDINGS_PER_STATEMENT + 3;
+    const names = Array.from({ length: n }, (_, i) => `bolt/b${i}.off`);
+    await store.db.sql.query(
+      `INSERT INTO parts (path, content_hash, file_bytes, label, state)
+       SELECT u, 'h', 1, 'bolt', 'ready' FROM unnest($1::text[]) u`,
+      [names],
+    );
+    const vectors = Float32Array.from({ length: n * 3 }, (_, i) => Math.fround(Math.sin(i) / 3));
+    expect(await store.putEmbeddings('untrained:big', names, vectors, 3)).toBe(true);
+    const order = [...names].reverse();
+    const back = await store.embeddings('untrained:big', order);
+    expect(back!.dim).toBe(3);
+    for (let i = 0; i < n; i++)
+      expect([...back!.vectors.subarray(i * 3, i * 3 + 3)]).toEqual([
+        ...vectors.subarray((n - 1 - i) * 3, (n - i) * 3),
+      ]);
+    // One missing in the last piece: none are served.
+    expect(await store.embeddings('untrained:big', [...names, 'bolt/none.off'])).toBeNull();
   });
 });
 
