@@ -78,10 +78,18 @@ export class EmbeddingIndex {
     return this.vectors.subarray(i * this.dim, (i + 1) * this.dim);
   }
 
-  /** Cosine similarity of the query to every entry (rows are unit length, so a dot product). */
-  scores(query: ArrayLike<number>, out: Float32Array = new Float32Array(this.count)): Float32Array {
+  /**
+   * Cosine similarity of the query to every entry (rows are unit length, so a dot product); with `from` and `to`,
+   * of entries from..to-1 only (into the same places of `out`), so a caller can spread a large library over tasks.
+   */
+  scores(
+    query: ArrayLike<number>,
+    out: Float32Array = new Float32Array(this.count),
+    from = 0,
+    to = this.count,
+  ): Float32Array {
     const q = normaliseRows(Float32Array.from(query), this.dim);
-    for (let i = 0; i < this.count; i++) out[i] = dot4(this.vectors, i * this.dim, q, this.dim);
+    for (let i = from; i < to; i++) out[i] = dot4(this.vectors, i * this.dim, q, this.dim);
     return out;
   }
 
@@ -102,9 +110,10 @@ export class EmbeddingIndex {
     };
   }
 
-  query(query: ArrayLike<number>, k: number, filter: QueryFilter = {}): Hit[] {
+  /** The k nearest by cosine; `cosine`, when given, is `scores(query)` worked out already. */
+  query(query: ArrayLike<number>, k: number, filter: QueryFilter = {}, cosine?: Float32Array): Hit[] {
     if (query.length !== this.dim) throw new RangeError(`query has ${query.length} values, the index ${this.dim}`);
-    return topK(this.scores(query), Math.min(k, this.count), this.filterOf(filter));
+    return topK(cosine ?? this.scores(query), Math.min(k, this.count), this.filterOf(filter));
   }
 
   private graph: DiffusionGraph | null = null;
@@ -202,9 +211,10 @@ export class EmbeddingIndex {
     k: number,
     filter: QueryFilter = {},
     options: DiffusionOptions = DIFFUSION_DEFAULTS,
+    scored?: Float32Array,
   ): Hit[] {
     if (query.length !== this.dim) throw new RangeError(`query has ${query.length} values, the index ${this.dim}`);
-    const cosine = this.scores(query);
+    const cosine = scored ?? this.scores(query);
     const graph = this.diffusionGraph(options);
     const inLibrary = filter.exclude !== undefined && filter.exclude >= 0 && filter.exclude < this.count;
     const corrected = this.hubCorrected(cosine, inLibrary ? filter.exclude : undefined);
@@ -244,11 +254,20 @@ export class EmbeddingIndex {
     return this.meanPairCosine() < diffusionCeiling(this.gridShare);
   }
 
-  /** `query` or `queryDiffused`, by ranking; diffusion falls back to cosine where it does not apply. */
-  ranked(ranking: Ranking, query: ArrayLike<number>, k: number, filter: QueryFilter = {}): Hit[] {
+  /**
+   * `query` or `queryDiffused`, by ranking; diffusion falls back to cosine where it does not apply. `cosine`, when
+   * given, is `scores(query)` worked out already.
+   */
+  ranked(
+    ranking: Ranking,
+    query: ArrayLike<number>,
+    k: number,
+    filter: QueryFilter = {},
+    cosine?: Float32Array,
+  ): Hit[] {
     return ranking === 'diffusion' && this.diffusionApplies()
-      ? this.queryDiffused(query, k, filter)
-      : this.query(query, k, filter);
+      ? this.queryDiffused(query, k, filter, DIFFUSION_DEFAULTS, cosine)
+      : this.query(query, k, filter, cosine);
   }
 }
 

@@ -211,6 +211,21 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
       [...joinedKeys.keys()].sort((a, b) => joinedKeys[b] - joinedKeys[a] || a - b).slice(0, 5),
     );
     expect(index.ranked('cosine', q, 5)).toEqual(index.query(q, 5));
+    // The cosines worked out in pieces (as the workbench spreads them over tasks) are the same bits, and a ranking
+    // handed them ranks as one that works them out itself.
+    const pieces = new Float32Array(V.length);
+    for (let from = 0; from < V.length; from += 7) index.scores(q, pieces, from, Math.min(V.length, from + 7));
+    expect(pieces).toEqual(cos);
+    for (const [i, v] of [
+      [-1, q],
+      [4, index.vector(4)],
+    ] as const) {
+      const filter = i >= 0 ? { exclude: i } : {};
+      const given = index.scores(v);
+      expect(index.queryDiffused(v, 8, filter, DIFFUSION_DEFAULTS, given)).toEqual(index.queryDiffused(v, 8, filter));
+      expect(index.ranked('diffusion', v, 8, filter, given)).toEqual(index.ranked('diffusion', v, 8, filter));
+      expect(index.ranked('cosine', v, 8, filter, given)).toEqual(index.ranked('cosine', v, 8, filter));
+    }
   });
 });
 
