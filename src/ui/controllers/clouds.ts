@@ -84,8 +84,8 @@ export async function cloudOf(p: LibraryPart): Promise<PartClouds> {
  * and those it let go fetched from the database in one request (not kept: a chunk of a whole-library job).
  */
 export async function cloudsToHand(parts: readonly LibraryPart[]): Promise<PartArrays[]> {
-  const fetch = parts.filter((p) => away.has(p) && !recent.has(p.name)).map((p) => p.name);
-  const fetched = new Map((fetch.length ? await loadClouds(fetch) : []).map((c) => [c.name, c]));
+  const missing = parts.filter((p) => away.has(p) && !recent.has(p.name)).map((p) => p.name);
+  const fetched = new Map((missing.length ? await loadClouds(missing) : []).map((c) => [c.name, c]));
   return parts.map((p) => {
     const c = fetched.get(p.name);
     if (c) return { points: c.points, normals: c.normals };

@@ -58,7 +58,8 @@ const PARTS_PER_WRITE = 10;
  */
 const BYTES_PER_WRITE = 4 * 2 ** 20;
 
-const partBytes = (p: LibraryPart): number =>
+/** The bytes of a part's arrays (what it holds on the page until it is written). */
+export const partBytes = (p: LibraryPart): number =>
   p.points.byteLength + p.normals.byteLength + p.meshPositions.byteLength + p.meshIndices.byteLength;
 
 /**

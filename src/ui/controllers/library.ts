@@ -16,6 +16,7 @@ import {
   loadLibrary as loadStoredLibrary,
   loadFolderUnits,
   loadThumbnails,
+  partBytes,
   saveFolderUnits,
   saveLibrary,
   saveThumbnails,
@@ -51,10 +52,6 @@ export const MAX_UNWRITTEN_BYTES = 64 * 2 ** 20;
 /** Whether an import should wait for the writer before it reads on. */
 export const tooMuchUnwritten = (parts: number, bytes: number): boolean =>
   parts > 0 && (parts >= MAX_UNWRITTEN_PARTS || bytes >= MAX_UNWRITTEN_BYTES);
-
-/** The bytes of arrays a part holds on the page until it is written. */
-const heldBytes = (p: LibraryPart): number =>
-  p.points.byteLength + p.normals.byteLength + p.meshPositions.byteLength + p.meshIndices.byteLength;
 
 export class LibraryController {
   private readonly client = new LibraryClient();
@@ -267,16 +264,12 @@ export class LibraryController {
     const growing = { parts, failures, source };
     // Reading waits while too much of what it read is not yet written (the page holds those parts' clouds and
     // meshes): 20,000 generated parts were read in 280 s and written in 522 s, and the tab peaked at 1.8 GB.
-    const unwritten = { parts: 0, bytes: 0, failed: false };
-    const unread = new Set<LibraryPart>(); // read by this import, not yet written
+    const unwritten = { parts: new Set<LibraryPart>(), bytes: 0, failed: false }; // read by this import, not yet written
     const waiting: (() => void)[] = [];
     const release = () => waiting.splice(0).forEach((go) => go());
     const onPartsWritten = (written: readonly LibraryPart[]) => {
       for (const p of written) {
-        if (unread.delete(p)) {
-          unwritten.parts--;
-          unwritten.bytes -= heldBytes(p);
-        }
+        if (unwritten.parts.delete(p)) unwritten.bytes -= partBytes(p);
         markWritten(p);
         cloudWritten(p);
       }
@@ -290,7 +283,12 @@ export class LibraryController {
       });
     /** Resolves once reading may go on: enough is written, or writing failed, or the import was stopped or emptied. */
     const ready = async (): Promise<void> => {
-      while (!unwritten.failed && live() && !this.cancelling && tooMuchUnwritten(unwritten.parts, unwritten.bytes)) {
+      while (
+        !unwritten.failed &&
+        live() &&
+        !this.cancelling &&
+        tooMuchUnwritten(unwritten.parts.size, unwritten.bytes)
+      ) {
         keepSoFar(); // the writer may have caught up and stopped before the last parts came
         await new Promise<void>((go) => {
           waiting.push(go);
@@ -341,9 +339,8 @@ export class LibraryController {
         onPart: (part) => {
           if (!live()) return;
           parts.push(part);
-          unread.add(part);
-          unwritten.parts++;
-          unwritten.bytes += heldBytes(part);
+          unwritten.parts.add(part);
+          unwritten.bytes += partBytes(part);
           this.queueThumbnail(part);
         },
         ready,

@@ -30,10 +30,10 @@ import type { MapReply, MapRequest } from '../../worker/map.worker';
  * batches as for one request over the whole library and the bytes are the same; small, so a stop waits at most
  * one request (a few seconds) and progress moves often.
  */
+const EMBED_CHUNK = 32;
+
 /** Parts scored against a query per task: 2,000 rows of 1,024 values are about 2 million multiply-adds. */
 const SCORE_ROWS = 2000;
-
-const EMBED_CHUNK = 32;
 
 export class SearchController {
   private version = 0;

@@ -65,28 +65,24 @@ export class ThumbnailClient {
       const job = this.queued.shift()!;
       const id = this.nextId++;
       this.waiting.set(id, job);
-      const now = meshNow(job.part);
-      const points = (mesh: PartMesh): Float32Array | Promise<Float32Array> => {
-        const cloud = cloudNow(job.part);
-        if (cloud) return cloud.points;
-        const drawable = mesh.indices.length > 0 && mesh.indices.length / 3 <= MAX_THUMBNAIL_TRIANGLES;
-        return drawable ? NO_POINTS : cloudOf(job.part).then((c) => c.points);
-      };
-      const ready = now ? points(now) : null;
-      if (now && ready instanceof Float32Array) this.post(id, job.part, now, ready);
-      else
-        (async () => {
-          const mesh = now ?? (await meshOf(job.part));
-          return [mesh, await points(mesh)] as const;
-        })().then(
-          ([mesh, pts]) => this.post(id, job.part, mesh, pts),
-          (err: Error) => {
-            this.waiting.delete(id);
-            job.reject(err);
-            this.pump();
-          },
-        );
+      this.inputsOf(job.part).then(
+        ([mesh, points]) => this.post(id, job.part, mesh, points),
+        (err: Error) => {
+          this.waiting.delete(id);
+          job.reject(err);
+          this.pump();
+        },
+      );
     }
+  }
+
+  /** The part's mesh (fetched back when the page let it go) and the points the picture needs (see `pump`). */
+  private async inputsOf(p: LibraryPart): Promise<[PartMesh, Float32Array]> {
+    const mesh = meshNow(p) ?? (await meshOf(p));
+    const cloud = cloudNow(p);
+    if (cloud) return [mesh, cloud.points];
+    const drawable = mesh.indices.length > 0 && mesh.indices.length / 3 <= MAX_THUMBNAIL_TRIANGLES;
+    return [mesh, drawable ? NO_POINTS : (await cloudOf(p)).points];
   }
 
   private post(id: number, p: LibraryPart, mesh: PartMesh, points: Float32Array): void {
