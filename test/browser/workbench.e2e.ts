@@ -1,8 +1,7 @@
 // End-to-end: the built workbench in headless Chromium (Debian's), driven by playwright-core.
 // Screenshots of each panel go to test-artifacts/ (ignored by git).
 
-import { mkdirSync, mkdtempSync, statSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { mkdirSync, statSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { BrowserContext, Page } from 'playwright-core';
@@ -10,9 +9,12 @@ import { chromiumAvailable, launch } from './chromium';
 import { startPreview } from './server';
 import { longest, mostCpu, tracePageTasks } from './page-cpu';
 import { generateLibrary } from '../../src/gen/library';
+import { removeScratch, scratchDir } from '../scratch';
 
 const ARTIFACTS = 'test-artifacts';
 const available = chromiumAvailable();
+
+afterAll(removeScratch);
 if (!available) console.warn('browser tests skipped: no Chromium at /usr/bin/chromium (apt-get install -y chromium)');
 
 /** Starts collecting the page's long tasks (over 50 ms, by the Long Tasks API) afresh. */
@@ -37,7 +39,7 @@ const longTasks = (page: Page): Promise<number[]> =>
  * files do not collide, where the folder picker can take them.
  */
 function generatedFolder(prefix: string, seeds: readonly number[], formats: ('off' | 'stl-binary')[]): string {
-  const dir = mkdtempSync(join(tmpdir(), prefix));
+  const dir = scratchDir(prefix);
   for (const seed of seeds)
     for (const f of generateLibrary(seed, { formats, extras: false }).files) {
       const path = join(dir, f.path.replace('/', `/s${seed}-`));
@@ -444,7 +446,7 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       page.waitForEvent('download', { timeout: 60_000 }),
       page.getByRole('button', { name: 'Save the library as a file' }).click(),
     ]);
-    const path = join(mkdtempSync(join(tmpdir(), 'shapekin-dump-')), file.suggestedFilename());
+    const path = join(scratchDir('shapekin-dump-'), file.suggestedFilename());
     await file.saveAs(path);
     expect(path).toMatch(/shapekin-library-.*\.tar\.gz$/);
     expect(statSync(path).size).toBeGreaterThan(1_000_000);
@@ -468,7 +470,7 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     });
     await page.getByRole('tab', { name: 'Parts library' }).click();
     // Files on disk, handed to the page by path (a large in-memory buffer would be built by page script).
-    const dir = mkdtempSync(join(tmpdir(), 'shapekin-broken-'));
+    const dir = scratchDir('shapekin-broken-');
     const file = (name: string, text: string) => {
       writeFileSync(join(dir, name), text);
       return join(dir, name);

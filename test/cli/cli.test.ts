@@ -1,19 +1,19 @@
 // The command line end to end on the demo library: a tiny training run, then every command on its output.
 
-import { existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { existsSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { zlibSync } from './zlib-crc';
 import { CylinderGeometry, PlaneGeometry } from 'three';
 import { diffusionCeiling } from '../../src/core/retrieval/index';
 import { SURFACE_GRID_SHARE } from '../../src/core/model/encoder-config';
 import { writeObj } from '../../src/core/mesh/write';
-import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
+import { afterAll, afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
 import { main } from '../../src/cli/main';
 import { captureOutput } from './capture';
 import { crc32 } from '../../src/core/checksum';
 import { cpSync } from 'node:fs';
 import { guardTensorLeaks } from '../tf-helpers';
+import { removeScratch, scratchDir } from '../scratch';
 
 guardTensorLeaks();
 
@@ -28,9 +28,10 @@ function capture() {
   ({ out, err } = captureOutput());
 }
 afterEach(() => vi.restoreAllMocks());
+afterAll(removeScratch);
 
 beforeAll(async () => {
-  run = mkdtempSync(join(tmpdir(), 'shapekin-run-'));
+  run = scratchDir('shapekin-run-');
   capture();
   const code = await main(['train', DEMO, '--out', run, '--epochs', '2', '--points', '128', '--json']);
   vi.restoreAllMocks();
@@ -43,7 +44,7 @@ describe('shapekin train', () => {
     expect(
       JSON.parse(readFileSync(join(run, 'model.json'), 'utf8')).modelTopology.shapekin.config.encoder.inputFeatures,
     ).toBe('xyz+normal');
-    const lib = mkdtempSync(join(tmpdir(), 'shapekin-open-'));
+    const lib = scratchDir('shapekin-open-');
     const open = [
       new PlaneGeometry(2, 1, 4, 2),
       new CylinderGeometry(1, 1, 2, 16, 1, true),
@@ -236,7 +237,7 @@ describe('shapekin embed, query, duplicates, study', () => {
   it('duplicates puts a re-saved copy of a part in a group with its original', async () => {
     capture();
     // A small library: one washer saved twice under two part numbers, and parts of three other families.
-    const lib = mkdtempSync(join(tmpdir(), 'shapekin-dup-'));
+    const lib = scratchDir('shapekin-dup-');
     for (const f of [
       'washer/BC01-100A.stl',
       'hex-nut/' + firstFile('hex-nut'),
@@ -385,7 +386,7 @@ describe('numbers out of range, and models that cannot be trusted', () => {
     expect(err.join('').trim().split('\n').length).toBe(1); // one line, no stack trace
   });
   it('weights from another save, or NaN weights of the right size, are refused on load', async () => {
-    const copy = mkdtempSync(join(tmpdir(), 'shapekin-torn-'));
+    const copy = scratchDir('shapekin-torn-');
     cpSync(run, copy, { recursive: true });
     const weights = readFileSync(join(copy, 'weights.bin'));
     const other = new Float32Array(weights.buffer.slice(weights.byteOffset, weights.byteOffset + weights.byteLength));
@@ -416,13 +417,13 @@ describe('numbers out of range, and models that cannot be trusted', () => {
 
 describe('training saves early and says what --resume found', () => {
   it('--resume with nothing saved says so and starts from step 0', async () => {
-    const fresh = join(mkdtempSync(join(tmpdir(), 'shapekin-fresh-')), 'run');
+    const fresh = join(scratchDir('shapekin-fresh-'), 'run');
     capture();
     expect(await main(['train', DEMO, '--out', fresh, '--epochs', '1', '--points', '64', '--resume'])).toBe(0);
     expect(err.join('')).toMatch(/--resume: nothing has been saved in .* yet, so training starts from step 0/);
   }, 120_000);
   it('the first checkpoint is written right after the first step, while training goes on', async () => {
-    const fresh = join(mkdtempSync(join(tmpdir(), 'shapekin-early-')), 'run');
+    const fresh = join(scratchDir('shapekin-early-'), 'run');
     capture();
     const seen: { step: number; status: string }[] = [];
     const poll = setInterval(() => {
@@ -466,7 +467,7 @@ describe('a CAD file as the query', () => {
 
 describe('shapekin inspect', () => {
   it('lists format, bodies, triangles, closedness and size with units, or the reason, as one JSON array', async () => {
-    const dir = mkdtempSync(join(tmpdir(), 'shapekin-inspect-'));
+    const dir = scratchDir('shapekin-inspect-');
     cpSync('test/fixtures/kicad/Battery_CR1225.step', join(dir, 'cell.step'));
     cpSync('test/fixtures/kicad/Battery_CR1225.wrl', join(dir, 'cell.wrl'));
     writeFileSync(join(dir, 'empty.stl'), '');

@@ -3,13 +3,12 @@
 // team's server is — with several command-line processes at once, and one killed midway.
 
 import { spawn, type ChildProcess } from 'node:child_process';
-import { copyFileSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { copyFileSync, mkdirSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { PGlite } from '@electric-sql/pglite';
 import { vector } from '@electric-sql/pglite-pgvector';
 import { PGLiteSocketServer } from '@electric-sql/pglite-socket';
-import { afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
+import { afterAll, afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
 import { main } from '../../src/cli/main';
 import { storedOrdering } from '../../src/cli/db';
 import { openEmbedded } from '../../src/core/db/embedded';
@@ -20,6 +19,7 @@ import { TensorIndex } from '../../src/core/retrieval/tensor-index';
 import { createRng } from '../../src/core/rng';
 import { useBackend } from '../tf-helpers';
 import { captureOutput } from './capture';
+import { removeScratch, scratchDir } from '../scratch';
 
 const DEMO = 'demo-shapes';
 const FAMILIES = ['angle', 'channel', 'flange', 'hex-nut'];
@@ -32,6 +32,7 @@ function capture() {
   ({ out, err } = captureOutput());
 }
 afterEach(() => vi.restoreAllMocks());
+afterAll(removeScratch);
 
 async function cli(...args: string[]): Promise<{ code: number; doc: Record<string, unknown> }> {
   capture();
@@ -42,7 +43,7 @@ async function cli(...args: string[]): Promise<{ code: number; doc: Record<strin
 
 /** A small library: three parts of four demo families and one broken file. */
 function makeLibrary(): string {
-  const dir = mkdtempSync(join(tmpdir(), 'shapekin-dblib-'));
+  const dir = scratchDir('shapekin-dblib-');
   for (const f of FAMILIES) {
     mkdirSync(join(dir, f));
     for (const name of readdirSync(join(DEMO, f)).sort().slice(0, 3))
@@ -55,14 +56,14 @@ function makeLibrary(): string {
 
 beforeAll(async () => {
   lib = makeLibrary();
-  run = mkdtempSync(join(tmpdir(), 'shapekin-dbrun-'));
+  run = scratchDir('shapekin-dbrun-');
   const r = await cli('train', lib, '--out', run, '--epochs', '2', '--points', '128', '--batch', '4');
   if (r.code !== 0) throw new Error(`train failed: ${err.join('')}`);
 }, 120_000);
 
 describe('sync into an embedded database folder', () => {
   it('adds every file, says which could not be read, embeds each part; a second sync embeds nothing', async () => {
-    const db = join(mkdtempSync(join(tmpdir(), 'shapekin-db-')), 'library.db');
+    const db = join(scratchDir('shapekin-db-'), 'library.db');
     const first = await cli('sync', lib, '--db', db, '--model', run);
     expect(first.code).toBe(0);
     expect(first.doc).toMatchObject({ files: 13, unchanged: 0, read: 12, embedded: 12, still_failing: 0 });
@@ -97,7 +98,7 @@ describe('sync into an embedded database folder', () => {
 
 describe('query --db', () => {
   it('answers as query --library does (same top 10, same scores within 1e-6), reading no library file', async () => {
-    const db = join(mkdtempSync(join(tmpdir(), 'shapekin-db-')), 'library.db');
+    const db = join(scratchDir('shapekin-db-'), 'library.db');
     expect((await cli('sync', lib, '--db', db, '--model', run)).code).toBe(0);
     const q = join(DEMO, 'channel', readdirSync(join(DEMO, 'channel')).sort()[7]);
     for (const order of ['cosine', 'diffusion']) {
@@ -127,9 +128,9 @@ describe('query --db', () => {
   }, 180_000);
 
   it('embed, duplicates and eval --db give what they give from the folder', async () => {
-    const db = join(mkdtempSync(join(tmpdir(), 'shapekin-db-')), 'library.db');
+    const db = join(scratchDir('shapekin-db-'), 'library.db');
     expect((await cli('sync', lib, '--db', db, '--model', run)).code).toBe(0);
-    const dir = mkdtempSync(join(tmpdir(), 'shapekin-dbout-'));
+    const dir = scratchDir('shapekin-dbout-');
     const a = await cli('embed', lib, '--model', run, '--out', join(dir, 'a.json'));
     const b = await cli('embed', '--db', db, '--out', join(dir, 'b.json'));
     expect(b.code).toBe(0);
@@ -153,10 +154,10 @@ describe('query --db', () => {
   }, 240_000);
 
   it('a library file saved by the workbench (a database dump) is queried as the database it was', async () => {
-    const db = join(mkdtempSync(join(tmpdir(), 'shapekin-db-')), 'library.db');
+    const db = join(scratchDir('shapekin-db-'), 'library.db');
     expect((await cli('sync', lib, '--db', db, '--model', run)).code).toBe(0);
     const pg = await PGlite.create(db, { extensions: { vector } });
-    const dump = join(mkdtempSync(join(tmpdir(), 'shapekin-dump-')), 'library.tar.gz');
+    const dump = join(scratchDir('shapekin-dump-'), 'library.tar.gz');
     writeFileSync(dump, new Uint8Array(await (await pg.dumpDataDir('gzip')).arrayBuffer()));
     await pg.close();
     const q = join(DEMO, 'flange', readdirSync(join(DEMO, 'flange')).sort()[6]);
@@ -170,7 +171,7 @@ describe('query --db', () => {
   }, 120_000);
 
   it('a database with no model, or a model it has not embedded with, is explained', async () => {
-    const db = join(mkdtempSync(join(tmpdir(), 'shapekin-db-')), 'library.db');
+    const db = join(scratchDir('shapekin-db-'), 'library.db');
     expect((await cli('sync', lib, '--db', db)).doc).toMatchObject({ model: null, embedded: 0, read: 12 });
     const q = join(lib, 'angle', readdirSync(join(lib, 'angle'))[0]);
     const none = await cli('query', q, '--db', db);
@@ -292,7 +293,7 @@ describe('a shared server (PostgreSQL wire protocol)', () => {
   }, 120_000);
 
   it('a database folder open in another process is refused with the reason', async () => {
-    const db = join(mkdtempSync(join(tmpdir(), 'shapekin-db-')), 'library.db');
+    const db = join(scratchDir('shapekin-db-'), 'library.db');
     const holder = spawn('sleep', ['30']);
     try {
       writeFileSync(`${db}.lock`, String(holder.pid));
