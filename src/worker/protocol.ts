@@ -131,10 +131,17 @@ export type TrainRequest =
       readonly checkpoint: CheckpointMessage | null;
       readonly config: TrainConfig;
     }
+  /**
+   * Serve embedding requests arriving on `port` (from the other training worker, for a study), as if from the page,
+   * with their own kept model, until a `cancel` with this id.
+   */
+  | { readonly type: 'serve'; readonly id: number; readonly port: MessagePort }
   /** The augmentation study over the library. */
   | {
       readonly type: 'study';
       readonly id: number;
+      /** A port to a worker serving embedding requests (`serve`): it embeds half of each set of views. */
+      readonly helper?: MessagePort;
       /** The parts; the ones staged under this id when absent. */
       readonly parts?: readonly PartArrays[];
       readonly labels: readonly string[];
@@ -182,7 +189,8 @@ export type TrainReply =
       readonly total: number;
       readonly what: string;
     }
-  | { readonly type: 'study'; readonly id: number; readonly rows: StudyRow[] }
+  /** The study's rows, and how many parts (views and the library) the second worker embedded of them. */
+  | { readonly type: 'study'; readonly id: number; readonly rows: StudyRow[]; readonly shared: number }
   | { readonly type: 'error'; readonly id: number; readonly message: string };
 
 // ---- database worker ----

@@ -13,7 +13,8 @@ import {
   toArtifacts,
   type Checkpoint,
 } from '../core/model/checkpoint';
-import { disposeEncoders, embedForRetrieval, type Encoders } from '../core/model/embed';
+import { disposeEncoders, embedForRetrieval, embedShared, type Encoders } from '../core/model/embed';
+import type { ModelPart } from '../core/model/views';
 import { explainMatch } from '../core/model/explain';
 import { Trainer } from '../core/model/trainer';
 import type { TrainConfig } from '../core/model/train-config';
@@ -39,7 +40,82 @@ async function loadKept(): Promise<CheckpointMessage | null> {
   return toMessage(c);
 }
 
-const post = (msg: TrainReply, transfer: ArrayBuffer[] = []) => (self as unknown as Worker).postMessage(msg, transfer);
+type Post = (msg: TrainReply, transfer?: ArrayBuffer[]) => void;
+
+/**
+ * Where requests come from and replies go: the page, or a port from the other training worker (`serve`). Each keeps
+ * its own model for embedding requests that name it by key, and the untrained encoders it last embedded with.
+ */
+interface Channel {
+  readonly post: Post;
+  kept: { key: number; enc: Encoders; cfg: TrainConfig } | null;
+  untrained: { signature: string; enc: Encoders } | null;
+}
+
+const page: Channel = {
+  post: (msg, transfer = []) => (self as unknown as Worker).postMessage(msg, transfer),
+  kept: null,
+  untrained: null,
+};
+
+/** The ports this worker serves (`serve`), by request id, until cancelled. */
+const services = new Map<number, { port: MessagePort; channel: Channel }>();
+
+function endService(id: number): void {
+  const s = services.get(id);
+  if (!s) return;
+  services.delete(id);
+  s.port.onmessage = null;
+  s.port.close();
+  if (s.channel.kept) disposeEncoders(s.channel.kept.enc);
+  if (s.channel.untrained) disposeEncoders(s.channel.untrained.enc);
+}
+
+/** The untrained encoders for `cfg`, kept on the channel for its next requests (their weights are seeded). */
+function untrainedFor(channel: Channel, cfg: TrainConfig): Encoders {
+  const signature = JSON.stringify([cfg.encoder, cfg.pose, cfg.seed]);
+  if (channel.untrained?.signature !== signature) {
+    if (channel.untrained) disposeEncoders(channel.untrained.enc);
+    channel.untrained = { signature, enc: untrainedEncoders(cfg.encoder, cfg.pose, cfg.seed) };
+  }
+  return channel.untrained.enc;
+}
+
+/**
+ * Embedding on a worker serving `port`: the learned model handed over with the first request (then named by key),
+ * untrained encoders from the config. Each request's parts are copies, moved over.
+ */
+function remoteEmbedder(port: MessagePort, checkpoint: CheckpointMessage | null, config: TrainConfig) {
+  let next = 1;
+  let sent = false;
+  const waiting = new Map<number, { resolve: (v: Float32Array) => void; reject: (e: Error) => void }>();
+  port.onmessage = (e: MessageEvent<TrainReply>) => {
+    const m = e.data;
+    const w = waiting.get(m.id);
+    if (!w) return;
+    waiting.delete(m.id);
+    if (m.type === 'embeddings') w.resolve(m.vectors);
+    else if (m.type === 'error') w.reject(new Error(`the second worker: ${m.message}`));
+  };
+  return (learned: boolean, parts: readonly ModelPart[]): Promise<Float32Array> =>
+    new Promise((resolve, reject) => {
+      const id = next++;
+      waiting.set(id, { resolve, reject });
+      const copies = parts.map((p) => ({ points: p.points.slice(), normals: p.normals.slice() }));
+      const model =
+        learned && checkpoint
+          ? sent
+            ? { checkpoint: null, modelKey: 1 }
+            : { checkpoint: { ...checkpoint, weightData: checkpoint.weightData.slice(0) }, modelKey: 1 }
+          : { checkpoint: null };
+      if (learned) sent = true;
+      const msg: TrainRequest = { type: 'embed', id, parts: copies, config, ...model };
+      port.postMessage(msg, [
+        ...copies.flatMap((p) => [p.points.buffer as ArrayBuffer, p.normals.buffer as ArrayBuffer]),
+        ...(model.checkpoint ? [model.checkpoint.weightData] : []),
+      ]);
+    });
+}
 
 let backend: Promise<string> | null = null;
 function ready(): Promise<string> {
@@ -104,9 +180,6 @@ function snapshot(
   });
 }
 
-/** The model embedding requests name by key (the latest handed over). */
-let keptModel: { key: number; enc: Encoders; cfg: TrainConfig } | null = null;
-
 /** The parts of each request being handed over (`stage` messages), until the request that reads them. */
 const staged = new Map<number, { parts: PartArrays[]; cancelled: boolean }>();
 
@@ -117,8 +190,10 @@ function partsOf(req: { id: number; parts?: readonly PartArrays[] }): readonly P
   return req.parts ?? s?.parts ?? [];
 }
 
-self.onmessage = async (event: MessageEvent<TrainRequest>) => {
-  const req = event.data;
+self.onmessage = (event: MessageEvent<TrainRequest>) => handle(event.data, page);
+
+async function handle(req: TrainRequest, channel: Channel): Promise<void> {
+  const { post } = channel;
   try {
     const name = await ready();
     switch (req.type) {
@@ -184,7 +259,18 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
       case 'cancel':
         if (trainer && req.id === trainerId) trainer.cancel();
         if (staged.has(req.id)) staged.get(req.id)!.cancelled = true;
+        endService(req.id);
         return;
+      case 'serve': {
+        const served: Channel = {
+          post: (msg, transfer = []) => req.port.postMessage(msg, transfer),
+          kept: null,
+          untrained: null,
+        };
+        services.set(req.id, { port: req.port, channel: served });
+        req.port.onmessage = (e: MessageEvent<TrainRequest>) => void handle(e.data, served);
+        return;
+      }
       case 'evaluate': {
         const ckpt = req.checkpoint ? fromMessage(req.checkpoint) : null;
         const cfg = ckpt ? ckpt.manifest.config : req.config;
@@ -211,8 +297,28 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
         const cfg = ckpt ? ckpt.manifest.config : req.config;
         const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
         const untrained = untrainedEncoders(cfg.encoder, cfg.pose, cfg.seed);
+        // With a second worker, each set of views is shared out: about half its batches are embedded there.
+        const remote = req.helper ? remoteEmbedder(req.helper, req.checkpoint, cfg) : null;
+        let sharedParts = 0;
+        const shared = (learnedOnes: boolean, enc: Encoders) => (ps: readonly ModelPart[]) =>
+          embedShared(
+            ps,
+            (mine) => embedForRetrieval(enc, mine, cfg.points, cfg.pose),
+            (theirs) => {
+              sharedParts += theirs.length;
+              return remote!(learnedOnes, theirs);
+            },
+          );
         try {
           const rows = await runStudy({
+            ...(remote
+              ? {
+                  embedWith: {
+                    ...(learned ? { learned: shared(true, learned) } : {}),
+                    untrained: shared(false, untrained),
+                  },
+                }
+              : {}),
             parts: partsOf(req),
             labels: req.labels,
             points: cfg.points,
@@ -224,10 +330,11 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
             ...(req.strengths ? { strengths: req.strengths } : {}),
             onProgress: (done, total, what) => post({ type: 'study-progress', id: req.id, done, total, what }),
           });
-          post({ type: 'study', id: req.id, rows });
+          post({ type: 'study', id: req.id, rows, shared: sharedParts });
         } finally {
           if (learned) disposeEncoders(learned);
           disposeEncoders(untrained);
+          req.helper?.close();
         }
         return;
       }
@@ -300,17 +407,19 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
           enc = encodersFromCheckpoint(c);
           cfg = c.manifest.config;
           if (req.modelKey !== undefined) {
-            if (keptModel) disposeEncoders(keptModel.enc);
-            keptModel = { key: req.modelKey, enc, cfg };
+            if (channel.kept) disposeEncoders(channel.kept.enc);
+            channel.kept = { key: req.modelKey, enc, cfg };
             own = false;
           }
         } else if (req.modelKey !== undefined) {
-          if (keptModel?.key !== req.modelKey) throw new Error('the model for these embeddings was not handed over');
-          ({ enc, cfg } = keptModel);
+          const kept = channel.kept;
+          if (kept?.key !== req.modelKey) throw new Error('the model for these embeddings was not handed over');
+          ({ enc, cfg } = kept);
           own = false;
         } else {
-          enc = untrainedEncoders(req.config.encoder, req.config.pose, req.config.seed);
+          enc = untrainedFor(channel, req.config);
           cfg = req.config;
+          own = false;
         }
         try {
           const vectors = embedForRetrieval(enc, req.parts, cfg.points, cfg.pose);
@@ -337,4 +446,4 @@ self.onmessage = async (event: MessageEvent<TrainRequest>) => {
     }
     post({ type: 'error', id: req.id, message: (err as Error).message });
   }
-};
+}

@@ -351,6 +351,54 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       .toBe(10);
   }, 180_000);
 
+  it('the augmentation study shares its views with the second worker and gives the rows one worker gives', async () => {
+    await page.getByRole('tab', { name: 'Quality' }).click();
+    type Measure = { studyKinds: string[] | null; studyOnTwoWorkers: boolean; lastStudyShared: number };
+    type Row = { augmentation: string; strength: number; method: string; instance_top1: number; queries: number };
+    const run = async (twoWorkers: boolean) => {
+      await page.evaluate((two) => {
+        const m = (document.querySelector('sk-app') as unknown as { measure: Measure }).measure;
+        m.studyKinds = ['jitter']; // one augmentation at the workbench's three strengths: seconds, not minutes
+        m.studyOnTwoWorkers = two;
+      }, twoWorkers);
+      await watchLongTasks(page);
+      const started = Date.now();
+      await page.getByRole('button', { name: 'Run the augmentation study' }).click();
+      const state = () =>
+        page.evaluate(() => {
+          const app = document.querySelector('sk-app') as unknown as {
+            state: { measure: { study: { kind: string }; rows: Row[] } };
+            measure: Measure;
+          };
+          return {
+            kind: app.state.measure.study.kind,
+            rows: app.state.measure.rows,
+            shared: app.measure.lastStudyShared,
+          };
+        });
+      await expect.poll(async () => (await state()).kind, { timeout: 180_000 }).toBe('done');
+      const seconds = (Date.now() - started) / 1000;
+      return { ...(await state()), seconds, tasks: await longTasks(page) };
+    };
+    const two = await run(true);
+    const one = await run(false);
+    console.log(
+      `study of one augmentation: two workers ${two.seconds.toFixed(1)} s (the second embedded ${two.shared} parts), ` +
+        `one ${one.seconds.toFixed(1)} s; long tasks ${JSON.stringify(two.tasks.map(Math.round))} / ${JSON.stringify(one.tasks.map(Math.round))}`,
+    );
+    // jitter at 0, 0.5 and 1, by the learned and untrained encoders and D2, all 112 parts looked up
+    expect(two.rows.map((r) => `${r.augmentation} ${r.strength} ${r.method} ${r.queries}`)).toEqual(
+      [0, 0.5, 1].flatMap((s) => ['learned', 'untrained', 'd2'].map((m) => `jitter ${s} ${m} 112`)),
+    );
+    // An unchanged view is the part itself: every method finds it first.
+    expect(two.rows.filter((r) => r.strength === 0).map((r) => r.instance_top1)).toEqual([1, 1, 1]);
+    // Two of the four batches of every set went to the second worker: the library and three sets of views
+    // (strength 0 is the library itself, measured once), each by both encoders. The figures are one worker's, exactly.
+    expect([two.shared, one.shared]).toEqual([4 * 2 * 64, 0]);
+    expect(two.rows).toEqual(one.rows);
+    expect(Math.max(0, ...two.tasks, ...one.tasks)).toBeLessThan(100);
+  }, 400_000);
+
   it("a folder's units turn its parts' sizes into millimetres, on the cards and in the look-alike list", async () => {
     await page.getByRole('tab', { name: 'Parts library' }).click();
     const panel = page.locator('sk-library-panel');

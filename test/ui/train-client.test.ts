@@ -118,6 +118,34 @@ describe('measuring on the whole library', () => {
     await expect(study).rejects.toThrow('cancelled');
     expect(sent.map((s) => s.msg.type)).toEqual(['stage']);
   });
+
+  it('a study with a second worker hands each worker one end of a channel, and ends the service when it stops', async () => {
+    const { TrainClient } = await import('../../src/ui/controllers/train-client');
+    const client = new TrainClient();
+    const helper = new TrainClient();
+    const study = client.study(sourceOf([cloud()]).source, [], null, DEFAULT_TRAIN, () => {}, {
+      kinds: ['jitter'],
+      helper,
+    });
+    for (let i = 0; i < 20 && !sent.some((s) => s.msg.type === 'study'); i++) await tick();
+    const serve = sent.find((s) => s.msg.type === 'serve')!;
+    const ask = sent.find((s) => s.msg.type === 'study')!;
+    const port = (serve.msg as { port: MessagePort }).port;
+    const other = (ask.msg as { helper: MessagePort }).helper;
+    // Moved, not copied: a port can only be handed on in the transfer list.
+    expect([serve.transfer.includes(port), ask.transfer.includes(other)]).toEqual([true, true]);
+    expect((ask.msg as { kinds?: readonly string[] }).kinds).toEqual(['jitter']);
+    // The two ends are one channel: what one worker sends, the other receives.
+    const heard = new Promise((resolve) => (port.onmessage = (e) => resolve(e.data)));
+    other.postMessage('hello');
+    expect(await heard).toBe('hello');
+    port.close();
+    other.close();
+    client.abort();
+    await expect(study).rejects.toThrow('cancelled');
+    const ended = sent.filter((s) => s.msg.type === 'cancel');
+    expect(ended.map((s) => s.msg.id)).toEqual([serve.msg.id]);
+  });
 });
 
 describe('embedding a library in chunks', () => {

@@ -224,3 +224,36 @@ export function embedParts(
   }
   return all;
 }
+
+/**
+ * Retrieval embeddings of `parts` shared between this thread and another: the first whole batches (about
+ * `remoteShare` of them) go to `remote`, which is asked first so both work at once, and the rest are embedded here by
+ * `local`. The bytes are those of `local` over all the parts, since a part's embedding depends only on its own
+ * batch and the split falls between batches.
+ */
+export async function embedShared(
+  parts: readonly ModelPart[],
+  local: (parts: readonly ModelPart[]) => Float32Array,
+  remote: (parts: readonly ModelPart[]) => Promise<Float32Array>,
+  remoteShare = 0.5,
+  batch = EMBED_BATCH,
+): Promise<Float32Array> {
+  if (!(remoteShare >= 0 && remoteShare <= 1)) throw new RangeError(`embedShared: remoteShare ${remoteShare}`);
+  const batches = Math.ceil(parts.length / batch);
+  const split = Math.min(parts.length, Math.round(batches * remoteShare) * batch);
+  if (split === 0) return local(parts);
+  const away = remote(parts.slice(0, split));
+  // Whatever happens here, the other thread's answer is awaited, so a failure there is never left unheard.
+  let here: Float32Array;
+  try {
+    here = split < parts.length ? local(parts.slice(split)) : new Float32Array(0);
+  } catch (err) {
+    await away.catch(() => {});
+    throw err;
+  }
+  const there = await away;
+  const all = new Float32Array(there.length + here.length);
+  all.set(there, 0);
+  all.set(here, there.length);
+  return all;
+}

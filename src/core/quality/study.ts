@@ -190,16 +190,23 @@ export async function runStudy(input: StudyInput): Promise<StudyRow[]> {
   // Describing is deterministic, so the same views give the same figures: unchanged views are measured once.
   const measured = new Map<string, Promise<{ inst: number; lab: number; simSum: number }[]>>();
   const rows: StudyRow[] = [];
-  let next = settings.length > 0 ? prepare(settings[0]) : null;
-  for (let k = 0; k < settings.length; k++) {
-    const { kind, strength } = settings[k];
-    const current = next!;
+  // Two settings are handed to the describers before the first is read, so threads that embed elsewhere always
+  // have the next setting's views waiting (with one, they sat idle while this thread read results and made views).
+  const pending: { current: ReturnType<typeof prepare>; figures: ReturnType<typeof measure> }[] = [];
+  const launch = (k: number) => {
+    const current = prepare(settings[k]);
     let figures = measured.get(current.key);
     if (!figures) {
       figures = measure(current.views);
       measured.set(current.key, figures);
     }
-    next = k + 1 < settings.length ? prepare(settings[k + 1]) : null;
+    pending.push({ current, figures });
+  };
+  if (settings.length > 0) launch(0);
+  for (let k = 0; k < settings.length; k++) {
+    const { kind, strength } = settings[k];
+    if (k + 1 < settings.length) launch(k + 1);
+    const { current, figures } = pending.shift()!;
     const results = await figures;
     results.forEach(({ inst, lab, simSum }, m) =>
       rows.push({

@@ -2,7 +2,7 @@
 // training worker; and the study's CSV export.
 
 import { csvField } from '../../core/csv';
-import { AUGMENT_KINDS } from '../../core/points/augment';
+import { AUGMENT_KINDS, type AugmentKind } from '../../core/points/augment';
 import { STUDY_QUERIES } from '../../core/quality/sampling';
 import { STARTED, type AppState, type MeasureState, type Store } from '../state';
 import { download } from './download';
@@ -17,6 +17,13 @@ export class MeasureController {
     private readonly store: Store<AppState>,
     private readonly training: TrainingController,
   ) {}
+
+  /** The augmentations the study covers: all unless set (the browser tests set one, to keep to seconds). */
+  studyKinds: readonly AugmentKind[] | null = null;
+  /** Whether the study shares each set of views with the second worker, where there is one (tests turn it off). */
+  studyOnTwoWorkers = true;
+  /** Parts the second worker embedded in the last study (0: it ran on the training worker alone). */
+  lastStudyShared = 0;
 
   private patch(p: Partial<MeasureState>): void {
     this.store.patch('measure', p);
@@ -44,9 +51,12 @@ export class MeasureController {
     const encoders = this.training.state.model ? 2 : 1;
     const library = (pace * parts) / 1000;
     const views = (pace * Math.min(parts, STUDY_QUERIES)) / 1000; // the study augments a sample of the parts
+    // Views at strength 0 are the parts themselves, whatever the augmentation: embedded once.
+    const changed = STUDY_STRENGTHS.filter((s) => s > 0).length;
+    const sets = (this.studyKinds ?? AUGMENT_KINDS).length * changed + (changed < STUDY_STRENGTHS.length ? 1 : 0);
     return {
       measure: encoders * library,
-      study: encoders * (library + AUGMENT_KINDS.length * STUDY_STRENGTHS.length * views),
+      study: encoders * (library + sets * views),
       pace: 1000 / pace,
     };
   }
@@ -83,14 +93,19 @@ export class MeasureController {
     this.patch({ study: { kind: 'running', progress: { done: 0, total: 1, what: 'starting', startedAt } } });
     try {
       const { parts, labels, model, config } = this.inputs();
-      const rows = await this.training.client.study(
+      const { rows, shared } = await this.training.client.study(
         parts,
         labels,
         model,
         config,
         (done, total, what) => this.patch({ study: { kind: 'running', progress: { done, total, what, startedAt } } }),
-        STUDY_STRENGTHS,
+        {
+          strengths: STUDY_STRENGTHS,
+          ...(this.studyKinds ? { kinds: this.studyKinds } : {}),
+          helper: this.studyOnTwoWorkers ? this.training.helper() : null,
+        },
       );
+      this.lastStudyShared = shared;
       this.patch({ rows, study: { kind: 'done' } });
     } catch (err) {
       if (this.failed(err))

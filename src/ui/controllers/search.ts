@@ -20,7 +20,7 @@ import { loadEmbeddings, loadOrdering, saveEmbeddings, saveOrdering } from './li
 import { namedTable } from '../../core/retrieval/neighbour-table';
 import type { LibraryController } from './library';
 import type { TrainingController } from './training';
-import { TrainClient } from './train-client';
+import type { TrainClient } from './train-client';
 import { cloudsToHand } from './clouds';
 import { inSlices, yieldToPage } from '../pace';
 import type { MapReply, MapRequest } from '../../worker/map.worker';
@@ -186,14 +186,10 @@ export class SearchController {
       this.patch({ map: { xy, of: index.vectors } });
   }
 
-  /** A second worker for embedding beside the training worker, made on first use where the machine has two cores. */
-  private helper: TrainClient | null = null;
-
-  /** The workers that embed the library: the training worker, and the helper when there is work for two. */
+  /** The workers that embed the library: the training worker, and the second one when there is work for two. */
   private embedders(chunks: number): TrainClient[] {
-    const cores = typeof navigator !== 'undefined' ? (navigator.hardwareConcurrency ?? 1) : 1;
-    if (cores < 2 || chunks < 2) return [this.training.client];
-    return [this.training.client, (this.helper ??= new TrainClient())];
+    const helper = chunks < 2 ? null : this.training.helper();
+    return helper ? [this.training.client, helper] : [this.training.client];
   }
 
   /**

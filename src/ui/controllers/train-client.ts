@@ -4,6 +4,7 @@
 import type { TrainConfig } from '../../core/model/train-config';
 import type { EvaluationReport } from '../../core/quality/evaluate';
 import type { StudyRow } from '../../core/quality/study';
+import type { AugmentKind } from '../../core/points/augment';
 import type {
   CheckpointMessage,
   OrderingMessage,
@@ -51,12 +52,16 @@ function transfersOf(msg: TrainRequest): Transferable[] {
     checkpoint: CheckpointMessage | null;
     vectors: Float32Array;
     kept: TableMessage | null;
+    port: MessagePort;
+    helper: MessagePort;
   }>;
   for (const p of [...(m.parts ?? []), ...(m.a ? [m.a] : []), ...(m.b ? [m.b] : [])])
     out.push(p.points.buffer as ArrayBuffer, p.normals.buffer as ArrayBuffer);
   if (m.checkpoint) out.push(m.checkpoint.weightData);
   if (m.vectors) out.push(m.vectors.buffer as ArrayBuffer);
   if (m.kept) out.push(...[m.kept.index, m.kept.score, m.kept.length].map((a) => a.buffer as ArrayBuffer));
+  if (m.port) out.push(m.port);
+  if (m.helper) out.push(m.helper);
   return [...new Set(out)];
 }
 
@@ -274,36 +279,63 @@ export class TrainClient {
     return r.report;
   }
 
-  /** The augmentation study on the clouds of `source` (handed over a chunk at a time first). */
+  /**
+   * Has this worker serve embedding requests arriving on `port` (another worker's study) until `endService` with the
+   * id returned.
+   */
+  serve(port: MessagePort): number {
+    const id = this.nextId++;
+    const msg: TrainRequest = { type: 'serve', id, port };
+    this.send(msg, transfersOf(msg));
+    return id;
+  }
+
+  endService(id: number): void {
+    if (this.worker) this.send({ type: 'cancel', id });
+  }
+
+  /**
+   * The augmentation study on the clouds of `source` (handed over a chunk at a time first). With `helper`, that
+   * worker embeds about half of each set of views, over a channel of their own.
+   */
   async study(
     source: CloudSource,
     labels: readonly string[],
     checkpoint: CheckpointMessage | null,
     config: TrainConfig,
     onProgress: (done: number, total: number, what: string) => void,
-    strengths?: readonly number[],
-  ): Promise<StudyRow[]> {
+    options: {
+      readonly strengths?: readonly number[];
+      readonly kinds?: readonly AugmentKind[];
+      readonly helper?: TrainClient | null;
+    } = {},
+  ): Promise<{ rows: StudyRow[]; shared: number }> {
+    const { strengths, kinds, helper } = options;
     const id = this.nextId++;
     const off = this.on((m) => {
       if (m.id === id && m.type === 'study-progress') onProgress(m.done, m.total, m.what);
     });
+    const channel = helper ? new MessageChannel() : null;
+    const service = helper && channel ? helper.serve(channel.port1) : 0;
     try {
       await this.stage(id, source);
-      return (
-        await this.request(
-          {
-            type: 'study',
-            id,
-            labels,
-            checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
-            config,
-            ...(strengths ? { strengths } : {}),
-          },
-          'study',
-        )
-      ).rows;
+      const { rows, shared } = await this.request(
+        {
+          type: 'study',
+          id,
+          labels,
+          checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
+          config,
+          ...(strengths ? { strengths } : {}),
+          ...(kinds ? { kinds } : {}),
+          ...(channel ? { helper: channel.port2 } : {}),
+        },
+        'study',
+      );
+      return { rows, shared };
     } finally {
       off();
+      if (helper) helper.endService(service);
     }
   }
 

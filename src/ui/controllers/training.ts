@@ -22,6 +22,17 @@ export interface TrainingEvents {
 
 export class TrainingController {
   readonly client = new TrainClient();
+  private second: TrainClient | null = null;
+
+  /**
+   * A second worker for the models, beside the training worker (embedding the library, half of a study's views):
+   * made on first use, where the machine has two cores; null where it has one.
+   */
+  helper(): TrainClient | null {
+    const cores = typeof navigator !== 'undefined' ? (navigator.hardwareConcurrency ?? 1) : 1;
+    if (cores < 2) return null;
+    return (this.second ??= new TrainClient());
+  }
   private chosen = { inputs: false, epochs: false, pose: false };
   private traitsMemo: { parts: readonly LibraryPart[]; traits: LibraryTraits } | null = null;
 

@@ -6,7 +6,7 @@
 // and holds on these parts, and a pair's principal block is checked to be the principal encoder alone, exactly.
 import * as tf from '@tensorflow/tfjs';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { embedForRetrieval, embedParts, RETRIEVAL_RESAMPLINGS } from '../../../src/core/model/embed';
+import { embedForRetrieval, embedParts, embedShared, RETRIEVAL_RESAMPLINGS } from '../../../src/core/model/embed';
 import { Encoder } from '../../../src/core/model/encoder';
 import { DEFAULT_ENCODER, type EncoderConfig } from '../../../src/core/model/encoder-config';
 import { readFloats } from '../../../src/core/model/backend';
@@ -151,5 +151,43 @@ describe('retrieval embedding (default encoder, EdgeConv k = 32)', () => {
     }
     plain.dispose();
     withGrid.dispose();
+  });
+
+  it('shared with a second thread, gives the bytes of one thread: whole batches go there, the rest is embedded here', async () => {
+    const enc = new Encoder({ ...DEFAULT_ENCODER, surfaceGrid: null }, createRng(9));
+    const parts = demo.slice(0, 40); // batches of 32 and 8
+    const alone = embedForRetrieval(enc, parts, 128, 'principal-axes');
+    const asked: number[] = [];
+    const here: number[] = [];
+    const local = (ps: readonly ModelPart[]) => {
+      here.push(ps.length);
+      return embedForRetrieval(enc, ps, 128, 'principal-axes');
+    };
+    const remote = async (ps: readonly ModelPart[]) => {
+      asked.push(ps.length);
+      return embedForRetrieval(enc, ps, 128, 'principal-axes');
+    };
+    expect(Array.from(await embedShared(parts, local, remote))).toEqual(Array.from(alone));
+    expect([asked, here]).toEqual([[32], [8]]); // two batches: one each
+    expect(Array.from(await embedShared(parts, local, remote, 1))).toEqual(Array.from(alone));
+    expect(Array.from(await embedShared(parts.slice(0, 20), local, remote))).toEqual(
+      Array.from(alone.subarray(0, (20 * alone.length) / 40)),
+    );
+    expect([asked, here]).toEqual([[32, 40, 20], [8]]); // all there; one batch rounds to there
+    // A failure on either side is the call's failure, and the other side's answer is still awaited.
+    await expect(embedShared(parts, local, () => Promise.reject(new Error('worker gone')))).rejects.toThrow(
+      'worker gone',
+    );
+    let settled = false;
+    const slow = () =>
+      new Promise<Float32Array>((resolve) => setTimeout(() => resolve(new Float32Array(0)), 20)).finally(
+        () => (settled = true),
+      );
+    const broken = () => {
+      throw new Error('no memory');
+    };
+    await expect(embedShared(parts, broken, slow)).rejects.toThrow('no memory');
+    expect(settled).toBe(true);
+    enc.dispose();
   });
 });
