@@ -182,6 +182,9 @@ function indexOf(cloud: PointCloud): PointIndex {
 }
 
 function rotate(w: Work, m: Mat3): void {
+  // A turn by no angle (strength 0) leaves the cloud as it was, bit for bit: multiplying by the identity would turn
+  // −0 into +0 (−0 + 0 = +0 in IEEE 754), so the study would embed such views again instead of once.
+  if (m.every((v, i) => v === (i % 4 === 0 ? 1 : 0))) return;
   transformPoints(m, w.p, w.p);
   if (w.n) transformPoints(m, w.n, w.n);
 }
@@ -254,7 +257,8 @@ function applyStep(w: Work, s: AugmentStep, upAxis: UpAxis, rng: Rng): void {
     case 'scale': {
       const f = [0, 1, 2].map(() => Math.exp(rng.uniform(-1, 1) * k * Math.log(1.5)));
       for (let i = 0; i < w.p.length; i++) w.p[i] *= f[i % 3];
-      if (w.n) {
+      // (Factors of exactly 1, at strength 0, leave the normals as they were: renormalising would round them.)
+      if (w.n && f.some((v) => v !== 1)) {
         // Normals transform by the inverse transpose of the scaling, then are renormalised.
         for (let i = 0; i < N; i++) {
           const x = w.n[i * 3] / f[0],
@@ -270,13 +274,17 @@ function applyStep(w: Work, s: AugmentStep, upAxis: UpAxis, rng: Rng): void {
     }
     case 'translate': {
       const t = [0, 1, 2].map(() => rng.uniform(-0.2, 0.2) * k);
-      for (let i = 0; i < w.p.length; i++) w.p[i] += t[i % 3];
+      // Adding 0 is skipped, here and in jitter: −0 + 0 is +0, and strength 0 must leave the cloud bit for bit.
+      for (let i = 0; i < w.p.length; i++) if (t[i % 3] !== 0) w.p[i] += t[i % 3];
       return;
     }
     case 'jitter': {
       const sigma = JITTER_SIGMA_AT_FULL * k;
       const clip = JITTER_CLIP_SIGMAS * sigma;
-      for (let i = 0; i < w.p.length; i++) w.p[i] += Math.max(-clip, Math.min(clip, sigma * rng.normal()));
+      for (let i = 0; i < w.p.length; i++) {
+        const d = Math.max(-clip, Math.min(clip, sigma * rng.normal()));
+        if (d !== 0) w.p[i] += d;
+      }
       return;
     }
     case 'dropout': {

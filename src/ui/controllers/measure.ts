@@ -41,8 +41,9 @@ export class MeasureController {
 
   /**
    * Seconds each job should take, from the pace of the library's last embedding here (null before one): the
-   * measurement embeds the library once per encoder (learned, untrained); the study once per encoder on the clean
-   * library and once more per augmentation and strength. D2 and the distances add a little; "about" covers it.
+   * measurement embeds the library once per encoder (learned, untrained), on one worker; the study once per encoder
+   * on the clean library and once more per augmentation and strength, on two workers where there are two. D2 and the
+   * distances add a little; "about" covers it.
    */
   estimates(): { measure: number | null; study: number | null; pace: number | null } {
     const pace = this.store.value.search.embedPace;
@@ -54,9 +55,10 @@ export class MeasureController {
     // Views at strength 0 are the parts themselves, whatever the augmentation: embedded once.
     const changed = STUDY_STRENGTHS.filter((s) => s > 0).length;
     const sets = (this.studyKinds ?? AUGMENT_KINDS).length * changed + (changed < STUDY_STRENGTHS.length ? 1 : 0);
+    const workers = this.studyOnTwoWorkers && this.training.hasHelper() ? 2 : 1;
     return {
       measure: encoders * library,
-      study: encoders * (library + sets * views),
+      study: (encoders * (library + sets * views)) / workers,
       pace: 1000 / pace,
     };
   }

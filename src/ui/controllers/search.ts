@@ -152,7 +152,7 @@ export class SearchController {
     const clients = this.embedders(chunks);
     await Promise.all(clients.map(run));
     if (version !== this.version) return null;
-    // The pace of one worker (the measurement and the study, estimated from it, run on one).
+    // The pace of one worker (the measurement runs on one, the study on as many as here: both estimated from it).
     this.patch({ embedPace: ((performance.now() - startedAt) * clients.length) / total });
     // Put together a slice at a time: at 20,000 parts the rows are 80 MB, and writing fresh memory costs about
     // 12 ns a value here (page faults; measured in Node), a second in one task.

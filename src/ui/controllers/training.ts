@@ -29,9 +29,12 @@ export class TrainingController {
    * made on first use, where the machine has two cores; null where it has one.
    */
   helper(): TrainClient | null {
-    const cores = typeof navigator !== 'undefined' ? (navigator.hardwareConcurrency ?? 1) : 1;
-    if (cores < 2) return null;
-    return (this.second ??= new TrainClient());
+    return this.hasHelper() ? (this.second ??= new TrainClient()) : null;
+  }
+
+  /** Whether `helper` gives a second worker (the machine has two cores or more). */
+  hasHelper(): boolean {
+    return (typeof navigator !== 'undefined' ? (navigator.hardwareConcurrency ?? 1) : 1) >= 2;
   }
   private chosen = { inputs: false, epochs: false, pose: false };
   private traitsMemo: { parts: readonly LibraryPart[]; traits: LibraryTraits } | null = null;

@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { makeCloud, type PointCloud } from '../../../src/core/points/cloud';
 import {
+  AUGMENT_KINDS,
   augment,
   blendLocalTransforms,
   pipelineFromJson,
@@ -218,22 +219,21 @@ describe('dropout, occlusion and partial view keep N points', () => {
     expect(distinct.size).toBeLessThan(1100);
     expect(out.count).toBe(2000);
   });
-  it('strength 0 leaves a cloud unchanged for every step kind', () => {
-    const cloud = sphereCloud(200, 19);
-    for (const kind of [
-      'rotate-up',
-      'rotate-any',
-      'scale',
-      'translate',
-      'jitter',
-      'dropout',
-      'occlude',
-      'partial-view',
-      'mirror',
-      'local-warp',
-    ] as const) {
+  it('strength 0 leaves a cloud unchanged for every step kind, bit for bit (−0 included)', () => {
+    // Each kind's rule (AUGMENT_DESCRIPTIONS) at s = 0 is the identity: no angle, factor 1, offset 0, σ 0, nothing
+    // dropped or removed, probability 0. Bit for bit, so the study embeds strength 0 once for every kind.
+    const sphere = sphereCloud(200, 19);
+    const positions = sphere.positions.slice(),
+      normals = sphere.normals!.slice();
+    positions[0] = -0;
+    normals[1] = -0;
+    normals[5] = -0;
+    const cloud = makeCloud(positions, normals);
+    const bits = (a: Float32Array | null) => Array.from(new Uint32Array(a!.buffer, a!.byteOffset, a!.length));
+    for (const kind of AUGMENT_KINDS) {
       const out = augment(cloud, only(kind, 0), createRng(20));
-      expectClose(out.positions, cloud.positions, { atol: 1e-6 });
+      expect({ kind, positions: bits(out.positions) }).toEqual({ kind, positions: bits(cloud.positions) });
+      expect({ kind, normals: bits(out.normals) }).toEqual({ kind, normals: bits(cloud.normals) });
     }
   });
 });
