@@ -2,6 +2,8 @@
 // handing the thread back (a new task), so input and painting go on between them. The Long Tasks API calls any
 // task over 50 ms long; slices of about 10 ms leave room for a frame around them (common practice).
 
+import type { Steps } from '../core/steps';
+
 /** Milliseconds of work a slice does before it hands the thread back. */
 export const SLICE_MS = 10;
 
@@ -52,4 +54,28 @@ export async function copyInSlices(source: Float32Array, budgetMs = SLICE_MS): P
     out.set(source.subarray(i, Math.min(source.length, i + COPY_STEP)), i);
   }
   return out;
+}
+
+/**
+ * Runs `steps` (core/steps.ts) to the end, a task each `budgetMs` of it; null, with the rest not run, when `stop`
+ * says so after a wait.
+ */
+export async function stepThrough<T>(
+  steps: Steps<T>,
+  stop: () => boolean = () => false,
+  budgetMs = SLICE_MS,
+): Promise<T | null> {
+  let start = performance.now();
+  for (;;) {
+    const r = steps.next();
+    if (r.done) return r.value;
+    if (performance.now() - start >= budgetMs) {
+      await yieldToPage();
+      if (stop()) {
+        steps.return(undefined as never);
+        return null;
+      }
+      start = performance.now();
+    }
+  }
 }

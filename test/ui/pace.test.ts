@@ -2,7 +2,8 @@
 // are meant to stay well under it and to let other tasks run between them.
 
 import { describe, expect, it } from 'vitest';
-import { copyInSlices, inSlices, SLICE_MS, yieldToPage } from '../../src/ui/pace';
+import { copyInSlices, inSlices, SLICE_MS, stepThrough, yieldToPage } from '../../src/ui/pace';
+import type { Steps } from '../../src/core/steps';
 
 /** Busy-waits `ms` (a slice of work that takes real time). */
 const spin = (ms: number) => {
@@ -65,6 +66,42 @@ describe('work in slices', () => {
     expect(n).toBe(done.length);
     expect(n).toBeGreaterThanOrEqual(4);
     expect(n).toBeLessThan(20);
+  });
+
+  it('runs a computation written in steps to its result, handing the thread back between slices, or stops it', async () => {
+    let ran = 0;
+    let closed: boolean | undefined;
+    function* work(n: number): Steps<number> {
+      try {
+        let sum = 0;
+        for (let i = 1; i <= n; i++) {
+          spin(2);
+          sum += i;
+          ran++;
+          yield;
+        }
+        return sum;
+      } finally {
+        closed = true;
+      }
+    }
+    let between = 0;
+    let ticking = true;
+    const tick = () => {
+      between++;
+      if (ticking) setTimeout(tick, 0);
+    };
+    setTimeout(tick, 0);
+    // 10 steps of 2 ms in slices of 5 ms: 1 + 2 + … + 10 = 55, with the thread free at least twice on the way.
+    expect(await stepThrough(work(10), () => false, 5)).toBe(55);
+    ticking = false;
+    expect(between).toBeGreaterThanOrEqual(2);
+    ran = 0;
+    closed = false;
+    expect(await stepThrough(work(100), () => ran >= 6, 3)).toBeNull();
+    expect(ran).toBeGreaterThanOrEqual(6);
+    expect(ran).toBeLessThan(100);
+    expect(closed).toBe(true); // the generator was ended, not left hanging
   });
 
   it('copies a long array exactly, handing the thread back between slices', async () => {

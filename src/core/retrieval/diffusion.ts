@@ -4,6 +4,7 @@
 // Schölkopf 2004 ("Learning with local and global consistency"); the kNN graph with affinities max(0, cos)^γ is
 // the retrieval form of Iscen, Tolias, Avrithis, Furon & Chum 2017 ("Efficient diffusion on region manifolds").
 
+import { finish, type Steps } from '../steps';
 import { topK } from './topk';
 
 export interface DiffusionOptions {
@@ -263,6 +264,11 @@ export class DiffusionGraph {
    * f ← αSf + (1 − α)y, starting from y.
    */
   scoresFrom(source: number): Float64Array {
+    return finish(this.scoresFromSteps(source));
+  }
+
+  /** `scoresFrom`, a step at a time: it yields after each iteration (at 20,000 parts, about a millisecond each). */
+  *scoresFromSteps(source: number): Steps<Float64Array> {
     if (!(Number.isInteger(source) && source >= 0 && source < this.size))
       throw new RangeError(`diffusion: no node ${source} in a graph of ${this.size}`);
     const { alpha, iterations } = this.options;
@@ -280,6 +286,7 @@ export class DiffusionGraph {
       }
       next[source] += 1 - alpha;
       [f, next] = [next, f];
+      yield;
     }
     return f;
   }

@@ -226,6 +226,32 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
       expect(index.ranked('diffusion', v, 8, filter, given)).toEqual(index.ranked('diffusion', v, 8, filter));
       expect(index.ranked('cosine', v, 8, filter, given)).toEqual(index.ranked('cosine', v, 8, filter));
     }
+    // A step at a time (as the page spreads it over tasks): a step for each of the α-iterations at least, and two
+    // rankings taken in turns, step for step, each end as it does alone.
+    const fresh = () =>
+      new EmbeddingIndex(
+        flat,
+        6,
+        V.map((_, i) => ({ name: `p${i}`, label: 'x', diagonal: 1 })),
+      );
+    const stepped = fresh();
+    const a = stepped.queryDiffusedSteps(q, 5),
+      b = stepped.queryDiffusedSteps(stepped.vector(4), 29, { exclude: 4 });
+    let ra = a.next(),
+      rb = b.next(),
+      steps = 1;
+    while (!ra.done || !rb.done) {
+      if (!ra.done) ra = a.next();
+      if (!rb.done) rb = b.next();
+      steps++;
+    }
+    expect(steps).toBeGreaterThan(DIFFUSION_DEFAULTS.iterations);
+    expect([ra.value, rb.value]).toEqual([outside, fromPart]);
+    // ranked's steps: this small library is too concentrated for diffusion (it falls back to cosine), as ranked says.
+    const r = stepped.rankedSteps('diffusion', q, 5);
+    let rr = r.next();
+    while (!rr.done) rr = r.next();
+    expect(rr.value).toEqual(fresh().ranked('diffusion', q, 5));
   });
 });
 
