@@ -11,6 +11,23 @@ const spin = (ms: number) => {
   while (performance.now() < end);
 };
 
+/** Counts the moments the thread comes free (a timer that runs whenever it can), until `stop`, which says how many. */
+function freeMoments(): { stop: () => number } {
+  let count = 0;
+  let ticking = true;
+  const tick = () => {
+    count++;
+    if (ticking) setTimeout(tick, 0);
+  };
+  setTimeout(tick, 0);
+  return {
+    stop: () => {
+      ticking = false;
+      return count;
+    },
+  };
+}
+
 describe('work in slices', () => {
   it('a slice is far below the 50 ms of a long task', () => {
     expect(SLICE_MS).toBeLessThanOrEqual(50 / 4);
@@ -85,17 +102,10 @@ describe('work in slices', () => {
         closed = true;
       }
     }
-    let between = 0;
-    let ticking = true;
-    const tick = () => {
-      between++;
-      if (ticking) setTimeout(tick, 0);
-    };
-    setTimeout(tick, 0);
+    const free = freeMoments();
     // 10 steps of 2 ms in slices of 5 ms: 1 + 2 + … + 10 = 55, with the thread free at least twice on the way.
     expect(await stepThrough(work(10), () => false, 5)).toBe(55);
-    ticking = false;
-    expect(between).toBeGreaterThanOrEqual(2);
+    expect(free.stop()).toBeGreaterThanOrEqual(2);
     ran = 0;
     closed = false;
     expect(await stepThrough(work(100), () => ran >= 6, 3)).toBeNull();
@@ -106,16 +116,10 @@ describe('work in slices', () => {
 
   it('copies a long array exactly, handing the thread back between slices', async () => {
     const source = Float32Array.from({ length: 3 * 2 ** 18 + 5 }, (_, i) => Math.sin(i));
-    let between = 0;
-    let ticking = true;
-    const tick = () => {
-      between++;
-      if (ticking) setTimeout(tick, 0);
-    };
-    setTimeout(tick, 0);
+    const free = freeMoments();
     // A zero budget: every 1 MB step is a task of its own (four of them here).
     const copy = await copyInSlices(source, 0);
-    ticking = false;
+    const between = free.stop();
     expect(copy).not.toBe(source);
     expect(copy).toEqual(source);
     expect(between).toBeGreaterThanOrEqual(3);
