@@ -6,14 +6,7 @@ import { normaliseRows, unitRows } from '../vectors';
 import { topK, type Hit } from './topk';
 import { DIFFUSION_DEFAULTS, DiffusionGraph, rankingKeys, type DiffusionOptions } from './diffusion';
 import { HUB_NEIGHBOURS, meanOfTop } from './hubness';
-import {
-  NeighbourTable,
-  packLists,
-  TABLE_WIDTH,
-  unpackLists,
-  type PackedLists,
-  type RowScorer,
-} from './neighbour-table';
+import { NeighbourTable, packLists, TABLE_WIDTH, type PackedLists, type RowScorer } from './neighbour-table';
 
 /**
  * How results are ordered: by cosine similarity to the query, or through the library: hub-corrected (CSLS,
@@ -151,6 +144,7 @@ export class EmbeddingIndex {
     this.hubs = null;
     this.graph = null;
     this.graphLists = null;
+    this.graphPacked = null;
     return this;
   }
 
@@ -170,6 +164,8 @@ export class EmbeddingIndex {
   }
 
   private graphLists: Hit[][] | null = null;
+  /** The graph's lists as handed over packed (`useOrdering`), kept as they came. */
+  private graphPacked: PackedLists | null = null;
 
   /** The library's neighbour graph over hub-corrected scores, from the table (built on first use) and kept. */
   diffusionGraph(options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
@@ -177,6 +173,7 @@ export class EmbeddingIndex {
       const built = this.neighbourTable().diffusionGraph(this.rowScorer(), options, this.neighbourhoodMeans());
       this.graph = built.graph;
       this.graphLists = options === DIFFUSION_DEFAULTS ? built.lists : null;
+      this.graphPacked = null;
     }
     return this.graph;
   }
@@ -187,17 +184,19 @@ export class EmbeddingIndex {
    */
   ordering(): { table: NeighbourTable; graph: PackedLists } {
     this.diffusionGraph(DIFFUSION_DEFAULTS);
-    return { table: this.neighbourTable(), graph: packLists(this.graphLists!, DIFFUSION_DEFAULTS.k) };
+    return {
+      table: this.neighbourTable(),
+      graph: this.graphPacked ?? packLists(this.graphLists!, DIFFUSION_DEFAULTS.k),
+    };
   }
 
   /** Takes an ordering built elsewhere (`ordering()` of an index over these very vectors): nothing is rebuilt here. */
   useOrdering(o: { table: NeighbourTable; graph: PackedLists }): this {
     this.useTable(o.table);
-    const lists = unpackLists(o.graph);
-    if (lists.length !== this.count)
-      throw new RangeError(`useOrdering: a graph of ${lists.length} parts for an index of ${this.count}`);
-    this.graph = DiffusionGraph.fromNeighbours(lists, DIFFUSION_DEFAULTS);
-    this.graphLists = lists;
+    if (o.graph.length.length !== this.count)
+      throw new RangeError(`useOrdering: a graph of ${o.graph.length.length} parts for an index of ${this.count}`);
+    this.graph = DiffusionGraph.fromPacked(o.graph, DIFFUSION_DEFAULTS);
+    this.graphPacked = o.graph;
     return this;
   }
 

@@ -305,33 +305,7 @@ export class NeighbourTable {
   }
 }
 
-/** Neighbour lists (one per part, best first, at most `k` each) as three flat arrays, for messages and storage. */
-export interface PackedLists {
-  readonly k: number;
-  readonly index: Int32Array;
-  readonly score: Float64Array;
-  readonly length: Int32Array;
-}
-
-export function packLists(lists: readonly (readonly Hit[])[], k: number): PackedLists {
-  const n = lists.length;
-  const out = { k, index: new Int32Array(n * k), score: new Float64Array(n * k), length: new Int32Array(n) };
-  lists.forEach((l, i) => {
-    if (l.length > k) throw new RangeError(`packLists: row ${i} has ${l.length} entries, more than ${k}`);
-    out.length[i] = l.length;
-    l.forEach((h, c) => {
-      out.index[i * k + c] = h.index;
-      out.score[i * k + c] = h.score;
-    });
-  });
-  return out;
-}
-
-export function unpackLists(p: PackedLists): Hit[][] {
-  return Array.from({ length: p.length.length }, (_, i) =>
-    Array.from({ length: p.length[i] }, (_, c) => ({ index: p.index[i * p.k + c], score: p.score[i * p.k + c] })),
-  );
-}
+export { packLists, unpackLists, type PackedLists } from './diffusion';
 
 /** A table kept with the names of the parts its rows stand for, in row order. */
 export interface NamedTable {
