@@ -9,6 +9,7 @@ import type { StudyRow } from '../core/quality/study';
 import type { AugmentKind } from '../core/points/augment';
 import type { TrainConfig, TrainProgress, HeldOutCheck, TrainResult } from '../core/model/train-config';
 import type { HashedPart, PartClouds, PartMesh } from '../core/db/workbench';
+import type { GraphArrays } from '../core/retrieval/diffusion';
 import type { PackedLists, TableArrays } from '../core/retrieval/neighbour-table';
 
 /**
@@ -62,6 +63,8 @@ export type TableMessage = TableArrays;
 export interface OrderingMessage {
   readonly table: TableMessage;
   readonly graph: PackedLists;
+  /** The diffusion graph built from `graph` here, so the page need not build it (at 6,225 parts 57 ms of its CPU). */
+  readonly built?: GraphArrays;
   /** Rows added to, and removed from, a kept table (0 and 0 when built afresh); rows scanned again for the graph. */
   readonly added: number;
   readonly removed: number;

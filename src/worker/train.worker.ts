@@ -19,7 +19,7 @@ import { explainMatch } from '../core/model/explain';
 import { Trainer } from '../core/model/trainer';
 import type { TrainConfig } from '../core/model/train-config';
 import { evaluateMethods, untrainedEncoders } from '../core/quality/evaluate';
-import { DIFFUSION_DEFAULTS } from '../core/retrieval/diffusion';
+import { DIFFUSION_DEFAULTS, DiffusionGraph } from '../core/retrieval/diffusion';
 import { runStudy } from '../core/quality/study';
 import { namedTable, tableArrays } from '../core/retrieval/neighbour-table';
 import { buildOrdering } from '../core/retrieval/tensor-index';
@@ -352,6 +352,7 @@ async function handle(req: TrainRequest, channel: Channel): Promise<void> {
         const kept = req.kept ? namedTable(req.kept) : null;
         const o = buildOrdering(req.names, req.vectors, req.dim, kept);
         const table = tableArrays({ names: req.names, table: o.table });
+        const built = DiffusionGraph.fromPacked(o.graph, DIFFUSION_DEFAULTS).arrays();
         post(
           {
             type: 'ordering',
@@ -359,14 +360,17 @@ async function handle(req: TrainRequest, channel: Channel): Promise<void> {
             ordering: {
               table,
               graph: o.graph,
+              built,
               added: o.added,
               removed: o.removed,
               fresh: o.fresh,
             },
           },
-          [table.index, table.score, table.length, o.graph.index, o.graph.score, o.graph.length].map(
-            (a) => a.buffer as ArrayBuffer,
-          ),
+          [
+            ...[table.index, table.score, table.length, o.graph.index, o.graph.score, o.graph.length],
+            ...[built.from, built.to, built.w, built.kthSimilarity, built.rowStart, built.cols, built.weights],
+            built.invSqrtDegree,
+          ].map((a) => a.buffer as ArrayBuffer),
         );
         return;
       }

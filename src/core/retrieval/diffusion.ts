@@ -52,6 +52,12 @@ interface Rows {
   readonly invSqrtDegree: Float64Array;
 }
 
+/** A built graph as plain arrays (`DiffusionGraph.arrays`), for handing it from one thread to another. */
+export interface GraphArrays extends Rows, DirectedEdges {
+  readonly size: number;
+  readonly kthSimilarity: Float64Array;
+}
+
 /**
  * The symmetric affinity W = (A + Aᵀ)/2 of a kNN graph (A_ij = max(0, s_ij)^γ for the k most similar j ≠ i),
  * stored as compressed rows, with its degrees. Diffusion walks S = D^−½ W D^−½.
@@ -169,6 +175,20 @@ export class DiffusionGraph {
     let longest = 0;
     for (const l of lists) longest = Math.max(longest, l.length);
     return DiffusionGraph.fromPacked(packLists(lists, longest), options);
+  }
+
+  /** The graph's arrays, as `fromArrays` takes them back (shared, not copied). */
+  arrays(): GraphArrays {
+    const { rowStart, cols, weights, invSqrtDegree, kthSimilarity, size } = this;
+    return { size, ...this.directed, kthSimilarity, rowStart, cols, weights, invSqrtDegree };
+  }
+
+  /** The graph `arrays` came from, as built: nothing is worked out again (a worker builds, the page takes it). */
+  static fromArrays(a: GraphArrays, options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
+    validateDiffusion(options);
+    if (a.rowStart.length !== a.size + 1 || a.kthSimilarity.length !== a.size)
+      throw new RangeError(`diffusion: arrays for ${a.size} nodes do not match their rows`);
+    return new DiffusionGraph(a.size, { from: a.from, to: a.to, w: a.w }, a.kthSimilarity, options, a);
   }
 
   /**

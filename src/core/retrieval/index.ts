@@ -4,7 +4,7 @@
 import { finish, type Steps } from '../steps';
 import { normaliseRows, unitRows } from '../vectors';
 import { topK, type Hit } from './topk';
-import { DIFFUSION_DEFAULTS, DiffusionGraph, rankingKeys, type DiffusionOptions } from './diffusion';
+import { DIFFUSION_DEFAULTS, DiffusionGraph, rankingKeys, type DiffusionOptions, type GraphArrays } from './diffusion';
 import { HUB_NEIGHBOURS, meanOfTop } from './hubness';
 import { NeighbourTable, packLists, TABLE_WIDTH, type PackedLists, type RowScorer } from './neighbour-table';
 
@@ -191,11 +191,14 @@ export class EmbeddingIndex {
   }
 
   /** Takes an ordering built elsewhere (`ordering()` of an index over these very vectors): nothing is rebuilt here. */
-  useOrdering(o: { table: NeighbourTable; graph: PackedLists }): this {
+  useOrdering(o: { table: NeighbourTable; graph: PackedLists; built?: GraphArrays }): this {
     this.useTable(o.table);
-    if (o.graph.length.length !== this.count)
+    if (o.graph.length.length !== this.count || (o.built && o.built.size !== this.count))
       throw new RangeError(`useOrdering: a graph of ${o.graph.length.length} parts for an index of ${this.count}`);
-    this.graph = DiffusionGraph.fromPacked(o.graph, DIFFUSION_DEFAULTS);
+    // The graph as built elsewhere from these lists, or built here from them.
+    this.graph = o.built
+      ? DiffusionGraph.fromArrays(o.built, DIFFUSION_DEFAULTS)
+      : DiffusionGraph.fromPacked(o.graph, DIFFUSION_DEFAULTS);
     this.graphPacked = o.graph;
     return this;
   }

@@ -214,7 +214,7 @@ export class SearchController {
       const kept = key ? await loadOrdering(key) : null;
       const o = await this.training.client.order(names, vectors, index.dim, kept);
       if (version !== this.version) return;
-      index.useOrdering({ table: namedTable(o.table).table, graph: o.graph });
+      index.useOrdering({ table: namedTable(o.table).table, graph: o.graph, ...(o.built ? { built: o.built } : {}) });
       if (key && (o.fresh || o.added > 0 || o.removed > 0)) await saveOrdering(key, o.table).catch(() => false);
     } catch {
       // ordered queries then build it here on first use

@@ -13,7 +13,7 @@ import type {
   TrainReply,
   TrainRequest,
 } from '../../worker/protocol';
-import { yieldToPage } from '../pace';
+import { copyInSlices, yieldToPage } from '../pace';
 
 type Listener = (msg: TrainReply) => void;
 
@@ -199,7 +199,8 @@ export class TrainClient {
 
   /**
    * The ordering through the library for embeddings whose rows are the parts `names`, carrying a kept table over
-   * (built in the worker, which has tfjs's matrix products; the page gets arrays).
+   * (built in the worker, which has tfjs's matrix products; the page gets arrays). The vectors are copied a slice
+   * at a time (in one task, 6,225 rows of 1,024 values held the page 80 ms of its CPU); `kept` is handed over.
    */
   async order(
     names: readonly string[],
@@ -207,14 +208,8 @@ export class TrainClient {
     dim: number,
     kept: TableMessage | null,
   ): Promise<OrderingMessage> {
-    const copy = vectors.slice();
-    const keptCopy = kept
-      ? { ...kept, index: kept.index.slice(), score: kept.score.slice(), length: kept.length.slice() }
-      : null;
-    const reply = await this.request(
-      { type: 'order', id: this.nextId++, names, vectors: copy, dim, kept: keptCopy },
-      'ordering',
-    );
+    const copy = await copyInSlices(vectors);
+    const reply = await this.request({ type: 'order', id: this.nextId++, names, vectors: copy, dim, kept }, 'ordering');
     return reply.ordering;
   }
 

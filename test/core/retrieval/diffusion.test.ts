@@ -113,6 +113,13 @@ describe('diffusion over the kNN graph (Zhou et al. 2004; Iscen et al. 2017)', (
         { atol: 1e-12 },
       );
     expectClose(joined.scoresFrom(n), closedForm(W, options.alpha, n), { atol: 1e-9 });
+    // Handed to another thread as arrays and taken back, the graph is the same graph: same scores, same join.
+    const copied = (a: ReturnType<DiffusionGraph['arrays']>) =>
+      Object.fromEntries(Object.entries(a).map(([k, v]) => [k, typeof v === 'number' ? v : v.slice()]));
+    const back = DiffusionGraph.fromArrays(copied(graph.arrays()) as ReturnType<DiffusionGraph['arrays']>, options);
+    expect(back.scoresFrom(4)).toEqual(graph.scoresFrom(4));
+    expect(back.withQuery(s).scoresFrom(30)).toEqual(joined.scoresFrom(30));
+    expect(() => DiffusionGraph.fromArrays({ ...graph.arrays(), size: 29 }, options)).toThrow(/do not match/);
   });
 
   it('ranks a chain of close neighbours above a part nearer in one step but in another group (worked example)', () => {
