@@ -98,7 +98,8 @@ export class SearchController {
       if (version !== this.version) return;
       const index = new EmbeddingIndex(vectors, dim, this.entries(parts), { gridShare: this.gridShare() });
       await yieldToPage();
-      if (index.diffusionApplies()) await this.order(index, vectors, key, names, version);
+      const spread = await stepThrough(index.diffusionAppliesSteps(), () => version !== this.version);
+      if (spread) await this.order(index, vectors, key, names, version);
       await yieldToPage();
       if (version !== this.version) return;
       const selected = this.store.value.library.selected;

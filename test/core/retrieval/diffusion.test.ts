@@ -11,6 +11,7 @@ import {
 import { throughLibrary } from '../../../src/core/retrieval/hubness';
 import { DIFFUSION_MAX_MEAN_COSINE, diffusionCeiling, EmbeddingIndex } from '../../../src/core/retrieval/index';
 import { createRng } from '../../../src/core/rng';
+import { finish } from '../../../src/core/steps';
 import { expectClose } from '../../helpers';
 
 function unitVectors(n: number, dim: number, seed: number): number[][] {
@@ -288,6 +289,8 @@ describe('when diffusion applies', () => {
             sum += dot(unit[i], unit[j]);
             pairs++;
           }
+      // Stepwise first, on a fresh index: the same answer as the one-piece computation after it.
+      expect(finish(index.diffusionAppliesSteps())).toBe(applies);
       expectClose(index.meanPairCosine(), sum / pairs, { atol: 1e-6 });
       expect(index.diffusionApplies()).toBe(applies);
       const q = index.vector(3);
