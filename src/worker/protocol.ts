@@ -9,8 +9,8 @@ import type { StudyRow } from '../core/quality/study';
 import type { AugmentKind } from '../core/points/augment';
 import type { TrainConfig, TrainProgress, HeldOutCheck, TrainResult } from '../core/model/train-config';
 import type { HashedPart, PartClouds, PartMesh } from '../core/db/workbench';
-import type { GraphArrays } from '../core/retrieval/diffusion';
-import type { PackedLists, TableArrays } from '../core/retrieval/neighbour-table';
+import type { GraphArrays, PackedLists } from '../core/retrieval/diffusion';
+import type { TableArrays } from '../core/retrieval/neighbour-table';
 
 /**
  * A file to read: its bytes, or the picked file itself (a Blob, read in the worker), so the page never holds a whole

@@ -418,9 +418,3 @@ export function packLists(lists: readonly (readonly Hit[])[], k: number): Packed
   });
   return out;
 }
-
-export function unpackLists(p: PackedLists): Hit[][] {
-  return Array.from({ length: p.length.length }, (_, i) =>
-    Array.from({ length: p.length[i] }, (_, c) => ({ index: p.index[i * p.k + c], score: p.score[i * p.k + c] })),
-  );
-}

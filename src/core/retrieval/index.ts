@@ -4,9 +4,17 @@
 import { finish, type Steps } from '../steps';
 import { normaliseRows, unitRows } from '../vectors';
 import { topK, type Hit } from './topk';
-import { DIFFUSION_DEFAULTS, DiffusionGraph, rankingKeys, type DiffusionOptions, type GraphArrays } from './diffusion';
+import {
+  DIFFUSION_DEFAULTS,
+  DiffusionGraph,
+  packLists,
+  rankingKeys,
+  type DiffusionOptions,
+  type GraphArrays,
+  type PackedLists,
+} from './diffusion';
 import { HUB_NEIGHBOURS, meanOfTop } from './hubness';
-import { NeighbourTable, packLists, TABLE_WIDTH, type PackedLists, type RowScorer } from './neighbour-table';
+import { NeighbourTable, TABLE_WIDTH, type RowScorer } from './neighbour-table';
 
 /**
  * How results are ordered: by cosine similarity to the query, or through the library: hub-corrected (CSLS,
@@ -144,7 +152,6 @@ export class EmbeddingIndex {
     this.hubs = null;
     this.graph = null;
     this.graphLists = null;
-    this.graphPacked = null;
     return this;
   }
 
@@ -163,17 +170,15 @@ export class EmbeddingIndex {
     return Float64Array.from({ length: this.count }, (_, j) => 2 * cosine[j] - rq - r[j]);
   }
 
-  private graphLists: Hit[][] | null = null;
-  /** The graph's lists as handed over packed (`useOrdering`), kept as they came. */
-  private graphPacked: PackedLists | null = null;
+  /** The default graph's neighbour lists, packed (as `ordering` hands them on and `useOrdering` takes them). */
+  private graphLists: PackedLists | null = null;
 
   /** The library's neighbour graph over hub-corrected scores, from the table (built on first use) and kept. */
   diffusionGraph(options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
     if (!this.graph || this.graph.options !== options) {
       const built = this.neighbourTable().diffusionGraph(this.rowScorer(), options, this.neighbourhoodMeans());
       this.graph = built.graph;
-      this.graphLists = options === DIFFUSION_DEFAULTS ? built.lists : null;
-      this.graphPacked = null;
+      this.graphLists = options === DIFFUSION_DEFAULTS ? packLists(built.lists, DIFFUSION_DEFAULTS.k) : null;
     }
     return this.graph;
   }
@@ -184,10 +189,7 @@ export class EmbeddingIndex {
    */
   ordering(): { table: NeighbourTable; graph: PackedLists } {
     this.diffusionGraph(DIFFUSION_DEFAULTS);
-    return {
-      table: this.neighbourTable(),
-      graph: this.graphPacked ?? packLists(this.graphLists!, DIFFUSION_DEFAULTS.k),
-    };
+    return { table: this.neighbourTable(), graph: this.graphLists! };
   }
 
   /** Takes an ordering built elsewhere (`ordering()` of an index over these very vectors): nothing is rebuilt here. */
@@ -199,7 +201,7 @@ export class EmbeddingIndex {
     this.graph = o.built
       ? DiffusionGraph.fromArrays(o.built, DIFFUSION_DEFAULTS)
       : DiffusionGraph.fromPacked(o.graph, DIFFUSION_DEFAULTS);
-    this.graphPacked = o.graph;
+    this.graphLists = o.graph;
     return this;
   }
 

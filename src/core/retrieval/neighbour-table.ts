@@ -305,8 +305,6 @@ export class NeighbourTable {
   }
 }
 
-export { packLists, unpackLists, type PackedLists } from './diffusion';
-
 /** A table kept with the names of the parts its rows stand for, in row order. */
 export interface NamedTable {
   readonly names: readonly string[];

@@ -5,14 +5,8 @@
 import * as tf from '@tensorflow/tfjs';
 import { normaliseRows } from '../vectors';
 import { dot4, EmbeddingIndex, type IndexEntry, type IndexOptions } from './index';
-import {
-  carryTable,
-  TABLE_WIDTH,
-  type NamedTable,
-  type NeighbourTable,
-  type PackedLists,
-  type RowScorer,
-} from './neighbour-table';
+import { carryTable, TABLE_WIDTH, type NamedTable, type NeighbourTable, type RowScorer } from './neighbour-table';
+import type { PackedLists } from './diffusion';
 
 export class TensorIndex extends EmbeddingIndex {
   private readonly matrixT: tf.Tensor2D; // (dim, count): the unit rows as columns
