@@ -3,6 +3,12 @@
 import { createRng, hashString } from '../rng';
 
 /**
+ * None, half and full strength: the workbench and `shapekin study` report the same table by default
+ * (`--strengths` asks the command line for a finer curve, at a cost that grows with the strengths).
+ */
+export const STUDY_STRENGTHS = [0, 0.5, 1] as const;
+
+/**
  * The Wilson score interval for a proportion of `successes` in `n` trials (Wilson 1927, "Probable inference, the
  * law of succession, and statistical inference"): centre (p̂ + z²/2n)/(1 + z²/n), half-width
  * z·√(p̂(1 − p̂)/n + z²/4n²)/(1 + z²/n); z = 1.96 for 95 %. Unlike p̂ ± z·√(p̂(1 − p̂)/n) it stays inside [0, 1] and

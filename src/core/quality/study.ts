@@ -11,11 +11,9 @@ import { chamferDistance } from '../points/distance';
 import { createRng, hashString } from '../rng';
 import { d2Histogram, l1 } from '../retrieval/d2';
 import type { MethodName } from './methods';
-import { sampleQueries, STUDY_QUERIES, wilsonInterval } from './sampling';
+import { sampleQueries, STUDY_QUERIES, STUDY_STRENGTHS, wilsonInterval } from './sampling';
 
-export { sampleQueries, STUDY_QUERIES, wilsonInterval } from './sampling';
-
-export const STUDY_STRENGTHS = [0, 0.25, 0.5, 0.75, 1] as const;
+export { sampleQueries, STUDY_QUERIES, STUDY_STRENGTHS, wilsonInterval } from './sampling';
 
 export interface StudyRow {
   readonly augmentation: AugmentKind;

@@ -3,14 +3,11 @@
 
 import { csvField } from '../../core/csv';
 import { AUGMENT_KINDS, type AugmentKind } from '../../core/points/augment';
-import { STUDY_QUERIES } from '../../core/quality/sampling';
+import { STUDY_QUERIES, STUDY_STRENGTHS } from '../../core/quality/sampling';
 import { STARTED, type AppState, type MeasureState, type Store } from '../state';
 import { download } from './download';
 import { librarySource } from './clouds';
 import type { TrainingController } from './training';
-
-/** Three strengths keep the browser study to a few minutes; `shapekin study` runs five. */
-const STUDY_STRENGTHS = [0, 0.5, 1];
 
 export class MeasureController {
   constructor(

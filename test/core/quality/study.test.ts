@@ -1,7 +1,7 @@
 // The augmentation study: its 95 % intervals are Wilson's (Wilson 1927), checked on worked examples by hand; a
 // sample of queries is seeded and looked up in the whole library.
 import { describe, expect, it } from 'vitest';
-import { runStudy, sampleQueries, wilsonInterval } from '../../../src/core/quality/study';
+import { runStudy, sampleQueries, STUDY_STRENGTHS, wilsonInterval } from '../../../src/core/quality/study';
 import { demoModelParts } from '../../meshes';
 
 describe('Wilson score interval (Wilson 1927)', () => {
@@ -53,5 +53,25 @@ describe('the study on a sample of queries', () => {
     expect(rows[0].mean_similarity).toBe(1);
     expect(rows[0].instance_top1_ci95).toEqual(wilsonInterval(12, 12));
     expect(rows[1].mean_chamfer).toBeGreaterThan(0);
+  });
+
+  it('a setting’s rows do not depend on which other strengths are listed (the default three are rows of the finer five)', async () => {
+    const parts = demoModelParts(256).slice(0, 30);
+    const labels = parts.map((_, i) => `f${i % 5}`);
+    const base = {
+      parts,
+      labels,
+      points: 256,
+      pose: 'principal-axes' as const,
+      encoders: {},
+      kinds: ['jitter', 'scale'] as const,
+      queries: 10,
+    };
+    const three = await runStudy({ ...base, strengths: STUDY_STRENGTHS });
+    const five = await runStudy({ ...base, strengths: [0, 0.25, 0.5, 0.75, 1] });
+    expect(STUDY_STRENGTHS).toEqual([0, 0.5, 1]);
+    const pick = (rows: typeof five) => rows.filter((r) => STUDY_STRENGTHS.includes(r.strength as 0 | 0.5 | 1));
+    expect(pick(five)).toEqual(three);
+    expect(five.length).toBeGreaterThan(three.length);
   });
 });
