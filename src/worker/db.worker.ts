@@ -10,7 +10,6 @@ import { PartsDb } from '../core/db/parts-db';
 import { replaceContents } from '../core/db/copy';
 import { WorkbenchStore, type HashedPart } from '../core/db/workbench';
 import { partTransfers, type LibraryPart } from '../core/library';
-import { fileFrameBoxRatio } from '../core/points/pca';
 import type { ImportFailure } from '../core/mesh/import';
 import { modelJsonFor, readModelJson, type ModelJson } from '../core/model/model-json';
 import type { DbAnswers, DbReply, DbRequest } from './protocol';
@@ -26,9 +25,6 @@ const OPFS = typeof (globalThis as { FileSystemSyncAccessHandle?: unknown }).Fil
 const DATA = OPFS ? `opfs-ahp://${NAME}` : `idb://${NAME}`;
 
 let current: Promise<WorkbenchStore> | null = null;
-
-/** A part's cloud arrays when it goes to the page without them (one empty array, never handed over). */
-const NO_FLOATS = new Float32Array(0);
 
 async function open(): Promise<WorkbenchStore> {
   const sql = await openEmbedded(DATA);
@@ -98,9 +94,9 @@ async function answer(req: DbRequest): Promise<[DbAnswers[DbRequest['type']], Ar
     case 'load-library':
       return [await (await store()).outline(), []];
     case 'load-parts': {
-      const read = await (await store()).parts(req.names, { meshes: req.meshes ?? true });
-      const boxRatios = read.map((p) => fileFrameBoxRatio(p.points));
-      const parts = req.clouds === false ? read.map((p) => ({ ...p, points: NO_FLOATS, normals: NO_FLOATS })) : read;
+      const { parts, boxRatios } = await (
+        await store()
+      ).partsAndRatios(req.names, { meshes: req.meshes ?? true, clouds: req.clouds ?? true });
       return [{ parts, boxRatios }, parts.flatMap(partTransfers).filter((b) => b.byteLength > 0)];
     }
     case 'load-clouds': {

@@ -7,6 +7,7 @@
 
 import type { SamplingSettings } from '../library';
 import type { MeshInfo } from '../mesh/types';
+import { fileFrameBoxRatio } from '../points/pca';
 import { migrate } from './schema';
 import { bytesFloats, floatBytes, vectorLiteral, type Sql } from './sql';
 
@@ -161,7 +162,7 @@ export class PartsDb {
       const changed = await tx.query<{ path: string; id: number }>(
         `UPDATE parts SET content_hash = u.hash, file_bytes = u.bytes, label = u.label, state = 'pending',
            failure = NULL, format = NULL, units = NULL, triangles = NULL, closed = NULL, bodies = NULL, extents = NULL,
-           diagonal = NULL, info = NULL, sample_points = NULL, sample_seed = NULL, points = NULL, normals = NULL,
+           diagonal = NULL, info = NULL, sample_points = NULL, sample_seed = NULL, points = NULL, normals = NULL, box_ratio = NULL,
            changed_at = now()
          FROM ${listed} WHERE parts.path = u.path AND parts.content_hash <> u.hash RETURNING parts.path, parts.id`,
         [paths, hashes, bytes, labels],
@@ -228,7 +229,7 @@ export class PartsDb {
         await tx.query(
           `UPDATE parts SET state = 'ready', failure = NULL, format = $2, units = $3, triangles = $4, closed = $5,
              bodies = $6, extents = $7::double precision[], diagonal = $8, info = $9::jsonb, sample_points = $10,
-             sample_seed = $11, points = $12, normals = $13, changed_at = now()
+             sample_seed = $11, points = $12, normals = $13, box_ratio = $14, changed_at = now()
            WHERE id = $1`,
           [
             files[i].id,
@@ -237,6 +238,7 @@ export class PartsDb {
             sampling.seed,
             floatBytes(o.points),
             floatBytes(o.normals),
+            fileFrameBoxRatio(o.points),
           ],
         );
       }

@@ -116,6 +116,14 @@ ALTER TABLE orderings
   ALTER COLUMN lengths SET STORAGE EXTERNAL;
 `,
   },
+  {
+    version: 5,
+    what: "each part's file-frame box ratio (the default pose reads it), kept so reopening a library need not read its clouds",
+    sql: `
+-- fileFrameBoxRatio of the part's point pool (points/pca.ts); NULL on rows written before it (worked out on read).
+ALTER TABLE parts ADD COLUMN box_ratio double precision;
+`,
+  },
 ];
 
 export const SCHEMA_VERSION = MIGRATIONS[MIGRATIONS.length - 1].version;

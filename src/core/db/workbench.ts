@@ -6,6 +6,7 @@ import type { LibraryPart } from '../library';
 import type { ImportFailure } from '../mesh/import';
 import type { ImportErrorCode, MeshInfo } from '../mesh/types';
 import { measuredValues, type PartsDb } from './parts-db';
+import { fileFrameBoxRatio } from '../points/pca';
 import { bytesFloats, floatBytes, vectorLiteral } from './sql';
 import { namedTable, type NamedTable, type NeighbourTable } from '../retrieval/neighbour-table';
 
@@ -31,6 +32,9 @@ export interface PartClouds {
 
 /** A part as the workbench hands it over: a library part and the SHA-256 of its file, when known. */
 export type HashedPart = LibraryPart & { readonly contentHash?: string };
+
+/** A part's cloud arrays when they were not asked for (one empty array, shared). */
+const NO_FLOATS = new Float32Array(0);
 
 /** The bytes of a 32-bit integer array, as they lie (little-endian on every host we run on). */
 const u32Bytes = (a: Uint32Array | Int32Array): Uint8Array => new Uint8Array(a.buffer, a.byteOffset, a.byteLength);
@@ -75,16 +79,17 @@ export class WorkbenchStore {
         await tx.query(
           `INSERT INTO parts (path, content_hash, file_bytes, label, state, failure, failure_code, format, units,
              triangles, closed, bodies, extents, diagonal, info, sample_points, sample_seed, points, normals, centre,
-             radius, mesh_positions, mesh_indices, changed_at)
+             radius, mesh_positions, mesh_indices, box_ratio, changed_at)
            VALUES ($1, $2, $3, $4, 'ready', NULL, NULL, $5, $6, $7, $8, $9, $10::double precision[], $11, $12::jsonb,
-             $13, 0, $14, $15, $16::double precision[], $17, $18, $19, now())
+             $13, 0, $14, $15, $16::double precision[], $17, $18, $19, $20, now())
            ON CONFLICT (path) DO UPDATE SET content_hash = EXCLUDED.content_hash, file_bytes = EXCLUDED.file_bytes,
              label = EXCLUDED.label, state = 'ready', failure = NULL, failure_code = NULL, format = EXCLUDED.format,
              units = EXCLUDED.units, triangles = EXCLUDED.triangles, closed = EXCLUDED.closed,
              bodies = EXCLUDED.bodies, extents = EXCLUDED.extents, diagonal = EXCLUDED.diagonal, info = EXCLUDED.info,
              sample_points = EXCLUDED.sample_points, sample_seed = EXCLUDED.sample_seed, points = EXCLUDED.points,
              normals = EXCLUDED.normals, centre = EXCLUDED.centre, radius = EXCLUDED.radius,
-             mesh_positions = EXCLUDED.mesh_positions, mesh_indices = EXCLUDED.mesh_indices, changed_at = now()`,
+             mesh_positions = EXCLUDED.mesh_positions, mesh_indices = EXCLUDED.mesh_indices,
+             box_ratio = EXCLUDED.box_ratio, changed_at = now()`,
           [
             p.name,
             p.contentHash ?? '',
@@ -98,6 +103,7 @@ export class WorkbenchStore {
             p.radius,
             floatBytes(p.meshPositions),
             u32Bytes(p.meshIndices),
+            fileFrameBoxRatio(p.points),
           ],
         );
         // A part read again drops the embeddings of its earlier version.
@@ -123,7 +129,7 @@ export class WorkbenchStore {
           `INSERT INTO parts (path, content_hash, file_bytes, label, state, failure, failure_code)
            VALUES ($1, '', 0, '', 'failed', $2, $3)
            ON CONFLICT (path) DO UPDATE SET state = 'failed', failure = EXCLUDED.failure,
-             failure_code = EXCLUDED.failure_code, points = NULL, normals = NULL, mesh_positions = NULL,
+             failure_code = EXCLUDED.failure_code, points = NULL, normals = NULL, box_ratio = NULL, mesh_positions = NULL,
              mesh_indices = NULL, changed_at = now()`,
           [f.file, f.reason, f.code],
         );
@@ -204,43 +210,75 @@ export class WorkbenchStore {
    * part's mesh arrays are left empty (fetch them with `meshes` when a view needs them).
    */
   async parts(names: readonly string[], options: { meshes?: boolean } = {}): Promise<LibraryPart[]> {
+    return (await this.partsAndRatios(names, { ...options, clouds: true })).parts;
+  }
+
+  /**
+   * As `parts`, with each part's file-frame box ratio; without `clouds`, each part's point arrays are left empty
+   * and its clouds are read only where the ratio was never kept (rows written before it was), which are then
+   * given it.
+   */
+  async partsAndRatios(
+    names: readonly string[],
+    options: { meshes?: boolean; clouds?: boolean } = {},
+  ): Promise<{ parts: LibraryPart[]; boxRatios: number[] }> {
     const withMeshes = options.meshes ?? true;
+    const withClouds = options.clouds ?? true;
+    const cloud = (column: string) =>
+      withClouds ? column : `CASE WHEN box_ratio IS NULL THEN ${column} END AS ${column}`;
     const rows = await this.sql.query<{
       path: string;
       label: string;
       info: MeshInfo;
       diagonal: number;
-      points: Uint8Array;
-      normals: Uint8Array;
+      points: Uint8Array | null;
+      normals: Uint8Array | null;
       centre: number[] | null;
       radius: number | null;
       mesh_positions: Uint8Array | null;
       mesh_indices: Uint8Array | null;
+      box_ratio: number | null;
     }>(
-      `SELECT path, label, info, diagonal, points, normals, centre, radius,
+      `SELECT path, label, info, diagonal, ${cloud('points')}, ${cloud('normals')}, centre, radius, box_ratio,
          ${withMeshes ? 'mesh_positions, mesh_indices' : 'NULL AS mesh_positions, NULL AS mesh_indices'}
-       FROM parts WHERE state = 'ready' AND path = ANY($1::text[])`,
+       FROM parts WHERE state = 'ready' AND info IS NOT NULL AND points IS NOT NULL AND normals IS NOT NULL
+         AND path = ANY($1::text[])`,
       [[...names]],
     );
     const byName = new Map(rows.rows.map((r) => [r.path, r]));
     const parts: LibraryPart[] = [];
+    const boxRatios: number[] = [];
+    const worked: { path: string; ratio: number }[] = [];
     for (const n of names) {
       const r = byName.get(n);
-      if (!r || !r.info || !r.points || !r.normals) continue;
+      if (!r) continue;
       const c = r.centre ?? [0, 0, 0];
+      const points = r.points ? bytesFloats(r.points) : NO_FLOATS;
+      let ratio = r.box_ratio;
+      if (ratio === null) {
+        ratio = fileFrameBoxRatio(points);
+        worked.push({ path: r.path, ratio });
+      }
+      boxRatios.push(Number(ratio));
       parts.push({
         name: r.path,
         label: r.label,
         info: r.info,
-        points: bytesFloats(r.points),
-        normals: bytesFloats(r.normals),
+        points: withClouds ? points : NO_FLOATS,
+        normals: withClouds && r.normals ? bytesFloats(r.normals) : NO_FLOATS,
         centre: [c[0], c[1], c[2]],
         radius: Number(r.radius ?? 1),
         diagonal: Number(r.diagonal),
         ...meshArrays(r),
       });
     }
-    return parts;
+    if (worked.length > 0)
+      await this.sql.query(
+        `UPDATE parts SET box_ratio = u.ratio FROM unnest($1::text[], $2::double precision[]) AS u(path, ratio)
+         WHERE parts.path = u.path`,
+        [worked.map((w) => w.path), worked.map((w) => w.ratio)],
+      );
+    return { parts, boxRatios };
   }
 
   /** The meshes of the named parts that are held, in the order named. */

@@ -8,6 +8,7 @@ import { DatabaseSetupError, MIGRATIONS, migrate, SCHEMA_VERSION } from '../../.
 import { bytesFloats, floatBytes, vectorLiteral, type Sql } from '../../../src/core/db/sql';
 import type { MeshInfo } from '../../../src/core/mesh/types';
 import { createRng } from '../../../src/core/rng';
+import { fileFrameBoxRatio } from '../../../src/core/points/pca';
 
 const open: Sql[] = [];
 afterEach(async () => {
@@ -138,8 +139,14 @@ describe('reconcile: the folder listing against the stored parts', () => {
       return out;
     });
     expect((await db.counts(model)).embedded).toBe(4);
+    // Each part read keeps its file-frame box ratio (fileFrameBoxRatio of its pool, as the workbench reopens it).
+    const ratios = async () =>
+      (await db.sql.query<{ r: number | null }>('SELECT box_ratio AS r FROM parts ORDER BY path')).rows.map((x) => x.r);
+    const read = await db.readyParts(); // ordered by path, as the query above
+    expect(await ratios()).toEqual(read.map((p) => fileFrameBoxRatio(p.points)));
     await db.reconcile(files.map((f, i) => (i === 1 ? { ...f, hash: 'edited' } : f)));
     expect(await db.counts(model)).toEqual({ pending: 1, ready: 3, failed: 0, embedded: 3 });
+    expect((await ratios()).filter((r) => r === null)).toHaveLength(1); // the changed file's goes with its pool
   });
 });
 

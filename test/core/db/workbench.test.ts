@@ -12,6 +12,7 @@ import { replaceContents } from '../../../src/core/db/copy';
 import { loadPart, type LibraryPart } from '../../../src/core/library';
 import { EmbeddingIndex } from '../../../src/core/retrieval/index';
 import { NeighbourTable } from '../../../src/core/retrieval/neighbour-table';
+import { fileFrameBoxRatio } from '../../../src/core/points/pca';
 
 const open: Sql[] = [];
 afterEach(async () => {
@@ -85,6 +86,34 @@ describe('the workbench library in the database', () => {
       expect(c.points).toEqual(orig.points);
       expect(c.normals).toEqual(orig.normals);
     }
+  });
+
+  it('reopening reads each part’s box ratio, not its cloud; rows kept before the ratio was get it worked out once', async () => {
+    const store = await fresh();
+    // Three demo parts: the kept ratios must be what fileFrameBoxRatio (points/pca.ts) gives on their clouds, bit for
+    // bit (the ratio itself is checked against boxes worked by hand in pca.test).
+    const parts = [...demoParts('washer', 1), ...demoParts('angle', 1), ...demoParts('i-beam', 1)];
+    await store.putParts(parts);
+    const names = parts.map((p) => p.name);
+    const expected = parts.map((p) => fileFrameBoxRatio(p.points));
+    const ratioOf = async (name: string) =>
+      (await store.db.sql.query<{ r: number | null }>('SELECT box_ratio AS r FROM parts WHERE path = $1', [name]))
+        .rows[0].r;
+    expect(await Promise.all(names.map(ratioOf))).toEqual(expected); // written with the part
+    const light = await store.partsAndRatios(names, { meshes: false, clouds: false });
+    expect(light.boxRatios).toEqual(expected);
+    for (const p of light.parts) {
+      expect(p.points).toHaveLength(0);
+      expect(p.normals).toHaveLength(0);
+    }
+    // Rows written before the column existed (NULL): worked out from the cloud, the same figure, and kept.
+    await store.db.sql.query('UPDATE parts SET box_ratio = NULL WHERE path = $1', [names[1]]);
+    expect((await store.partsAndRatios(names, { meshes: false, clouds: false })).boxRatios).toEqual(expected);
+    expect(await ratioOf(names[1])).toBe(expected[1]); // and kept
+    // With clouds, the parts are as written.
+    const full = await store.partsAndRatios(names, { meshes: false });
+    full.parts.forEach((p, i) => expect(p.points).toEqual(parts[i].points));
+    expect(full.boxRatios).toEqual(expected);
   });
 
   it('a part dropped from the library goes, with its embeddings; a part read again loses its old embeddings', async () => {
