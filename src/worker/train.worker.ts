@@ -203,6 +203,9 @@ async function handle(req: TrainRequest, channel: Channel): Promise<void> {
         s.parts.push(...req.parts);
         return;
       }
+      case 'unstage':
+        staged.delete(req.id);
+        return;
       case 'start': {
         const cancelled = staged.get(req.id)?.cancelled ?? false;
         const parts = partsOf(req);

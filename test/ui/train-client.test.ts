@@ -94,7 +94,9 @@ describe('starting a training run', () => {
     client.start(source, null, DEFAULT_TRAIN, { points: 2048, seed: 0 });
     for (let i = 0; i < 20 && errors.length === 0; i++) await tick();
     expect(errors).toEqual(['washer/w7.stl: its point cloud is not in the parts database']);
-    expect(sent.map((s) => s.msg.type)).toEqual(['stage']);
+    // The chunk handed over before the failure is dropped in the worker, under the run's id.
+    expect(sent.map((s) => s.msg.type)).toEqual(['stage', 'unstage']);
+    expect(new Set(sent.map((s) => s.msg.id)).size).toBe(1);
   });
 });
 

@@ -126,11 +126,15 @@ export class TrainClient {
     const epoch = this.epoch;
     for (let i = 0; i < source.count; i += STAGE_CHUNK) {
       if (epoch !== this.epoch) throw new Error('cancelled'); // the worker was ended meanwhile
-      const msg: TrainRequest = {
-        type: 'stage',
-        id,
-        parts: await source.read(i, Math.min(source.count, i + STAGE_CHUNK)),
-      };
+      let parts: PartArrays[];
+      try {
+        parts = await source.read(i, Math.min(source.count, i + STAGE_CHUNK));
+      } catch (err) {
+        // The request will never come: the chunks handed over so far go (a worker ended meanwhile has none).
+        if (i > 0 && epoch === this.epoch) this.send({ type: 'unstage', id });
+        throw err;
+      }
+      const msg: TrainRequest = { type: 'stage', id, parts };
       this.send(msg, transfersOf(msg));
       if (i + STAGE_CHUNK < source.count) await yieldToPage();
     }
