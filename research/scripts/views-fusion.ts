@@ -6,37 +6,16 @@
 // A mix m is the descriptor row [√(1−m)·grid, √m·views]; a share s fuses it with the encoders' row as the product
 // fuses the grid: [√(1−s)·encoders, √s·descriptor]. Encoder embeddings are cached per run in --cache (they take
 // minutes on 990 parts; the descriptors take seconds).
-import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
-import { basename, join } from 'node:path';
-import { initBackend } from '../../src/core/model/backend';
-import { POOL_POINTS, defaultTrainFor, libraryTraits } from '../../src/core/model/defaults';
-import { loadLibrary } from '../../src/cli/library-dir';
-import { loadRun } from '../../src/cli/run-dir';
-import { encodersFromCheckpoint } from '../../src/core/model/checkpoint';
-import { embedForRetrieval, disposeEncoders, fused, surfaceGrids, sideBySide } from '../../src/core/model/embed';
-import { memberPoses, type Pose } from '../../src/core/model/train-config';
+import { fused, surfaceGrids, sideBySide } from '../../src/core/model/embed';
+import { memberPoses } from '../../src/core/model/train-config';
 import { posed } from '../../src/core/model/views';
 import { evaluateRetrieval, cosineSimilarity } from '../../src/core/retrieval/metrics';
 import { throughLibrary } from '../../src/core/retrieval/hubness';
 import { DIFFUSION_DEFAULTS } from '../../src/core/retrieval/diffusion';
-import { untrainedEncoders } from '../../src/core/quality/evaluate';
+import { arg, cachedEncoderRows, savedRunOnLibrary } from './cached-rows';
 import { DEPTH_VIEW_DEFAULTS, depthViewLength, depthViews, type DepthViewOptions } from './depth-views';
 
-const arg = (flag: string) => {
-  const i = process.argv.indexOf(flag);
-  return i > 0 ? process.argv[i + 1] : undefined;
-};
-await initBackend();
-const libDir = process.argv[2];
-const lib = await loadLibrary(libDir, { quiet: true, points: POOL_POINTS });
-const parts = lib.parts.map((p) => ({ points: p.points, normals: p.normals }));
-const n = parts.length;
-const runDir = arg('--run')!;
-const run = await loadRun(runDir);
-const pose: Pose = run.manifest.config.pose;
-const seed = run.manifest.config.seed;
-const cache = arg('--cache') ?? '/tmp/views-fusion';
-mkdirSync(cache, { recursive: true });
+const { libDir, lib, parts, n, runDir, run, pose, seed, cache } = await savedRunOnLibrary();
 const viewSets: Partial<DepthViewOptions>[] = JSON.parse(arg('--views') ?? '[{}]');
 const mixes = (arg('--mixes') ?? '0,0.3,0.5,0.7').split(',').map(Number);
 const shares = (arg('--shares') ?? '0.3,0.5').split(',').map(Number);
@@ -54,23 +33,7 @@ function score(v: Float32Array) {
   };
 }
 
-function encoderRows(name: 'learned' | 'untrained'): Float32Array {
-  const file = join(cache, `${basename(runDir)}-${name}.f32`);
-  if (existsSync(file)) {
-    const b = readFileSync(file);
-    return new Float32Array(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength));
-  }
-  const config = run.manifest.config;
-  const encoder = { ...config.encoder, surfaceGrid: null };
-  const e =
-    name === 'learned'
-      ? encodersFromCheckpoint({ ...run, manifest: { ...run.manifest, config: { ...config, encoder } } })
-      : untrainedEncoders({ ...defaultTrainFor(libraryTraits(lib.parts)).encoder, ...encoder }, pose, seed);
-  const v = embedForRetrieval(e, parts, 256, pose);
-  disposeEncoders(e);
-  writeFileSync(file, Buffer.from(v.buffer, v.byteOffset, v.byteLength));
-  return v;
-}
+const encoderRows = (name: 'learned' | 'untrained') => cachedEncoderRows(name, run, runDir, lib.parts, cache);
 
 const poses = memberPoses(pose);
 const grid = surfaceGrids(parts, poses, { cells: 8, facing: true });
