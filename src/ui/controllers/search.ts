@@ -137,8 +137,12 @@ export class SearchController {
         status: { kind: 'running', progress: { done, total, what: 'embedding the library', startedAt } },
       });
     progress();
+    // Each worker's time and parts after its first chunk, which also pays for the model's hand-over and warm-up.
+    let warmMs = 0,
+      warmParts = 0;
     // Each worker takes the next chunk when it is free; the chunks go back in place, so the bytes are one worker's.
     const run = async (client: TrainClient) => {
+      let warmFrom: number | null = null;
       while (next < chunks && version === this.version) {
         const c = next++;
         const slice = parts.slice(c * EMBED_CHUNK, (c + 1) * EMBED_CHUNK);
@@ -147,14 +151,22 @@ export class SearchController {
         pieces[c] = r.vectors;
         dim = r.dim;
         done += slice.length;
+        const now = performance.now();
+        if (warmFrom !== null) {
+          warmMs += now - warmFrom;
+          warmParts += slice.length;
+        }
+        warmFrom = now;
         if (version === this.version) progress();
       }
     };
     const clients = this.embedders(chunks);
     await Promise.all(clients.map(run));
     if (version !== this.version) return null;
-    // The pace of one worker (the measurement runs on one, the study on as many as here: both estimated from it).
-    this.patch({ embedPace: ((performance.now() - startedAt) * clients.length) / total });
+    // The pace of one worker, ms a part (the measurement runs on one, the study on as many as here: both estimated
+    // from it), from the chunks after each worker's first; from the whole run when every worker had only one.
+    const elapsed = ((performance.now() - startedAt) * clients.length) / total;
+    this.patch({ embedPace: warmParts > 0 ? warmMs / warmParts : elapsed });
     // Put together a slice at a time: at 20,000 parts the rows are 80 MB, and writing fresh memory costs about
     // 12 ns a value here (page faults; measured in Node), a second in one task.
     const vectors = new Float32Array(total * dim);
