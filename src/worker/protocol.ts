@@ -74,7 +74,7 @@ export interface OrderingMessage {
 export type TrainRequest =
   /** Parts for the run `id`, handed over a chunk at a time before its start (each chunk a short task on the page). */
   | { readonly type: 'stage'; readonly id: number; readonly parts: readonly PartArrays[] }
-  /** The parts staged under `id` go: the request that would have read them will not come (a chunk could not be read). */
+  /** The parts staged under `id` go: the request that would read them will not come (a chunk could not be read). */
   | { readonly type: 'unstage'; readonly id: number }
   | {
       readonly type: 'start';

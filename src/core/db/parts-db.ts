@@ -162,8 +162,8 @@ export class PartsDb {
       const changed = await tx.query<{ path: string; id: number }>(
         `UPDATE parts SET content_hash = u.hash, file_bytes = u.bytes, label = u.label, state = 'pending',
            failure = NULL, format = NULL, units = NULL, triangles = NULL, closed = NULL, bodies = NULL, extents = NULL,
-           diagonal = NULL, info = NULL, sample_points = NULL, sample_seed = NULL, points = NULL, normals = NULL, box_ratio = NULL,
-           changed_at = now()
+           diagonal = NULL, info = NULL, sample_points = NULL, sample_seed = NULL, points = NULL, normals = NULL,
+           box_ratio = NULL, changed_at = now()
          FROM ${listed} WHERE parts.path = u.path AND parts.content_hash <> u.hash RETURNING parts.path, parts.id`,
         [paths, hashes, bytes, labels],
       );

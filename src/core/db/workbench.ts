@@ -129,8 +129,8 @@ export class WorkbenchStore {
           `INSERT INTO parts (path, content_hash, file_bytes, label, state, failure, failure_code)
            VALUES ($1, '', 0, '', 'failed', $2, $3)
            ON CONFLICT (path) DO UPDATE SET state = 'failed', failure = EXCLUDED.failure,
-             failure_code = EXCLUDED.failure_code, points = NULL, normals = NULL, box_ratio = NULL, mesh_positions = NULL,
-             mesh_indices = NULL, changed_at = now()`,
+             failure_code = EXCLUDED.failure_code, points = NULL, normals = NULL, box_ratio = NULL,
+             mesh_positions = NULL, mesh_indices = NULL, changed_at = now()`,
           [f.file, f.reason, f.code],
         );
       await tx.query(
