@@ -137,8 +137,12 @@ export async function benchScale(): Promise<void> {
   const tableS = (performance.now() - t0) / 1000;
   const t1 = performance.now();
   // The graph built once, as the index would, and handed to it (so its count of rescanned rows is known).
-  const { lists, rescanned } = table.diffusionGraph(index.rowScorer(), DIFFUSION_DEFAULTS, index.neighbourhoodMeans());
-  index.useOrdering({ table, graph: packLists(lists, DIFFUSION_DEFAULTS.k) });
+  const { lists, rescanned } = table.diffusionGraph(
+    index.orderScorer(),
+    DIFFUSION_DEFAULTS,
+    index.neighbourhoodMeans(),
+  );
+  index.useOrdering({ table, sizes: index.sizePrior(), graph: packLists(lists, DIFFUSION_DEFAULTS.k) });
   const graphS = (performance.now() - t1) / 1000;
   const orderS = tableS + graphS;
   rows.push([
@@ -154,7 +158,7 @@ export async function benchScale(): Promise<void> {
     const i = rng.int(n);
     const v = index.vector(i).slice();
     let s = performance.now();
-    index.queryDiffused(v, 10); // as from outside the library: joins the graph
+    index.queryDiffused(v, 10, { queryDiagonal: index.entries[i].diagonal }); // as from outside: joins the graph
     ordered.push(performance.now() - s);
     s = performance.now();
     index.queryDiffused(v, 10, { exclude: i });

@@ -252,8 +252,9 @@ export async function storedOrdering(
   if (!fp) return null;
   const store = new WorkbenchStore(db);
   const names = all.parts.map((p) => p.path);
-  const built = buildOrdering(names, all.vectors, all.dim, await store.ordering(fp));
+  const diagonals = index.entries.map((e) => e.diagonal);
+  const built = buildOrdering(names, all.vectors, all.dim, await store.ordering(fp), diagonals, index.sizeWeight);
   index.useOrdering(built);
-  if (built.fresh || built.added > 0 || built.removed > 0) await store.putOrdering(fp, names, built.table);
+  if (built.fresh || built.added > 0 || built.removed > 0) await store.putOrdering(fp, names, built.table, built.sizes);
   return { fresh: built.fresh, added: built.added, removed: built.removed };
 }

@@ -42,7 +42,7 @@ import { failureOf, loadPart, type LibraryPart, type SamplingSettings } from '..
 import { DEFAULT_MAX_BYTES, importMesh } from '../core/mesh/import';
 import { FORMAT_NAMES } from '../core/mesh/formats';
 import type { MeshInfo } from '../core/mesh/types';
-import { parseUnits, partSize, sizeWords } from '../core/units';
+import { diagonalMm, parseUnits, partSize, sizeWords } from '../core/units';
 import { readFileSync, existsSync, statSync } from 'node:fs';
 import { CliError } from './errors';
 import { listFiles, loadLibrary, reportFailures, type LoadedLibrary } from './library-dir';
@@ -467,12 +467,11 @@ async function query(file: string, values: Values): Promise<void> {
       throw new CliError(`the model gives no usable embedding for ${file} (non-finite values)`);
     }
     const order: Ranking = ranking === 'diffusion' && !index.diffusionApplies() ? 'cosine' : ranking; // ranked() falls back the same way
-    const hits = index.ranked(
-      order,
-      qv,
-      k,
-      ratio !== undefined ? { sizeRatio: ratio, queryDiagonal: q.diagonal * qSize.scale } : {},
-    );
+    // The query's size serves the size filter and the ordering's size prior.
+    const hits = index.ranked(order, qv, k, {
+      queryDiagonal: q.diagonal * qSize.scale,
+      ...(ratio !== undefined ? { sizeRatio: ratio } : {}),
+    });
     index.dispose();
     const rows = hits.map((h, r) => {
       const p = library.parts[h.index];
@@ -661,7 +660,8 @@ async function queryDatabase(
         if (!index.diffusionApplies()) order = 'cosine';
         else await storedOrdering(db, id, all, index);
         const hits = index.ranked(order, qv, o.k, {
-          ...(o.ratio !== undefined ? { sizeRatio: o.ratio, queryDiagonal: q.diagonal * qSize.scale } : {}),
+          queryDiagonal: q.diagonal * qSize.scale,
+          ...(o.ratio !== undefined ? { sizeRatio: o.ratio } : {}),
           ...(folders ? { labels: folders } : {}),
         });
         rows = hits.map((h, r) => rowOf(r, all.parts[h.index], h.score));
@@ -736,7 +736,7 @@ async function measuredLibrary(
   lib: string,
   values: Values,
 ): Promise<{
-  parts: (ModelPart & { info: { closed: boolean } })[];
+  parts: (ModelPart & { diagonal: number; info: { closed: boolean; units: MeshInfo['units'] } })[];
   labels: string[];
   failures: { file: string; reason: string }[];
   ckpt: Checkpoint | null;
@@ -768,6 +768,7 @@ async function measuredLibrary(
 async function evaluate(lib: string, values: Values): Promise<void> {
   await initBackend({ prefer: (values.backend as 'wasm' | 'cpu') ?? 'wasm' });
   const library = await measuredLibrary(lib, values);
+  const mmPerUnit = unitsOption(values);
   const ckpt = library.ckpt;
   const learned = ckpt ? encodersFromCheckpoint(ckpt) : undefined;
   const config = ckpt?.manifest.config ?? defaultTrainFor(libraryTraits(library.parts));
@@ -780,6 +781,7 @@ async function evaluate(lib: string, values: Values): Promise<void> {
     untrainedConfig: config.encoder,
     seed: config.seed,
     diffusion: DIFFUSION_DEFAULTS,
+    diagonals: library.parts.map((p) => diagonalMm(p, mmPerUnit)),
   });
   if (learned) disposeEncoders(learned);
   if (values.json) {

@@ -37,6 +37,17 @@ export function scaleToMm(info: Pick<MeshInfo, 'units'>, mmPerFileUnit: number |
   return mmPerFileUnit ?? null;
 }
 
+/**
+ * A part's bounding-box diagonal in mm where its units are known (its format's, or `mmPerFileUnit` as set for it),
+ * else in file units: what size filters and the size prior compare.
+ */
+export function diagonalMm(
+  part: { readonly diagonal: number; readonly info: Pick<MeshInfo, 'units'> },
+  mmPerFileUnit: number | null | undefined,
+): number {
+  return part.diagonal * (scaleToMm(part.info, mmPerFileUnit) ?? 1);
+}
+
 export interface PartSize {
   /** Bounding-box size x, y, z in `units`. */
   readonly size: number[];

@@ -150,14 +150,14 @@ async function answer(req: DbRequest): Promise<[DbAnswers[DbRequest['type']], Ar
       return [e, e ? [e.vectors.buffer as ArrayBuffer] : []];
     }
     case 'put-ordering': {
-      const { names, table } = namedTable(req.table);
-      return [await (await store()).putOrdering(req.key, names, table), []];
+      const { names, table, sizes } = namedTable(req.table);
+      return [await (await store()).putOrdering(req.key, names, table, sizes), []];
     }
     case 'load-ordering': {
       const o = await (await store()).ordering(req.key);
       if (!o) return [null, []];
       const t = tableArrays(o);
-      return [t, [t.index, t.score, t.length].map((a) => a.buffer as ArrayBuffer)];
+      return [t, [t.index, t.score, t.length, t.logSize].map((a) => a.buffer as ArrayBuffer)];
     }
     case 'export': {
       const s = await store();

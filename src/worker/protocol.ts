@@ -100,8 +100,8 @@ export type TrainRequest =
       readonly config: TrainConfig;
     }
   /**
-   * Build the ordering through the library from its embeddings (rows in `names` order), carrying `kept` (a table
-   * for the same model) over where there is one.
+   * Build the ordering through the library from its embeddings (rows in `names` order, each part's diagonal in
+   * `diagonals` for the size prior), carrying `kept` (a table for the same model) over where there is one.
    */
   | {
       readonly type: 'order';
@@ -109,6 +109,7 @@ export type TrainRequest =
       readonly names: readonly string[];
       readonly vectors: Float32Array;
       readonly dim: number;
+      readonly diagonals: Float64Array;
       readonly kept: TableMessage | null;
     }
   /** Time one training step with these settings on a sample of the parts (the estimate before Start). */
@@ -133,6 +134,8 @@ export type TrainRequest =
       /** The parts; the ones staged under this id when absent. */
       readonly parts?: readonly PartArrays[];
       readonly labels: readonly string[];
+      /** Each part's diagonal (mm where its units are known), for the size prior of the ordering through the library. */
+      readonly diagonals: Float64Array;
       readonly checkpoint: CheckpointMessage | null;
       readonly config: TrainConfig;
     }

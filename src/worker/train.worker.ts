@@ -288,6 +288,7 @@ async function handle(req: TrainRequest, channel: Channel): Promise<void> {
             untrainedConfig: cfg.encoder,
             seed: cfg.seed,
             diffusion: DIFFUSION_DEFAULTS,
+            diagonals: req.diagonals,
           });
           post({ type: 'evaluation', id: req.id, report });
         } finally {
@@ -353,8 +354,8 @@ async function handle(req: TrainRequest, channel: Channel): Promise<void> {
       }
       case 'order': {
         const kept = req.kept ? namedTable(req.kept) : null;
-        const o = buildOrdering(req.names, req.vectors, req.dim, kept);
-        const table = tableArrays({ names: req.names, table: o.table });
+        const o = buildOrdering(req.names, req.vectors, req.dim, kept, req.diagonals);
+        const table = tableArrays({ names: req.names, table: o.table, sizes: o.sizes });
         const built = DiffusionGraph.fromPacked(o.graph, DIFFUSION_DEFAULTS).arrays();
         post(
           {
@@ -370,7 +371,7 @@ async function handle(req: TrainRequest, channel: Channel): Promise<void> {
             },
           },
           [
-            ...[table.index, table.score, table.length, o.graph.index, o.graph.score, o.graph.length],
+            ...[table.index, table.score, table.length, table.logSize, o.graph.index, o.graph.score, o.graph.length],
             ...[built.from, built.to, built.w, built.kthSimilarity, built.rowStart, built.cols, built.weights],
             built.invSqrtDegree,
           ].map((a) => a.buffer as ArrayBuffer),

@@ -254,7 +254,14 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       type Table = { size: number; row(i: number): { index: number; score: number }[] };
       const app = document.querySelector('sk-app') as unknown as {
         state: {
-          search: { index: { vectors: Float32Array; dim: number; neighbourTable(): Table } };
+          search: {
+            index: {
+              vectors: Float32Array;
+              dim: number;
+              entries: { diagonal: number }[];
+              neighbourTable(): Table;
+            };
+          };
           library: { parts: { name: string }[] };
         };
         search: {
@@ -264,6 +271,7 @@ describe.skipIf(!available)('workbench in a real browser', () => {
                 n: string[],
                 v: Float32Array,
                 d: number,
+                s: Float64Array,
                 k: null,
               ): Promise<{ table: { width: number; index: Int32Array; length: Int32Array } }>;
             };
@@ -272,7 +280,8 @@ describe.skipIf(!available)('workbench in a real browser', () => {
       };
       const index = app.state.search.index;
       const names = app.state.library.parts.map((p) => p.name);
-      const o = await app.search.training.client.order(names, index.vectors, index.dim, null);
+      const diagonals = Float64Array.from(index.entries, (e) => e.diagonal);
+      const o = await app.search.training.client.order(names, index.vectors, index.dim, diagonals, null);
       const here = index.neighbourTable();
       let agree = 0;
       for (let i = 0; i < here.size; i++) {

@@ -105,7 +105,7 @@ describe('measuring on the whole library', () => {
     const { TrainClient } = await import('../../src/ui/controllers/train-client');
     const client = new TrainClient();
     const { source } = sourceOf(Array.from({ length: 70 }, cloud));
-    const asked = client.evaluate(source, [], null, DEFAULT_TRAIN);
+    const asked = client.evaluate(source, [], new Float64Array(70), null, DEFAULT_TRAIN);
     for (let i = 0; i < 20 && !sent.some((s) => s.msg.type === 'evaluate'); i++) await tick();
     expect(sent.map((s) => s.msg.type)).toEqual(['stage', 'stage', 'evaluate']);
     expect(new Set(sent.map((s) => s.msg.id)).size).toBe(1);

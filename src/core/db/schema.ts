@@ -124,6 +124,20 @@ ALTER TABLE orderings
 ALTER TABLE parts ADD COLUMN box_ratio double precision;
 `,
   },
+  {
+    version: 6,
+    what: "the size prior a kept neighbour table's scores include, so it is carried over as it was built",
+    sql: `
+-- Tables kept before hold plain cosines, and the ordering now takes each pair's cosine less the size prior
+-- (retrieval/size-prior.ts): they are dropped, and the next search builds them again. size_weight is the prior's
+-- weight, log_sizes (float32) each row's ln diagonal (NaN: unknown) when its scores were worked out.
+DELETE FROM orderings;
+ALTER TABLE orderings
+  ADD COLUMN size_weight double precision NOT NULL CHECK (size_weight >= 0),
+  ADD COLUMN log_sizes bytea NOT NULL;
+ALTER TABLE orderings ALTER COLUMN log_sizes SET STORAGE EXTERNAL;
+`,
+  },
 ];
 
 export const SCHEMA_VERSION = MIGRATIONS[MIGRATIONS.length - 1].version;

@@ -9,6 +9,7 @@ import { measuredValues, type PartsDb } from './parts-db';
 import { fileFrameBoxRatio } from '../points/pca';
 import { bytesFloats, floatBytes, vectorLiteral } from './sql';
 import { namedTable, type NamedTable, type NeighbourTable } from '../retrieval/neighbour-table';
+import type { SizePrior } from '../retrieval/size-prior';
 
 export interface WorkbenchLibrary {
   readonly parts: LibraryPart[];
@@ -384,19 +385,33 @@ export class WorkbenchStore {
   }
 
   /**
-   * Keeps a model's neighbour table (rows in the order of `names`); false when that model is no longer kept. One
-   * table a model: the next replaces it.
+   * Keeps a model's neighbour table (rows in the order of `names`) with the size prior in its scores; false when
+   * that model is no longer kept. One table a model: the next replaces it.
    */
-  async putOrdering(key: string, names: readonly string[], t: NeighbourTable): Promise<boolean> {
-    if (names.length !== t.size) throw new RangeError(`putOrdering: ${names.length} names for a table of ${t.size}`);
+  async putOrdering(key: string, names: readonly string[], t: NeighbourTable, sizes: SizePrior): Promise<boolean> {
+    if (names.length !== t.size || sizes.logSize.length !== t.size)
+      throw new RangeError(
+        `putOrdering: ${names.length} names and ${sizes.logSize.length} sizes for a table of ${t.size}`,
+      );
     return this.sql.transaction(async (tx) => {
       const model = (await tx.query<{ id: number }>('SELECT id FROM models WHERE fingerprint = $1', [key])).rows[0]?.id;
       if (model === undefined) return false;
       await tx.query(
-        `INSERT INTO orderings (model_id, part_paths, width, neighbours, scores, lengths) VALUES ($1, $2, $3, $4, $5, $6)
+        `INSERT INTO orderings (model_id, part_paths, width, neighbours, scores, lengths, size_weight, log_sizes)
+         VALUES ($1, $2, $3, $4, $5, $6, $7, $8)
          ON CONFLICT (model_id) DO UPDATE SET part_paths = EXCLUDED.part_paths, width = EXCLUDED.width,
-           neighbours = EXCLUDED.neighbours, scores = EXCLUDED.scores, lengths = EXCLUDED.lengths, built_at = now()`,
-        [model, [...names], t.width, u32Bytes(t.index), floatBytes(t.score), u32Bytes(t.length)],
+           neighbours = EXCLUDED.neighbours, scores = EXCLUDED.scores, lengths = EXCLUDED.lengths,
+           size_weight = EXCLUDED.size_weight, log_sizes = EXCLUDED.log_sizes, built_at = now()`,
+        [
+          model,
+          [...names],
+          t.width,
+          u32Bytes(t.index),
+          floatBytes(t.score),
+          u32Bytes(t.length),
+          sizes.weight,
+          floatBytes(sizes.logSize),
+        ],
       );
       return true;
     });
@@ -410,9 +425,11 @@ export class WorkbenchStore {
       neighbours: Uint8Array;
       scores: Uint8Array;
       lengths: Uint8Array;
+      size_weight: number;
+      log_sizes: Uint8Array;
     }>(
-      `SELECT o.part_paths, o.width, o.neighbours, o.scores, o.lengths FROM orderings o JOIN models m ON m.id = o.model_id
-       WHERE m.fingerprint = $1`,
+      `SELECT o.part_paths, o.width, o.neighbours, o.scores, o.lengths, o.size_weight, o.log_sizes
+       FROM orderings o JOIN models m ON m.id = o.model_id WHERE m.fingerprint = $1`,
       [key],
     );
     const row = r.rows[0];
@@ -424,6 +441,8 @@ export class WorkbenchStore {
       index: asInt(row.neighbours),
       score: bytesFloats(row.scores),
       length: asInt(row.lengths),
+      sizeWeight: row.size_weight,
+      logSize: bytesFloats(row.log_sizes),
     });
   }
 }

@@ -10,6 +10,7 @@ import { evaluateRetrieval, type RetrievalMetrics } from '../retrieval/metrics';
 import { d2Descriptors, encoderDescriptors, type Descriptors, type MethodName } from './methods';
 import type { DiffusionOptions } from '../retrieval/diffusion';
 import { throughLibrary } from '../retrieval/hubness';
+import { withSizePrior } from '../retrieval/size-prior';
 
 /** A method as scored: its own similarity, or ordered through the library (hub-corrected, then diffused over the graph built from it). */
 export type EvaluatedMethod = MethodName | `${MethodName}+diffusion`;
@@ -31,6 +32,12 @@ export interface EvaluationInput {
   readonly seed?: number;
   /** Also score every method as ordered through the library with these diffusion settings (absent: not scored). */
   readonly diffusion?: DiffusionOptions;
+  /**
+   * Each part's diagonal (mm where its units are known): ordered through the library, pairs take the size prior as
+   * the search does (size-prior.ts, λ = `sizeWeight`, SIZE_WEIGHT unless given). Absent: no size prior.
+   */
+  readonly diagonals?: ArrayLike<number>;
+  readonly sizeWeight?: number;
 }
 
 /** The untrained baseline: the same architecture with seeded random weights. */
@@ -59,7 +66,12 @@ export function evaluateMethods(input: EvaluationInput): EvaluationReport {
     methods[d.method] = strip(evaluateRetrieval(input.labels, d.similarity));
     if (!input.diffusion) return;
     // D2's similarity is −L1 in [−2, 0]; its graph uses 1 − L1/2 in [0, 1], cosine-like.
-    const graphSimilarity = d.method === 'd2' ? (i: number, j: number) => 1 + d.similarity(i, j) / 2 : d.similarity;
+    const cosineLike = d.method === 'd2' ? (i: number, j: number) => 1 + d.similarity(i, j) / 2 : d.similarity;
+    if (input.diagonals && input.diagonals.length !== n)
+      throw new RangeError(`evaluateMethods: ${input.diagonals.length} sizes for ${n} parts`);
+    const graphSimilarity = input.diagonals
+      ? withSizePrior(n, cosineLike, input.diagonals, input.sizeWeight)
+      : cosineLike;
     methods[`${d.method}+diffusion`] = strip(
       evaluateRetrieval(input.labels, throughLibrary(n, graphSimilarity, input.diffusion)),
     );

@@ -2,7 +2,7 @@
 // size and on folder, and results ordered through the library (hub-corrected scores diffused over its graph).
 
 import { finish, type Steps } from '../steps';
-import { normaliseRows, unitRows } from '../vectors';
+import { dot4, normaliseRows, unitRows } from '../vectors';
 import { topK, type Hit } from './topk';
 import {
   DIFFUSION_DEFAULTS,
@@ -15,6 +15,9 @@ import {
 } from './diffusion';
 import { HUB_NEIGHBOURS, meanOfTop } from './hubness';
 import { NeighbourTable, TABLE_WIDTH, type RowScorer } from './neighbour-table';
+import { logSizes, penalisedRow, penalisedScorer, SIZE_WEIGHT, vectorSpread, type SizePrior } from './size-prior';
+
+export { dot4 };
 
 /**
  * How results are ordered: by cosine similarity to the query, or through the library: hub-corrected (CSLS,
@@ -32,6 +35,7 @@ export interface IndexEntry {
 export interface QueryFilter {
   /** Keep parts whose diagonal is within [d/r, d·r] of the query's diagonal d (r ≥ 1). */
   readonly sizeRatio?: number;
+  /** The query's diagonal d: for the size filter, and for the size prior of a query from outside the library. */
   readonly queryDiagonal?: number;
   /** Keep only these folders. */
   readonly labels?: readonly string[];
@@ -42,6 +46,8 @@ export interface QueryFilter {
 export interface IndexOptions {
   /** Share of each cosine taken from the surface grid (0: none); see `diffusionApplies`. */
   readonly gridShare?: number;
+  /** λ of the size prior the ordering through the library includes (size-prior.ts); 0: none. */
+  readonly sizeWeight?: number;
 }
 
 export class EmbeddingIndex {
@@ -50,6 +56,8 @@ export class EmbeddingIndex {
   readonly entries: readonly IndexEntry[];
   /** Share of each cosine that comes from a surface grid set beside the encoder's rows (encoder-config `surfaceGrid`). */
   readonly gridShare: number;
+  /** λ of the size prior (size-prior.ts). */
+  readonly sizeWeight: number;
 
   constructor(vectors: Float32Array, dim: number, entries: readonly IndexEntry[], options: IndexOptions = {}) {
     if (vectors.length !== dim * entries.length)
@@ -59,17 +67,29 @@ export class EmbeddingIndex {
     // Unit rows are kept as given (not copied): the caller hands the array over.
     this.vectors = unitRows(vectors, dim);
     this.gridShare = options.gridShare ?? 0;
+    this.sizeWeight = options.sizeWeight ?? SIZE_WEIGHT;
   }
 
   /**
-   * The same vectors (and the hub means and graph built from them, which do not depend on the entries) with other
-   * entries: names, folders or sizes said again, without building anything twice.
+   * The same vectors with other entries: names or folders said again keep the hub means and graph built from the
+   * vectors; sizes said again leave the ordering to be built again (the size prior is in it: `ordered`).
    */
   withEntries(entries: readonly IndexEntry[]): this {
     if (entries.length !== this.count)
       throw new RangeError(`withEntries: ${entries.length} entries for an index of ${this.count}`);
     const copy = Object.create(Object.getPrototypeOf(this) as object) as this;
-    return Object.assign(copy, this, { entries });
+    const resized = this.sizes !== null && !sameSizes(this.sizes.logSize, logSizes(entries.map((e) => e.diagonal)));
+    return Object.assign(
+      copy,
+      this,
+      { entries },
+      resized ? { sizes: null, table: null, hubs: null, graph: null, graphLists: null } : {},
+    );
+  }
+
+  /** Whether the ordering through the library is built or taken over (else the first ordered query builds it). */
+  get ordered(): boolean {
+    return this.table !== null;
   }
 
   get count(): number {
@@ -120,6 +140,23 @@ export class EmbeddingIndex {
 
   private graph: DiffusionGraph | null = null;
   private table: NeighbourTable | null = null;
+  private sizes: SizePrior | null = null;
+
+  /**
+   * The size prior of the ordering through the library: w = λσ from these vectors and the entries' ln diagonals,
+   * worked out on first use, or the one of an ordering taken over (`useOrdering`).
+   */
+  sizePrior(): SizePrior {
+    return (this.sizes ??= {
+      weight: this.sizeWeight > 0 ? this.sizeWeight * vectorSpread(this.vectors, this.dim) : 0,
+      logSize: logSizes(this.entries.map((e) => e.diagonal)),
+    });
+  }
+
+  /** Rows as the ordering scores them: `rowScorer`'s cosines less the size prior. */
+  orderScorer(): RowScorer {
+    return penalisedScorer(this.rowScorer(), this.sizePrior());
+  }
 
   /** Cosines of library rows [start, end) to every part, row-major: the same dot4 as `scores`. */
   rowScorer(): RowScorer {
@@ -141,14 +178,18 @@ export class EmbeddingIndex {
    * given to `useTable` (kept with the embeddings).
    */
   neighbourTable(): NeighbourTable {
-    return (this.table ??= NeighbourTable.build(this.count, this.rowScorer(), TABLE_WIDTH));
+    return (this.table ??= NeighbourTable.build(this.count, this.orderScorer(), TABLE_WIDTH));
   }
 
-  /** Use a table built before for these very vectors (its size must match); the graph is rebuilt from it. */
-  useTable(table: NeighbourTable): this {
-    if (table.size !== this.count)
+  /**
+   * Use a table built before for these very vectors and the size prior its scores include (sizes must match); the
+   * graph is rebuilt from it.
+   */
+  useTable(table: NeighbourTable, sizes: SizePrior): this {
+    if (table.size !== this.count || sizes.logSize.length !== this.count)
       throw new RangeError(`useTable: a table of ${table.size} parts for an index of ${this.count}`);
     this.table = table;
+    this.sizes = sizes;
     this.hubs = null;
     this.graph = null;
     this.graphLists = null;
@@ -162,12 +203,22 @@ export class EmbeddingIndex {
     return (this.hubs ??= this.neighbourTable().neighbourhoodMeans(HUB_NEIGHBOURS));
   }
 
-  /** Hub-corrected scores of a query against every part, 2·cos − r(q) − r(j), from its cosines; r(q) leaves out `self`. */
-  hubCorrected(cosine: ArrayLike<number>, self?: number): Float64Array {
+  /**
+   * Hub-corrected scores of a query against every part, 2·s − r(q) − r(j), s its cosines less the size prior (the
+   * query's size: part `self`'s, or `queryDiagonal`; neither, no prior); r(q) leaves out `self`.
+   */
+  hubCorrected(cosine: ArrayLike<number>, self?: number, queryDiagonal?: number): Float64Array {
     const r = this.neighbourhoodMeans();
     const inLibrary = self !== undefined && self >= 0 && self < this.count;
-    const rq = inLibrary ? r[self] : meanOfTop(cosine, HUB_NEIGHBOURS);
-    return Float64Array.from({ length: this.count }, (_, j) => 2 * cosine[j] - rq - r[j]);
+    const prior = this.sizePrior();
+    const s = penalisedRow(
+      cosine,
+      prior,
+      inLibrary ? prior.logSize[self] : queryDiagonal !== undefined ? logSizes([queryDiagonal])[0] : NaN,
+    );
+    const rq = inLibrary ? r[self] : meanOfTop(s, HUB_NEIGHBOURS);
+    for (let j = 0; j < this.count; j++) s[j] = 2 * s[j] - rq - r[j];
+    return s;
   }
 
   /** The default graph's neighbour lists, packed (as `ordering` hands them on and `useOrdering` takes them). */
@@ -176,7 +227,7 @@ export class EmbeddingIndex {
   /** The library's neighbour graph over hub-corrected scores, from the table (built on first use) and kept. */
   diffusionGraph(options: DiffusionOptions = DIFFUSION_DEFAULTS): DiffusionGraph {
     if (!this.graph || this.graph.options !== options) {
-      const built = this.neighbourTable().diffusionGraph(this.rowScorer(), options, this.neighbourhoodMeans());
+      const built = this.neighbourTable().diffusionGraph(this.orderScorer(), options, this.neighbourhoodMeans());
       this.graph = built.graph;
       this.graphLists = options === DIFFUSION_DEFAULTS ? packLists(built.lists, DIFFUSION_DEFAULTS.k) : null;
     }
@@ -184,17 +235,17 @@ export class EmbeddingIndex {
   }
 
   /**
-   * Everything ordering through the library needs, as arrays a worker can build and hand over: the table and each
-   * part's hub-corrected graph neighbours (the default diffusion settings).
+   * Everything ordering through the library needs, as arrays a worker can build and hand over: the table, the size
+   * prior in its scores, and each part's hub-corrected graph neighbours (the default diffusion settings).
    */
-  ordering(): { table: NeighbourTable; graph: PackedLists } {
+  ordering(): { table: NeighbourTable; sizes: SizePrior; graph: PackedLists } {
     this.diffusionGraph(DIFFUSION_DEFAULTS);
-    return { table: this.neighbourTable(), graph: this.graphLists! };
+    return { table: this.neighbourTable(), sizes: this.sizePrior(), graph: this.graphLists! };
   }
 
   /** Takes an ordering built elsewhere (`ordering()` of an index over these very vectors): nothing is rebuilt here. */
-  useOrdering(o: { table: NeighbourTable; graph: PackedLists; built?: GraphArrays }): this {
-    this.useTable(o.table);
+  useOrdering(o: { table: NeighbourTable; sizes: SizePrior; graph: PackedLists; built?: GraphArrays }): this {
+    this.useTable(o.table, o.sizes);
     if (o.graph.length.length !== this.count || (o.built && o.built.size !== this.count))
       throw new RangeError(`useOrdering: a graph of ${o.graph.length.length} parts for an index of ${this.count}`);
     // The graph as built elsewhere from these lists, or built here from them.
@@ -234,7 +285,7 @@ export class EmbeddingIndex {
     const graph = this.diffusionGraph(options);
     yield;
     const inLibrary = filter.exclude !== undefined && filter.exclude >= 0 && filter.exclude < this.count;
-    const corrected = this.hubCorrected(cosine, inLibrary ? filter.exclude : undefined);
+    const corrected = this.hubCorrected(cosine, inLibrary ? filter.exclude : undefined, filter.queryDiagonal);
     yield;
     const from = inLibrary ? graph : graph.withQuery(corrected);
     if (!inLibrary) yield;
@@ -333,23 +384,13 @@ export function diffusionCeiling(share: number): number {
   return (1 - share) * DIFFUSION_MAX_MEAN_COSINE + share * GRID_MAX_MEAN_COSINE;
 }
 
-/**
- * v[o .. o+D) · q with four independent accumulators (they let the JIT overlap the multiply-adds, ~3× a
- * single running sum); every index scores with this one function so ties break the same way.
- */
-export function dot4(v: ArrayLike<number>, o: number, q: ArrayLike<number>, D: number): number {
-  const D4 = D - (D % 4);
-  let s0 = 0,
-    s1 = 0,
-    s2 = 0,
-    s3 = 0,
-    d = 0;
-  for (; d < D4; d += 4) {
-    s0 += v[o + d] * q[d];
-    s1 += v[o + d + 1] * q[d + 1];
-    s2 += v[o + d + 2] * q[d + 2];
-    s3 += v[o + d + 3] * q[d + 3];
+/** Whether two parts' ln diagonals are the same (to float32 rounding), unknown sizes alike. */
+export function sameSizes(a: Float32Array, b: Float32Array): boolean {
+  if (a.length !== b.length) return false;
+  for (let i = 0; i < a.length; i++) {
+    const x = a[i],
+      y = b[i];
+    if (x !== x || y !== y ? x === x || y === y : Math.abs(x - y) > 1e-6) return false;
   }
-  for (; d < D; d++) s0 += v[o + d] * q[d];
-  return s0 + s1 + s2 + s3;
+  return true;
 }

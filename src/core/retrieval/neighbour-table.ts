@@ -8,6 +8,7 @@
 import { topK, type Hit } from './topk';
 import { HUB_NEIGHBOURS } from './hubness';
 import { DIFFUSION_DEFAULTS, DiffusionGraph, type DiffusionOptions } from './diffusion';
+import type { SizePrior } from './size-prior';
 
 /**
  * Cosine similarities of library rows [start, end) to all n parts: r[(i − start)·n + j] = cos(i, j), written into
@@ -305,40 +306,64 @@ export class NeighbourTable {
   }
 }
 
-/** A table kept with the names of the parts its rows stand for, in row order. */
+/**
+ * A table kept with the names of the parts its rows stand for, in row order, and the size prior its scores include
+ * (size-prior.ts: the weight, and each row's ln diagonal when it was scored).
+ */
 export interface NamedTable {
   readonly names: readonly string[];
   readonly table: NeighbourTable;
+  readonly sizes: SizePrior;
 }
 
-/** A named table as plain arrays (for messages between threads): the rows' names, the width and the three arrays. */
+/** A named table as plain arrays (for messages between threads): names, width, the three arrays and the prior's. */
 export interface TableArrays {
   readonly names: readonly string[];
   readonly width: number;
   readonly index: Int32Array;
   readonly score: Float32Array;
   readonly length: Int32Array;
+  readonly sizeWeight: number;
+  readonly logSize: Float32Array;
 }
 
-export function tableArrays({ names, table }: NamedTable): TableArrays {
-  return { names, width: table.width, index: table.index, score: table.score, length: table.length };
+export function tableArrays({ names, table, sizes }: NamedTable): TableArrays {
+  return {
+    names,
+    width: table.width,
+    index: table.index,
+    score: table.score,
+    length: table.length,
+    sizeWeight: sizes.weight,
+    logSize: sizes.logSize,
+  };
 }
 
 /** The named table back from its arrays (checked for shape by `fromArrays`). */
 export function namedTable(t: TableArrays): NamedTable {
-  return { names: t.names, table: NeighbourTable.fromArrays(t.names.length, t.width, t.index, t.score, t.length) };
+  if (t.logSize.length !== t.names.length || !(t.sizeWeight >= 0))
+    throw new RangeError(
+      `neighbour table: ${t.logSize.length} sizes and weight ${t.sizeWeight} for ${t.names.length} rows`,
+    );
+  return {
+    names: t.names,
+    table: NeighbourTable.fromArrays(t.names.length, t.width, t.index, t.score, t.length),
+    sizes: { weight: t.sizeWeight, logSize: t.logSize },
+  };
 }
 
 /**
  * The kept table brought to a library's parts now (`names`, in their order; the same model's embeddings): parts
  * gone are dropped (`withRemoved`), new ones join (`withAdded`), and rows are renumbered to the library's order.
- * `scorerOver(order)` gives a RowScorer over the library's parts listed by `order` (indices into `names`).
+ * `scorerOver(order)` gives a RowScorer over the library's parts listed by `order` (indices into `names`). A kept
+ * row that `changed` (its part scores differently now, e.g. its size was said again) goes and comes back as new.
  * Cost: the new parts' rows and the rows cut short, not n².
  */
 export function carryTable(
-  kept: NamedTable,
+  kept: Omit<NamedTable, 'sizes'>,
   names: readonly string[],
   scorerOver: (order: readonly number[]) => RowScorer,
+  changed: (keptRow: number, at: number) => boolean = () => false,
 ): { table: NeighbourTable; added: number; removed: number } {
   if (kept.names.length !== kept.table.size)
     throw new RangeError(`carryTable: ${kept.names.length} names for a table of ${kept.table.size}`);
@@ -347,7 +372,7 @@ export function carryTable(
   const stay: number[] = []; // indices into names, in the kept table's order
   kept.names.forEach((n, r) => {
     const i = at.get(n);
-    if (i === undefined) gone.push(r);
+    if (i === undefined || changed(r, i)) gone.push(r);
     else stay.push(i);
   });
   const stayed = new Set(stay);

@@ -4,7 +4,8 @@
 
 import * as tf from '@tensorflow/tfjs';
 import { normaliseRows } from '../vectors';
-import { dot4, EmbeddingIndex, type IndexEntry, type IndexOptions } from './index';
+import { dot4, EmbeddingIndex, sameSizes, type IndexEntry, type IndexOptions } from './index';
+import { penalisedScorer, SIZE_WEIGHT, sizePenalty, type SizePrior } from './size-prior';
 import { carryTable, TABLE_WIDTH, type NamedTable, type NeighbourTable, type RowScorer } from './neighbour-table';
 import type { PackedLists } from './diffusion';
 
@@ -51,6 +52,8 @@ export class TensorIndex extends EmbeddingIndex {
 /** An ordering through the library built (or carried over from a kept table) for parts in `names` order. */
 export interface BuiltOrdering {
   readonly table: NeighbourTable;
+  /** The size prior the table's scores include (size-prior.ts). */
+  readonly sizes: SizePrior;
   readonly graph: PackedLists;
   readonly added: number;
   readonly removed: number;
@@ -59,53 +62,83 @@ export interface BuiltOrdering {
 }
 
 /**
- * The ordering for a library's embeddings (rows in `names` order): the kept table carried over when it was made
- * at this table width with these embeddings (a few of its scores are checked against the vectors), else built
- * afresh; then the graph's lists. Every pass over pairs is a tfjs matrix product.
+ * The ordering for a library's embeddings (rows in `names` order, each part's diagonal in `diagonals`): the kept
+ * table carried over when it was made at this table width with these embeddings (a few of its scores are checked
+ * against the vectors), its size prior's weight kept and parts whose size changed scored again; else built afresh
+ * with the prior of these vectors. Then the graph's lists. Every pass over pairs is a tfjs matrix product.
  */
 export function buildOrdering(
   names: readonly string[],
   vectors: Float32Array,
   dim: number,
   kept: NamedTable | null,
+  diagonals: ArrayLike<number>,
+  sizeWeight = SIZE_WEIGHT,
 ): BuiltOrdering {
-  const entries = names.map((name) => ({ name, label: '', diagonal: 1 }));
-  const index = new TensorIndex(vectors, dim, entries);
+  if (diagonals.length !== names.length)
+    throw new RangeError(`buildOrdering: ${diagonals.length} sizes for ${names.length} parts`);
+  const entries = names.map((name, i) => ({ name, label: '', diagonal: diagonals[i] }));
+  const index = new TensorIndex(vectors, dim, entries, { sizeWeight });
   const made: TensorIndex[] = [];
   try {
     let carried: ReturnType<typeof carryTable> | null = null;
     if (kept && kept.table.width === TABLE_WIDTH && keptMatches(kept, names, index)) {
-      carried = carryTable(kept, names, (order) => {
-        const rows = new Float32Array(order.length * dim);
-        order.forEach((i, r) => rows.set(index.vector(i), r * dim));
-        const sub = new TensorIndex(
-          rows,
-          dim,
-          order.map((i) => entries[i]),
-        );
-        made.push(sub);
-        return sub.rowScorer();
-      });
-      index.useTable(carried.table);
+      const sizes: SizePrior = { weight: kept.sizes.weight, logSize: index.sizePrior().logSize };
+      carried = carryTable(
+        kept,
+        names,
+        (order) => {
+          const rows = new Float32Array(order.length * dim);
+          order.forEach((i, r) => rows.set(index.vector(i), r * dim));
+          const sub = new TensorIndex(
+            rows,
+            dim,
+            order.map((i) => entries[i]),
+          );
+          made.push(sub);
+          return penalisedScorer(sub.rowScorer(), {
+            weight: sizes.weight,
+            logSize: Float32Array.from(order, (i) => sizes.logSize[i]),
+          });
+        },
+        (r, i) => !sameSizes(kept.sizes.logSize.subarray(r, r + 1), sizes.logSize.subarray(i, i + 1)),
+      );
+      index.useTable(carried.table, sizes);
     }
     const { table, graph } = index.ordering();
-    return { table, graph, added: carried?.added ?? 0, removed: carried?.removed ?? 0, fresh: !carried };
+    return {
+      table,
+      sizes: index.sizePrior(),
+      graph,
+      added: carried?.added ?? 0,
+      removed: carried?.removed ?? 0,
+      fresh: !carried,
+    };
   } finally {
     index.dispose();
     for (const m of made) m.dispose();
   }
 }
 
-/** Whether a kept table's first candidates still score as the vectors say (up to 16 rows of parts still present). */
+/**
+ * Whether a kept table's first candidates still score as the vectors say, its size prior included (up to 16 rows
+ * of parts still present whose and whose candidate's sizes are as kept).
+ */
 function keptMatches(kept: NamedTable, names: readonly string[], index: EmbeddingIndex): boolean {
   const at = new Map(names.map((n, i) => [n, i]));
+  const now = index.sizePrior().logSize,
+    was = kept.sizes.logSize;
   let checked = 0;
   for (let r = 0; r < kept.table.size && checked < 16; r++) {
     const i = at.get(kept.names[r]);
     const first = kept.table.row(r)[0];
     const j = first ? at.get(kept.names[first.index]) : undefined;
     if (i === undefined || j === undefined) continue;
-    const s = dot4(index.vectors, j * index.dim, index.vector(i), index.dim);
+    if (!sameSizes(was.subarray(r, r + 1), now.subarray(i, i + 1))) continue;
+    if (!sameSizes(was.subarray(first.index, first.index + 1), now.subarray(j, j + 1))) continue;
+    const s =
+      dot4(index.vectors, j * index.dim, index.vector(i), index.dim) -
+      sizePenalty(kept.sizes.weight, was[r], was[first.index]);
     if (!(Math.abs(s - first.score) < 1e-4)) return false;
     checked++;
   }

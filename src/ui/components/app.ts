@@ -100,7 +100,7 @@ export class SkApp extends LitElement {
         // the library's default settings first: the untrained encoder embeds with them
         void this.training.followLibrary().then(() => this.search.refresh());
       },
-      onUnitsChanged: () => this.search.unitsChanged(),
+      onUnitsChanged: () => void this.search.unitsChanged(),
     });
     this.training = new TrainingController(this.store, { onModelChanged: () => void this.search.refresh() });
     this.search = new SearchController(this.store, this.training, this.library);

@@ -189,8 +189,9 @@ export class SkLibraryPanel extends LitElement {
     return html`<details class="units" data-testid="units">
       <summary>Sizes: ${unset ? `${unset} of ${folders.length} folders shown in file units` : 'every folder in mm'} — say what one unit is</summary>
       <div class="summary">STEP, IGES, glTF and 3MF files state their units, so their sizes are in millimetres. STL, OBJ, PLY, OFF and
-        VRML files and point lists do not: say what one unit measures in each folder, and their sizes, the size filter and
-        exported embeddings use millimetres too.</div>
+        VRML files and point lists do not: say what one unit measures in each folder, and their sizes, the size filter, the
+        preference for parts of a similar size when results are ordered through the library, and exported embeddings
+        use millimetres too.</div>
       <table>
         <tr><th>Folder</th><th>Parts without units</th><th>One unit is</th><th>or mm per unit</th></tr>
         ${

@@ -304,7 +304,7 @@ export class SkSearchPanel extends LitElement {
             <option value="">all folders</option>
             ${this.families.map((fam) => html`<option value=${fam} ?selected=${f.family === fam}>${fam}</option>`)}
           </select></label>
-        <label title="through the library: parts reached by chains of close neighbours come first (diffusion); or by similarity to the query alone">order
+        <label title="through the library: parts reached by chains of close neighbours come first (diffusion), nearer sizes a little ahead; or by similarity to the query alone">order
           <select aria-label="Result order" @change=${(e: Event) => this.emit('search-filters', { ...f, ranking: (e.target as HTMLSelectElement).value as SearchFilters['ranking'] })}>
             ${(
               [
@@ -323,7 +323,7 @@ export class SkSearchPanel extends LitElement {
           ? html`        <p class="small order-explained" data-testid="order-explained">${
               this.trained
                 ? f.ranking === 'diffusion' && this.diffusionApplies
-                  ? 'Ordered through the library: a part that the query’s close look-alikes also resemble moves up. The number beside each is its direct similarity to the query (1 = the same shape), so it need not fall down the list; “closer than … %” says how much of the library is less similar.'
+                  ? 'Ordered through the library: a part that the query’s close look-alikes also resemble moves up, and of two equally close shapes the one nearer the query’s size comes first. The number beside each is its direct similarity to the query (1 = the same shape), so it need not fall down the list; “closer than … %” says how much of the library is less similar.'
                   : 'Ordered by direct similarity to the query (1 = the same shape); “closer than … %” says how much of the library is less similar.'
                 : 'Not trained yet: the encoder has random weights, so every part scores near 1 and the order is rough (“closer than … %” ranks a result within the library, no more). Train a model on the Training tab for look-alikes you can rely on.'
             }</p>

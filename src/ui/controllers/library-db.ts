@@ -252,8 +252,19 @@ export const loadEmbeddings = (key: string, names: readonly string[]) =>
 
 /** Keeps a model's neighbour table (ordering through the library); false when that model is no longer kept. */
 export const saveOrdering = (key: string, table: TableMessage): Promise<boolean> => {
-  const copy = { ...table, index: table.index.slice(), score: table.score.slice(), length: table.length.slice() };
-  return db.ask({ type: 'put-ordering', key, table: copy }, [copy.index.buffer, copy.score.buffer, copy.length.buffer]);
+  const copy = {
+    ...table,
+    index: table.index.slice(),
+    score: table.score.slice(),
+    length: table.length.slice(),
+    logSize: table.logSize.slice(),
+  };
+  return db.ask({ type: 'put-ordering', key, table: copy }, [
+    copy.index.buffer,
+    copy.score.buffer,
+    copy.length.buffer,
+    copy.logSize.buffer,
+  ]);
 };
 
 /** A model's kept neighbour table, or null. */

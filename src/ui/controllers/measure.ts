@@ -2,6 +2,7 @@
 // training worker; and the study's CSV export.
 
 import { csvField } from '../../core/csv';
+import { diagonalMm } from '../../core/units';
 import { AUGMENT_KINDS, type AugmentKind } from '../../core/points/augment';
 import { STUDY_QUERIES, STUDY_STRENGTHS } from '../../core/quality/sampling';
 import { STARTED, type AppState, type MeasureState, type Store } from '../state';
@@ -27,10 +28,11 @@ export class MeasureController {
   }
 
   private inputs() {
-    const parts = this.store.value.library.parts;
+    const { parts, units } = this.store.value.library;
     return {
       parts: librarySource(parts),
       labels: parts.map((p) => p.label),
+      diagonals: Float64Array.from(parts, (p) => diagonalMm(p, units[p.label])),
       model: this.training.state.model,
       config: this.training.state.config,
     };
@@ -76,9 +78,9 @@ export class MeasureController {
   async measureQuality(): Promise<void> {
     this.patch({ status: STARTED });
     try {
-      const { parts, labels, model, config } = this.inputs();
+      const { parts, labels, diagonals, model, config } = this.inputs();
       this.patch({
-        report: await this.training.client.evaluate(parts, labels, model, config),
+        report: await this.training.client.evaluate(parts, labels, diagonals, model, config),
         status: { kind: 'done' },
       });
     } catch (err) {

@@ -4,7 +4,7 @@
 
 import type { LibraryPart } from '../../core/library';
 import { EmbeddingIndex, type IndexEntry } from '../../core/retrieval/index';
-import { scaleToMm } from '../../core/units';
+import { diagonalMm } from '../../core/units';
 import { shareBelow } from '../../core/retrieval/standing';
 import {
   IDLE,
@@ -225,9 +225,11 @@ export class SearchController {
     });
     try {
       const kept = key ? await loadOrdering(key) : null;
-      const o = await this.training.client.order(names, vectors, index.dim, kept);
+      const diagonals = Float64Array.from(index.entries, (e) => e.diagonal);
+      const o = await this.training.client.order(names, vectors, index.dim, diagonals, kept);
       if (version !== this.version) return;
-      index.useOrdering({ table: namedTable(o.table).table, graph: o.graph, ...(o.built ? { built: o.built } : {}) });
+      const { table, sizes } = namedTable(o.table);
+      index.useOrdering({ table, sizes, graph: o.graph, ...(o.built ? { built: o.built } : {}) });
       if (key && (o.fresh || o.added > 0 || o.removed > 0)) await saveOrdering(key, o.table).catch(() => false);
     } catch {
       // ordered queries then build it here on first use
@@ -283,18 +285,26 @@ export class SearchController {
    * the size filter compares a part drawn in inches with one in mm; otherwise in file units.
    */
   private entries(parts: readonly LibraryPart[]): IndexEntry[] {
-    return parts.map((p) => ({ name: p.name, label: p.label, diagonal: p.diagonal * this.mmPer(p) }));
-  }
-
-  private mmPer(p: LibraryPart): number {
-    return scaleToMm(p.info, this.store.value.library.units[p.label]) ?? 1;
+    const units = this.store.value.library.units;
+    return parts.map((p) => ({ name: p.name, label: p.label, diagonal: diagonalMm(p, units[p.label]) }));
   }
 
   /** A folder's units changed: the same embeddings with sizes in the new units, and the search again. */
-  unitsChanged(): void {
+  async unitsChanged(): Promise<void> {
     const index = this.state.index;
     if (!index) return;
-    this.patch({ index: index.withEntries(this.entries(this.store.value.library.parts)) });
+    const parts = this.store.value.library.parts;
+    const next = index.withEntries(this.entries(parts));
+    this.patch({ index: next });
+    if (index.ordered && !next.ordered) {
+      // The ordering holds the parts' sizes (its size prior): built again in the worker, the kept table's rows of
+      // parts whose size stayed carried over.
+      const version = this.version;
+      const names = parts.map((p) => p.name);
+      await this.order(next, next.vectors, this.modelKey(), names, version);
+      if (version !== this.version || this.state.index !== next) return;
+      this.patch({ status: { kind: 'done' } });
+    }
     if (this.last) void this.rank(this.last.vector, this.last.exclude);
   }
 
@@ -343,7 +353,9 @@ export class SearchController {
       index.scores(vector, cosine, from, Math.min(index.count, from + SCORE_ROWS));
     }
     // Ordered by cosine instead where the embedding is too concentrated for diffusion (e.g. untrained). Ordering
-    // through the library goes a few of its steps a task: at 20,000 parts it is tens of milliseconds.
+    // through the library goes a few of its steps a task: at 20,000 parts it is tens of milliseconds. The query's
+    // size serves the size filter and, for a part from outside the library, the size prior.
+    const queryDiagonal = diagonalMm(query, this.store.value.library.units[query.label]);
     const hits = await stepThrough(
       index.rankedSteps(
         f.ranking,
@@ -351,7 +363,8 @@ export class SearchController {
         f.k,
         {
           exclude,
-          ...(f.sizeRatio ? { sizeRatio: f.sizeRatio, queryDiagonal: query.diagonal * this.mmPer(query) } : {}),
+          queryDiagonal,
+          ...(f.sizeRatio ? { sizeRatio: f.sizeRatio } : {}),
           ...(f.family ? { labels: [f.family] } : {}),
         },
         cosine,

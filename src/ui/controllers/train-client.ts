@@ -210,10 +210,14 @@ export class TrainClient {
     names: readonly string[],
     vectors: Float32Array,
     dim: number,
+    diagonals: Float64Array,
     kept: TableMessage | null,
   ): Promise<OrderingMessage> {
     const copy = await copyInSlices(vectors);
-    const reply = await this.request({ type: 'order', id: this.nextId++, names, vectors: copy, dim, kept }, 'ordering');
+    const reply = await this.request(
+      { type: 'order', id: this.nextId++, names, vectors: copy, dim, diagonals, kept },
+      'ordering',
+    );
     return reply.ordering;
   }
 
@@ -260,6 +264,7 @@ export class TrainClient {
   async evaluate(
     source: CloudSource,
     labels: readonly string[],
+    diagonals: Float64Array,
     checkpoint: CheckpointMessage | null,
     config: TrainConfig,
   ): Promise<EvaluationReport> {
@@ -270,6 +275,7 @@ export class TrainClient {
         type: 'evaluate',
         id,
         labels,
+        diagonals,
         checkpoint: checkpoint ? { ...checkpoint, weightData: checkpoint.weightData.slice(0) } : null,
         config,
       },

@@ -76,6 +76,33 @@ describe('schema', () => {
   });
 });
 
+describe('schema 6: the size prior of kept orderings', () => {
+  it('drops the tables kept before it (plain cosines), and refuses a table without its prior', async () => {
+    const sql = await openEmbedded();
+    open.push(sql);
+    await sql.query('CREATE EXTENSION IF NOT EXISTS vector');
+    await sql.query('CREATE TABLE shapekin_schema (version integer PRIMARY KEY, applied_at timestamptz DEFAULT now())');
+    for (const m of MIGRATIONS.filter((m) => m.version <= 5)) {
+      await sql.exec(m.sql);
+      await sql.query('INSERT INTO shapekin_schema (version) VALUES ($1)', [m.version]);
+    }
+    await sql.query(`INSERT INTO models (fingerprint, model_json, weights) VALUES ('m', '{}', '\\x00')`);
+    await sql.query(
+      `INSERT INTO orderings (model_id, part_paths, width, neighbours, scores, lengths)
+       VALUES (1, '{a}', 1, '\\x00', '\\x00', '\\x00')`,
+    );
+    expect(await migrate(sql)).toEqual([6]);
+    expect((await sql.query('SELECT 1 FROM orderings')).rows).toHaveLength(0);
+    // A table without its prior is refused by the schema.
+    await expect(
+      sql.query(
+        `INSERT INTO orderings (model_id, part_paths, width, neighbours, scores, lengths)
+         VALUES (1, '{a}', 1, '\\x00', '\\x00', '\\x00')`,
+      ),
+    ).rejects.toThrow(/size_weight/);
+  });
+});
+
 describe('float and vector encodings', () => {
   it('float32 pools survive the bytea column bit for bit; vectors survive pgvector text bit for bit', async () => {
     const db = await fresh();

@@ -181,23 +181,30 @@ describe('the ordering kept with a model', () => {
       names.map((name) => ({ name, label: '', diagonal: 1 })),
     );
     const table = NeighbourTable.build(6, ix.rowScorer(), 4);
-    expect(await store.putOrdering('untrained:b', names, table)).toBe(false); // no such model kept yet
+    // The size prior in its scores: weight and ln sizes, an unknown size (NaN) among them.
+    const sizes = { weight: 0.025, logSize: Float32Array.from([0, 1.5, NaN, -2, 3.25, 0.5]) };
+    expect(await store.putOrdering('untrained:b', names, table, sizes)).toBe(false); // no such model kept yet
     await store.putEmbeddings('untrained:b', names, ix.vectors, 3);
-    expect(await store.putOrdering('untrained:b', names, table)).toBe(true);
+    expect(await store.putOrdering('untrained:b', names, table, sizes)).toBe(true);
     const back = (await store.ordering('untrained:b'))!;
     expect(back.names).toEqual(names);
     expect([back.table.index, back.table.score, back.table.length]).toEqual([table.index, table.score, table.length]);
+    expect(back.sizes.weight).toBe(0.025);
+    expect(Array.from(back.sizes.logSize)).toEqual(Array.from(sizes.logSize));
+    await expect(
+      store.putOrdering('untrained:b', names, table, { ...sizes, logSize: new Float32Array(5) }),
+    ).rejects.toThrow(/5 sizes for a table of 6/);
     await store.putParts(demoParts('washer', 1)); // a new part: the kept table is carried over later, not dropped
     expect(await store.ordering('untrained:b')).not.toBeNull();
     await store.putParts([{ ...parts[0], contentHash: 'f'.repeat(64) }]); // read again, maybe changed: dropped
     expect(await store.ordering('untrained:b')).toBeNull();
     await store.putParts([{ ...parts[0], contentHash: 'f'.repeat(64) }]);
     await store.putEmbeddings('untrained:b', names, ix.vectors, 3);
-    await store.putOrdering('untrained:b', names, table);
+    await store.putOrdering('untrained:b', names, table, sizes);
     await store.putParts([{ ...parts[0], contentHash: 'f'.repeat(64) }]); // the same file again: kept
     expect(await store.ordering('untrained:b')).not.toBeNull();
     const smaller = NeighbourTable.build(6, ix.rowScorer(), 2);
-    await store.putOrdering('untrained:b', [...names].reverse(), smaller);
+    await store.putOrdering('untrained:b', [...names].reverse(), smaller, sizes);
     expect((await store.ordering('untrained:b'))!.table.width).toBe(2);
     await store.putEmbeddings('untrained:c', names, ix.vectors, 3); // one untrained encoder kept: b goes
     expect(await store.ordering('untrained:b')).toBeNull();

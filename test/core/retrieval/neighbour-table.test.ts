@@ -170,8 +170,10 @@ describe('neighbour table (one pass over all pairs, then n·width)', () => {
     const bad = t.index.slice();
     bad[3 * 32] = 3;
     expect(() => NeighbourTable.fromArrays(50, 32, bad, t.score, t.length)).toThrow(/row 3 names part 3/);
-    expect(() => index(clustered(49, dim, 3, 2), dim).useTable(t)).toThrow(/table of 50 parts for an index of 49/);
-    const other = index(ix.vectors.slice(), dim).useTable(back);
+    expect(() => index(clustered(49, dim, 3, 2), dim).useTable(t, ix.sizePrior())).toThrow(
+      /table of 50 parts for an index of 49/,
+    );
+    const other = index(ix.vectors.slice(), dim).useTable(back, ix.sizePrior());
     expect(other.queryDiffused(ix.vector(3), 5, { exclude: 3 })).toEqual(
       ix.queryDiffused(ix.vector(3), 5, { exclude: 3 }),
     );

@@ -128,12 +128,13 @@ describe('exact top-k by partial selection', () => {
     ]);
     expect(index.query([1, 0], 4, { labels: ['washer'], exclude: 0 }).map((h) => h.index)).toEqual([1, 3]);
     expect(index.query([1, 0], 1)[0].score).toBeCloseTo(1, 6);
-    // Sizes said again (b's folder was in inches: 30 units = 762 mm; the rest in mm): the same vectors and graph,
-    // the filter on the new sizes; the original index is unchanged.
+    // Sizes said again (b's folder was in inches: 30 units = 762 mm; the rest in mm): the same vectors, the filter
+    // on the new sizes, the graph built again (the size prior is in it); the original index is unchanged.
     const graph = index.diffusionGraph();
     const inMm = index.withEntries(entries.map((e) => (e.name === 'b' ? { ...e, diagonal: 30 * 25.4 } : e)));
     expect(inMm.vectors).toBe(index.vectors);
-    expect(inMm.diffusionGraph()).toBe(graph);
+    expect(inMm.diffusionGraph()).not.toBe(graph);
+    expect(index.diffusionGraph()).toBe(graph);
     expect(inMm.query([1, 0], 4, { exclude: 0, sizeRatio: 50, queryDiagonal: 10 }).map((h) => h.index)).toEqual([2, 3]);
     expect(index.query([1, 0], 4, { exclude: 0, sizeRatio: 50, queryDiagonal: 10 }).map((h) => h.index)).toEqual([
       1, 2, 3,
