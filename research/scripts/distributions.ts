@@ -139,10 +139,23 @@ async function main(): Promise<void> {
       const m = a / (n - 1);
       spread[i] = Math.sqrt(Math.max(0, b / (n - 1) - m * m));
     }
+    // One spread for the whole library: the standard deviation of all distinct pairs' similarities.
+    let pa = 0,
+      pb = 0;
+    for (let i = 0; i < n; i++)
+      for (let j = i + 1; j < n; j++) {
+        const v = sim(i, j);
+        pa += v;
+        pb += v * v;
+      }
+    const pairs = (n * (n - 1)) / 2;
+    const global = Math.sqrt(Math.max(0, pb / pairs - (pa / pairs) ** 2));
     for (const lambda of relSizes) {
       const s3 = (i: number, j: number) =>
         sim(i, j) - ((lambda * (spread[i] + spread[j])) / 2) * Math.abs(logd[i] - logd[j]);
       line({ descriptor: 'size-rel', encoder: enc, lambda, ...score(s3) });
+      const s4 = (i: number, j: number) => sim(i, j) - lambda * global * Math.abs(logd[i] - logd[j]);
+      line({ descriptor: 'size-rel-global', encoder: enc, lambda, spread: +global.toFixed(4), ...score(s4) });
     }
     // Size as two more values a row, [cos(α·ln d), sin(α·ln d)] at share w: the cosine gains w·cos(α·Δln d), a
     // form every cosine search takes as it is (SQL, the neighbour table).
