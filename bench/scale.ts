@@ -1,9 +1,11 @@
-// `npm run bench -- scale [--parts 20000] [--library DIR] [--model RUN-DIR] [--queries 100] [--threads N]`:
+// `npm run bench -- scale [--parts 20000] [--library DIR] [--model RUN-DIR] [--queries 100] [--threads N]
+// [--size-weight λ]`:
 // a library of tens of thousands of parts end to end on this machine — read and sampled on all cores, embedded on
 // all cores with a trained default model, ordered through the library (the neighbour table and graph), then queried.
 // Without --library it writes a generated library (OFF and binary STL, the generator's part families) under the
 // system's temporary folder and reuses it on later runs; without --model it trains the library's default model for
-// a short while on a sample (the figures time the model's size, not its quality). The last line is one JSON object.
+// a short while on a sample (the figures time the model's size, not its quality). --size-weight sets the ordering's
+// size prior (size-prior.ts; 0: none) to time it against. The last line is one JSON object.
 
 import { existsSync, mkdirSync, writeFileSync } from 'node:fs';
 import { availableParallelism, tmpdir } from 'node:os';
@@ -17,6 +19,7 @@ import { defaultTrainFor, libraryTraits, POOL_POINTS } from '../src/core/model/d
 import { stepsPerEpoch } from '../src/core/model/train-config';
 import { Trainer } from '../src/core/model/trainer';
 import { DIFFUSION_DEFAULTS, packLists } from '../src/core/retrieval/diffusion';
+import { SIZE_WEIGHT } from '../src/core/retrieval/size-prior';
 import { TensorIndex } from '../src/core/retrieval/tensor-index';
 import { createRng } from '../src/core/rng';
 import { generateLibrary } from '../src/gen/library';
@@ -56,6 +59,7 @@ export async function benchScale(): Promise<void> {
   const parts = Number(option('parts') ?? 20_000);
   const queries = Number(option('queries') ?? 100);
   const threads = Number(option('threads') ?? availableParallelism());
+  const sizeWeight = Number(option('size-weight') ?? SIZE_WEIGHT);
   const root = option('library') ?? generated(parts);
   const rows: [string, string][] = [];
   const say = (s: string) => process.stderr.write(`${s}\n`);
@@ -130,6 +134,7 @@ export async function benchScale(): Promise<void> {
     vectors,
     D,
     library.parts.map((p, i) => ({ name: p.name, label: library.labels[i], diagonal: p.diagonal })),
+    { sizeWeight },
   );
   say('building the ordering (neighbour table, hub means, graph)…');
   t0 = performance.now();
@@ -195,6 +200,7 @@ export async function benchScale(): Promise<void> {
       cosine_query_ms_p50: +quantile(cosine, 0.5).toFixed(2),
       peak_rss_mb: Math.round(peak),
       rows_rescanned: rescanned,
+      size_weight: sizeWeight,
     }),
   );
 }

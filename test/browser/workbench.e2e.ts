@@ -415,12 +415,36 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     const size = (t: string | null) => (t ?? '').match(/([\d.]+) × ([\d.]+) × ([\d.]+) (mm|file units)/)!;
     const before = size(await card.textContent());
     expect(before[4]).toBe('file units');
+    // The ordering through the library holds each part's size (its size prior): built here now, it is built again,
+    // in the worker, with the washers' new sizes once their units are said.
+    const prior = () =>
+      page.evaluate(() => {
+        const app = document.querySelector('sk-app') as unknown as {
+          state: {
+            library: { parts: { name: string }[] };
+            search: { index: { ordered: boolean; neighbourTable(): unknown; sizePrior(): { logSize: Float32Array } } };
+          };
+        };
+        const { index } = app.state.search;
+        const i = app.state.library.parts.findIndex((p) => p.name.startsWith('washer/'));
+        return { ordered: index.ordered, washer: index.ordered ? index.sizePrior().logSize[i] : null };
+      });
+    await page.evaluate(() => {
+      const app = document.querySelector('sk-app') as unknown as {
+        state: { search: { index: { neighbourTable(): unknown } } };
+      };
+      app.state.search.index.neighbourTable();
+    });
+    const ordered = await prior();
+    expect(ordered.ordered).toBe(true);
     await panel.getByTestId('units').locator('summary').click();
     await panel.getByLabel('Units of washer').selectOption('inch');
     await expect.poll(async () => size(await card.textContent())[4]).toBe('mm');
     const after = size(await card.textContent());
     // 1 in = 25.4 mm (NIST SP 811); the cards round to 3–4 digits.
     for (const i of [1, 2, 3]) expect(Number(after[i]) / Number(before[i])).toBeCloseTo(25.4, 0);
+    await expect.poll(async () => (await prior()).ordered, { timeout: 30_000 }).toBe(true);
+    expect((await prior()).washer! - ordered.washer!).toBeCloseTo(Math.log(25.4), 5);
     await page.screenshot({ path: `${ARTIFACTS}/units.png` });
     // Back to Look-alikes, seen before: its 3-D views are drawn in the view worker on kept canvases, so the switch
     // holds the page briefly (measured: no task over 50 ms; 100–250 ms tasks when each view made its own WebGL
