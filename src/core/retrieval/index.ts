@@ -15,9 +15,15 @@ import {
 } from './diffusion';
 import { HUB_NEIGHBOURS, meanOfTop } from './hubness';
 import { NeighbourTable, TABLE_WIDTH, type RowScorer } from './neighbour-table';
-import { logSizes, penalisedRow, penalisedScorer, SIZE_WEIGHT, vectorSpread, type SizePrior } from './size-prior';
-
-export { dot4 };
+import {
+  logSizes,
+  penalisedRow,
+  penalisedScorer,
+  sameSizes,
+  SIZE_WEIGHT,
+  sizePrior,
+  type SizePrior,
+} from './size-prior';
 
 /**
  * How results are ordered: by cosine similarity to the query, or through the library: hub-corrected (CSLS,
@@ -147,10 +153,12 @@ export class EmbeddingIndex {
    * worked out on first use, or the one of an ordering taken over (`useOrdering`).
    */
   sizePrior(): SizePrior {
-    return (this.sizes ??= {
-      weight: this.sizeWeight > 0 ? this.sizeWeight * vectorSpread(this.vectors, this.dim) : 0,
-      logSize: logSizes(this.entries.map((e) => e.diagonal)),
-    });
+    return (this.sizes ??= sizePrior(
+      this.vectors,
+      this.dim,
+      this.entries.map((e) => e.diagonal),
+      this.sizeWeight,
+    ));
   }
 
   /** Rows as the ordering scores them: `rowScorer`'s cosines less the size prior. */
@@ -382,15 +390,4 @@ export const GRID_MAX_MEAN_COSINE = 0.7;
  */
 export function diffusionCeiling(share: number): number {
   return (1 - share) * DIFFUSION_MAX_MEAN_COSINE + share * GRID_MAX_MEAN_COSINE;
-}
-
-/** Whether two parts' ln diagonals are the same (to float32 rounding), unknown sizes alike. */
-export function sameSizes(a: Float32Array, b: Float32Array): boolean {
-  if (a.length !== b.length) return false;
-  for (let i = 0; i < a.length; i++) {
-    const x = a[i],
-      y = b[i];
-    if (x !== x || y !== y ? x === x || y === y : Math.abs(x - y) > 1e-6) return false;
-  }
-  return true;
 }

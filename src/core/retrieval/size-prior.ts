@@ -42,6 +42,16 @@ export function sizePenalty(weight: number, a: number, b: number): number {
   return d === d ? weight * Math.abs(d) : 0;
 }
 
+/** Whether two ln diagonals are the same (to float32 rounding), two unknown sizes alike. */
+export function sameLogSize(x: number, y: number): boolean {
+  return x !== x || y !== y ? x !== x && y !== y : Math.abs(x - y) <= 1e-6;
+}
+
+/** Whether two lists of ln diagonals are the same, part by part (`sameLogSize`). */
+export function sameSizes(a: Float32Array, b: Float32Array): boolean {
+  return a.length === b.length && a.every((x, i) => sameLogSize(x, b[i]));
+}
+
 /** The parts σ is estimated from: all of them up to SPREAD_SAMPLE, else that many evenly spaced in row order. */
 export function spreadSample(n: number, m = SPREAD_SAMPLE): Int32Array {
   if (n <= m) return Int32Array.from({ length: n }, (_, i) => i);

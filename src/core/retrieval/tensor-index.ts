@@ -3,9 +3,9 @@
 // up to float32 rounding; top-k selection is the same partial selection.
 
 import * as tf from '@tensorflow/tfjs';
-import { normaliseRows } from '../vectors';
-import { dot4, EmbeddingIndex, sameSizes, type IndexEntry, type IndexOptions } from './index';
-import { penalisedScorer, SIZE_WEIGHT, sizePenalty, type SizePrior } from './size-prior';
+import { dot4, normaliseRows } from '../vectors';
+import { EmbeddingIndex, type IndexEntry, type IndexOptions } from './index';
+import { penalisedScorer, sameLogSize, SIZE_WEIGHT, sizePenalty, type SizePrior } from './size-prior';
 import { carryTable, TABLE_WIDTH, type NamedTable, type NeighbourTable, type RowScorer } from './neighbour-table';
 import type { PackedLists } from './diffusion';
 
@@ -101,7 +101,7 @@ export function buildOrdering(
             logSize: Float32Array.from(order, (i) => sizes.logSize[i]),
           });
         },
-        (r, i) => !sameSizes(kept.sizes.logSize.subarray(r, r + 1), sizes.logSize.subarray(i, i + 1)),
+        (r, i) => !sameLogSize(kept.sizes.logSize[r], sizes.logSize[i]),
       );
       index.useTable(carried.table, sizes);
     }
@@ -134,8 +134,7 @@ function keptMatches(kept: NamedTable, names: readonly string[], index: Embeddin
     const first = kept.table.row(r)[0];
     const j = first ? at.get(kept.names[first.index]) : undefined;
     if (i === undefined || j === undefined) continue;
-    if (!sameSizes(was.subarray(r, r + 1), now.subarray(i, i + 1))) continue;
-    if (!sameSizes(was.subarray(first.index, first.index + 1), now.subarray(j, j + 1))) continue;
+    if (!sameLogSize(was[r], now[i]) || !sameLogSize(was[first.index], now[j])) continue;
     const s =
       dot4(index.vectors, j * index.dim, index.vector(i), index.dim) -
       sizePenalty(kept.sizes.weight, was[r], was[first.index]);

@@ -4,7 +4,8 @@
 // with the plain functions `neighbourhoodMeans` and `DiffusionGraph.build`.
 import { describe, expect, it } from 'vitest';
 import { carryTable, NeighbourTable } from '../../../src/core/retrieval/neighbour-table';
-import { EmbeddingIndex, dot4 } from '../../../src/core/retrieval/index';
+import { EmbeddingIndex } from '../../../src/core/retrieval/index';
+import { dot4 } from '../../../src/core/vectors';
 import { DIFFUSION_DEFAULTS, DiffusionGraph } from '../../../src/core/retrieval/diffusion';
 import { HUB_NEIGHBOURS, neighbourhoodMeans } from '../../../src/core/retrieval/hubness';
 import { createRng } from '../../../src/core/rng';
