@@ -121,6 +121,27 @@ describe('measuring on the whole library', () => {
     expect(sent.map((s) => s.msg.type)).toEqual(['stage']);
   });
 
+  it('a stop while the last chunk is being read sends nothing: the study never starts on the fresh worker', async () => {
+    const { TrainClient } = await import('../../src/ui/controllers/train-client');
+    const client = new TrainClient();
+    let release: () => void = () => {};
+    const parts = Array.from({ length: 30 }, cloud);
+    const source = {
+      count: parts.length,
+      read: (from: number, to: number) =>
+        new Promise<{ points: Float32Array; normals: Float32Array }[]>((resolve) => {
+          release = () => resolve(parts.slice(from, to));
+        }),
+    };
+    const study = client.study(source, [], null, DEFAULT_TRAIN, () => {});
+    await tick();
+    client.abort(); // the one chunk is still being read
+    release();
+    await expect(study).rejects.toThrow('cancelled');
+    for (let i = 0; i < 5; i++) await tick();
+    expect(sent.map((s) => s.msg.type)).toEqual([]);
+  });
+
   it('a study with a second worker hands each worker one end of a channel, and ends the service when it stops', async () => {
     const { TrainClient } = await import('../../src/ui/controllers/train-client');
     const client = new TrainClient();

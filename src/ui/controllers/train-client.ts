@@ -134,6 +134,9 @@ export class TrainClient {
         if (i > 0 && epoch === this.epoch) this.send({ type: 'unstage', id });
         throw err;
       }
+      // Ended while this chunk was read: sent now, it (and the request after it) would go to a fresh worker, and a
+      // stopped study would run there to the end (seen in the browser test, where a stop came during the last read).
+      if (epoch !== this.epoch) throw new Error('cancelled');
       const msg: TrainRequest = { type: 'stage', id, parts };
       this.send(msg, transfersOf(msg));
       if (i + STAGE_CHUNK < source.count) await yieldToPage();
