@@ -4,7 +4,7 @@
 import { mkdirSync, statSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { BrowserContext, Page } from 'playwright-core';
+import type { BrowserContext, Page, Worker } from 'playwright-core';
 import { chromiumAvailable, launch } from './chromium';
 import { startPreview } from './server';
 import { longest, mostCpu, tracePageTasks } from './page-cpu';
@@ -437,6 +437,15 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     });
     const ordered = await prior();
     expect(ordered.ordered).toBe(true);
+    // The ordering is built in a worker of its own, ended once it has answered (its WebAssembly memory, grown by
+    // the build, goes with it: at 20,000 parts about 170 MB the training worker kept before).
+    const models = { started: 0, ended: 0 };
+    const watchModelWorkers = (w: Worker) => {
+      if (!w.url().includes('train.worker')) return;
+      models.started++;
+      w.on('close', () => models.ended++);
+    };
+    page.on('worker', watchModelWorkers);
     await panel.getByTestId('units').locator('summary').click();
     await panel.getByLabel('Units of washer').selectOption('inch');
     await expect.poll(async () => size(await card.textContent())[4]).toBe('mm');
@@ -445,6 +454,9 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     for (const i of [1, 2, 3]) expect(Number(after[i]) / Number(before[i])).toBeCloseTo(25.4, 0);
     await expect.poll(async () => (await prior()).ordered, { timeout: 30_000 }).toBe(true);
     expect((await prior()).washer! - ordered.washer!).toBeCloseTo(Math.log(25.4), 5);
+    await expect.poll(() => models.ended, { timeout: 10_000 }).toBe(1);
+    expect(models.started).toBe(1);
+    page.off('worker', watchModelWorkers);
     await page.screenshot({ path: `${ARTIFACTS}/units.png` });
     // Back to Look-alikes, seen before: its 3-D views are drawn in the view worker on kept canvases, so the switch
     // holds the page briefly (measured: no task over 50 ms; 100–250 ms tasks when each view made its own WebGL

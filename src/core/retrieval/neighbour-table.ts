@@ -30,8 +30,12 @@ export const TABLE_WIDTH = 64;
  */
 const BOUND_SLACK = 1e-6;
 
-/** Rows scored per block: at most this many similarities in memory at once (64 MB of float32). */
-const BLOCK_VALUES = 1 << 24;
+/**
+ * Rows scored per block: at most this many similarities in memory at once (16 MB of float32). Blocks of 64 MB grew
+ * the building worker's WebAssembly heap by about 60 MB more at 20,000 parts, for a build time within this
+ * machine's noise (Node, one run each).
+ */
+const BLOCK_VALUES = 1 << 22;
 
 export class NeighbourTable {
   /** Row i's candidates are index[i·width .. i·width + length[i]), best first; score holds their cosines. */

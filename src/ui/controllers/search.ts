@@ -20,9 +20,9 @@ import { loadEmbeddings, loadOrdering, saveEmbeddings, saveOrdering } from './li
 import { namedTable } from '../../core/retrieval/neighbour-table';
 import type { LibraryController } from './library';
 import type { TrainingController } from './training';
-import type { TrainClient } from './train-client';
+import { TrainClient } from './train-client';
 import { cloudsToHand } from './clouds';
-import { inSlices, stepThrough, yieldToPage } from '../pace';
+import { stepThrough, yieldToPage } from '../pace';
 import type { MapReply, MapRequest } from '../../worker/map.worker';
 
 /**
@@ -128,7 +128,9 @@ export class SearchController {
     const total = parts.length;
     const startedAt = performance.now();
     const chunks = Math.ceil(total / EMBED_CHUNK);
-    const pieces: Float32Array[] = new Array(chunks);
+    // Each chunk goes straight to its place in the library's rows (made when the first arrives, its width known
+    // then): at 20,000 parts the rows are 80 MB, and keeping the chunks apart until the end held them twice.
+    let vectors: Float32Array | null = null;
     let dim = 0,
       next = 0,
       done = 0;
@@ -148,8 +150,9 @@ export class SearchController {
         const slice = parts.slice(c * EMBED_CHUNK, (c + 1) * EMBED_CHUNK);
         // Each chunk's clouds are read (copied, or fetched from the parts database) just before they go.
         const r = await client.embed(await cloudsToHand(slice), model, config);
-        pieces[c] = r.vectors;
         dim = r.dim;
+        vectors ??= new Float32Array(total * dim);
+        vectors.set(r.vectors, c * EMBED_CHUNK * dim);
         done += slice.length;
         const now = performance.now();
         if (warmFrom !== null) {
@@ -167,11 +170,7 @@ export class SearchController {
     // from it), from the chunks after each worker's first; from the whole run when every worker had only one.
     const elapsed = ((performance.now() - startedAt) * clients.length) / total;
     this.patch({ embedPace: warmParts > 0 ? warmMs / warmParts : elapsed });
-    // Put together a slice at a time: at 20,000 parts the rows are 80 MB, and writing fresh memory costs about
-    // 12 ns a value here (page faults; measured in Node), a second in one task.
-    const vectors = new Float32Array(total * dim);
-    await inSlices(pieces, (v, c) => vectors.set(v, c * EMBED_CHUNK * dim));
-    if (version !== this.version) return null;
+    if (!vectors) return null;
     return { vectors, dim };
   }
 
@@ -206,7 +205,7 @@ export class SearchController {
   }
 
   /**
-   * The ordering through the library, built in the training worker (a matrix product over all pairs, off the page)
+   * The ordering through the library, built in a worker of its own (a matrix product over all pairs, off the page)
    * or carried over from the table kept for this model (only new parts' rows are scored), then kept with the
    * embeddings. If the worker cannot, the index builds it itself on the first ordered query.
    */
@@ -226,7 +225,18 @@ export class SearchController {
     try {
       const kept = key ? await loadOrdering(key) : null;
       const diagonals = Float64Array.from(index.entries, (e) => e.diagonal);
-      const o = await this.training.client.order(names, vectors, index.dim, diagonals, kept);
+      // A worker of its own, ended once it has answered: the build's matrix products grow a worker's WebAssembly
+      // memory (about 170 MB at 20,000 parts of 1,024 values), which only ending the worker gives back. Made
+      // again for each build: starting one takes a fraction of a second, the build at that size a minute.
+      this.builder?.abort();
+      const builder = (this.builder = new TrainClient());
+      let o: Awaited<ReturnType<TrainClient['order']>>;
+      try {
+        o = await builder.order(names, vectors, index.dim, diagonals, kept);
+      } finally {
+        builder.dispose();
+        if (this.builder === builder) this.builder = null;
+      }
       if (version !== this.version) return;
       const { table, sizes } = namedTable(o.table);
       index.useOrdering({ table, sizes, graph: o.graph, ...(o.built ? { built: o.built } : {}) });
@@ -236,9 +246,13 @@ export class SearchController {
     }
   }
 
+  /** The worker building the ordering through the library now, if one is. */
+  private builder: TrainClient | null = null;
+
   /** Stops embedding the library: look-alikes wait until it is embedded again (`refresh`); nothing half is kept. */
   cancel(): void {
     if (this.state.status.kind !== 'running') return;
+    this.builder?.abort();
     this.version++; // the embedding under way ends after the request in hand, and keeps nothing
     this.patch({ status: { kind: 'cancelled' }, index: null, hits: [], standing: [] });
   }

@@ -4,7 +4,8 @@
 import { beforeAll, describe, expect, it } from 'vitest';
 import { EmbeddingIndex } from '../../../src/core/retrieval/index';
 import { NeighbourTable } from '../../../src/core/retrieval/neighbour-table';
-import { buildOrdering } from '../../../src/core/retrieval/tensor-index';
+import * as tf from '@tensorflow/tfjs';
+import { buildOrdering, transposed } from '../../../src/core/retrieval/tensor-index';
 import { createRng } from '../../../src/core/rng';
 import { penalisedScorer } from '../../../src/core/retrieval/size-prior';
 import { expectClose } from '../../helpers';
@@ -45,6 +46,18 @@ function expectLeadingRows(carried: NeighbourTable, fresh: NeighbourTable): void
 }
 
 describe('ordering built by matrix products', () => {
+  it('transposes its matrix as tf.transpose does (tfjs as the reference), tiles cut at both edges', () => {
+    for (const [rows, cols] of [
+      [1, 1],
+      [3, 130],
+      [129, 65],
+    ]) {
+      const m = Float32Array.from({ length: rows * cols }, (_, i) => i * 0.5 - 7);
+      const want = tf.tidy(() => tf.transpose(tf.tensor2d(m, [rows, cols])).dataSync());
+      expect(Array.from(transposed(m, rows, cols))).toEqual(Array.from(want));
+    }
+  });
+
   it('orders every query as the plain index does (the same top 10 for 40 queries)', () => {
     const dim = 32,
       n = 300,
