@@ -50,3 +50,20 @@ export function dot4(v: ArrayLike<number>, o: number, q: ArrayLike<number>, D: n
   for (; d < D; d++) s0 += v[o + d] * q[d];
   return s0 + s1 + s2 + s3;
 }
+
+/** The (rows, cols) row-major matrix `m` as (cols, rows), in 64 × 64 tiles (each read and write stays in cache). */
+export function transposed(
+  m: Float32Array,
+  rows: number,
+  cols: number,
+  out: Float32Array = new Float32Array(rows * cols),
+): Float32Array {
+  const T = 64;
+  for (let r0 = 0; r0 < rows; r0 += T)
+    for (let c0 = 0; c0 < cols; c0 += T) {
+      const r1 = Math.min(rows, r0 + T),
+        c1 = Math.min(cols, c0 + T);
+      for (let r = r0; r < r1; r++) for (let c = c0; c < c1; c++) out[c * rows + r] = m[r * cols + c];
+    }
+  return out;
+}

@@ -438,7 +438,7 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     const ordered = await prior();
     expect(ordered.ordered).toBe(true);
     // The ordering is built in a worker of its own, ended once it has answered (its WebAssembly memory, grown by
-    // the build, goes with it: at 20,000 parts about 170 MB the training worker kept before).
+    // the build, goes with it: at 20,000 parts the training worker kept about 230 MB of it before).
     const models = { started: 0, ended: 0 };
     const watchModelWorkers = (w: Worker) => {
       if (!w.url().includes('train.worker')) return;

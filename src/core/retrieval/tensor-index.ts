@@ -3,7 +3,7 @@
 // up to float32 rounding; top-k selection is the same partial selection.
 
 import * as tf from '@tensorflow/tfjs';
-import { dot4, normaliseRows } from '../vectors';
+import { dot4, normaliseRows, transposed } from '../vectors';
 import { EmbeddingIndex, type IndexEntry, type IndexOptions } from './index';
 import { penalisedScorer, sameLogSize, SIZE_WEIGHT, sizePenalty, type SizePrior } from './size-prior';
 import { carryTable, TABLE_WIDTH, type NamedTable, type NeighbourTable, type RowScorer } from './neighbour-table';
@@ -53,23 +53,6 @@ export class TensorIndex extends EmbeddingIndex {
     this.matrix.dispose();
     this.matrixT?.dispose();
   }
-}
-
-/** The (rows, cols) row-major matrix `m` as (cols, rows), in 64 × 64 tiles (each read and write stays in cache). */
-export function transposed(
-  m: Float32Array,
-  rows: number,
-  cols: number,
-  out: Float32Array = new Float32Array(rows * cols),
-): Float32Array {
-  const T = 64;
-  for (let r0 = 0; r0 < rows; r0 += T)
-    for (let c0 = 0; c0 < cols; c0 += T) {
-      const r1 = Math.min(rows, r0 + T),
-        c1 = Math.min(cols, c0 + T);
-      for (let r = r0; r < r1; r++) for (let c = c0; c < c1; c++) out[c * rows + r] = m[r * cols + c];
-    }
-  return out;
 }
 
 /** An ordering through the library built (or carried over from a kept table) for parts in `names` order. */

@@ -24,6 +24,7 @@ import { TrainClient } from './train-client';
 import { cloudsToHand } from './clouds';
 import { stepThrough, yieldToPage } from '../pace';
 import type { MapReply, MapRequest } from '../../worker/map.worker';
+import type { OrderingMessage } from '../../worker/protocol';
 
 /**
  * Parts a request to the training worker embeds: a multiple of embedParts' batch (32), so the worker runs the same
@@ -226,11 +227,11 @@ export class SearchController {
       const kept = key ? await loadOrdering(key) : null;
       const diagonals = Float64Array.from(index.entries, (e) => e.diagonal);
       // A worker of its own, ended once it has answered: the build's matrix products grow a worker's WebAssembly
-      // memory (about 170 MB at 20,000 parts of 1,024 values), which only ending the worker gives back. Made
-      // again for each build: starting one takes a fraction of a second, the build at that size a minute.
+      // memory (to about 110 MB at 20,000 parts of 1,024 values, Node), which only ending the worker gives back. Made
+      // again for each build, which pays for loading the worker; the build at that size took about 2 minutes.
       this.builder?.abort();
       const builder = (this.builder = new TrainClient());
-      let o: Awaited<ReturnType<TrainClient['order']>>;
+      let o: OrderingMessage;
       try {
         o = await builder.order(names, vectors, index.dim, diagonals, kept);
       } finally {
