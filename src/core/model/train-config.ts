@@ -102,6 +102,10 @@ export function validateTrainConfig(c: TrainConfig, partCount: number): void {
   if (!(c.learningRate > 0 && c.learningRate < 1))
     throw new RangeError(`training: learning rate must be in (0, 1), got ${c.learningRate}`);
   if (!(c.loss.temperature > 0)) throw new RangeError(`training: temperature must be > 0, got ${c.loss.temperature}`);
+  const fn = c.loss.falseNegatives ?? 0;
+  whole(fn, 0, 'false negatives (alike parts per part kept out of its negatives)');
+  if (fn > 0 && c.loss.name !== 'nt-xent')
+    throw new RangeError(`training: false negatives apply to the nt-xent loss only, not ${c.loss.name}`);
   if (c.pose === 'file-and-principal' && c.patience > 0) {
     throw new RangeError('training: early stopping (patience) is not available with two encoders (file-and-principal)');
   }

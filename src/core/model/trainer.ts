@@ -8,6 +8,7 @@ import { createRng, hashString } from '../rng';
 import { Adam, cosineWithWarmup, type AdamState } from './adam';
 import { BatchMaker, checkViews, splitParts } from './batch';
 import { embedParts } from './embed';
+import { alikeBeforeTraining, excludedPairs } from './false-negatives';
 import { Encoder } from './encoder';
 import { inputChannels } from './encoder-config';
 import { computeLoss } from './losses';
@@ -35,6 +36,11 @@ export interface TrainerOptions {
   readonly labels?: readonly number[] | null;
   /** Start from these weights (a checkpoint). */
   readonly initialWeights?: readonly Float32Array[];
+  /**
+   * Each part's alike parts, kept out of its negatives when the loss asks for false negatives (false-negatives.ts);
+   * absent: found from the parts' surface grids when needed.
+   */
+  readonly alike?: readonly Int32Array[];
   readonly resume?: {
     readonly step: number;
     readonly adam: AdamState;
@@ -59,6 +65,8 @@ export class Trainer {
   private readonly memberParts: readonly (readonly ModelPart[])[];
   private readonly batches: readonly BatchMaker[];
   private readonly labels: readonly number[] | null;
+  /** Each part's alike parts, not its negatives (false-negatives.ts); null: every other part is a negative. */
+  readonly alike: readonly Int32Array[] | null;
   step = 0;
   status: TrainStatus = 'idle';
   history: { step: number; loss: number; lr: number }[] = [];
@@ -75,6 +83,10 @@ export class Trainer {
     this.config = config;
     this.memberParts = memberPoses(config.pose).map((pose) => posed(parts, pose));
     this.labels = options.labels ?? null;
+    const falseNegatives = config.loss.falseNegatives ?? 0;
+    if (options.alike && options.alike.length !== parts.length)
+      throw new RangeError(`training: alike parts for ${options.alike.length} parts, the library has ${parts.length}`);
+    this.alike = falseNegatives > 0 ? (options.alike ?? alikeBeforeTraining(parts, config.pose, falseNegatives)) : null;
     const { train, held } = splitParts(parts.length, config.heldOutFraction, config.seed);
     this.heldIdx = held;
     this.trainIdx = train;
@@ -158,6 +170,7 @@ export class Trainer {
       Math.round(this.memberSteps * this.config.warmupFraction),
     );
     const labels = this.labels ? parts.map((i) => this.labels![i]) : null;
+    const exclude = this.alike ? excludedPairs(parts, this.alike) : null;
     const vars = encoder.variables;
     const lossValue = tf.tidy(() => {
       const input = tf.tensor3d(x, [2 * B, this.config.points, F]);
@@ -165,7 +178,7 @@ export class Trainer {
         const z = encoder.project(encoder.pooled(input)); // (2B, P)
         const za = tf.slice(z, [0, 0], [B, -1]) as tf.Tensor2D;
         const zb = tf.slice(z, [B, 0], [B, -1]) as tf.Tensor2D;
-        return computeLoss(this.config.loss, za, zb, labels);
+        return computeLoss(this.config.loss, za, zb, labels, exclude && tf.tensor2d(exclude, [B, B]));
       }, vars);
       const loss = value.dataSync()[0];
       if (Number.isFinite(loss))

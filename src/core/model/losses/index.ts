@@ -14,6 +14,7 @@ export type LossFn = (
   zb: tf.Tensor2D,
   settings: LossSettings,
   labels: ArrayLike<number> | null,
+  exclude: tf.Tensor2D | null,
 ) => tf.Scalar;
 
 function needLabels(labels: ArrayLike<number> | null): ArrayLike<number> {
@@ -22,7 +23,7 @@ function needLabels(labels: ArrayLike<number> | null): ArrayLike<number> {
 }
 
 export const LOSSES: Record<LossName, LossFn> = {
-  'nt-xent': (za, zb, s) => ntXentLoss(za, zb, s.temperature),
+  'nt-xent': (za, zb, s, _labels, exclude) => ntXentLoss(za, zb, s.temperature, exclude),
   'supervised-contrastive': (za, zb, s, labels) => supConLoss(za, zb, needLabels(labels), s.temperature),
   'triplet-hard': (za, zb, s) => tripletLoss(za, zb, s.margin, 'hard'),
   'triplet-semi-hard': (za, zb, s) => tripletLoss(za, zb, s.margin, 'semi-hard'),
@@ -34,8 +35,9 @@ export function computeLoss(
   za: tf.Tensor2D,
   zb: tf.Tensor2D,
   labels: ArrayLike<number> | null,
+  exclude: tf.Tensor2D | null = null,
 ): tf.Scalar {
   const fn = LOSSES[s.name];
   if (!fn) throw new RangeError(`unknown loss "${s.name}" (expected one of ${LOSS_NAMES.join(', ')})`);
-  return fn(za, zb, s, labels);
+  return fn(za, zb, s, labels, exclude);
 }
