@@ -9,40 +9,35 @@
 
 import * as tf from '@tensorflow/tfjs';
 import { SHAPE_GRID_DEFAULTS } from '../descriptors/shape-grid';
+import { NeighbourTable } from '../retrieval/neighbour-table';
 import { surfaceGrids } from './embed';
 import { memberPoses, type Pose } from './train-config';
 import type { ModelPart } from './views';
 
-/** Rows of the similarity matrix scored at a time: 256 × 20,000 float32 is 20 MB. */
-const BLOCK_ROWS = 256;
-
 /**
  * For each of `count` unit rows (row-major, `dim` values a row), the indices of the `m` other rows with the highest
- * cosine, best first (ties: the lower index first, as tf.topk orders them).
+ * cosine, best first (ties: the lower index first): the search's neighbour table (retrieval/neighbour-table.ts),
+ * scored in its blocks by one tfjs product a block.
  */
 export function mostAlike(rows: Float32Array, count: number, dim: number, m: number): Int32Array[] {
   const k = Math.min(m, count - 1);
-  const out: Int32Array[] = [];
   if (k <= 0) return Array.from({ length: count }, () => new Int32Array(0));
   const all = tf.tensor2d(rows, [count, dim]);
   try {
-    for (let start = 0; start < count; start += BLOCK_ROWS) {
-      const end = Math.min(count, start + BLOCK_ROWS);
-      const idx = tf.tidy(() => {
-        const block = tf.slice(all, [start, 0], [end - start, dim]);
-        // A row's own cosine (1) is pushed below every other (≥ −1) before the top k are taken.
-        const self = tf.oneHot(tf.range(start, end, 1, 'int32'), count);
-        const scores = tf.sub(tf.matMul(block, all, false, true), tf.mul(self, 4));
-        return tf.topk(scores, k).indices;
-      });
-      const flat = idx.dataSync() as Int32Array;
-      idx.dispose();
-      for (let r = 0; r < end - start; r++) out.push(flat.slice(r * k, (r + 1) * k));
-    }
+    const table = NeighbourTable.build(
+      count,
+      (start, end, out) => {
+        const s = tf.tidy(() => tf.matMul(tf.slice(all, [start, 0], [end - start, dim]), all, false, true));
+        out.set(s.dataSync());
+        s.dispose();
+        return out;
+      },
+      k,
+    );
+    return Array.from({ length: count }, (_, i) => table.index.slice(i * k, i * k + table.length[i]));
   } finally {
     all.dispose();
   }
-  return out;
 }
 
 /** Each part's `m` most alike parts by the surface grid in every pose the encoders read (as retrieval sets it). */
@@ -52,21 +47,19 @@ export function alikeBeforeTraining(parts: readonly ModelPart[], pose: Pose, m: 
 }
 
 /**
- * The (B, B) 0/1 matrix of a batch's parts: 1 where either part is among the other's alike parts (both directions, so
- * the mask is symmetric), 0 on the diagonal.
+ * The (B, B) 0/1 matrix of a batch's parts (each part once, as batches draw them): 1 where either part is among the
+ * other's alike parts (both directions, so the mask is symmetric), 0 on the diagonal.
  */
 export function excludedPairs(batch: readonly number[], alike: readonly Int32Array[]): Float32Array {
   const B = batch.length;
   const out = new Float32Array(B * B);
-  const where = new Map<number, number[]>();
-  batch.forEach((p, i) => where.set(p, [...(where.get(p) ?? []), i]));
+  const where = new Map(batch.map((p, i) => [p, i]));
   batch.forEach((p, i) => {
     for (const q of alike[p]) {
-      for (const j of where.get(q) ?? []) {
-        if (j === i) continue;
-        out[i * B + j] = 1;
-        out[j * B + i] = 1;
-      }
+      const j = where.get(q);
+      if (j === undefined || j === i) continue;
+      out[i * B + j] = 1;
+      out[j * B + i] = 1;
     }
   });
   return out;
