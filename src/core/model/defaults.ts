@@ -35,6 +35,20 @@ export const POOL_POINTS = 2048;
  */
 export const NORMALS_MIN_CLOSED_SHARE = 0.5;
 
+/**
+ * NT-Xent temperature for libraries read as x y z (mostly open meshes). Measured (docs/log/2026-12-05-softmax-
+ * temperature.md, seeds 0–2): on the three real libraries, all read as x y z, 0.07 against 0.1 lifted KiCad's first
+ * tier and mAP and the second set's mAP in every seed and held furniture within its seed spread; on the closed demo
+ * library, read with normals, it cost NN in every seed (0.958 against 0.979), so libraries read with normals keep
+ * 0.1. 0.07 is also the value Wu et al. 2018 and MoCo (He et al. 2020) use (from memory).
+ */
+export const OPEN_LIBRARY_TEMPERATURE = 0.07;
+
+/** Default temperature for a library: 0.07 when it is read as x y z (mostly open meshes), else 0.1. */
+export function defaultTemperature(closed: readonly boolean[]): number {
+  return defaultInputs(closed) === 'xyz' ? OPEN_LIBRARY_TEMPERATURE : DEFAULT_TRAIN.loss.temperature;
+}
+
 /** Default inputs for a library: x y z + normal when at least half its meshes are closed, else x y z. */
 export function defaultInputs(closed: readonly boolean[]): InputFeatures {
   if (closed.length === 0) return DEFAULT_ENCODER.inputFeatures;
@@ -108,12 +122,13 @@ export function libraryTraits(
   return { closed: parts.map((p) => p.info.closed), boxRatios: parts.map((p) => fileFrameBoxRatio(p.points)) };
 }
 
-/** The default settings for a library (inputs from its closed meshes, pose from its files' frames, epochs from its size). */
+/** The default settings for a library (inputs and temperature from its closed meshes, pose from its files' frames, epochs from its size). */
 export function defaultTrainFor(traits: LibraryTraits): TrainConfig {
   return {
     ...DEFAULT_TRAIN,
     epochs: defaultEpochs(traits.closed.length),
     pose: defaultPose(traits.boxRatios),
     encoder: { ...DEFAULT_TRAIN.encoder, inputFeatures: defaultInputs(traits.closed) },
+    loss: { ...DEFAULT_TRAIN.loss, temperature: defaultTemperature(traits.closed) },
   };
 }

@@ -2,7 +2,13 @@
 // continue in the training worker, progress, and the saved model (restore, import, export). The worker client
 // is shared with the embedding and measurement jobs, which run in the same worker between training runs.
 
-import { defaultEpochs, defaultInputs, defaultPose, type LibraryTraits } from '../../core/model/defaults';
+import {
+  defaultEpochs,
+  defaultInputs,
+  defaultPose,
+  defaultTemperature,
+  type LibraryTraits,
+} from '../../core/model/defaults';
 import { modelJsonFor, readModelJson, WEIGHTS_FILE, type ModelJson } from '../../core/model/model-json';
 import type { TrainConfig } from '../../core/model/train-config';
 import type { LibraryPart } from '../../core/library';
@@ -36,7 +42,7 @@ export class TrainingController {
   hasHelper(): boolean {
     return (typeof navigator !== 'undefined' ? (navigator.hardwareConcurrency ?? 1) : 1) >= 2;
   }
-  private chosen = { inputs: false, epochs: false, pose: false };
+  private chosen = { inputs: false, epochs: false, pose: false, temperature: false };
   private traitsMemo: { parts: readonly LibraryPart[]; traits: LibraryTraits } | null = null;
 
   constructor(
@@ -168,8 +174,9 @@ export class TrainingController {
   }
 
   /**
-   * Until a model exists or the user picks them, inputs, pose and epochs follow the library: normals only if mostly
-   * closed, the files' own frame if most parts sit square in it, and fewer epochs on a large library (a step budget).
+   * Until a model exists or the user picks them, inputs, temperature, pose and epochs follow the library: normals
+   * and τ = 0.1 only if mostly closed (else x y z and τ = 0.07), the files' own frame if most parts sit square in it,
+   * and fewer epochs on a large library (a step budget).
    */
   async followLibrary(): Promise<void> {
     const parts = this.store.value.library.parts;
@@ -183,6 +190,9 @@ export class TrainingController {
     if (!this.chosen.pose && pose !== config.pose) config = { ...config, pose };
     if (!this.chosen.inputs && inputFeatures !== config.encoder.inputFeatures)
       config = { ...config, encoder: { ...config.encoder, inputFeatures } };
+    const temperature = defaultTemperature(traits.closed);
+    if (!this.chosen.temperature && temperature !== config.loss.temperature)
+      config = { ...config, loss: { ...config.loss, temperature } };
     const epochs = defaultEpochs(parts.length, config.batchSize);
     if (!this.chosen.epochs && epochs !== config.epochs) config = { ...config, epochs };
     if (config !== this.state.config) this.patch({ config });
@@ -238,6 +248,7 @@ export class TrainingController {
     if (config.encoder.inputFeatures !== old.encoder.inputFeatures) this.chosen.inputs = true;
     if (config.epochs !== old.epochs) this.chosen.epochs = true;
     if (config.pose !== old.pose) this.chosen.pose = true;
+    if (config.loss.temperature !== old.loss.temperature) this.chosen.temperature = true;
     this.patch({ config, pipeline: config.pipeline });
     void this.estimate();
   }
