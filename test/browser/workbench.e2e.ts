@@ -125,6 +125,8 @@ describe.skipIf(!available)('workbench in a real browser', () => {
     // The demo's meshes are all closed, so the library's default inputs keep the normals, and say why.
     expect(await page.getByLabel('per-point inputs').inputValue()).toBe('xyz+normal');
     expect(await page.getByLabel('neighbour layer').inputValue()).toBe('32'); // the EdgeConv default
+    // Closed meshes read with normals keep τ = 0.1 (0.07 is for libraries read as x y z; defaults.ts).
+    expect(await page.locator('sk-train-panel #temp').inputValue()).toBe('0.1');
     await page
       .getByText(/Default inputs for this library: x y z \+ normal: 112 of 112 meshes are closed/)
       .waitFor({ timeout: 10_000 });
