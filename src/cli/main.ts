@@ -11,6 +11,7 @@ import {
   POOL_POINTS,
   defaultTrainFor,
   inputsReason,
+  temperatureReason,
   libraryTraits,
   poseReason,
 } from '../core/model/defaults';
@@ -273,6 +274,9 @@ async function train(lib: string, values: Values): Promise<void> {
     );
     process.stderr.write(
       `inputs: ${values.inputs || resume ? INPUT_LABELS[cfg.encoder.inputFeatures] + (resume ? ' (from the saved run)' : ' (--inputs)') : inputsReason(closed)}\n`,
+    );
+    process.stderr.write(
+      `temperature: ${values.temperature || resume ? `${cfg.loss.temperature}${resume ? ' (from the saved run)' : ' (--temperature)'}` : temperatureReason(closed)}\n`,
     );
     process.stderr.write(
       `pose: ${values.pose || resume ? `${POSE_LABELS[cfg.pose]}${resume ? ' (from the saved run)' : ' (--pose)'}` : poseReason(traits.boxRatios)}\n`,

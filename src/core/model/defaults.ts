@@ -64,6 +64,13 @@ export function inputsReason(closed: readonly boolean[]): string {
     : `x y z + normal: ${n} of ${closed.length} meshes are closed, so their normals point outward`;
 }
 
+/** Why that temperature, in words for the command line and the workbench. */
+export function temperatureReason(closed: readonly boolean[]): string {
+  return defaultInputs(closed) === 'xyz'
+    ? `${defaultTemperature(closed)}, as for libraries read as x y z`
+    : `${defaultTemperature(closed)}, as for libraries read with normals`;
+}
+
 /**
  * Training length in steps that the default epochs aim for. Measured on the furniture set (docs/log/):
  * retrieval improves up to about 600 steps and then levels off (1 280 steps were no better than 640).

@@ -4,7 +4,7 @@
 
 import type { LibraryPart } from '../../core/library';
 import { LitElement, css, html } from 'lit';
-import { DEFAULT_TRAIN, inputsReason, poseReason } from '../../core/model/defaults';
+import { DEFAULT_TRAIN, inputsReason, poseReason, temperatureReason } from '../../core/model/defaults';
 import type { TrainConfig } from '../../core/model/train-config';
 import type { Pipeline } from '../../core/points/augment';
 import { exportEmbeddings, type EmbeddingFormat } from '../controllers/exports';
@@ -234,7 +234,7 @@ export class SkApp extends LitElement {
           .backend=${training.backend} .partCount=${library.parts.length} .hasLabels=${families.length > 1}
           .stepMs=${this.training.stepMsNow()}
           .savedStep=${training.model?.manifest.step ?? 0} .savedTotal=${training.model?.manifest.totalSteps ?? 0}
-          .inputsNote=${traits ? inputsReason(traits.closed) : ''} .poseNote=${traits ? poseReason(traits.boxRatios) : ''}
+          .inputsNote=${traits ? `${inputsReason(traits.closed)}; temperature ${temperatureReason(traits.closed)}` : ''} .poseNote=${traits ? poseReason(traits.boxRatios) : ''}
           @config-change=${(e: CustomEvent<TrainConfig>) => this.training.configure(e.detail)}
           @train-start=${(e: CustomEvent<TrainConfig>) => this.training.start(e.detail)}
           @train-continue=${() => this.training.continueSaved()}

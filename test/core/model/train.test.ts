@@ -13,6 +13,7 @@ import {
   defaultTrainFor,
   FILE_FRAME_FIT,
   inputsReason,
+  temperatureReason,
   MIN_DEFAULT_EPOCHS,
   poseReason,
 } from '../../../src/core/model/defaults';
@@ -281,6 +282,8 @@ describe('default temperature follows the library', () => {
       temperature: 0.07,
     });
     expect(defaultTrainFor({ closed: lib(3, 0), boxRatios: [] }).loss).toEqual(DEFAULT_TRAIN.loss);
+    expect(temperatureReason(lib(49, 103))).toBe('0.07, as for libraries read as x y z');
+    expect(temperatureReason(lib(112, 0))).toBe('0.1, as for libraries read with normals');
   });
 });
 
