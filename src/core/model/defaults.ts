@@ -66,9 +66,8 @@ export function inputsReason(closed: readonly boolean[]): string {
 
 /** Why that temperature, in words for the command line and the workbench. */
 export function temperatureReason(closed: readonly boolean[]): string {
-  return defaultInputs(closed) === 'xyz'
-    ? `${defaultTemperature(closed)}, as for libraries read as x y z`
-    : `${defaultTemperature(closed)}, as for libraries read with normals`;
+  const read = defaultInputs(closed) === 'xyz' ? 'as x y z' : 'with normals';
+  return `${defaultTemperature(closed)}, as for libraries read ${read}`;
 }
 
 /**
