@@ -15,6 +15,7 @@ import {
   type InputFeatures,
 } from '../../core/model/encoder-config';
 import { memberPoses, POSE_LABELS, POSES } from '../../core/model/train-config';
+import { DEFAULT_TRAIN, OPEN_LIBRARY_TEMPERATURE } from '../../core/model/defaults';
 import { isBusy, type TrainingState } from '../state';
 import { formatDuration } from '../words';
 import './loss-chart';
@@ -123,7 +124,7 @@ export class SkTrainPanel extends LitElement {
           <label for="loss" title="what training optimises: NT-Xent pulls two altered copies of a part together and pushes other parts away">loss</label><select id="loss" ?disabled=${busy} @change=${(e: Event) => this.set('loss', { ...c.loss, name: (e.target as HTMLSelectElement).value as LossName })}>
             ${LOSS_NAMES.map((n) => html`<option value=${n} ?selected=${c.loss.name === n} ?disabled=${n === 'supervised-contrastive' && !this.hasLabels}>${n}</option>`)}
           </select>
-          <label for="temp" title="how sharply the loss separates close parts (lower: sharper); by default 0.07 for a library of mostly open meshes, 0.1 for one of mostly closed meshes">temperature</label><input id="temp" type="number" min="0.01" max="2" step="0.01" .value=${String(c.loss.temperature)} ?disabled=${busy} @change=${(e: Event) => this.set('loss', { ...c.loss, temperature: this.num(e) })} />
+          <label for="temp" title="how sharply the loss separates close parts (lower: sharper); by default ${OPEN_LIBRARY_TEMPERATURE} for a library of mostly open meshes, ${DEFAULT_TRAIN.loss.temperature} for one of mostly closed meshes">temperature</label><input id="temp" type="number" min="0.01" max="2" step="0.01" .value=${String(c.loss.temperature)} ?disabled=${busy} @change=${(e: Event) => this.set('loss', { ...c.loss, temperature: this.num(e) })} />
           <label for="lr" title="how far each step moves the weights">learning rate</label><input id="lr" type="number" min="0.00001" max="0.1" step="0.0001" .value=${String(c.learningRate)} ?disabled=${busy} @change=${(e: Event) => this.set('learningRate', this.num(e))} />
           <label for="inputs">per-point inputs</label><select id="inputs" title=${this.inputsNote} ?disabled=${busy} @change=${(e: Event) => this.set('encoder', { ...c.encoder, inputFeatures: (e.target as HTMLSelectElement).value as InputFeatures })}>
             ${INPUT_FEATURES.map((f) => html`<option value=${f} ?selected=${c.encoder.inputFeatures === f}>${INPUT_LABELS[f]}</option>`)}
