@@ -106,6 +106,10 @@ export function validateTrainConfig(c: TrainConfig, partCount: number): void {
   whole(fn, 0, 'false negatives (alike parts per part kept out of its negatives)');
   if (fn > 0 && c.loss.name !== 'nt-xent')
     throw new RangeError(`training: false negatives apply to the nt-xent loss only, not ${c.loss.name}`);
+  const mem = c.loss.memory ?? 0;
+  whole(mem, 0, 'memory (views of earlier steps kept as negatives)');
+  if (mem > 0 && c.loss.name !== 'nt-xent')
+    throw new RangeError(`training: a memory of earlier views applies to the nt-xent loss only, not ${c.loss.name}`);
   if (c.pose === 'file-and-principal' && c.patience > 0) {
     throw new RangeError('training: early stopping (patience) is not available with two encoders (file-and-principal)');
   }

@@ -12,6 +12,7 @@ import { alikeBeforeTraining, excludedPairs } from './false-negatives';
 import { Encoder } from './encoder';
 import { inputChannels } from './encoder-config';
 import { computeLoss } from './losses';
+import { MemoryBank } from './memory-bank';
 import { LABELLED_LOSSES } from './losses/names';
 import {
   memberPoses,
@@ -49,6 +50,13 @@ export interface TrainerOptions {
   };
 }
 
+/**
+ * How closely the memory's key encoder follows the trained one each step: k ← m·k + (1 − m)·q. MoCo (He et al. 2020)
+ * uses 0.999 over hundreds of thousands of steps (from memory); our runs are a few hundred steps per encoder, so the
+ * key encoder keeps about the last hundred steps' weights (0.99).
+ */
+export const KEY_MOMENTUM = 0.99;
+
 export class Trainer {
   /** One encoder per pose of `memberPoses(config.pose)`, trained one after the other. */
   readonly encoders: readonly Encoder[];
@@ -67,6 +75,10 @@ export class Trainer {
   private readonly labels: readonly number[] | null;
   /** Each part's alike parts, not its negatives (false-negatives.ts); null: every other part is a negative. */
   readonly alike: readonly Int32Array[] | null;
+  /** Each encoder's store of earlier steps' projections, further negatives (memory-bank.ts); null: none. */
+  private readonly memories: readonly (MemoryBank | null)[];
+  /** With a memory: each encoder's slowly following copy that encodes the rows the memory keeps. */
+  readonly keyEncoders: readonly (Encoder | null)[];
   step = 0;
   status: TrainStatus = 'idle';
   history: { step: number; loss: number; lr: number }[] = [];
@@ -110,6 +122,15 @@ export class Trainer {
       this.encoders.forEach((e, m) => setWeights(e, w.length === per ? w : w.slice(m * per, (m + 1) * per)));
     }
     this.adams = this.encoders.map((e) => new Adam(e.variables));
+    const memory = config.loss.memory ?? 0;
+    const projected = config.encoder.projection[config.encoder.projection.length - 1];
+    this.memories = this.encoders.map(() => (memory > 0 ? new MemoryBank(memory, projected) : null));
+    this.keyEncoders = this.encoders.map((e) => {
+      if (memory <= 0) return null;
+      const k = new Encoder(config.encoder, createRng(hashString('init', config.seed)));
+      setWeights(k, getWeights(e));
+      return k;
+    });
     if (options.resume) {
       const { adam, step } = options.resume,
         per = this.encoders[0].variables.length;
@@ -145,6 +166,11 @@ export class Trainer {
     return this.encoders.flatMap((e) => getWeights(e));
   }
 
+  /** The rows encoder `member`'s memory holds (unit length, oldest first); empty without a memory. */
+  memoryRows(member: number): Float32Array {
+    return this.memories[member]?.rows() ?? new Float32Array(0);
+  }
+
   /**
    * The parts and seeded views of step k: the same k always gives the same batch (resumable). An encoder's steps
    * draw exactly what a one-pose run with the same seed draws at those steps.
@@ -172,13 +198,25 @@ export class Trainer {
     const labels = this.labels ? parts.map((i) => this.labels![i]) : null;
     const exclude = this.alike ? excludedPairs(parts, this.alike) : null;
     const vars = encoder.variables;
+    const bank = this.memories[member],
+      keyEncoder = this.keyEncoders[member];
+    // The memory joins the negatives once the learning rate has warmed up.
+    const warm = step >= Math.round(this.memberSteps * this.config.warmupFraction);
+    const views = [...parts, ...parts];
     const lossValue = tf.tidy(() => {
       const input = tf.tensor3d(x, [2 * B, this.config.points, F]);
+      const memory =
+        bank && warm && bank.size > 0
+          ? {
+              rows: tf.tensor2d(bank.rows(), [bank.size, bank.dim]),
+              blocked: tf.tensor2d(bank.blocked(views, this.alike), [2 * B, bank.size]),
+            }
+          : null;
       const { value, grads } = tf.variableGrads(() => {
         const z = encoder.project(encoder.pooled(input)); // (2B, P)
         const za = tf.slice(z, [0, 0], [B, -1]) as tf.Tensor2D;
         const zb = tf.slice(z, [B, 0], [B, -1]) as tf.Tensor2D;
-        return computeLoss(this.config.loss, za, zb, labels, exclude && tf.tensor2d(exclude, [B, B]));
+        return computeLoss(this.config.loss, za, zb, labels, exclude && tf.tensor2d(exclude, [B, B]), memory);
       }, vars);
       const loss = value.dataSync()[0];
       if (Number.isFinite(loss))
@@ -186,6 +224,15 @@ export class Trainer {
           vars.map((v) => grads[v.name]),
           lr,
         );
+      if (bank && keyEncoder && Number.isFinite(loss)) {
+        // The key encoder follows the trained one by a moving average, and encodes one view of each part for the
+        // memory: rows from a slowly changing encoder, so they stay comparable across steps (He et al. 2020, §3.2).
+        keyEncoder.variables.forEach((k, i) =>
+          k.assign(tf.add(tf.mul(k, KEY_MOMENTUM), tf.mul(vars[i], 1 - KEY_MOMENTUM))),
+        );
+        const keys = keyEncoder.project(keyEncoder.pooled(tf.slice(input, [0, 0, 0], [B, -1, -1]) as tf.Tensor3D));
+        bank.push(keys.dataSync() as Float32Array, parts);
+      }
       return loss;
     });
     if (!Number.isFinite(lossValue))
@@ -322,6 +369,7 @@ export class Trainer {
 
   dispose(): void {
     for (const e of this.encoders) e.dispose();
+    for (const k of this.keyEncoders) k?.dispose();
     for (const a of this.adams) a.dispose();
   }
 }

@@ -5,7 +5,7 @@
 import type * as tf from '@tensorflow/tfjs';
 import { marginContrastiveLoss } from './margin';
 import { LOSS_NAMES, type LossName, type LossSettings } from './names';
-import { ntXentLoss } from './ntxent';
+import { ntXentLoss, type MemoryNegatives } from './ntxent';
 import { supConLoss } from './supcon';
 import { tripletLoss } from './triplet';
 
@@ -15,6 +15,7 @@ export type LossFn = (
   settings: LossSettings,
   labels: ArrayLike<number> | null,
   exclude: tf.Tensor2D | null,
+  memory: MemoryNegatives | null,
 ) => tf.Scalar;
 
 function needLabels(labels: ArrayLike<number> | null): ArrayLike<number> {
@@ -23,7 +24,7 @@ function needLabels(labels: ArrayLike<number> | null): ArrayLike<number> {
 }
 
 export const LOSSES: Record<LossName, LossFn> = {
-  'nt-xent': (za, zb, s, _labels, exclude) => ntXentLoss(za, zb, s.temperature, exclude),
+  'nt-xent': (za, zb, s, _labels, exclude, memory) => ntXentLoss(za, zb, s.temperature, exclude, memory),
   'supervised-contrastive': (za, zb, s, labels) => supConLoss(za, zb, needLabels(labels), s.temperature),
   'triplet-hard': (za, zb, s) => tripletLoss(za, zb, s.margin, 'hard'),
   'triplet-semi-hard': (za, zb, s) => tripletLoss(za, zb, s.margin, 'semi-hard'),
@@ -36,8 +37,9 @@ export function computeLoss(
   zb: tf.Tensor2D,
   labels: ArrayLike<number> | null,
   exclude: tf.Tensor2D | null = null,
+  memory: MemoryNegatives | null = null,
 ): tf.Scalar {
   const fn = LOSSES[s.name];
   if (!fn) throw new RangeError(`unknown loss "${s.name}" (expected one of ${LOSS_NAMES.join(', ')})`);
-  return fn(za, zb, s, labels, exclude);
+  return fn(za, zb, s, labels, exclude, memory);
 }

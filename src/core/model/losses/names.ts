@@ -19,6 +19,14 @@ export interface LossSettings {
    * negatives (false-negative elimination; losses/ntxent.ts, model/false-negatives.ts). 0 or absent: none.
    */
   readonly falseNegatives?: number;
+  /**
+   * NT-Xent only: this many views of earlier steps (detached, newest kept) join each step's negatives once the
+   * learning rate has warmed up; cross-batch memory (losses/ntxent.ts, model/memory-bank.ts), its rows encoded by a
+   * slowly following copy of the encoder (trainer.ts). 0 or absent: none. Measured, not a default
+   * (docs/log/2026-12-05-cross-batch-memory.md). A run resumed from a checkpoint starts with an empty memory and the key
+   * encoder at the resumed weights (neither is saved), so it does not repeat an unbroken run exactly.
+   */
+  readonly memory?: number;
 }
 
 /** Losses that need a label per part (folders or labels.csv). */
