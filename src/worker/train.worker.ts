@@ -16,7 +16,7 @@ import {
 import { disposeEncoders, embedForRetrieval, embedShared, type Encoders } from '../core/model/embed';
 import type { ModelPart } from '../core/model/views';
 import { explainMatch } from '../core/model/explain';
-import { Trainer } from '../core/model/trainer';
+import { probeStepMs, Trainer } from '../core/model/trainer';
 import type { TrainConfig } from '../core/model/train-config';
 import { evaluateMethods, untrainedEncoders } from '../core/quality/evaluate';
 import { DIFFUSION_DEFAULTS, DiffusionGraph } from '../core/retrieval/diffusion';
@@ -379,16 +379,7 @@ async function handle(req: TrainRequest, channel: Channel): Promise<void> {
         return;
       }
       case 'probe': {
-        // Two steps on a sample the size of a batch: the first pays for warm-up, the second is timed.
-        const t = new Trainer(req.parts, { ...req.config, epochs: 1, heldOutFraction: 0, patience: 0 });
-        try {
-          t.trainStep();
-          const t0 = performance.now();
-          t.trainStep();
-          post({ type: 'probed', id: req.id, msPerStep: performance.now() - t0 });
-        } finally {
-          t.dispose();
-        }
+        post({ type: 'probed', id: req.id, msPerStep: probeStepMs(req.parts, req.config) });
         return;
       }
       case 'explain': {

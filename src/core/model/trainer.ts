@@ -374,6 +374,31 @@ export class Trainer {
   }
 }
 
+/**
+ * Milliseconds a training step with `config` takes, timed on `parts` (a batch-sized sample of the library): the median
+ * of `timed` steps after `warm` untimed ones. The first steps pay for compiling kernels and filling caches: in the
+ * workbench on KiCad's 990 parts one step timed after a single warm-up step took 531 ms, while the run's steps took
+ * 362–423 ms (docs/log/2026-12-05-softmax-temperature.md).
+ */
+export function probeStepMs(
+  parts: readonly ModelPart[],
+  config: TrainConfig,
+  { warm = 2, timed = 3, now = () => performance.now() }: { warm?: number; timed?: number; now?: () => number } = {},
+): number {
+  const t = new Trainer(parts, { ...config, epochs: warm + timed, heldOutFraction: 0, patience: 0 });
+  try {
+    for (let i = 0; i < warm; i++) t.trainStep();
+    const ms = Array.from({ length: timed }, () => {
+      const t0 = now();
+      t.trainStep();
+      return now() - t0;
+    }).sort((a, b) => a - b);
+    return ms.length % 2 ? ms[(ms.length - 1) / 2] : (ms[ms.length / 2 - 1] + ms[ms.length / 2]) / 2;
+  } finally {
+    t.dispose();
+  }
+}
+
 export function getWeights(encoder: Encoder): Float32Array[] {
   return encoder.variables.map((v) => v.dataSync().slice() as Float32Array);
 }

@@ -19,7 +19,7 @@ import {
 } from '../../../src/core/model/defaults';
 import { embedParts } from '../../../src/core/model/embed';
 import { type ModelPart } from '../../../src/core/model/views';
-import { getWeights, Trainer } from '../../../src/core/model/trainer';
+import { getWeights, probeStepMs, Trainer } from '../../../src/core/model/trainer';
 import { type TrainConfig } from '../../../src/core/model/train-config';
 import { PRESETS } from '../../../src/core/points/augment';
 import { expectClose } from '../../helpers';
@@ -194,6 +194,23 @@ describe('training on the demo library', () => {
     expect(embedParts(enc, few, 128)).toEqual(embedParts(t.encoder, few, 128));
     t.dispose();
     enc.dispose();
+  });
+});
+
+describe('the step time the workbench estimates training from', () => {
+  it('is the median of the timed steps, the warm-up steps not timed (the median: the middle of the sorted sample)', () => {
+    // A fake clock: three timed steps of 500, 400 and 350 ms, whatever the warm-up took.
+    const ticks = [0, 500, 1000, 1400, 2000, 2350];
+    let calls = 0;
+    const now = () => ticks[calls++];
+    expect(probeStepMs(demo.slice(0, 8), { ...small, batchSize: 8 }, { warm: 2, timed: 3, now })).toBe(400);
+    expect(calls).toBe(6);
+    // An even count takes the mean of the middle two: 500, 400, 350 and 600 ms sort to 350, 400, 500, 600 → 450.
+    const even = [0, 500, 1000, 1400, 2000, 2350, 3000, 3600];
+    calls = 0;
+    expect(
+      probeStepMs(demo.slice(0, 8), { ...small, batchSize: 8 }, { warm: 1, timed: 4, now: () => even[calls++] }),
+    ).toBe(450);
   });
 });
 
