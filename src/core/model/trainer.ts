@@ -189,27 +189,21 @@ export class Trainer {
     const { member, step } = this.memberOf(k);
     const encoder = this.encoders[member],
       adam = this.adams[member];
-    const lr = cosineWithWarmup(
-      step,
-      this.memberSteps,
-      this.config.learningRate,
-      Math.round(this.memberSteps * this.config.warmupFraction),
-    );
+    const warmupSteps = Math.round(this.memberSteps * this.config.warmupFraction);
+    const lr = cosineWithWarmup(step, this.memberSteps, this.config.learningRate, warmupSteps);
     const labels = this.labels ? parts.map((i) => this.labels![i]) : null;
     const exclude = this.alike ? excludedPairs(parts, this.alike) : null;
     const vars = encoder.variables;
     const bank = this.memories[member],
       keyEncoder = this.keyEncoders[member];
-    // The memory joins the negatives once the learning rate has warmed up.
-    const warm = step >= Math.round(this.memberSteps * this.config.warmupFraction);
-    const views = [...parts, ...parts];
     const lossValue = tf.tidy(() => {
       const input = tf.tensor3d(x, [2 * B, this.config.points, F]);
+      // The memory joins the negatives once the learning rate has warmed up.
       const memory =
-        bank && warm && bank.size > 0
+        bank && step >= warmupSteps && bank.size > 0
           ? {
               rows: tf.tensor2d(bank.rows(), [bank.size, bank.dim]),
-              blocked: tf.tensor2d(bank.blocked(views, this.alike), [2 * B, bank.size]),
+              blocked: tf.tensor2d(bank.blocked([...parts, ...parts], this.alike), [2 * B, bank.size]),
             }
           : null;
       const { value, grads } = tf.variableGrads(() => {
